@@ -1,0 +1,7 @@
+"""Entry point for ``python -m engine``."""
+
+import sys
+
+from engine.cli import main
+
+sys.exit(main())

@@ -1,0 +1,162 @@
+"""Master curves of library grades, fitted once and cached in the library.
+
+A fit is keyed by the data set's hash, the engine version and the fit options, so a
+grade is refitted only when its data, the engine or the options change.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor
+
+import numpy as np
+
+from engine.errors import FitError
+from engine.mastercurve import MasterCurve, build_master_curve
+from engine.store import Library
+
+Progress = Callable[[int, int], None]
+
+
+def options_key(reference_C: float | None = None, vertical_shift: bool = False) -> str:
+    ref = "auto" if reference_C is None else f"{float(reference_C):.3f}"
+    return f"ref={ref};vertical={int(bool(vertical_shift))}"
+
+
+def _fit_one(args) -> tuple[str, dict | str]:
+    material_id, points, mode, reference_C, vertical = args
+    try:
+        curve = build_master_curve(points, mode, reference_C, vertical)
+    except FitError as exc:
+        return material_id, f"error: {exc}"
+    return material_id, curve.to_dict()
+
+
+def master_curve(
+    library: Library,
+    material_id: str,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+) -> MasterCurve:
+    """The master curve of one grade from its newest data set (cached)."""
+    material = library.material(material_id)
+    dataset, points = library.latest_points(material_id)
+    key = options_key(reference_C, vertical_shift)
+    cached = library.cached_fit(dataset.data_hash, key)
+    if cached is not None and "error" not in cached:
+        return MasterCurve.from_dict(cached)
+    curve = build_master_curve(points, material.mode, reference_C, vertical_shift)
+    library.store_fits({dataset.data_hash: curve.to_dict()}, key)
+    return curve
+
+
+def fit_library(
+    library: Library,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+    processes: int | None = None,
+    progress: Progress | None = None,
+    chunk: int = 256,
+) -> tuple[dict[str, MasterCurve], dict[str, str]]:
+    """Master curves of every grade with data; fits missing from the cache run in parallel.
+
+    Returns (curves by grade id, fit errors by grade id). ``progress(done, total)`` is
+    called as fits complete.
+    """
+    materials = {m.id: m for m in library.materials()}
+    latest = library.all_latest_points()
+    key = options_key(reference_C, vertical_shift)
+    hashes = {mid: ds.data_hash for mid, (ds, _) in latest.items() if mid in materials}
+    cached = library.cached_fits(set(hashes.values()), key)
+    curves: dict[str, MasterCurve] = {}
+    errors: dict[str, str] = {}
+    todo = []
+    for mid, h in hashes.items():
+        if h in cached:
+            if "error" in cached[h]:
+                errors[mid] = cached[h]["error"]
+            else:
+                curves[mid] = MasterCurve.from_dict(cached[h])
+        else:
+            todo.append((mid, latest[mid][1], materials[mid].mode, reference_C, vertical_shift))
+    total = len(hashes)
+    done = total - len(todo)
+    if progress:
+        progress(done, total)
+    if not todo:
+        return curves, errors
+    workers = processes or min(os.cpu_count() or 1, 2)
+    new: dict[str, dict] = {}
+
+    def take(mid, result):
+        nonlocal done
+        if isinstance(result, str):
+            errors[mid] = result[len("error: ") :]
+            new[hashes[mid]] = {"error": errors[mid]}
+        else:
+            curves[mid] = MasterCurve.from_dict(result)
+            new[hashes[mid]] = result
+        done += 1
+        if progress and (done % 50 == 0 or done == total):
+            progress(done, total)
+
+    if workers <= 1 or len(todo) < 8:
+        for args in todo:
+            take(*_fit_one(args))
+    else:
+        with ProcessPoolExecutor(max_workers=workers) as pool:
+            for mid, result in pool.map(
+                _fit_one, todo, chunksize=max(1, min(chunk, len(todo) // (4 * workers) or 1))
+            ):
+                take(mid, result)
+    library.store_fits(new, key)
+    return curves, errors
+
+
+def summary(curve: MasterCurve) -> dict:
+    """The JSON summary of a fit printed by ``python -m engine fit``."""
+    law = curve.shift.law
+    out: dict = {
+        "reference_C": curve.reference_C,
+        "mode": curve.mode,
+        "shift_law": law.kind,
+        "shift_factors": [
+            {
+                "temp_C": float(t),
+                "log_aT": float(a),
+                "bridged": bool(b),
+                "law_log_aT": float(law.log_shift(t)),
+            }
+            for t, a, b in zip(
+                curve.shift.temperatures, curve.shift.log_shift, curve.shift.bridged, strict=True
+            )
+        ],
+        "shift_law_rms": law.rms,
+        "tg": curve.tg,
+        "secondary_transition_C": curve.secondary_C,
+        "regions": curve.regions,
+        "reduced_frequency_range_Hz": [
+            10.0 ** curve.log_fr_range[0],
+            10.0 ** curve.log_fr_range[1],
+        ],
+        "log_reduced_frequency_range": list(curve.log_fr_range),
+        "measured_temperature_range_C": list(curve.temperature_range),
+        "residuals": curve.quality,
+        "prony_terms": int(np.count_nonzero(curve.prony.weights)),
+        "notes": curve.notes,
+    }
+    if law.kind in ("WLF", "WLF+Arrhenius"):
+        out["wlf"] = {"C1": law.wlf_c1, "C2_K": law.wlf_c2, "reference_C": law.wlf_reference_C}
+    if law.kind in ("Arrhenius", "WLF+Arrhenius"):
+        out["arrhenius"] = {
+            "activation_kJ_per_mol": law.activation_J_per_mol / 1e3,
+            "reference_C": law.split_C if law.kind == "WLF+Arrhenius" else law.reference_C,
+            "below_C": law.split_C,
+        }
+    if law.kind == "WLF+Arrhenius":
+        out["law_used"] = [
+            {"law": "Arrhenius", "below_C": law.split_C},
+            {"law": "WLF", "from_C": law.split_C},
+        ]
+    return out

@@ -1,0 +1,371 @@
+"""Master curve of one grade: shifting, shift law, relaxation spectrum and quality.
+
+:func:`build_master_curve` composes :mod:`engine.shift`, :mod:`engine.prony` and
+:mod:`engine.transitions` on one data set; :class:`MasterCurve` evaluates the stiffness
+and damping of the grade at any temperature and frequency, flagging extrapolation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from engine.errors import FitError
+from engine.prony import PronySeries, fit_prony
+from engine.shift import ShiftResult, shift_isotherms, split_isotherms
+from engine.transitions import TG_METHODS, glass_transition, regions, secondary_transition
+from engine.units import c_to_k
+
+# Which Tg divides the WLF and Arrhenius regions, in order of preference: the storage
+# onset lies nearest the calorimetric Tg the WLF constants refer to (common practice).
+SPLIT_METHODS = ("storage_onset", "loss_modulus_peak", "loss_factor_peak")
+GLASSY_MODULUS = {"tensile": 300e6, "shear": 100e6}  # [Pa], common practice
+DEFAULT_REFERENCE_FALLBACK_C = 20.0
+PRONY_PER_DECADE = 1.5
+TABLE_STEP = 0.05  # decades, spacing of the tabulated master curve
+TABLE_MARGIN = 6.0  # decades tabulated beyond the covered range
+TOLERANCE_C = 0.5  # a temperature this close to the measured range is not extrapolated
+ETA_COLLAPSE_LIMIT = 0.05  # rms of log10 eta about its curve against log10 E' (common practice)
+
+
+@dataclass(frozen=True)
+class Props:
+    """Properties at (temperature, frequency); arrays of the broadcast shape."""
+
+    storage_modulus: np.ndarray  # [Pa], E' or G' in the grade's mode
+    loss_modulus: np.ndarray  # [Pa]
+    loss_factor: np.ndarray  # [-]
+    reduced_frequency: np.ndarray  # [Hz]
+    extrapolated: np.ndarray  # bool
+
+
+@dataclass
+class MasterCurve:
+    """A fitted master curve. Moduli are in the grade's own mode (E' or G')."""
+
+    mode: str
+    reference_C: float
+    shift: ShiftResult
+    prony: PronySeries
+    log_fr_range: tuple[float, float]  # covered log10 reduced frequency [log10 Hz]
+    temperature_range: tuple[float, float]  # measured [degC]
+    frequency_range: tuple[float, float]  # measured [Hz]
+    vertical_shift: bool
+    tg: list[dict] = field(default_factory=list)  # Tg by each method at 1 Hz
+    secondary_C: float | None = None
+    regions: list[dict] = field(default_factory=list)
+    quality: dict = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+    # -- evaluation -----------------------------------------------------------------
+    def log_shift(self, temperature):
+        """log10 aT from the fitted law at ``temperature`` [degC]."""
+        return self.shift.law.log_shift(temperature)
+
+    def _vertical(self, temperature):
+        if not self.vertical_shift:
+            return 1.0
+        # Modulus at T is (T / T0) times the reduced modulus (Ferry 1980, eq. 11-1,
+        # density taken constant).
+        return c_to_k(temperature) / c_to_k(self.reference_C)
+
+    def single_isotherm(self) -> bool:
+        return self.shift.law.kind == "none"
+
+    def extrapolated(self, temperature, log_reduced_frequency):
+        t = np.asarray(temperature, dtype=float)
+        lo, hi = self.log_fr_range
+        out = (log_reduced_frequency < lo - 1e-9) | (log_reduced_frequency > hi + 1e-9)
+        if self.single_isotherm():
+            return out | (np.abs(t - self.reference_C) > TOLERANCE_C)
+        t_lo, t_hi = self.temperature_range
+        return out | (t < t_lo - TOLERANCE_C) | (t > t_hi + TOLERANCE_C)
+
+    def evaluate(self, temperature, frequency) -> Props:
+        """E', E'', loss factor at ``temperature`` [degC] and ``frequency`` [Hz] (broadcast).
+
+        Notes
+        -----
+        fR = f aT(T) with the fitted shift law; E'(fR), E''(fR) from the Prony series
+        (generalized Maxwell model) at the reference temperature; ``extrapolated`` where
+        fR lies outside the reduced-frequency range the data cover, or T outside the
+        measured temperatures.
+        """
+        t = np.asarray(temperature, dtype=float)
+        f = np.asarray(frequency, dtype=float)
+        log_fr = np.log10(f) + self.log_shift(t)
+        omega = 2.0 * np.pi * 10.0**log_fr
+        scale = self._vertical(t)
+        storage = self.prony.storage(omega) * scale
+        loss = self.prony.loss(omega) * scale
+        return Props(storage, loss, loss / storage, 10.0**log_fr, self.extrapolated(t, log_fr))
+
+    def relaxation_modulus(self, time, temperature):
+        """E(t) [Pa] at ``time`` [s] and ``temperature`` [degC]: E(t/aT) at the reference."""
+        t = np.asarray(temperature, dtype=float)
+        reduced_time = np.asarray(time, dtype=float) / 10.0 ** self.log_shift(t)
+        return self.prony.relaxation(reduced_time) * self._vertical(t)
+
+    def table(self, step: float = TABLE_STEP):
+        """The master curve tabulated on a uniform log10 fR grid, for batch evaluation.
+
+        Returns (log_fr_start, step, log10 E', log10 E''): linear interpolation in log-log
+        between nodes, clamped at the ends (the ends lie far outside the covered range).
+        """
+        lo, hi = self.log_fr_range
+        start = np.floor((lo - TABLE_MARGIN) / step) * step
+        grid = np.arange(start, hi + TABLE_MARGIN + step, step)
+        omega = 2.0 * np.pi * 10.0**grid
+        return (
+            float(start),
+            step,
+            np.log10(self.prony.storage(omega)),
+            np.log10(np.maximum(self.prony.loss(omega), 1e-30)),
+        )
+
+    # -- persistence ----------------------------------------------------------------
+    def to_dict(self) -> dict:
+        return {
+            "mode": self.mode,
+            "reference_C": self.reference_C,
+            "shift": self.shift.to_dict(),
+            "prony": self.prony.to_dict(),
+            "log_fr_range": list(self.log_fr_range),
+            "temperature_range": list(self.temperature_range),
+            "frequency_range": list(self.frequency_range),
+            "vertical_shift": self.vertical_shift,
+            "tg": self.tg,
+            "secondary_C": self.secondary_C,
+            "regions": self.regions,
+            "quality": self.quality,
+            "notes": self.notes,
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict) -> MasterCurve:
+        return cls(
+            mode=data["mode"],
+            reference_C=data["reference_C"],
+            shift=ShiftResult.from_dict(data["shift"]),
+            prony=PronySeries.from_dict(data["prony"]),
+            log_fr_range=tuple(data["log_fr_range"]),
+            temperature_range=tuple(data["temperature_range"]),
+            frequency_range=tuple(data["frequency_range"]),
+            vertical_shift=data["vertical_shift"],
+            tg=data["tg"],
+            secondary_C=data["secondary_C"],
+            regions=data["regions"],
+            quality=data["quality"],
+            notes=data["notes"],
+        )
+
+
+def isochrone(isotherms, frequency: float = 1.0):
+    """Temperature sweep at ``frequency`` [Hz] read off the measured isotherms.
+
+    Each isotherm that spans ``frequency`` is interpolated linearly in log-log; the others
+    are left out. Returns (temperature [degC], E' [Pa], loss factor [-]).
+    """
+    x = np.log10(frequency)
+    temps, storage, eta = [], [], []
+    for iso in isotherms:
+        lf = iso.log_frequency
+        if lf[0] - 1e-9 <= x <= lf[-1] + 1e-9:
+            temps.append(iso.temperature)
+            storage.append(10.0 ** np.interp(x, lf, iso.log_storage))
+            eta.append(10.0 ** np.interp(x, lf, iso.log_loss_factor))
+    return np.array(temps), np.array(storage), np.array(eta)
+
+
+def _nearest_measured_frequency(isotherms, frequency: float) -> float:
+    logs = np.concatenate([iso.log_frequency for iso in isotherms])
+    return float(10.0 ** logs[np.argmin(np.abs(logs - np.log10(frequency)))])
+
+
+def transitions_at(temperature, storage, eta, frequency: float) -> list[dict]:
+    """Tg by every method of :data:`engine.transitions.TG_METHODS` at one frequency."""
+    out = []
+    for method in TG_METHODS:
+        if temperature.size < 3:
+            out.append(
+                {
+                    "method": method,
+                    "frequency_Hz": frequency,
+                    "temperature_C": None,
+                    "reached": False,
+                    "note": "fewer than three temperatures at this frequency",
+                }
+            )
+            continue
+        r = glass_transition(method, temperature, storage, eta, frequency)
+        out.append(
+            {
+                "method": r.method,
+                "frequency_Hz": r.frequency_Hz,
+                "temperature_C": r.temperature_C,
+                "reached": r.reached,
+                "note": r.note,
+            }
+        )
+    return out
+
+
+def _eta_collapse(log_storage: np.ndarray, log_eta: np.ndarray, window: int = 9) -> float:
+    """Scatter of log10 eta about its curve against log10 E' (a check that needs no shifts).
+
+    For a thermorheologically simple material the loss factor is a single-valued function
+    of the storage modulus, whatever the temperature and frequency (the basis of the
+    reduced-frequency nomogram, ISO 10112). Points are sorted by log10 E'; each is
+    compared with a straight line fitted by least squares to its ``window`` neighbours,
+    and the scatter is the robust standard deviation (1.4826 x median absolute residual).
+    """
+    n = log_storage.size
+    if n < window + 2 or np.ptp(log_storage) < 1e-6:
+        return float("nan")
+    order = np.argsort(log_storage, kind="stable")
+    x = np.lib.stride_tricks.sliding_window_view(log_storage[order], window)
+    y = np.lib.stride_tricks.sliding_window_view(log_eta[order], window)
+    xm, ym = x.mean(axis=1, keepdims=True), y.mean(axis=1, keepdims=True)
+    sxx = np.sum((x - xm) ** 2, axis=1)
+    slope = np.where(sxx > 0, np.sum((x - xm) * (y - ym), axis=1) / np.maximum(sxx, 1e-300), 0.0)
+    mid = window // 2
+    resid = y[:, mid] - (ym[:, 0] + slope * (x[:, mid] - xm[:, 0]))
+    return float(1.4826 * np.median(np.abs(resid)))
+
+
+def build_master_curve(
+    points: np.ndarray,
+    mode: str,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+) -> MasterCurve:
+    """Fit a master curve to measured points.
+
+    Parameters
+    ----------
+    points : array (n, 4)
+        temperature [degC], frequency [Hz], storage modulus [Pa], loss factor [-].
+    mode : {"tensile", "shear"}
+        Which modulus the points hold.
+    reference_C : float, optional [degC]
+        Reference temperature. Default: the measured isotherm nearest the loss-factor
+        peak at 1 Hz, or, when the data show no peak, the isotherm nearest 20 degC.
+    vertical_shift : bool
+        Apply the vertical factor T0/T (kelvin) to the moduli before superposition.
+
+    Notes
+    -----
+    Steps: isotherms; Tg at 1 Hz from the measured data; pairwise horizontal shifts and a
+    WLF (above Tg) / Arrhenius (below Tg) law (:mod:`engine.shift`); a Prony series
+    fitted to E' and E'' on the master curve by NNLS (:mod:`engine.prony`); residuals per
+    isotherm and the eta-against-log E' check.
+    """
+    points = np.asarray(points, dtype=float)
+    if points.ndim != 2 or points.shape[1] != 4 or points.shape[0] < 2:
+        raise FitError("a master curve needs at least two measured points")
+    isotherms = split_isotherms(points[:, 0], points[:, 1], points[:, 2], points[:, 3])
+    temps = np.array([iso.temperature for iso in isotherms])
+    notes: list[str] = []
+
+    f_tg = 1.0
+    t_curve, e_curve, eta_curve = isochrone(isotherms, f_tg)
+    if t_curve.size < 3:
+        f_tg = _nearest_measured_frequency(isotherms, 1.0)
+        t_curve, e_curve, eta_curve = isochrone(isotherms, f_tg)
+        notes.append(f"1 Hz lies outside the measured frequencies: Tg reported at {f_tg:g} Hz")
+    tg = transitions_at(t_curve, e_curve, eta_curve, f_tg)
+    by_method = {r["method"]: r for r in tg}
+    split = next(
+        (by_method[m]["temperature_C"] for m in SPLIT_METHODS if by_method[m]["reached"]), None
+    )
+    glassy = bool(e_curve.size and np.median(e_curve) > GLASSY_MODULUS[mode])
+
+    if reference_C is None:
+        peak = by_method["loss_factor_peak"]
+        target = peak["temperature_C"] if peak["reached"] else DEFAULT_REFERENCE_FALLBACK_C
+        reference_C = float(temps[np.argmin(np.abs(temps - target))])
+    if len(isotherms) == 1:
+        reference_C = float(temps[0])
+        notes.append(
+            "single isotherm: no time-temperature superposition; values interpolate in "
+            "frequency at this temperature only"
+        )
+
+    storage = points[:, 2].copy()
+    if vertical_shift:
+        storage *= c_to_k(reference_C) / c_to_k(points[:, 0])
+        isotherms = split_isotherms(points[:, 0], points[:, 1], storage, points[:, 3])
+    shift = shift_isotherms(isotherms, reference_C, split, glassy)
+    notes.extend(shift.notes)
+    notes.extend(shift.law.notes)
+
+    # Master curve data: each point at its isotherm's shift.
+    t_round = np.round(points[:, 0], 1)
+    idx = np.searchsorted(temps, t_round)
+    log_fr = np.log10(points[:, 1]) + shift.log_shift[idx]
+    loss = storage * points[:, 3]
+    omega = 2.0 * np.pi * 10.0**log_fr
+    prony, report = fit_prony(
+        omega, storage, np.maximum(loss, storage * 1e-6), per_decade=PRONY_PER_DECADE
+    )
+
+    # Quality: residual per isotherm against the spectrum, at the data shifts.
+    model_e = prony.storage(omega)
+    model_eta = prony.loss(omega) / model_e
+    r_e = np.log10(model_e / storage)
+    r_eta = np.log10(model_eta / np.maximum(points[:, 3], 1e-6))
+    per_iso = []
+    for k, t in enumerate(temps):
+        sel = idx == k
+        per_iso.append(
+            {
+                "temperature_C": float(t),
+                "log_shift": float(shift.log_shift[k]),
+                "bridged": bool(shift.bridged[k]),
+                "rms_log_storage": float(np.sqrt(np.mean(r_e[sel] ** 2))),
+                "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta[sel] ** 2))),
+            }
+        )
+    collapse = _eta_collapse(np.log10(storage), np.log10(np.maximum(points[:, 3], 1e-6)))
+    quality = {
+        "per_isotherm": per_iso,
+        "rms_log_storage": float(np.sqrt(np.mean(r_e**2))),
+        "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta**2))),
+        "prony_rms_storage": report.rms_storage,
+        "prony_rms_loss": report.rms_loss,
+        "prony_terms": report.n_terms,
+        "eta_vs_log_storage_scatter": collapse,
+        "superposition_ok": bool(not np.isfinite(collapse) or collapse <= ETA_COLLAPSE_LIMIT),
+    }
+    if np.isfinite(collapse) and collapse > ETA_COLLAPSE_LIMIT:
+        notes.append(
+            f"loss factor against log E' scatters by {collapse:.3f} decades: the grade may not "
+            "be thermorheologically simple; treat superposed values with care"
+        )
+
+    secondary = None
+    region_list: list[dict] = []
+    if t_curve.size >= 3:
+        split_or_tg = split if split is not None else None
+        if split_or_tg is not None:
+            secondary = secondary_transition(t_curve, eta_curve, split_or_tg)
+        region_list = [
+            {"name": n, "low_C": float(lo), "high_C": float(hi)}
+            for n, lo, hi in regions(t_curve, e_curve, eta_curve)
+        ]
+    return MasterCurve(
+        mode=mode,
+        reference_C=float(reference_C),
+        shift=shift,
+        prony=prony,
+        log_fr_range=(float(log_fr.min()), float(log_fr.max())),
+        temperature_range=(float(temps.min()), float(temps.max())),
+        frequency_range=(float(points[:, 1].min()), float(points[:, 1].max())),
+        vertical_shift=vertical_shift,
+        tg=tg,
+        secondary_C=None if secondary is None else float(secondary),
+        regions=region_list,
+        quality=quality,
+        notes=notes,
+    )

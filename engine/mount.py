@@ -1,0 +1,814 @@
+"""Mount mechanics: rubber pads in shear or compression carrying a mass.
+
+Pure, vectorised functions: every argument may be a scalar or a numpy array and the
+arguments broadcast against each other. Units are SI throughout: modulus [Pa], length
+[m], area [m2], mass [kg], frequency [Hz], stiffness [N/m], acceleration [m/s2].
+
+Bad physical arguments (a negative thickness, a hardness off the scale) raise
+``ValueError`` with a message naming the argument and the accepted range. NaN entries
+are not rejected: they stand for "unknown" and propagate to the result.
+
+The pad is a single-degree-of-freedom isolator: a rigid mass on a massless spring of
+complex stiffness ``k* = k'(1 + i eta)`` whose storage stiffness ``k'`` and loss factor
+``eta`` may depend on frequency (a viscoelastic material read off its master curve).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import NamedTuple
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from scipy.optimize import brentq, elementwise
+
+STANDARD_GRAVITY = 9.80665
+"""Standard acceleration of gravity [m/s2] (CGPM 1901, exact by definition)."""
+
+STATIC_SHEAR_STRAIN_LIMIT = 0.5
+"""Largest long-term static shear strain of a bonded rubber pad [-] (common practice).
+
+Shear strain is the static shear deflection over the rubber thickness. Designers
+commonly keep it at or below about 0.5 under the dead load so that creep, bond stress
+and fatigue stay moderate; short shocks may go well beyond it.
+"""
+
+STATIC_COMPRESSIVE_STRAIN_LIMIT = 0.15
+"""Largest long-term static compressive strain of a rubber pad [-] (common practice).
+
+Compressive strain is the static deflection over the unloaded rubber thickness.
+Designers commonly keep it at or below about 0.15 under the dead load; beyond it the
+force-free faces bulge strongly, creep grows and the linear compression modulus of
+Gent & Lindley no longer describes the pad.
+"""
+
+# Compression coefficient k of Gent & Lindley against Shore A hardness, as tabulated in
+# rubber engineering handbooks. Values from memory; linear interpolation between rows.
+_K_FACTOR_HARDNESS = np.array([30.0, 35.0, 40.0, 45.0, 50.0, 55.0, 60.0, 65.0, 70.0, 75.0])
+_K_FACTOR_VALUES = np.array([0.93, 0.89, 0.85, 0.80, 0.73, 0.64, 0.57, 0.54, 0.53, 0.52])
+
+_TWO_PI = 2.0 * np.pi
+
+
+class NaturalFrequency(NamedTuple):
+    """Natural frequency of a mount with frequency-dependent stiffness.
+
+    Attributes
+    ----------
+    frequency : array [Hz]
+        The natural frequency, NaN where no root was found.
+    converged : array of bool
+        True where a root was found inside the search bracket.
+    """
+
+    frequency: NDArray[np.float64]
+    converged: NDArray[np.bool_]
+
+
+def _as_float(name: str, value: ArrayLike) -> NDArray[np.float64]:
+    try:
+        return np.asarray(value, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise ValueError(f"{name} must be a number or an array of numbers; got {value!r}") from exc
+
+
+def _positive(name: str, value: ArrayLike, unit: str) -> NDArray[np.float64]:
+    array = _as_float(name, value)
+    bad = array <= 0
+    if np.any(bad):
+        first = array[bad].flat[0]
+        raise ValueError(f"{name} must be positive [{unit}]; got {first:g}")
+    return array
+
+
+def _non_negative(name: str, value: ArrayLike, unit: str) -> NDArray[np.float64]:
+    array = _as_float(name, value)
+    bad = array < 0
+    if np.any(bad):
+        first = array[bad].flat[0]
+        raise ValueError(f"{name} must be zero or positive [{unit}]; got {first:g}")
+    return array
+
+
+def _poisson(value: ArrayLike) -> NDArray[np.float64]:
+    array = _as_float("poisson_ratio", value)
+    bad = (array <= -1.0) | (array > 0.5)
+    if np.any(bad):
+        first = array[bad].flat[0]
+        raise ValueError(
+            f"poisson_ratio must lie in (-1, 0.5] for an isotropic solid; got {first:g}"
+        )
+    return array
+
+
+# --- shape factor and compression modulus -------------------------------------------
+
+
+def shape_factor_disc(diameter: ArrayLike, thickness: ArrayLike) -> NDArray[np.float64]:
+    """Shape factor of a bonded circular disc loaded on its faces.
+
+    Parameters
+    ----------
+    diameter : array [m]
+        Disc diameter.
+    thickness : array [m]
+        Rubber thickness between the bonded plates.
+
+    Returns
+    -------
+    array [-]
+        Shape factor ``S``.
+
+    Notes
+    -----
+    ``S`` = one loaded area / force-free (bulging) area
+    = (pi D^2 / 4) / (pi D h) = D / (4 h).
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). The compression of bonded rubber blocks.
+    Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    d = _positive("diameter", diameter, "m")
+    h = _positive("thickness", thickness, "m")
+    return d / (4.0 * h)
+
+
+def shape_factor_block(
+    length: ArrayLike, width: ArrayLike, thickness: ArrayLike
+) -> NDArray[np.float64]:
+    """Shape factor of a bonded rectangular block loaded on its faces.
+
+    Parameters
+    ----------
+    length, width : array [m]
+        Sides of the loaded (bonded) face.
+    thickness : array [m]
+        Rubber thickness between the bonded plates.
+
+    Returns
+    -------
+    array [-]
+        Shape factor ``S``.
+
+    Notes
+    -----
+    ``S`` = one loaded area / force-free area = L W / (2 h (L + W)).
+    A square of side ``L`` gives ``S = L / (4 h)``.
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    a = _positive("length", length, "m")
+    b = _positive("width", width, "m")
+    h = _positive("thickness", thickness, "m")
+    return a * b / (2.0 * h * (a + b))
+
+
+def compression_modulus(
+    youngs_modulus: ArrayLike, shape_factor: ArrayLike, k_factor: ArrayLike
+) -> NDArray[np.float64]:
+    """Effective compression modulus of a bonded rubber block.
+
+    Parameters
+    ----------
+    youngs_modulus : array [Pa]
+        Young's (tensile) modulus ``E`` of the rubber; for a dynamic calculation the
+        storage modulus ``E'`` at the frequency and temperature of interest.
+    shape_factor : array [-]
+        Shape factor ``S`` (see `shape_factor_disc`, `shape_factor_block`).
+    k_factor : array [-]
+        Material compression coefficient ``k`` (about 0.5 to 1; see
+        `k_factor_from_hardness`).
+
+    Returns
+    -------
+    array [Pa]
+        Compression modulus ``Ec``.
+
+    Notes
+    -----
+    ``Ec = E (1 + 2 k S^2)``. The bulk compressibility of rubber, which caps ``Ec`` at
+    large shape factors (above about 10), is not included.
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    e = _positive("youngs_modulus", youngs_modulus, "Pa")
+    s = _non_negative("shape_factor", shape_factor, "-")
+    k = _non_negative("k_factor", k_factor, "-")
+    return e * (1.0 + 2.0 * k * s**2)
+
+
+def youngs_modulus_from_hardness(shore_a: ArrayLike) -> NDArray[np.float64]:
+    """Young's modulus of a rubber estimated from its Shore A hardness.
+
+    Parameters
+    ----------
+    shore_a : array [Shore A]
+        Indentation hardness; must lie in [0, 100).
+
+    Returns
+    -------
+    array [Pa]
+        Estimated Young's modulus ``E`` (Shore A 50 gives about 2.46 MPa).
+
+    Raises
+    ------
+    ValueError
+        If a hardness lies outside [0, 100).
+
+    Notes
+    -----
+    ``E [MPa] = 0.0981 (56 + 7.62336 S) / (0.137505 (254 - 2.54 S))`` with ``S`` the
+    Shore A hardness: the indentation theory of Gent for the standard durometer. The
+    relation is an estimate valid roughly from 20 to 90 Shore A; it is undefined at
+    100 and loses meaning towards both ends of the scale, where measured moduli should
+    be used instead.
+
+    References
+    ----------
+    Gent, A. N. (1958). On the relation between indentation hardness and Young's
+    modulus. Trans. Inst. Rubber Ind. 34, 46-57.
+    """
+    s = _as_float("shore_a", shore_a)
+    bad = (s < 0.0) | (s >= 100.0)
+    if np.any(bad):
+        first = s[bad].flat[0]
+        raise ValueError(f"Shore A hardness must lie in [0, 100); got {first:g}")
+    e_mpa = 0.0981 * (56.0 + 7.62336 * s) / (0.137505 * (254.0 - 2.54 * s))
+    return e_mpa * 1e6
+
+
+def k_factor_from_hardness(shore_a: ArrayLike) -> NDArray[np.float64]:
+    """Compression coefficient ``k`` of a rubber from its Shore A hardness.
+
+    Parameters
+    ----------
+    shore_a : array [Shore A]
+        Indentation hardness, within the tabulated range 30 to 75.
+
+    Returns
+    -------
+    array [-]
+        ``k`` for `compression_modulus`, linearly interpolated in the table.
+
+    Raises
+    ------
+    ValueError
+        If a hardness lies outside the table (30 to 75 Shore A).
+
+    Notes
+    -----
+    Table of ``k`` against hardness as given by Gent & Lindley and rubber engineering
+    handbooks (values from memory): 30: 0.93, 35: 0.89, 40: 0.85, 45: 0.80, 50: 0.73,
+    55: 0.64, 60: 0.57, 65: 0.54, 70: 0.53, 75: 0.52. ``k`` falls with hardness
+    because filled, harder compounds deviate more from the ideal neo-Hookean block.
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    s = _as_float("shore_a", shore_a)
+    low, high = _K_FACTOR_HARDNESS[0], _K_FACTOR_HARDNESS[-1]
+    bad = (s < low) | (s > high)
+    if np.any(bad):
+        first = s[bad].flat[0]
+        raise ValueError(
+            f"k factor is tabulated for Shore A {low:g} to {high:g} only; got {first:g}"
+        )
+    return np.interp(s, _K_FACTOR_HARDNESS, _K_FACTOR_VALUES)
+
+
+def shear_from_youngs(
+    youngs_modulus: ArrayLike, poisson_ratio: ArrayLike = 0.5
+) -> NDArray[np.float64]:
+    """Shear modulus from Young's modulus of an isotropic solid.
+
+    Parameters
+    ----------
+    youngs_modulus : array [Pa]
+        Young's modulus ``E`` (or storage modulus ``E'``).
+    poisson_ratio : array [-], default 0.5
+        Poisson's ratio ``nu`` in (-1, 0.5]; 0.5 for an incompressible rubber.
+
+    Returns
+    -------
+    array [Pa]
+        ``G = E / (2 (1 + nu))``.
+
+    References
+    ----------
+    Timoshenko, S. P. and Goodier, J. N. (1970). Theory of Elasticity, 3rd ed.
+    """
+    e = _positive("youngs_modulus", youngs_modulus, "Pa")
+    nu = _poisson(poisson_ratio)
+    return e / (2.0 * (1.0 + nu))
+
+
+def youngs_from_shear(
+    shear_modulus: ArrayLike, poisson_ratio: ArrayLike = 0.5
+) -> NDArray[np.float64]:
+    """Young's modulus from the shear modulus of an isotropic solid.
+
+    Parameters
+    ----------
+    shear_modulus : array [Pa]
+        Shear modulus ``G`` (or storage modulus ``G'``).
+    poisson_ratio : array [-], default 0.5
+        Poisson's ratio ``nu`` in (-1, 0.5].
+
+    Returns
+    -------
+    array [Pa]
+        ``E = 2 G (1 + nu)``.
+
+    References
+    ----------
+    Timoshenko, S. P. and Goodier, J. N. (1970). Theory of Elasticity, 3rd ed.
+    """
+    g = _positive("shear_modulus", shear_modulus, "Pa")
+    nu = _poisson(poisson_ratio)
+    return 2.0 * g * (1.0 + nu)
+
+
+# --- pad stiffness ------------------------------------------------------------------
+
+
+def shear_pad_stiffness(
+    shear_modulus: ArrayLike, area: ArrayLike, thickness: ArrayLike
+) -> NDArray[np.float64]:
+    """Stiffness of a rubber pad loaded in simple shear.
+
+    Parameters
+    ----------
+    shear_modulus : array [Pa]
+        Shear (storage) modulus ``G``.
+    area : array [m2]
+        Bonded area of one face.
+    thickness : array [m]
+        Rubber thickness.
+
+    Returns
+    -------
+    array [N/m]
+        ``k = G A / h``; bending of thick pads (h comparable to the width) is ignored.
+
+    References
+    ----------
+    Gent, A. N. (ed.) (2012). Engineering with Rubber, 3rd ed., Hanser.
+    """
+    g = _positive("shear_modulus", shear_modulus, "Pa")
+    a = _positive("area", area, "m2")
+    h = _positive("thickness", thickness, "m")
+    return g * a / h
+
+
+def compression_pad_stiffness(
+    compression_modulus: ArrayLike, area: ArrayLike, thickness: ArrayLike
+) -> NDArray[np.float64]:
+    """Stiffness of a bonded rubber pad loaded in compression.
+
+    Parameters
+    ----------
+    compression_modulus : array [Pa]
+        Compression modulus ``Ec`` (see `compression_modulus`).
+    area : array [m2]
+        Loaded area of one face.
+    thickness : array [m]
+        Rubber thickness.
+
+    Returns
+    -------
+    array [N/m]
+        ``k = Ec A / h`` (small strains).
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    ec = _positive("compression_modulus", compression_modulus, "Pa")
+    a = _positive("area", area, "m2")
+    h = _positive("thickness", thickness, "m")
+    return ec * a / h
+
+
+# --- dynamics -----------------------------------------------------------------------
+
+
+def transmissibility(
+    frequency: ArrayLike, storage_stiffness: ArrayLike, loss_factor: ArrayLike, mass: ArrayLike
+) -> NDArray[np.float64]:
+    """Force (or motion) transmissibility of a mass on a viscoelastic mount.
+
+    Parameters
+    ----------
+    frequency : array [Hz]
+        Excitation frequency ``f``.
+    storage_stiffness : array [N/m]
+        Storage stiffness ``k'`` at each frequency (and temperature).
+    loss_factor : array [-]
+        Loss factor ``eta`` of the mount at each frequency.
+    mass : array [kg]
+        Supported mass per mount.
+
+    Returns
+    -------
+    array [-]
+        ``T``: ratio of transmitted to applied amplitude; ``inf`` at the resonance of an
+        undamped mount.
+
+    Notes
+    -----
+    ``T = |k*| / |k* - m (2 pi f)^2|`` with ``k* = k' (1 + i eta)``. With ``k'`` and
+    ``eta`` evaluated at each ``f`` this is the transmissibility of the "rubberlike"
+    isolator of Snowdon; with constant values it reduces to
+    `hysteretic_transmissibility`.
+
+    References
+    ----------
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
+    Harris, C. M. and Piersol, A. G. (eds.) (2002). Harris' Shock and Vibration
+    Handbook, 5th ed., ch. 30 (vibration isolation). McGraw-Hill.
+    """
+    f = _non_negative("frequency", frequency, "Hz")
+    k = _positive("storage_stiffness", storage_stiffness, "N/m")
+    eta = _non_negative("loss_factor", loss_factor, "-")
+    m = _positive("mass", mass, "kg")
+    k_complex = k * (1.0 + 1j * eta)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.abs(k_complex) / np.abs(k_complex - m * (_TWO_PI * f) ** 2)
+
+
+def hysteretic_transmissibility(
+    frequency_ratio: ArrayLike, loss_factor: ArrayLike
+) -> NDArray[np.float64]:
+    """Transmissibility of a constant-stiffness isolator with hysteretic damping.
+
+    Parameters
+    ----------
+    frequency_ratio : array [-]
+        ``r = f / fn``.
+    loss_factor : array [-]
+        Constant loss factor ``eta``.
+
+    Returns
+    -------
+    array [-]
+        ``T = sqrt((1 + eta^2) / ((1 - r^2)^2 + eta^2))``; ``inf`` at ``r = 1`` when
+        ``eta = 0``.
+
+    References
+    ----------
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
+    """
+    r = _non_negative("frequency_ratio", frequency_ratio, "-")
+    eta = _non_negative("loss_factor", loss_factor, "-")
+    with np.errstate(divide="ignore"):
+        return np.sqrt((1.0 + eta**2) / ((1.0 - r**2) ** 2 + eta**2))
+
+
+def amplification_at_resonance(loss_factor: ArrayLike) -> NDArray[np.float64]:
+    """Transmissibility at ``r = 1`` of a hysteretically damped isolator.
+
+    Parameters
+    ----------
+    loss_factor : array [-]
+        Loss factor ``eta`` at resonance; must be positive.
+
+    Returns
+    -------
+    array [-]
+        ``sqrt(1 + eta^2) / eta`` (close to ``1/eta`` for light damping).
+
+    References
+    ----------
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
+    """
+    eta = _positive("loss_factor", loss_factor, "-")
+    return np.sqrt(1.0 + eta**2) / eta
+
+
+def isolation_onset_frequency(natural_frequency: ArrayLike) -> NDArray[np.float64]:
+    """Frequency above which a hysteretically damped mount isolates (``T < 1``).
+
+    Parameters
+    ----------
+    natural_frequency : array [Hz]
+        Natural frequency ``fn``.
+
+    Returns
+    -------
+    array [Hz]
+        ``sqrt(2) fn``. With a constant loss factor ``T = 1`` exactly at
+        ``r = sqrt(2)`` whatever ``eta`` is; with a frequency-dependent ``k'`` this is
+        an estimate.
+
+    References
+    ----------
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
+    """
+    fn = _positive("natural_frequency", natural_frequency, "Hz")
+    return np.sqrt(2.0) * fn
+
+
+def static_deflection(
+    mass: ArrayLike, stiffness: ArrayLike, g: float = STANDARD_GRAVITY
+) -> NDArray[np.float64]:
+    """Static deflection of a mount under the weight of its mass.
+
+    Parameters
+    ----------
+    mass : array [kg]
+        Supported mass per mount.
+    stiffness : array [N/m]
+        Static (long-time, low-frequency) stiffness of the mount.
+    g : float [m/s2], default 9.80665
+        Acceleration of gravity.
+
+    Returns
+    -------
+    array [m]
+        ``delta = m g / k``.
+    """
+    m = _positive("mass", mass, "kg")
+    k = _positive("stiffness", stiffness, "N/m")
+    return m * _positive("g", g, "m/s2") / k
+
+
+def natural_frequency_from_deflection(
+    deflection: ArrayLike, g: float = STANDARD_GRAVITY
+) -> NDArray[np.float64]:
+    """Natural frequency of a linear spring-mass system from its static deflection.
+
+    Parameters
+    ----------
+    deflection : array [m]
+        Static deflection ``delta`` under the weight of the mass.
+    g : float [m/s2], default 9.80665
+        Acceleration of gravity.
+
+    Returns
+    -------
+    array [Hz]
+        ``fn = (1 / 2 pi) sqrt(g / delta)`` (15.76 Hz at 1 mm). Rubber is stiffer
+        dynamically than statically, so a real pad runs above this estimate.
+
+    References
+    ----------
+    Harris, C. M. and Piersol, A. G. (eds.) (2002). Harris' Shock and Vibration
+    Handbook, 5th ed., ch. 2. McGraw-Hill.
+    """
+    d = _positive("deflection", deflection, "m")
+    return np.sqrt(_positive("g", g, "m/s2") / d) / _TWO_PI
+
+
+def _bracket(f_low: float, f_high: float) -> tuple[float, float]:
+    if not (np.isfinite(f_low) and np.isfinite(f_high) and 0.0 < f_low < f_high):
+        raise ValueError(
+            f"search bracket must satisfy 0 < f_low < f_high [Hz]; got {f_low:g}, {f_high:g}"
+        )
+    return float(f_low), float(f_high)
+
+
+def natural_frequency(
+    storage_stiffness_fn: Callable[[NDArray[np.float64]], ArrayLike],
+    mass: ArrayLike,
+    f_low: float = 1e-3,
+    f_high: float = 1e5,
+) -> NaturalFrequency:
+    """Natural frequency of a mass on a mount whose stiffness depends on frequency.
+
+    Parameters
+    ----------
+    storage_stiffness_fn : callable
+        ``storage_stiffness_fn(frequency) -> k'`` [Hz -> N/m]. It is called once with
+        an array of the shape of ``mass`` (to learn its output shape) and then with
+        arrays of the broadcast shape of ``mass`` and that output; it must work
+        elementwise (entry ``i`` of the result depends on entry ``i`` of the
+        frequencies only). It may return a larger shape than ``mass`` (one stiffness
+        curve per temperature, say).
+    mass : array [kg]
+        Supported mass per mount.
+    f_low, f_high : float [Hz]
+        Search bracket.
+
+    Returns
+    -------
+    NaturalFrequency
+        ``frequency`` [Hz], NaN where no root lies in the bracket (or ``k'`` was not
+        positive and finite during the search), and ``converged`` (bool).
+
+    Raises
+    ------
+    ValueError
+        If a mass is not positive or the bracket is not ``0 < f_low < f_high``.
+
+    Notes
+    -----
+    Solves ``fn = (1 / 2 pi) sqrt(k'(fn) / m)`` as the root in ``x = log10 f`` of
+    ``g(x) = x - log10(sqrt(k'(10^x) / m) / (2 pi))`` with scipy's vectorised
+    bracketing solver (Chandrupatla's method). The root is unique when
+    ``d log k' / d log f < 2``, which holds for any passive viscoelastic solid read
+    off a smooth master curve.
+
+    References
+    ----------
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
+    Chandrupatla, T. R. (1997). A new hybrid quadratic/bisection algorithm for finding
+    the zero of a nonlinear function without using derivatives. Adv. Eng. Software
+    28, 145-149.
+    """
+    m = _positive("mass", mass, "kg")
+    low, high = _bracket(f_low, f_high)
+    probe = np.asarray(storage_stiffness_fn(np.full(m.shape, low)), dtype=float)
+    shape = np.broadcast_shapes(m.shape, probe.shape)
+    size = int(np.prod(shape))
+    log_mass = np.log10(np.broadcast_to(m, shape))
+    index = np.arange(size).reshape(shape)
+
+    def residual(log_f, log_m, idx):
+        # find_root hands over only the unsolved entries, flattened; rebuild a
+        # full-shape frequency array so that the user's function sees its own shape.
+        flat_idx = np.ravel(idx)
+        frequency = np.full(size, low)
+        frequency[flat_idx] = 10.0 ** np.ravel(log_f)
+        k = np.asarray(storage_stiffness_fn(frequency.reshape(shape)), dtype=float)
+        k = np.broadcast_to(k, shape).ravel()[flat_idx]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g = np.ravel(log_f) - 0.5 * (np.log10(k) - np.ravel(log_m)) + np.log10(_TWO_PI)
+        return g.reshape(np.shape(log_f))
+
+    result = elementwise.find_root(
+        residual, (np.log10(low), np.log10(high)), args=(log_mass, index)
+    )
+    converged = np.asarray(result.success, dtype=bool).reshape(shape)
+    frequency = np.where(converged, 10.0 ** np.asarray(result.x).reshape(shape), np.nan)
+    return NaturalFrequency(frequency=frequency, converged=converged)
+
+
+def natural_frequency_scalar(
+    storage_stiffness_fn: Callable[[float], float],
+    mass: float,
+    f_low: float = 1e-3,
+    f_high: float = 1e5,
+) -> float:
+    """Natural frequency of one mass on one mount (scalar form of `natural_frequency`).
+
+    Parameters
+    ----------
+    storage_stiffness_fn : callable
+        ``storage_stiffness_fn(frequency) -> k'`` [Hz -> N/m] for a scalar frequency.
+    mass : float [kg]
+        Supported mass.
+    f_low, f_high : float [Hz]
+        Search bracket.
+
+    Returns
+    -------
+    float [Hz]
+        The natural frequency.
+
+    Raises
+    ------
+    ValueError
+        If the mass is not positive, the bracket is invalid, ``k'`` is not positive at
+        a bracket end, or no root lies in the bracket.
+
+    Notes
+    -----
+    Same equation as `natural_frequency`, solved with scipy's Brent method.
+
+    References
+    ----------
+    Brent, R. P. (1973). Algorithms for Minimization without Derivatives.
+    Prentice-Hall.
+    """
+    m = float(_positive("mass", mass, "kg"))
+    low, high = _bracket(f_low, f_high)
+
+    def residual(log_f: float) -> float:
+        k = float(storage_stiffness_fn(10.0**log_f))
+        if not (np.isfinite(k) and k > 0):
+            raise ValueError(
+                f"storage stiffness must be positive and finite [N/m]; got {k:g} "
+                f"at {10.0**log_f:g} Hz"
+            )
+        return log_f - 0.5 * np.log10(k / m) + np.log10(_TWO_PI)
+
+    g_low, g_high = residual(np.log10(low)), residual(np.log10(high))
+    if np.sign(g_low) == np.sign(g_high):
+        raise ValueError(
+            f"no natural frequency between {low:g} Hz and {high:g} Hz; widen the bracket"
+        )
+    return float(10.0 ** brentq(residual, np.log10(low), np.log10(high), xtol=1e-14))
+
+
+# --- sizing -------------------------------------------------------------------------
+
+
+def size_pad_area(
+    target_fn: ArrayLike,
+    mass_per_pad: ArrayLike,
+    thickness: ArrayLike,
+    modulus_at_target: ArrayLike,
+) -> NDArray[np.float64]:
+    """Pad area giving a target natural frequency when the modulus does not depend on area.
+
+    Parameters
+    ----------
+    target_fn : array [Hz]
+        Wanted natural frequency.
+    mass_per_pad : array [kg]
+        Mass carried by one pad.
+    thickness : array [m]
+        Rubber thickness.
+    modulus_at_target : array [Pa]
+        Modulus at the target frequency and service temperature: ``G'`` for a shear
+        pad (or ``Ec`` of a compression pad whose shape factor is held fixed).
+
+    Returns
+    -------
+    array [m2]
+        ``A = m (2 pi fn)^2 h / M``.
+
+    Notes
+    -----
+    From ``(2 pi fn)^2 = k / m`` and ``k = M A / h``. For a compression disc or square
+    whose shape factor grows with area use `size_compression_pad_area`.
+    """
+    fn = _positive("target_fn", target_fn, "Hz")
+    m = _positive("mass_per_pad", mass_per_pad, "kg")
+    h = _positive("thickness", thickness, "m")
+    modulus = _positive("modulus_at_target", modulus_at_target, "Pa")
+    return m * (_TWO_PI * fn) ** 2 * h / modulus
+
+
+_PAD_SHAPES = ("disc", "square")
+
+
+def size_compression_pad_area(
+    target_fn: ArrayLike,
+    mass_per_pad: ArrayLike,
+    thickness: ArrayLike,
+    youngs_modulus_at_target: ArrayLike,
+    k_factor: ArrayLike,
+    shape: str = "disc",
+) -> NDArray[np.float64]:
+    """Loaded area of a compression disc or square giving a target natural frequency.
+
+    Parameters
+    ----------
+    target_fn : array [Hz]
+        Wanted natural frequency.
+    mass_per_pad : array [kg]
+        Mass carried by one pad.
+    thickness : array [m]
+        Rubber thickness.
+    youngs_modulus_at_target : array [Pa]
+        Storage modulus ``E'`` at the target frequency and service temperature.
+    k_factor : array [-]
+        Compression coefficient ``k``.
+    shape : {"disc", "square"}
+        Plan form of the pad.
+
+    Returns
+    -------
+    array [m2]
+        Loaded area ``A``.
+
+    Raises
+    ------
+    ValueError
+        If ``shape`` is not one of the accepted names, or an argument is out of range.
+
+    Notes
+    -----
+    The shape factor grows with area: ``S^2 = A / (4 pi h^2)`` for a disc and
+    ``S^2 = A / (16 h^2)`` for a square. With ``Ec = E (1 + 2 k S^2)`` the stiffness
+    ``k = Ec A / h = (E / h) A + c A^2`` with ``c = E k / (2 pi h^3)`` (disc) or
+    ``E k / (8 h^3)`` (square), so ``m (2 pi fn)^2 = (E / h) A + c A^2`` is a
+    quadratic in ``A`` with one positive root, taken in the cancellation-free form
+    ``A = 2 q / (b + sqrt(b^2 + 4 c q))``, ``b = E / h``, ``q = m (2 pi fn)^2``.
+    Check the shape factor of the result: beyond about 10 rubber's bulk
+    compressibility makes the pad softer than this.
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    """
+    if shape not in _PAD_SHAPES:
+        raise ValueError(f"pad shape must be one of {', '.join(_PAD_SHAPES)}; got {shape!r}")
+    fn = _positive("target_fn", target_fn, "Hz")
+    m = _positive("mass_per_pad", mass_per_pad, "kg")
+    h = _positive("thickness", thickness, "m")
+    e = _positive("youngs_modulus_at_target", youngs_modulus_at_target, "Pa")
+    k = _non_negative("k_factor", k_factor, "-")
+    # S^2 = A * shape_coefficient / h^2
+    shape_coefficient = 1.0 / (4.0 * np.pi) if shape == "disc" else 1.0 / 16.0
+    q = m * (_TWO_PI * fn) ** 2
+    b = e / h
+    c = 2.0 * e * k * shape_coefficient / h**3
+    return 2.0 * q / (b + np.sqrt(b**2 + 4.0 * c * q))

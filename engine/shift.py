@@ -1,0 +1,510 @@
+"""Time–temperature superposition: shift laws and automatic horizontal shifting.
+
+Glossary: ``log_shift`` is log10 aT, the horizontal shift that maps a measurement at
+temperature T onto the reference temperature: log10 fR = log10 f + log10 aT. It is zero
+at the reference temperature and falls as temperature rises.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from engine.errors import FitError
+from engine.units import c_to_k
+
+GAS_CONSTANT = 8.314462618  # J/(mol K), CODATA 2018 exact value
+LN10 = np.log(10.0)
+
+# Williams, Landel & Ferry (1955): "universal" constants with Tg as reference.
+WLF_UNIVERSAL_C1 = 17.44
+WLF_UNIVERSAL_C2 = 51.6  # K
+
+
+def wlf_log_shift(temperature, c1: float, c2: float, reference: float):
+    """WLF shift factor.
+
+    Parameters
+    ----------
+    temperature : array [degC]
+    c1 : float [-]
+    c2 : float [K]
+    reference : float [degC]
+        Temperature at which log aT = 0.
+
+    Returns
+    -------
+    log_shift : array [-]
+        log10 aT.
+
+    Notes
+    -----
+    log10 aT = -C1 (T - T0) / (C2 + T - T0)   (WLF 1955, eq. 1). Valid from Tg to about
+    Tg + 100 K; the expression diverges at T = T0 - C2.
+
+    References
+    ----------
+    Williams, M. L., Landel, R. F., Ferry, J. D. (1955). J. Am. Chem. Soc. 77, 3701-3707.
+    """
+    dt = np.asarray(temperature, dtype=float) - reference
+    return -c1 * dt / (c2 + dt)
+
+
+def wlf_change_reference(c1: float, c2: float, reference: float, new_reference: float):
+    """WLF constants for another reference temperature.
+
+    Notes
+    -----
+    C2' = C2 + T1 - T0 and C1' = C1 C2 / C2' (Ferry 1980, ch. 11), which leaves the
+    curve log aT(T) unchanged apart from the additive constant that puts zero at T1.
+
+    Returns
+    -------
+    (c1_new, c2_new) : tuple of float
+    """
+    c2_new = c2 + (new_reference - reference)
+    if c2_new <= 0:
+        raise FitError(
+            f"cannot move the WLF reference to {new_reference:g} degC: it lies below the "
+            f"divergence temperature {reference - c2:g} degC"
+        )
+    return c1 * c2 / c2_new, c2_new
+
+
+def arrhenius_log_shift(temperature, activation_energy: float, reference: float):
+    """Arrhenius shift factor.
+
+    Parameters
+    ----------
+    temperature : array [degC]
+    activation_energy : float [J/mol]
+    reference : float [degC]
+
+    Notes
+    -----
+    log10 aT = Ea / (2.303 R) (1/T - 1/T0), temperatures in kelvin. Used below Tg and for
+    secondary relaxations (Ferry 1980, ch. 11).
+    """
+    inv = 1.0 / c_to_k(temperature) - 1.0 / c_to_k(reference)
+    return activation_energy / (LN10 * GAS_CONSTANT) * inv
+
+
+@dataclass(frozen=True)
+class ShiftLaw:
+    """A fitted shift law: WLF above ``split_C``, Arrhenius below, continuous at the split.
+
+    ``kind`` is "WLF", "Arrhenius" or "WLF+Arrhenius". ``log_shift(T)`` is zero at
+    ``reference_C``.
+    """
+
+    kind: str
+    reference_C: float
+    wlf_c1: float | None = None
+    wlf_c2: float | None = None
+    wlf_reference_C: float | None = None
+    activation_J_per_mol: float | None = None
+    split_C: float | None = None
+    rms: float = float("nan")
+    notes: tuple[str, ...] = ()
+
+    def _raw(self, temperature):
+        t = np.asarray(temperature, dtype=float)
+        if self.kind == "none":
+            return np.zeros_like(t)
+        if self.kind == "WLF":
+            return wlf_log_shift(t, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+        if self.kind == "Arrhenius":
+            return arrhenius_log_shift(t, self.activation_J_per_mol, self.reference_C)
+        wlf = wlf_log_shift(t, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+        at_split = wlf_log_shift(self.split_C, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+        arr = at_split + arrhenius_log_shift(t, self.activation_J_per_mol, self.split_C)
+        return np.where(t >= self.split_C, wlf, arr)
+
+    def log_shift(self, temperature):
+        """log10 aT at ``temperature`` [degC], zero at the reference temperature."""
+        return self._raw(temperature) - self._raw(self.reference_C)
+
+    def to_dict(self) -> dict:
+        return {
+            "kind": self.kind,
+            "reference_C": self.reference_C,
+            "wlf_c1": self.wlf_c1,
+            "wlf_c2": self.wlf_c2,
+            "wlf_reference_C": self.wlf_reference_C,
+            "activation_J_per_mol": self.activation_J_per_mol,
+            "split_C": self.split_C,
+            "rms": self.rms,
+            "notes": list(self.notes),
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict) -> ShiftLaw:
+        data = dict(data)
+        data["notes"] = tuple(data.get("notes", ()))
+        return cls(**data)
+
+
+@dataclass(frozen=True)
+class Isotherm:
+    """One isotherm: log10 frequency ascending, log10 E' and log10 loss factor."""
+
+    temperature: float
+    log_frequency: np.ndarray
+    log_storage: np.ndarray
+    log_loss_factor: np.ndarray
+
+
+def split_isotherms(temperature, frequency, storage_modulus, loss_factor, decimals: int = 1):
+    """Group measured points into isotherms, ordered by temperature.
+
+    Points whose temperatures agree to ``decimals`` places form one isotherm; within an
+    isotherm points are sorted by frequency and repeated frequencies are averaged in log.
+    """
+    t = np.round(np.asarray(temperature, dtype=float), decimals)
+    lf = np.log10(np.asarray(frequency, dtype=float))
+    ls = np.log10(np.asarray(storage_modulus, dtype=float))
+    # A loss factor of exactly zero is allowed in the data; floor it for the log scale.
+    eta = np.maximum(np.asarray(loss_factor, dtype=float), 1e-6)
+    le = np.log10(eta)
+    out = []
+    for value in np.unique(t):
+        sel = t == value
+        freqs, inverse = np.unique(np.round(lf[sel], 6), return_inverse=True)
+        count = np.bincount(inverse)
+        out.append(
+            Isotherm(
+                float(value),
+                freqs,
+                np.bincount(inverse, ls[sel]) / count,
+                np.bincount(inverse, le[sel]) / count,
+            )
+        )
+    return out
+
+
+@dataclass(frozen=True)
+class PairShift:
+    """Shift between two neighbouring isotherms: colder ``lower`` and warmer ``upper``.
+
+    ``delta`` = log aT(upper) - log aT(lower) (negative when superposition holds).
+    ``sigma`` is its standard error [decades]; ``overlap`` the number of points compared.
+    ``status``: "ok", "no overlap", "ill-determined" or "inconsistent" (rejected against
+    the law fitted to the other pairs).
+    """
+
+    lower: float
+    upper: float
+    delta: float
+    sigma: float
+    overlap: int
+    mismatch: float
+    status: str
+
+
+MIN_OVERLAP_POINTS = 3
+ILL_DETERMINED_SIGMA = 0.25  # decades; common practice threshold of this project
+MAX_OVERLAP_RMS = 0.1  # decades: a best overlap worse than this is no overlap at all
+OUTLIER_DECADES = 0.3  # a pair further than 3 sigma + this from the law is rejected
+_NOISE_FLOOR = 0.003  # log10 units, floor on the residual scatter used for sigma
+_GRID_STEP = 0.01  # decades
+
+
+def _interp_inside(x_new, x, y):
+    """Linear interpolation at x_new with a mask of the points that lie inside [x0, xn]."""
+    inside = (x_new >= x[0]) & (x_new <= x[-1])
+    return np.interp(x_new, x, y), inside
+
+
+def _pair_cost(lower: Isotherm, upper: Isotherm, deltas: np.ndarray):
+    """Mean squared mismatch and overlap count for each candidate shift of ``upper``."""
+    d = deltas[:, None]
+    # Warmer points shifted onto the colder isotherm.
+    xu = upper.log_frequency[None, :] + d
+    ys, m1 = _interp_inside(xu, lower.log_frequency, lower.log_storage)
+    ye, _ = _interp_inside(xu, lower.log_frequency, lower.log_loss_factor)
+    r1 = (ys - upper.log_storage) ** 2 + (ye - upper.log_loss_factor) ** 2
+    # Colder points against the shifted warmer isotherm.
+    xl = lower.log_frequency[None, :] - d
+    ys2, m2 = _interp_inside(xl, upper.log_frequency, upper.log_storage)
+    ye2, _ = _interp_inside(xl, upper.log_frequency, upper.log_loss_factor)
+    r2 = (ys2 - lower.log_storage) ** 2 + (ye2 - lower.log_loss_factor) ** 2
+    sse = np.sum(r1 * m1, axis=1) + np.sum(r2 * m2, axis=1)
+    n = m1.sum(axis=1) + m2.sum(axis=1)
+    cost = np.where(n >= MIN_OVERLAP_POINTS, sse / np.maximum(n, 1), np.inf)
+    return cost, n
+
+
+def pair_shift(lower: Isotherm, upper: Isotherm) -> PairShift:
+    """Horizontal shift of ``upper`` onto ``lower`` by least-squares overlap.
+
+    Notes
+    -----
+    The warmer isotherm is slid along log f; for each candidate shift the points of each
+    isotherm that fall within the other's frequency span are compared by linear
+    interpolation, on log10 E' and log10 tan δ together (tan δ needs no vertical shift).
+    The cost is the mean squared mismatch over at least three overlapping points. A
+    coarse grid search over all shifts that leave an overlap is refined on a fine grid;
+    the standard error of the shift comes from the curvature of the summed squares,
+    sigma^2 = 2 s^2 / S''. Shifts are restricted to delta <= +0.05 decade, as shift
+    factors fall with temperature (method of reduced variables, Ferry 1980, ch. 11).
+    """
+    span = (lower.log_frequency[-1] - lower.log_frequency[0]) + (
+        upper.log_frequency[-1] - upper.log_frequency[0]
+    )
+    low = -(span + 0.5)
+    coarse = np.arange(low, 0.05 + 1e-12, 0.05)
+    cost, n = _pair_cost(lower, upper, coarse)
+    if not np.isfinite(cost).any():
+        return PairShift(
+            lower.temperature, upper.temperature, np.nan, np.inf, 0, np.nan, "no overlap"
+        )
+    best = coarse[np.argmin(cost)]
+    fine = np.arange(best - 0.06, best + 0.06 + 1e-12, _GRID_STEP / 5)
+    fine = fine[fine <= 0.05 + 1e-12]
+    cost_f, n_f = _pair_cost(lower, upper, fine)
+    k = int(np.argmin(cost_f))
+    delta = float(fine[k])
+    npts = int(n_f[k])
+    cmin = float(cost_f[k])
+    # Curvature of the summed squares S = n * cost from neighbours two steps away.
+    h = 2 * (fine[1] - fine[0]) if fine.size > 1 else _GRID_STEP
+    if 2 <= k < fine.size - 2 and np.isfinite(cost_f[[k - 2, k + 2]]).all():
+        s_pp = npts * (cost_f[k - 2] - 2 * cost_f[k] + cost_f[k + 2]) / h**2
+    else:
+        s_pp = 0.0
+    s2 = max(cmin * npts / max(npts - 1, 1), _NOISE_FLOOR**2)
+    sigma = float(np.sqrt(2 * s2 / s_pp)) if s_pp > 0 else np.inf
+    if np.sqrt(cmin) > MAX_OVERLAP_RMS:
+        status = "no overlap"
+    elif sigma > ILL_DETERMINED_SIGMA:
+        status = "ill-determined"
+    else:
+        status = "ok"
+    return PairShift(lower.temperature, upper.temperature, delta, sigma, npts, cmin, status)
+
+
+@dataclass
+class ShiftResult:
+    """Shift factors of every isotherm and the law fitted to them."""
+
+    temperatures: np.ndarray  # [degC]
+    log_shift: np.ndarray  # log10 aT from the data (bridged where flagged)
+    bridged: np.ndarray  # bool: taken from the fitted law, not from the overlap
+    law: ShiftLaw
+    pairs: list[PairShift] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        return {
+            "temperatures_C": self.temperatures.tolist(),
+            "log_shift": self.log_shift.tolist(),
+            "bridged": self.bridged.tolist(),
+            "law": self.law.to_dict(),
+            "pairs": [
+                {
+                    "lower_C": p.lower,
+                    "upper_C": p.upper,
+                    "delta": None if not np.isfinite(p.delta) else p.delta,
+                    "sigma": None if not np.isfinite(p.sigma) else p.sigma,
+                    "overlap": p.overlap,
+                    "status": p.status,
+                }
+                for p in self.pairs
+            ],
+            "notes": list(self.notes),
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict) -> ShiftResult:
+        pairs = [
+            PairShift(
+                p["lower_C"],
+                p["upper_C"],
+                np.nan if p["delta"] is None else p["delta"],
+                np.inf if p["sigma"] is None else p["sigma"],
+                p["overlap"],
+                np.nan,
+                p["status"],
+            )
+            for p in data["pairs"]
+        ]
+        return cls(
+            np.asarray(data["temperatures_C"], dtype=float),
+            np.asarray(data["log_shift"], dtype=float),
+            np.asarray(data["bridged"], dtype=bool),
+            ShiftLaw.from_dict(data["law"]),
+            pairs,
+            list(data["notes"]),
+        )
+
+
+def _law_from_params(kind, params, reference, split, wlf_ref):
+    if kind == "WLF":
+        return ShiftLaw("WLF", reference, params[0], params[1], wlf_ref)
+    if kind == "Arrhenius":
+        return ShiftLaw("Arrhenius", reference, activation_J_per_mol=params[0] * 1e3)
+    return ShiftLaw(
+        "WLF+Arrhenius", reference, params[0], params[1], wlf_ref, params[2] * 1e3, split
+    )
+
+
+def fit_shift_law(
+    pairs: list[PairShift],
+    reference: float,
+    split: float | None,
+    glassy_without_transition: bool = False,
+) -> ShiftLaw:
+    """Fit WLF above ``split`` and Arrhenius below it to the pairwise shifts.
+
+    Parameters
+    ----------
+    pairs : list of PairShift
+        Only pairs with status "ok" are used, weighted by 1/sigma^2.
+    reference : float [degC]
+        Reference temperature of the master curve.
+    split : float or None [degC]
+        Glass transition used to divide the WLF and Arrhenius regions. None when the
+        data show no transition; then ``glassy_without_transition`` chooses Arrhenius
+        (all glassy) or WLF (all rubbery).
+
+    Notes
+    -----
+    The law is fitted to the measured pairwise differences log aT(T_upper) - log aT(T_lower)
+    rather than to accumulated shifts, so an error in one pair does not carry into the
+    others. WLF (Williams, Landel & Ferry 1955) is parametrised at the lower end of its
+    region, Arrhenius below Tg is anchored to it at Tg so the law is continuous. The
+    least-squares fit uses scipy.optimize.least_squares with bounds 0.5 <= C1 <= 100,
+    5 K <= C2 <= 2000 K, 1 kJ/mol <= Ea <= 2000 kJ/mol.
+    """
+    good = [p for p in pairs if p.status == "ok"]
+    lo = np.array([p.lower for p in good])
+    hi = np.array([p.upper for p in good])
+    delta = np.array([p.delta for p in good])
+    weight = 1.0 / np.maximum(np.array([p.sigma for p in good]), 0.005)
+    if split is None:
+        kind = "Arrhenius" if glassy_without_transition else "WLF"
+        wlf_ref = reference
+    else:
+        n_above = int(np.sum(lo >= split - 1e-9))
+        n_below = int(np.sum(hi <= split + 1e-9))
+        if n_above >= 2 and n_below >= 1:
+            kind = "WLF+Arrhenius"
+        elif n_above >= 2 or n_below < 1:
+            kind = "WLF"
+        else:
+            kind = "Arrhenius"
+        wlf_ref = split
+    if kind == "WLF" and split is not None and not np.any(lo >= split - 1e-9):
+        wlf_ref = reference
+    if len(good) < (2 if kind == "WLF" else 1):
+        raise FitError(
+            f"only {len(good)} well-determined isotherm pair(s): too few to fit a {kind} law"
+        )
+
+    def raw(t, params):
+        # The same piecewise law as ShiftLaw._raw, without building objects per call.
+        if kind == "Arrhenius":
+            return arrhenius_log_shift(t, params[0] * 1e3, reference)
+        wlf = wlf_log_shift(t, params[0], params[1], wlf_ref)
+        if kind == "WLF":
+            return wlf
+        at_split = wlf_log_shift(split, params[0], params[1], wlf_ref)
+        return np.where(t >= split, wlf, at_split + arrhenius_log_shift(t, params[2] * 1e3, split))
+
+    def model(params):
+        return raw(hi, params) - raw(lo, params)
+
+    if kind == "WLF":
+        x0, lb, ub = [WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2], [0.5, 5.0], [100.0, 2000.0]
+    elif kind == "Arrhenius":
+        x0, lb, ub = [150.0], [1.0], [2000.0]
+    else:
+        x0, lb, ub = (
+            [WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2, 150.0],
+            [0.5, 5.0, 1.0],
+            [
+                100.0,
+                2000.0,
+                2000.0,
+            ],
+        )
+    if kind != "Arrhenius":
+        # WLF must stay finite over the temperatures it is used at.
+        t_min = float(lo.min()) if split is None else max(float(lo.min()), split)
+        lb[1] = max(lb[1], wlf_ref - t_min + 1.0)
+        x0[1] = max(x0[1], lb[1] + 1.0)
+
+    def resid(params):
+        return (model(params) - delta) * weight
+
+    sol = least_squares(resid, x0, bounds=(lb, ub), method="trf", x_scale="jac", loss="soft_l1")
+    notes = []
+    at_bound = np.isclose(sol.x, lb, rtol=1e-4) | np.isclose(sol.x, ub, rtol=1e-4)
+    if at_bound.any():
+        notes.append("shift-law fit stopped at a parameter bound; treat its constants with care")
+    law = _law_from_params(kind, sol.x, reference, split, wlf_ref)
+    rms = float(np.sqrt(np.mean((model(sol.x) - delta) ** 2))) if delta.size else float("nan")
+    return ShiftLaw(**{**law.to_dict(), "rms": rms, "notes": tuple(notes)})
+
+
+def shift_isotherms(
+    isotherms: list[Isotherm],
+    reference: float,
+    split: float | None,
+    glassy_without_transition: bool = False,
+) -> ShiftResult:
+    """Shift factors of all isotherms to ``reference`` and the law fitted to them.
+
+    Pairwise shifts of neighbouring isotherms (:func:`pair_shift`) are summed from the
+    reference isotherm outwards. A pair that does not overlap, or whose shift is
+    ill-determined (flat curves), is bridged with the fitted shift law and flagged.
+    """
+    temps = np.array([iso.temperature for iso in isotherms])
+    if temps.size < 2:
+        law = ShiftLaw("none", reference, notes=("single isotherm: no superposition",))
+        return ShiftResult(temps, np.zeros(1), np.zeros(1, bool), law, [], list(law.notes))
+    pairs = [pair_shift(a, b) for a, b in zip(isotherms[:-1], isotherms[1:], strict=True)]
+    notes = [
+        f"isotherms {p.lower:g} and {p.upper:g} degC: {p.status}, bridged with the shift law"
+        for p in pairs
+        if p.status != "ok"
+    ]
+    law = fit_shift_law(pairs, reference, split, glassy_without_transition)
+    # Reject pairs that disagree with the law fitted to all the others (aliasing on flat
+    # curves can lock a pair onto a false overlap), then refit once.
+    outliers = []
+    for i, p in enumerate(pairs):
+        if p.status != "ok":
+            continue
+        expected = float(law.log_shift(p.upper) - law.log_shift(p.lower))
+        if abs(p.delta - expected) > 3.0 * p.sigma + OUTLIER_DECADES:
+            outliers.append(i)
+    if outliers:
+        for i in outliers:
+            p = pairs[i]
+            pairs[i] = PairShift(
+                p.lower, p.upper, p.delta, p.sigma, p.overlap, p.mismatch, "inconsistent"
+            )
+            notes.append(
+                f"isotherms {p.lower:g} and {p.upper:g} degC: overlap shift {p.delta:.2f} "
+                "disagrees with the shift law, bridged with the law"
+            )
+        law = fit_shift_law(pairs, reference, split, glassy_without_transition)
+    steps = np.empty(len(pairs))
+    bridged_step = np.zeros(len(pairs), bool)
+    for i, p in enumerate(pairs):
+        if p.status == "ok":
+            steps[i] = p.delta
+        else:
+            steps[i] = float(law.log_shift(p.upper) - law.log_shift(p.lower))
+            bridged_step[i] = True
+    cumulative = np.concatenate([[0.0], np.cumsum(steps)])
+    i_ref = int(np.argmin(np.abs(temps - reference)))
+    # Anchor at the reference isotherm; if the reference is not an isotherm, use the law.
+    offset = cumulative[i_ref] - float(law.log_shift(temps[i_ref]))
+    log_shift = cumulative - offset
+    bridged = np.zeros(temps.size, bool)
+    bridged[1:] |= bridged_step
+    return ShiftResult(temps, log_shift, bridged, law, pairs, notes)

@@ -1,0 +1,566 @@
+"""The material library: every SQL statement of quietgrade lives in this module.
+
+SQLAlchemy 2 Core over SQLite by default (a file path), or any database URL. Measured
+points of a data set are kept as one binary column (float64, little-endian, columns
+temperature [degC], frequency [Hz], storage modulus [Pa], loss factor [-]) so that a
+large import is one insert per data set.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import os
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import sqlalchemy as sa
+
+from engine import __version__
+from engine.errors import LibraryError
+
+SCHEMA_VERSION = 1
+
+CATALOG_FIELDS = (
+    "name",
+    "mode",
+    "supplier",
+    "family",
+    "density",
+    "price",
+    "hardness",
+    "service_min",
+    "service_max",
+    "poisson_ratio",
+    "notes",
+)
+
+_metadata = sa.MetaData()
+
+meta_table = sa.Table(
+    "meta",
+    _metadata,
+    sa.Column("key", sa.String(64), primary_key=True),
+    sa.Column("value", sa.Text, nullable=False),
+)
+
+materials_table = sa.Table(
+    "materials",
+    _metadata,
+    sa.Column("id", sa.String(200), primary_key=True),
+    sa.Column("name", sa.Text, nullable=False),
+    sa.Column("mode", sa.String(16), nullable=False),
+    sa.Column("supplier", sa.Text),
+    sa.Column("family", sa.Text),
+    sa.Column("density", sa.Float),  # [kg/m3]
+    sa.Column("price", sa.Float),  # [currency per kg]
+    sa.Column("hardness", sa.Float),  # [Shore A]
+    sa.Column("service_min", sa.Float),  # [degC]
+    sa.Column("service_max", sa.Float),  # [degC]
+    sa.Column("poisson_ratio", sa.Float),
+    sa.Column("notes", sa.Text),
+    sa.Column("extra", sa.Text, nullable=False, default="{}"),  # JSON of unknown columns
+    sa.Column("deleted_at", sa.String(32)),
+    sa.Column("updated_at", sa.String(32), nullable=False),
+)
+
+history_table = sa.Table(
+    "material_history",
+    _metadata,
+    sa.Column("history_id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("material_id", sa.String(200), nullable=False),
+    sa.Column("changed_at", sa.String(32), nullable=False),
+    sa.Column("reason", sa.Text, nullable=False),
+    sa.Column("previous", sa.Text, nullable=False),  # JSON of the row before the change
+)
+
+imports_table = sa.Table(
+    "imports",
+    _metadata,
+    sa.Column("import_id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("file_name", sa.Text, nullable=False),
+    sa.Column("sha256", sa.String(64), nullable=False, index=True),
+    sa.Column("size_bytes", sa.Integer, nullable=False),
+    sa.Column("rows", sa.Integer, nullable=False),
+    sa.Column("kind", sa.String(16), nullable=False),
+    sa.Column("imported_at", sa.String(32), nullable=False),
+)
+
+datasets_table = sa.Table(
+    "datasets",
+    _metadata,
+    sa.Column("dataset_id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("material_id", sa.String(200), nullable=False, index=True),
+    sa.Column("import_id", sa.Integer, sa.ForeignKey("imports.import_id"), nullable=False),
+    sa.Column("data_hash", sa.String(64), nullable=False),
+    sa.Column("n_points", sa.Integer, nullable=False),
+    sa.Column("points", sa.LargeBinary, nullable=False),
+    sa.Column("created_at", sa.String(32), nullable=False),
+    sa.Column("deleted_at", sa.String(32)),
+)
+
+fits_table = sa.Table(
+    "fits",
+    _metadata,
+    sa.Column("data_hash", sa.String(64), primary_key=True),
+    sa.Column("engine_version", sa.String(32), primary_key=True),
+    sa.Column("options", sa.String(200), primary_key=True),
+    sa.Column("result", sa.Text, nullable=False),
+    sa.Column("created_at", sa.String(32), nullable=False),
+)
+
+
+def _now() -> str:
+    return _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")
+
+
+def default_location() -> str:
+    """``QUIETGRADE_DB`` if set, else ``library.sqlite`` in the user's data folder."""
+    env = os.environ.get("QUIETGRADE_DB")
+    if env:
+        return env
+    base = os.environ.get("XDG_DATA_HOME") or os.path.join(Path.home(), ".local", "share")
+    return os.path.join(base, "quietgrade", "library.sqlite")
+
+
+def _url(location: str) -> str:
+    if "://" in location:
+        return location
+    path = Path(location).expanduser()
+    path.parent.mkdir(parents=True, exist_ok=True)
+    return f"sqlite:///{path}"
+
+
+def points_to_blob(points: np.ndarray) -> bytes:
+    return np.ascontiguousarray(points, dtype="<f8").tobytes()
+
+
+def blob_to_points(blob: bytes) -> np.ndarray:
+    return np.frombuffer(blob, dtype="<f8").reshape(-1, 4).copy()
+
+
+@dataclass
+class Material:
+    """One catalog row. Units: density [kg/m3], hardness [Shore A], service [degC]."""
+
+    id: str
+    name: str
+    mode: str
+    supplier: str | None = None
+    family: str | None = None
+    density: float | None = None
+    price: float | None = None
+    hardness: float | None = None
+    service_min: float | None = None
+    service_max: float | None = None
+    poisson_ratio: float | None = None
+    notes: str | None = None
+    extra: dict = field(default_factory=dict)
+
+    def as_row(self) -> dict:
+        row = {k: getattr(self, k) for k in ("id", *CATALOG_FIELDS)}
+        row["extra"] = json.dumps(self.extra, sort_keys=True)
+        return row
+
+
+@dataclass(frozen=True)
+class DataSet:
+    dataset_id: int
+    material_id: str
+    data_hash: str
+    n_points: int
+    created_at: str
+    file_name: str
+    sha256: str
+    imported_at: str
+
+
+@dataclass
+class ImportSummary:
+    """What an import did: materials added or updated, data sets added, files skipped."""
+
+    materials_added: list[str] = field(default_factory=list)
+    materials_updated: list[str] = field(default_factory=list)
+    datasets_added: list[tuple[str, int]] = field(default_factory=list)  # (material, points)
+    files_skipped: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        return {
+            "materials_added": self.materials_added,
+            "materials_updated": self.materials_updated,
+            "datasets_added": [{"material": m, "points": n} for m, n in self.datasets_added],
+            "files_skipped": self.files_skipped,
+        }
+
+
+class Library:
+    """The material library at ``location`` (file path or database URL)."""
+
+    def __init__(self, location: str | None = None) -> None:
+        self.location = location or default_location()
+        try:
+            self.engine = sa.create_engine(_url(self.location))
+            with self.engine.begin() as conn:
+                _metadata.create_all(conn)
+                found = conn.execute(
+                    sa.select(meta_table.c.value).where(meta_table.c.key == "schema_version")
+                ).scalar()
+                if found is None:
+                    conn.execute(
+                        meta_table.insert(),
+                        [
+                            {"key": "schema_version", "value": str(SCHEMA_VERSION)},
+                            {"key": "library_version", "value": "0"},
+                        ],
+                    )
+                elif int(found) != SCHEMA_VERSION:
+                    raise LibraryError(
+                        f"{self.location}: library schema version {found}, this quietgrade "
+                        f"reads version {SCHEMA_VERSION}"
+                    )
+        except sa.exc.DatabaseError as exc:
+            raise LibraryError(f"{self.location}: not a quietgrade library ({exc.orig})") from None
+        except sa.exc.ArgumentError as exc:
+            raise LibraryError(f"{self.location}: not a database location ({exc})") from None
+
+    # -- versions -------------------------------------------------------------------
+    def version(self) -> int:
+        """A counter that grows with every change; dashboards key their caches on it."""
+        with self.engine.connect() as conn:
+            return int(
+                conn.execute(
+                    sa.select(meta_table.c.value).where(meta_table.c.key == "library_version")
+                ).scalar()
+            )
+
+    @staticmethod
+    def _bump(conn) -> None:
+        current = conn.execute(
+            sa.select(meta_table.c.value).where(meta_table.c.key == "library_version")
+        ).scalar()
+        conn.execute(
+            meta_table.update()
+            .where(meta_table.c.key == "library_version")
+            .values(value=str(int(current) + 1))
+        )
+
+    # -- reading --------------------------------------------------------------------
+    @staticmethod
+    def _material(row) -> Material:
+        data = dict(row._mapping)
+        extra = json.loads(data.pop("extra") or "{}")
+        data.pop("deleted_at", None)
+        data.pop("updated_at", None)
+        return Material(**data, extra=extra)
+
+    def materials(self, include_deleted: bool = False) -> list[Material]:
+        query = sa.select(materials_table).order_by(materials_table.c.id)
+        if not include_deleted:
+            query = query.where(materials_table.c.deleted_at.is_(None))
+        with self.engine.connect() as conn:
+            return [self._material(r) for r in conn.execute(query)]
+
+    def material(self, material_id: str) -> Material:
+        with self.engine.connect() as conn:
+            row = conn.execute(
+                sa.select(materials_table).where(
+                    materials_table.c.id == material_id, materials_table.c.deleted_at.is_(None)
+                )
+            ).first()
+        if row is None:
+            raise LibraryError(f"no grade '{material_id}' in the library {self.location}")
+        return self._material(row)
+
+    def existing_ids(self) -> set[str]:
+        with self.engine.connect() as conn:
+            return set(
+                conn.execute(
+                    sa.select(materials_table.c.id).where(materials_table.c.deleted_at.is_(None))
+                ).scalars()
+            )
+
+    def datasets(self, material_id: str | None = None) -> list[DataSet]:
+        d, i = datasets_table, imports_table
+        query = (
+            sa.select(
+                d.c.dataset_id,
+                d.c.material_id,
+                d.c.data_hash,
+                d.c.n_points,
+                d.c.created_at,
+                i.c.file_name,
+                i.c.sha256,
+                i.c.imported_at,
+            )
+            .join(i, d.c.import_id == i.c.import_id)
+            .where(d.c.deleted_at.is_(None))
+            .order_by(d.c.material_id, d.c.dataset_id)
+        )
+        if material_id is not None:
+            query = query.where(d.c.material_id == material_id)
+        with self.engine.connect() as conn:
+            return [DataSet(**dict(r._mapping)) for r in conn.execute(query)]
+
+    def latest_points(self, material_id: str) -> tuple[DataSet, np.ndarray]:
+        """The newest data set of a grade and its points (n x 4 array, see module doc)."""
+        sets = self.datasets(material_id)
+        if not sets:
+            raise LibraryError(f"grade '{material_id}' has no measured data in the library")
+        newest = sets[-1]
+        with self.engine.connect() as conn:
+            blob = conn.execute(
+                sa.select(datasets_table.c.points).where(
+                    datasets_table.c.dataset_id == newest.dataset_id
+                )
+            ).scalar()
+        return newest, blob_to_points(blob)
+
+    def imports(self) -> list[dict]:
+        with self.engine.connect() as conn:
+            rows = conn.execute(sa.select(imports_table).order_by(imports_table.c.import_id))
+            return [dict(r._mapping) for r in rows]
+
+    def known_sha256(self) -> set[str]:
+        with self.engine.connect() as conn:
+            return set(conn.execute(sa.select(imports_table.c.sha256)).scalars())
+
+    def history(self, material_id: str) -> list[dict]:
+        with self.engine.connect() as conn:
+            rows = conn.execute(
+                sa.select(history_table)
+                .where(history_table.c.material_id == material_id)
+                .order_by(history_table.c.history_id)
+            )
+            return [dict(r._mapping) for r in rows]
+
+    # -- writing --------------------------------------------------------------------
+    def write_import(
+        self,
+        files: list[dict],
+        materials: list[Material],
+        datasets: list[dict],
+    ) -> ImportSummary:
+        """Write one validated import in a single transaction (all or nothing).
+
+        Parameters
+        ----------
+        files : list of dict
+            ``{"file_name", "sha256", "size_bytes", "rows", "kind", "key"}`` per file.
+        materials : list of Material
+            Catalog rows; a row for an existing grade updates it and keeps the old row in
+            the history table.
+        datasets : list of dict
+            ``{"material_id", "file_key", "data_hash", "points"}`` (points n x 4).
+        """
+        summary = ImportSummary()
+        now = _now()
+        with self.engine.begin() as conn:
+            import_ids = {}
+            for f in files:
+                result = conn.execute(
+                    imports_table.insert().values(
+                        file_name=f["file_name"],
+                        sha256=f["sha256"],
+                        size_bytes=f["size_bytes"],
+                        rows=f["rows"],
+                        kind=f["kind"],
+                        imported_at=now,
+                    )
+                )
+                import_ids[f["key"]] = result.inserted_primary_key[0]
+            for m in materials:
+                existing = conn.execute(
+                    sa.select(materials_table).where(materials_table.c.id == m.id)
+                ).first()
+                row = {**m.as_row(), "updated_at": now, "deleted_at": None}
+                if existing is None:
+                    conn.execute(materials_table.insert().values(**row))
+                    summary.materials_added.append(m.id)
+                    continue
+                old = dict(existing._mapping)
+                if (
+                    all(old[k] == row[k] for k in ("extra", *CATALOG_FIELDS))
+                    and not old["deleted_at"]
+                ):
+                    continue
+                conn.execute(
+                    history_table.insert().values(
+                        material_id=m.id,
+                        changed_at=now,
+                        reason="catalog import",
+                        previous=json.dumps(old, default=str),
+                    )
+                )
+                conn.execute(
+                    materials_table.update().where(materials_table.c.id == m.id).values(**row)
+                )
+                summary.materials_updated.append(m.id)
+            for d in datasets:
+                dup = conn.execute(
+                    sa.select(datasets_table.c.dataset_id).where(
+                        datasets_table.c.material_id == d["material_id"],
+                        datasets_table.c.data_hash == d["data_hash"],
+                        datasets_table.c.deleted_at.is_(None),
+                    )
+                ).first()
+                if dup is not None:
+                    continue
+                conn.execute(
+                    datasets_table.insert().values(
+                        material_id=d["material_id"],
+                        import_id=import_ids[d["file_key"]],
+                        data_hash=d["data_hash"],
+                        n_points=int(d["points"].shape[0]),
+                        points=points_to_blob(d["points"]),
+                        created_at=now,
+                    )
+                )
+                summary.datasets_added.append((d["material_id"], int(d["points"].shape[0])))
+            if summary.materials_added or summary.materials_updated or summary.datasets_added:
+                self._bump(conn)
+        return summary
+
+    def update_catalog(self, material_id: str, changes: dict, reason: str = "edited") -> None:
+        """Change catalog fields of one grade; the previous row goes to the history."""
+        unknown = set(changes) - set(CATALOG_FIELDS)
+        if unknown:
+            raise LibraryError(
+                f"cannot edit {', '.join(sorted(unknown))}; editable fields: "
+                + ", ".join(CATALOG_FIELDS)
+            )
+        with self.engine.begin() as conn:
+            old = conn.execute(
+                sa.select(materials_table).where(materials_table.c.id == material_id)
+            ).first()
+            if old is None:
+                raise LibraryError(f"no grade '{material_id}' in the library")
+            conn.execute(
+                history_table.insert().values(
+                    material_id=material_id,
+                    changed_at=_now(),
+                    reason=reason,
+                    previous=json.dumps(dict(old._mapping), default=str),
+                )
+            )
+            conn.execute(
+                materials_table.update()
+                .where(materials_table.c.id == material_id)
+                .values(**changes, updated_at=_now())
+            )
+            self._bump(conn)
+
+    def delete_material(self, material_id: str) -> None:
+        """Hide a grade and its data sets; :meth:`restore_material` brings them back."""
+        self._set_deleted(material_id, _now())
+
+    def restore_material(self, material_id: str) -> None:
+        self._set_deleted(material_id, None)
+
+    def deleted_ids(self) -> list[str]:
+        with self.engine.connect() as conn:
+            return list(
+                conn.execute(
+                    sa.select(materials_table.c.id)
+                    .where(materials_table.c.deleted_at.is_not(None))
+                    .order_by(materials_table.c.id)
+                ).scalars()
+            )
+
+    def _set_deleted(self, material_id: str, stamp: str | None) -> None:
+        with self.engine.begin() as conn:
+            found = conn.execute(
+                materials_table.update()
+                .where(materials_table.c.id == material_id)
+                .values(deleted_at=stamp)
+            ).rowcount
+            if not found:
+                raise LibraryError(f"no grade '{material_id}' in the library")
+            conn.execute(
+                datasets_table.update()
+                .where(datasets_table.c.material_id == material_id)
+                .values(deleted_at=stamp)
+            )
+            self._bump(conn)
+
+    # -- fit cache ------------------------------------------------------------------
+    def cached_fit(self, data_hash: str, options: str) -> dict | None:
+        with self.engine.connect() as conn:
+            text = conn.execute(
+                sa.select(fits_table.c.result).where(
+                    fits_table.c.data_hash == data_hash,
+                    fits_table.c.engine_version == __version__,
+                    fits_table.c.options == options,
+                )
+            ).scalar()
+        return None if text is None else json.loads(text)
+
+    def cached_fits(self, hashes: Iterable[str], options: str) -> dict[str, dict]:
+        hashes = list(hashes)
+        out: dict[str, dict] = {}
+        with self.engine.connect() as conn:
+            for start in range(0, len(hashes), 500):
+                chunk = hashes[start : start + 500]
+                rows = conn.execute(
+                    sa.select(fits_table.c.data_hash, fits_table.c.result).where(
+                        fits_table.c.data_hash.in_(chunk),
+                        fits_table.c.engine_version == __version__,
+                        fits_table.c.options == options,
+                    )
+                )
+                out.update({h: json.loads(r) for h, r in rows})
+        return out
+
+    def store_fits(self, results: dict[str, dict], options: str) -> None:
+        if not results:
+            return
+        now = _now()
+        with self.engine.begin() as conn:
+            conn.execute(
+                fits_table.delete().where(
+                    fits_table.c.data_hash.in_(list(results)),
+                    fits_table.c.engine_version == __version__,
+                    fits_table.c.options == options,
+                )
+            )
+            conn.execute(
+                fits_table.insert(),
+                [
+                    {
+                        "data_hash": h,
+                        "engine_version": __version__,
+                        "options": options,
+                        "result": json.dumps(r),
+                        "created_at": now,
+                    }
+                    for h, r in results.items()
+                ],
+            )
+
+    def all_latest_points(self) -> dict[str, tuple[DataSet, np.ndarray]]:
+        """Newest data set of every grade that has one, in one query."""
+        d, i = datasets_table, imports_table
+        query = (
+            sa.select(
+                d.c.dataset_id,
+                d.c.material_id,
+                d.c.data_hash,
+                d.c.n_points,
+                d.c.created_at,
+                i.c.file_name,
+                i.c.sha256,
+                i.c.imported_at,
+                d.c.points,
+            )
+            .join(i, d.c.import_id == i.c.import_id)
+            .where(d.c.deleted_at.is_(None))
+            .order_by(d.c.material_id, d.c.dataset_id)
+        )
+        out = {}
+        with self.engine.connect() as conn:
+            for r in conn.execute(query):
+                data = dict(r._mapping)
+                blob = data.pop("points")
+                out[data["material_id"]] = (DataSet(**data), blob)
+        return {k: (ds, blob_to_points(b)) for k, (ds, b) in out.items()}

@@ -1,0 +1,388 @@
+"""Tests of engine.mount: shape factor, compression modulus, transmissibility, fn.
+
+Checks are against the single-degree-of-freedom isolator with hysteretic damping
+(Snowdon 1968), Gent & Lindley (1959) for bonded blocks, Gent (1958) for hardness and
+modulus, closed-form roots, and scipy.optimize.brentq as the reference solver.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+from scipy.optimize import brentq
+
+from engine import mount
+
+# ------------------------------------------------------------ hysteretic isolator
+
+
+@pytest.mark.parametrize(
+    ("ratio", "expected", "tolerance"),
+    [
+        (1.0, 10.05, 0.005),  # sqrt(1.01)/0.1, to the 4 figures quoted
+        (np.sqrt(2.0), 1.000, 0.0005),
+        (3.0, 0.1256, 0.00005),
+    ],
+)
+def test_hysteretic_transmissibility_eta_0_1(ratio, expected, tolerance):
+    # Standard SDOF theory, hysteretic damping (Snowdon 1968): eta = 0.1.
+    value = mount.hysteretic_transmissibility(ratio, 0.1)
+    assert value == pytest.approx(expected, abs=tolerance)
+
+
+@given(st.floats(min_value=0.0, max_value=10.0))
+def test_unit_transmissibility_at_root_two_for_any_constant_eta(eta):
+    # Snowdon 1968: (1 - r^2)^2 = 1 at r = sqrt(2), so T = 1 whatever eta is.
+    assert mount.hysteretic_transmissibility(np.sqrt(2.0), eta) == pytest.approx(1.0, rel=1e-12)
+
+
+def test_transmissibility_constant_stiffness_matches_closed_form():
+    # Snowdon 1968: with constant k' and eta, |k*|/|k* - m w^2| reduces to the closed form.
+    stiffness, mass = 4.0e5, 25.0
+    fn = np.sqrt(stiffness / mass) / (2.0 * np.pi)
+    ratio = np.linspace(0.0, 6.0, 61)
+    eta = np.array([[0.05], [0.2], [1.0]])  # broadcast: 3 loss factors x 61 ratios
+    general = mount.transmissibility(ratio * fn, stiffness, eta, mass)
+    closed = mount.hysteretic_transmissibility(ratio, eta)
+    assert general.shape == (3, 61)
+    np.testing.assert_allclose(general, closed, rtol=1e-12)
+
+
+def test_transmissibility_with_frequency_dependent_stiffness_at_fn():
+    # Snowdon 1968: at fn, k'(fn) = m (2 pi fn)^2 and T = |1 + i eta| / eta
+    # = sqrt(1 + eta^2)/eta, the amplification at resonance, whatever k'(f) does elsewhere.
+    mass, k0, f0, exponent = 12.0, 3.0e5, 10.0, 0.25
+
+    def stiffness(frequency):
+        return k0 * (frequency / f0) ** exponent
+
+    fn = mount.natural_frequency(stiffness, mass).frequency
+    eta = np.array([0.1, 0.4, 1.2])
+    t_fn = mount.transmissibility(fn, stiffness(fn), eta, mass)
+    np.testing.assert_allclose(t_fn, mount.amplification_at_resonance(eta), rtol=1e-9)
+
+
+def test_transmissibility_undamped_resonance_is_infinite():
+    # Snowdon 1968: an undamped isolator has unbounded transmissibility at r = 1.
+    assert np.isinf(mount.hysteretic_transmissibility(1.0, 0.0))
+    fn = np.sqrt(1e4 / 1.0) / (2.0 * np.pi)
+    assert np.isinf(mount.transmissibility(fn, 1e4, 0.0, 1.0))
+
+
+def test_transmissibility_static_is_one():
+    # Snowdon 1968: at f = 0 the mount passes the force unchanged, T = 1.
+    assert mount.transmissibility(0.0, 1e5, 0.3, 5.0) == pytest.approx(1.0, rel=1e-15)
+
+
+def test_amplification_and_isolation_onset():
+    # Snowdon 1968: T(r = 1) = sqrt(1 + eta^2)/eta; for eta = 0.1 that is 10.05.
+    assert mount.amplification_at_resonance(0.1) == pytest.approx(10.05, abs=0.005)
+    eta = np.array([0.05, 0.5, 2.0])
+    np.testing.assert_allclose(
+        mount.amplification_at_resonance(eta), mount.hysteretic_transmissibility(1.0, eta)
+    )
+    # Snowdon 1968: isolation (T < 1) begins at r = sqrt(2) for constant eta.
+    onset = mount.isolation_onset_frequency(np.array([5.0, 12.0]))
+    np.testing.assert_allclose(onset, np.sqrt(2.0) * np.array([5.0, 12.0]))
+    assert mount.hysteretic_transmissibility(1.001 * np.sqrt(2.0), 0.3) < 1.0
+    assert mount.hysteretic_transmissibility(0.999 * np.sqrt(2.0), 0.3) > 1.0
+
+
+# ------------------------------------------------------- shape factor and modulus
+
+
+def test_shape_factor_and_compression_modulus_of_a_disc():
+    # Gent & Lindley 1959: S = D/(4h); D = 50 mm, h = 10 mm gives S = 1.25.
+    s = mount.shape_factor_disc(0.050, 0.010)
+    assert s == pytest.approx(1.25, rel=1e-12)
+    # Gent & Lindley 1959: Ec = E (1 + 2 k S^2); with E = 2.2 MPa and k = 0.73 that is
+    # 2.2 * (1 + 2 * 0.73 * 1.5625) = 7.21875 MPa.
+    ec = mount.compression_modulus(2.2e6, s, 0.73)
+    assert ec == pytest.approx(7.21875e6, rel=1e-12)
+
+
+def test_shape_factor_of_blocks():
+    # Gent & Lindley 1959: S = LW / (2h(L + W)); a 40 mm square 10 mm thick has S = 1,
+    # equal to L/(4h); a 100 x 50 x 10 mm block has S = 5000/3000 = 5/3.
+    s = mount.shape_factor_block(np.array([0.040, 0.100]), np.array([0.040, 0.050]), 0.010)
+    np.testing.assert_allclose(s, [1.0, 5.0 / 3.0], rtol=1e-12)
+
+
+def test_compression_modulus_broadcasts():
+    # Gent & Lindley 1959: Ec/E = 1 + 2 k S^2 for every pair (S, k).
+    s = np.array([0.5, 1.0, 2.0])[:, None]
+    k = np.array([0.52, 0.93])
+    ratio = mount.compression_modulus(1.0e6, s, k) / 1.0e6
+    np.testing.assert_allclose(ratio, 1.0 + 2.0 * k * s**2, rtol=1e-12)
+
+
+def test_youngs_modulus_from_hardness_shore_50():
+    # Gent 1958: E = 0.0981 (56 + 7.62336 S) / (0.137505 (254 - 2.54 S)) MPa gives
+    # 2.46 MPa at Shore A 50 (3 figures).
+    assert mount.youngs_modulus_from_hardness(50.0) == pytest.approx(2.46e6, abs=0.005e6)
+
+
+def test_youngs_modulus_from_hardness_rises_with_hardness():
+    # Gent 1958: the relation increases monotonically over its range of use (20 to 90).
+    hardness = np.linspace(20.0, 90.0, 71)
+    modulus = mount.youngs_modulus_from_hardness(hardness)
+    assert modulus.shape == hardness.shape
+    assert np.all(np.diff(modulus) > 0)
+
+
+@pytest.mark.parametrize(
+    ("shore_a", "expected"),
+    # Gent & Lindley / rubber handbooks, k against hardness (from memory).
+    [(30, 0.93), (40, 0.85), (50, 0.73), (60, 0.57), (70, 0.53), (75, 0.52)],
+)
+def test_k_factor_table(shore_a, expected):
+    assert mount.k_factor_from_hardness(shore_a) == pytest.approx(expected, abs=0.005)
+
+
+def test_k_factor_interpolates_linearly():
+    # From memory: 60 -> 0.57 and 70 -> 0.53 bracket 62.5 and 67.5, with 65 -> 0.54 in
+    # between; linear interpolation of the table rows (common practice).
+    values = mount.k_factor_from_hardness(np.array([62.5, 67.5]))
+    np.testing.assert_allclose(values, [0.555, 0.535], atol=0.005)
+    assert 0.53 <= float(mount.k_factor_from_hardness(65.0)) <= 0.57
+
+
+def test_shear_and_youngs_modulus():
+    # Isotropic elasticity (Timoshenko & Goodier 1970): G = E / (2(1 + nu)); an
+    # incompressible rubber (nu = 0.5) has E = 3 G.
+    assert mount.shear_from_youngs(3.0e6) == pytest.approx(1.0e6, rel=1e-12)
+    assert mount.shear_from_youngs(2.6e6, 0.3) == pytest.approx(1.0e6, rel=1e-12)
+    g = np.array([0.3e6, 1.0e6, 2.2e6])
+    np.testing.assert_allclose(mount.youngs_from_shear(g, 0.49), 2.0 * g * 1.49, rtol=1e-12)
+    np.testing.assert_allclose(mount.shear_from_youngs(mount.youngs_from_shear(g)), g)
+
+
+def test_pad_stiffness():
+    # Gent & Lindley 1959 (compression) and simple shear: k = M A / h.
+    # G = 1 MPa on 100 cm2 and 10 mm gives 1e6 N/m; Ec = 7.2 MPa on the same pad 7.2e6 N/m.
+    assert mount.shear_pad_stiffness(1.0e6, 0.01, 0.01) == pytest.approx(1.0e6, rel=1e-12)
+    k = mount.compression_pad_stiffness(np.array([7.2e6, 3.6e6]), 0.01, 0.01)
+    np.testing.assert_allclose(k, [7.2e6, 3.6e6], rtol=1e-12)
+
+
+def test_strain_limits_are_the_documented_values():
+    # Common practice: long-term static shear strain <= 0.5, static compression <= 0.15.
+    assert mount.STATIC_SHEAR_STRAIN_LIMIT == 0.5
+    assert mount.STATIC_COMPRESSIVE_STRAIN_LIMIT == 0.15
+
+
+# ------------------------------------------------ static deflection and fn
+
+
+def test_static_deflection_and_fn_at_one_millimetre():
+    # Harris' Shock and Vibration Handbook: fn = (1/2 pi) sqrt(g/delta) = 15.76 Hz at 1 mm.
+    stiffness = 10.0 * 9.80665 / 1e-3  # 10 kg sagging exactly 1 mm under standard gravity
+    deflection = mount.static_deflection(10.0, stiffness)
+    assert deflection == pytest.approx(1e-3, rel=1e-12)
+    assert mount.natural_frequency_from_deflection(deflection) == pytest.approx(15.76, abs=0.005)
+
+
+def test_fn_from_deflection_agrees_with_sqrt_k_over_m():
+    # Linear spring-mass: g/delta = k/m, so both routes give the same fn (Harris, ch. 2).
+    mass = np.array([2.0, 20.0, 200.0])
+    stiffness = 5.0e5
+    fn = mount.natural_frequency_from_deflection(mount.static_deflection(mass, stiffness))
+    np.testing.assert_allclose(fn, np.sqrt(stiffness / mass) / (2.0 * np.pi), rtol=1e-12)
+
+
+# -------------------------------------------------------------- root finder
+
+
+def test_natural_frequency_constant_stiffness_scalar():
+    # Closed form: fn = sqrt(k/m) / (2 pi) for a frequency-independent stiffness.
+    result = mount.natural_frequency(lambda f: np.full(np.shape(f), 2.0e5), 8.0)
+    expected = np.sqrt(2.0e5 / 8.0) / (2.0 * np.pi)
+    assert bool(result.converged)
+    assert float(result.frequency) == pytest.approx(expected, rel=1e-9)
+    scalar = mount.natural_frequency_scalar(lambda f: 2.0e5, 8.0)
+    assert scalar == pytest.approx(expected, rel=1e-9)
+
+
+def test_natural_frequency_constant_stiffness_array():
+    # Closed form: fn = sqrt(k/m) / (2 pi), one root per mass.
+    mass = np.array([0.5, 5.0, 50.0, 500.0])
+    result = mount.natural_frequency(lambda f: np.full(np.shape(f), 1.0e5), mass)
+    assert result.frequency.shape == mass.shape
+    assert np.all(result.converged)
+    np.testing.assert_allclose(result.frequency, np.sqrt(1.0e5 / mass) / (2.0 * np.pi), rtol=1e-9)
+
+
+def power_law_fn(k0, f0, exponent, mass):
+    """Root of fn = (1/2pi) sqrt(k0 (fn/f0)^a / m).
+
+    Squaring: 4 pi^2 m fn^2 = k0 fn^a f0^-a, so fn^(2 - a) = k0 / (4 pi^2 m f0^a) and
+    fn = (k0 / (4 pi^2 m f0^a))^(1/(2 - a)) for a < 2.
+    """
+    return (k0 / (4.0 * np.pi**2 * mass * f0**exponent)) ** (1.0 / (2.0 - exponent))
+
+
+def test_natural_frequency_power_law_stiffness():
+    # Closed-form root of a power-law stiffness k'(f) = k0 (f/f0)^a (derived above).
+    k0 = np.array([1.0e5, 4.0e5])  # one stiffness curve per column
+    f0, exponent = 10.0, 0.3
+    mass = np.array([[1.0], [10.0], [100.0]])
+
+    def stiffness(frequency):
+        return k0 * (frequency / f0) ** exponent
+
+    result = mount.natural_frequency(stiffness, mass)
+    assert result.frequency.shape == (3, 2)
+    assert np.all(result.converged)
+    expected = power_law_fn(k0, f0, exponent, mass)
+    np.testing.assert_allclose(result.frequency, expected, rtol=1e-6)
+
+
+@pytest.mark.parametrize("exponent", [-0.5, 0.0, 0.5, 1.0, 1.5])
+def test_natural_frequency_scalar_power_law(exponent):
+    # Closed-form root of a power-law stiffness (derived in power_law_fn), solved by brentq.
+    k0, f0, mass = 2.0e5, 30.0, 4.0
+    fn = mount.natural_frequency_scalar(lambda f: k0 * (f / f0) ** exponent, mass)
+    assert fn == pytest.approx(power_law_fn(k0, f0, exponent, mass), rel=1e-6)
+
+
+def test_natural_frequency_reports_no_root_in_bracket():
+    # fn = sqrt(1e5/1)/(2 pi) = 50.3 Hz lies above a 1 Hz bracket top: NaN, not converged.
+    masses = np.array([1.0, 1.0e6])  # the heavy mass has fn = 0.05 Hz, inside the bracket
+    result = mount.natural_frequency(lambda f: np.full(np.shape(f), 1.0e5), masses, 1e-3, 1.0)
+    assert result.converged.tolist() == [False, True]
+    assert np.isnan(result.frequency[0])
+    assert result.frequency[1] == pytest.approx(np.sqrt(0.1) / (2.0 * np.pi), rel=1e-9)
+
+
+def test_natural_frequency_non_positive_stiffness_does_not_converge():
+    # A negative stiffness has no natural frequency (log of k'/m undefined).
+    result = mount.natural_frequency(lambda f: np.full(np.shape(f), -1.0), np.array([1.0, 2.0]))
+    assert not np.any(result.converged)
+    assert np.all(np.isnan(result.frequency))
+
+
+# ------------------------------------------------------------------- sizing
+
+
+def test_size_pad_area_shear_round_trip():
+    # From (2 pi fn)^2 = G A / (h m): the sized pad has the target fn.
+    target, mass, thickness, g = np.array([8.0, 12.0]), 30.0, 0.015, 0.9e6
+    area = mount.size_pad_area(target, mass, thickness, g)
+    fn = np.sqrt(mount.shear_pad_stiffness(g, area, thickness) / mass) / (2.0 * np.pi)
+    np.testing.assert_allclose(fn, target, rtol=1e-12)
+
+
+@pytest.mark.parametrize("shape", ["disc", "square"])
+def test_size_compression_pad_area_matches_brentq(shape):
+    # Gent & Lindley 1959 stiffness Ec(S(A)) A / h = m (2 pi fn)^2, solved for A by
+    # scipy.optimize.brentq as the reference.
+    target, mass, thickness, e, k = 14.0, 40.0, 0.012, 3.0e6, 0.7
+
+    def pad_stiffness(area):
+        if shape == "disc":
+            s = mount.shape_factor_disc(np.sqrt(4.0 * area / np.pi), thickness)
+        else:
+            side = np.sqrt(area)
+            s = mount.shape_factor_block(side, side, thickness)
+        return mount.compression_pad_stiffness(mount.compression_modulus(e, s, k), area, thickness)
+
+    wanted = mass * (2.0 * np.pi * target) ** 2
+    reference = brentq(lambda a: pad_stiffness(a) - wanted, 1e-8, 10.0, xtol=1e-16, rtol=1e-14)
+    area = mount.size_compression_pad_area(target, mass, thickness, e, k, shape=shape)
+    assert area == pytest.approx(reference, rel=1e-10)
+
+
+def test_size_compression_pad_area_broadcasts_and_reduces_to_shear_form():
+    # With k = 0 the shape factor drops out: A = m (2 pi fn)^2 h / E.
+    target = np.array([5.0, 10.0, 20.0])
+    area = mount.size_compression_pad_area(target, 10.0, 0.01, 2.0e6, 0.0)
+    np.testing.assert_allclose(area, mount.size_pad_area(target, 10.0, 0.01, 2.0e6), rtol=1e-12)
+
+
+# ------------------------------------------------------------------- errors
+
+
+@pytest.mark.parametrize(
+    ("call", "message"),
+    [
+        (lambda: mount.shape_factor_disc(0.05, -0.01), r"thickness must be positive \[m\]"),
+        (lambda: mount.shape_factor_disc(0.0, 0.01), r"diameter must be positive"),
+        (lambda: mount.shape_factor_block(0.0, 0.05, 0.01), r"length must be positive"),
+        (lambda: mount.shape_factor_block(0.05, -1.0, 0.01), r"width must be positive"),
+        (lambda: mount.compression_modulus(-1.0, 1.0, 0.7), r"youngs_modulus must be positive"),
+        (lambda: mount.compression_modulus(1e6, -1.0, 0.7), r"shape_factor must be zero or"),
+        (lambda: mount.compression_modulus(1e6, 1.0, -0.1), r"k_factor must be zero or"),
+        (lambda: mount.compression_modulus("soft", 1.0, 0.7), r"youngs_modulus must be a number"),
+        (lambda: mount.youngs_modulus_from_hardness(-1.0), r"Shore A hardness .* \[0, 100\)"),
+        (lambda: mount.youngs_modulus_from_hardness(100.0), r"got 100"),
+        (lambda: mount.youngs_modulus_from_hardness([50, 120]), r"got 120"),
+        (lambda: mount.k_factor_from_hardness(25.0), r"Shore A 30 to 75 only; got 25"),
+        (lambda: mount.k_factor_from_hardness([50, 80]), r"Shore A 30 to 75 only; got 80"),
+        (lambda: mount.shear_from_youngs(3e6, 0.6), r"poisson_ratio must lie in \(-1, 0.5\]"),
+        (lambda: mount.youngs_from_shear(1e6, -1.0), r"poisson_ratio must lie in"),
+        (lambda: mount.youngs_from_shear(0.0), r"shear_modulus must be positive"),
+        (lambda: mount.shear_pad_stiffness(1e6, 0.0, 0.01), r"area must be positive \[m2\]"),
+        (lambda: mount.compression_pad_stiffness(0.0, 0.01, 0.01), r"compression_modulus"),
+        (lambda: mount.transmissibility(-1.0, 1e5, 0.1, 1.0), r"frequency must be zero or"),
+        (lambda: mount.transmissibility(1.0, 0.0, 0.1, 1.0), r"storage_stiffness must be"),
+        (lambda: mount.transmissibility(1.0, 1e5, -0.1, 1.0), r"loss_factor must be zero or"),
+        (lambda: mount.transmissibility(1.0, 1e5, 0.1, 0.0), r"mass must be positive \[kg\]"),
+        (lambda: mount.hysteretic_transmissibility(-1.0, 0.1), r"frequency_ratio must be"),
+        (lambda: mount.hysteretic_transmissibility(1.0, -0.1), r"loss_factor must be zero"),
+        (lambda: mount.amplification_at_resonance(0.0), r"loss_factor must be positive"),
+        (lambda: mount.isolation_onset_frequency(-5.0), r"natural_frequency must be positive"),
+        (lambda: mount.static_deflection(10.0, 0.0), r"stiffness must be positive \[N/m\]"),
+        (lambda: mount.static_deflection(10.0, 1e5, g=-9.8), r"g must be positive"),
+        (lambda: mount.natural_frequency_from_deflection(0.0), r"deflection must be positive"),
+        (lambda: mount.size_pad_area(0.0, 10.0, 0.01, 1e6), r"target_fn must be positive"),
+        (lambda: mount.size_pad_area(10.0, 10.0, 0.01, -1e6), r"modulus_at_target must be"),
+        (
+            lambda: mount.size_compression_pad_area(10.0, 10.0, 0.01, 1e6, 0.7, shape="ring"),
+            r"pad shape must be one of disc, square; got 'ring'",
+        ),
+        (
+            lambda: mount.size_compression_pad_area(10.0, 10.0, 0.01, 1e6, -0.7),
+            r"k_factor must be zero or positive",
+        ),
+    ],
+)
+def test_bad_arguments_raise(call, message):
+    with pytest.raises(ValueError, match=message):
+        call()
+
+
+def constant(frequency):
+    return np.full(np.shape(frequency), 1.0e5)
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "message"),
+    [
+        ({"mass": 0.0}, r"mass must be positive \[kg\]"),
+        ({"mass": 1.0, "f_low": 10.0, "f_high": 1.0}, r"0 < f_low < f_high \[Hz\]; got 10, 1"),
+        ({"mass": 1.0, "f_low": 0.0}, r"0 < f_low < f_high"),
+        ({"mass": 1.0, "f_high": np.inf}, r"0 < f_low < f_high"),
+    ],
+)
+@pytest.mark.parametrize("solver", [mount.natural_frequency, mount.natural_frequency_scalar])
+def test_natural_frequency_bad_arguments(solver, kwargs, message):
+    with pytest.raises(ValueError, match=message):
+        solver(constant, **kwargs)
+
+
+def test_natural_frequency_array_with_a_bad_mass_raises():
+    with pytest.raises(ValueError, match=r"mass must be positive \[kg\]; got -2"):
+        mount.natural_frequency(constant, [1.0, -2.0])
+
+
+def test_natural_frequency_scalar_no_root_raises():
+    # fn = 50.3 Hz lies outside a 1e-3 .. 1 Hz bracket.
+    with pytest.raises(ValueError, match=r"no natural frequency between 0.001 Hz and 1 Hz"):
+        mount.natural_frequency_scalar(lambda f: 1.0e5, 1.0, 1e-3, 1.0)
+
+
+def test_natural_frequency_scalar_bad_stiffness_raises():
+    with pytest.raises(ValueError, match=r"storage stiffness must be positive and finite"):
+        mount.natural_frequency_scalar(lambda f: -1.0, 1.0)
