@@ -22,7 +22,7 @@ from engine.units import c_to_k
 SPLIT_METHODS = ("storage_onset", "loss_modulus_peak", "loss_factor_peak")
 GLASSY_MODULUS = {"tensile": 300e6, "shear": 100e6}  # [Pa], common practice
 DEFAULT_REFERENCE_FALLBACK_C = 20.0
-PRONY_PER_DECADE = 1.5
+PRONY_PER_DECADE = 2.0
 TABLE_STEP = 0.05  # decades, spacing of the tabulated master curve
 TABLE_MARGIN = 6.0  # decades tabulated beyond the covered range
 TOLERANCE_C = 0.5  # a temperature this close to the measured range is not extrapolated
@@ -111,7 +111,8 @@ class MasterCurve:
         """The master curve tabulated on a uniform log10 fR grid, for batch evaluation.
 
         Returns (log_fr_start, step, log10 E', log10 E''): linear interpolation in log-log
-        between nodes, clamped at the ends (the ends lie far outside the covered range).
+        between nodes and linear extension beyond the ends, which lie far outside the
+        covered range.
         """
         lo, hi = self.log_fr_range
         start = np.floor((lo - TABLE_MARGIN) / step) * step

@@ -337,6 +337,11 @@ def fit_prony(
     weight is non-negative the fitted E' and E'' are Kramers-Kronig consistent by
     construction: the fit cannot return a pair of curves no material could show.
 
+    The grid sets the smoothness: with one term per decade the fitted E'' ripples by a
+    few per cent between the relaxation times even on smooth data; two or more terms per
+    decade follow a smooth spectrum far more closely. Terms beyond the data's frequency
+    range are weakly determined; the margin only keeps the ends of the curves free.
+
     References
     ----------
     Lawson, C. L. and Hanson, R. J. (1974). Solving Least Squares Problems.

@@ -1,0 +1,154 @@
+"""Many master curves stacked into arrays, evaluated in one vectorised pass.
+
+Each grade's master curve is tabulated on a uniform log10 reduced-frequency grid
+(:meth:`engine.mastercurve.MasterCurve.table`) and its shift law is kept as parameter
+arrays, so that E' and E'' of all grades at all window points come from array
+arithmetic: shift law -> reduced frequency -> linear interpolation in log-log.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve
+from engine.shift import LN10, GAS_CONSTANT
+from engine.units import c_to_k
+
+_KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
+
+
+@dataclass
+class CurveBank:
+    """Stacked master curves of ``ids`` (in that order). Moduli in each grade's own mode."""
+
+    ids: list[str]
+    modes: np.ndarray  # str per grade
+    start: np.ndarray  # log10 fR of the first table node, per grade
+    log_storage: np.ndarray  # (grades, nodes), padded with the last value
+    log_loss: np.ndarray
+    n_nodes: np.ndarray  # valid nodes per grade
+    kind: np.ndarray  # shift law kind code
+    reference: np.ndarray  # [degC]
+    c1: np.ndarray
+    c2: np.ndarray
+    wlf_reference: np.ndarray
+    activation: np.ndarray  # [J/mol]
+    split: np.ndarray  # [degC]
+    vertical: np.ndarray  # bool
+    fr_lo: np.ndarray  # covered log10 fR
+    fr_hi: np.ndarray
+    t_lo: np.ndarray  # measured temperatures [degC]
+    t_hi: np.ndarray
+    step: float = TABLE_STEP
+
+    @classmethod
+    def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
+        ids = list(curves)
+        tables = [curves[i].table() for i in ids]
+        width = max((t[2].size for t in tables), default=1)
+        n = len(ids)
+        ls = np.empty((n, width))
+        ll = np.empty((n, width))
+        for k, (_, _, s, l) in enumerate(tables):
+            ls[k, : s.size], ls[k, s.size :] = s, s[-1]
+            ll[k, : l.size], ll[k, l.size :] = l, l[-1]
+        laws = [curves[i].shift.law for i in ids]
+
+        def arr(values):
+            return np.array([np.nan if v is None else v for v in values], dtype=float)
+
+        return cls(
+            ids=ids,
+            modes=np.array([curves[i].mode for i in ids]),
+            start=np.array([t[0] for t in tables], dtype=float),
+            log_storage=ls,
+            log_loss=ll,
+            n_nodes=np.array([t[2].size for t in tables]),
+            kind=np.array([_KIND[law.kind] for law in laws]),
+            reference=arr([law.reference_C for law in laws]),
+            c1=arr([law.wlf_c1 for law in laws]),
+            c2=arr([law.wlf_c2 for law in laws]),
+            wlf_reference=arr([law.wlf_reference_C for law in laws]),
+            activation=arr([law.activation_J_per_mol for law in laws]),
+            split=arr([law.split_C for law in laws]),
+            vertical=np.array([curves[i].vertical_shift for i in ids]),
+            fr_lo=np.array([curves[i].log_fr_range[0] for i in ids]),
+            fr_hi=np.array([curves[i].log_fr_range[1] for i in ids]),
+            t_lo=np.array([curves[i].temperature_range[0] for i in ids]),
+            t_hi=np.array([curves[i].temperature_range[1] for i in ids]),
+        )
+
+    def __len__(self) -> int:
+        return len(self.ids)
+
+    def _raw_law(self, t, g):
+        """Unanchored law value at temperatures ``t`` for grades indexed by ``g`` (broadcast)."""
+        kind = self.kind[g]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            c1, c2, tw = self.c1[g], self.c2[g], self.wlf_reference[g]
+            wlf = -c1 * (t - tw) / (c2 + t - tw)
+            ea = self.activation[g] / (LN10 * GAS_CONSTANT)
+            split = self.split[g]
+            arr_ref = np.where(kind == 3, split, self.reference[g])
+            arr = ea * (1.0 / c_to_k(t) - 1.0 / c_to_k(arr_ref))
+            at_split = -c1 * (split - tw) / (c2 + split - tw)
+            combined = np.where(t >= split, wlf, at_split + arr)
+        out = np.where(kind == 1, wlf, 0.0)
+        out = np.where(kind == 2, arr, out)
+        return np.where(kind == 3, combined, out)
+
+    def log_shift(self, temperature) -> np.ndarray:
+        """log10 aT, shape (grades, *temperature.shape)."""
+        t = np.asarray(temperature, dtype=float)
+        g = np.arange(len(self)).reshape((-1,) + (1,) * t.ndim)
+        ref = self.reference[g]
+        return self._raw_law(t[None, ...], g) - self._raw_law(ref, g)
+
+    def evaluate(self, temperature, frequency):
+        """E', E'' [Pa] and the extrapolated flag at every (T, f) for every grade.
+
+        ``temperature`` and ``frequency`` broadcast together to a shape P; results have
+        shape (grades, *P).
+        """
+        t, f = np.broadcast_arrays(
+            np.asarray(temperature, dtype=float), np.asarray(frequency, dtype=float)
+        )
+        g = np.arange(len(self)).reshape((-1,) + (1,) * t.ndim)
+        return self._evaluate(g, t[None, ...], f[None, ...])
+
+    def evaluate_rows(self, temperature, frequency):
+        """Like :meth:`evaluate`, but row k of the inputs belongs to grade k.
+
+        ``temperature`` and ``frequency`` broadcast to shape (grades, ...).
+        """
+        t, f = np.broadcast_arrays(
+            np.asarray(temperature, dtype=float), np.asarray(frequency, dtype=float)
+        )
+        if t.shape[0] != len(self):
+            raise ValueError(f"first axis must have one row per grade ({len(self)})")
+        g = np.arange(len(self)).reshape((-1,) + (1,) * (t.ndim - 1))
+        return self._evaluate(g, t, f)
+
+    def _evaluate(self, g, t, f):
+        log_fr = np.log10(f) + self._raw_law(t, g) - self._raw_law(self.reference[g], g)
+        pos = (log_fr - self.start[g]) / self.step
+        # Linear in log-log between nodes and beyond the ends (where a Prony series tends
+        # to E'' ~ omega and ~ 1/omega with E' flat).
+        i0 = np.clip(np.floor(pos).astype(np.intp), 0, np.maximum(self.n_nodes[g] - 2, 0))
+        w = pos - i0
+        rows = np.broadcast_to(g, i0.shape)
+        ls = self.log_storage[rows, i0] * (1 - w) + self.log_storage[rows, i0 + 1] * w
+        ll = self.log_loss[rows, i0] * (1 - w) + self.log_loss[rows, i0 + 1] * w
+        scale = np.where(self.vertical[g], c_to_k(t) / c_to_k(self.reference[g]), 1.0)
+        storage = 10.0**ls * scale
+        loss = 10.0**ll * scale
+        single = self.kind[g] == 0
+        extrap = (log_fr < self.fr_lo[g] - 1e-9) | (log_fr > self.fr_hi[g] + 1e-9)
+        extrap |= np.where(
+            single,
+            np.abs(t - self.reference[g]) > TOLERANCE_C,
+            (t < self.t_lo[g] - TOLERANCE_C) | (t > self.t_hi[g] + TOLERANCE_C),
+        )
+        return storage, loss, extrap
