@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve
-from engine.shift import LN10, GAS_CONSTANT
+from engine.shift import GAS_CONSTANT, LN10
 from engine.units import c_to_k
 
 _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}

@@ -225,6 +225,201 @@ def cmd_demo(args) -> int:
     return 0
 
 
+def cmd_mount(args) -> int:
+    from engine.bank import CurveBank
+    from engine.fits import master_curve
+    from engine.mountcheck import MountDesign, check_mounts
+
+    lib = _library(args)
+    material = lib.material(args.id)
+    curve = master_curve(lib, args.id)
+    design = MountDesign(
+        layout=args.layout,
+        mass_kg=args.mass,
+        mounts=args.mounts,
+        area_mm2=args.area_mm2,
+        thickness_mm=args.thickness_mm,
+        shape=args.shape,
+        shape_factor=args.shape_factor,
+        k_factor=args.k_factor,
+        disturbance_Hz=tuple(args.disturbance_hz),
+        target_fn_Hz=args.target_fn,
+        service_life_h=args.service_life_h,
+    )
+    bank = CurveBank.from_curves({args.id: curve})
+
+    def known(v):
+        return np.array([np.nan if v is None else float(v)])
+
+    res = check_mounts(
+        bank,
+        design,
+        np.array(args.temp, dtype=float),
+        known(material.poisson_ratio),
+        known(material.hardness),
+    )
+    figs = res.grade(0)
+    one_t = len(args.temp) == 1
+    one_d = len(args.disturbance_hz) == 1
+
+    def pick(values):
+        return values[0] if one_t else values
+
+    trans = figs["transmissibility"]
+    if one_d:
+        trans = [row[0] for row in trans]
+    data = {
+        "id": args.id,
+        "mode": curve.mode,
+        "layout": design.layout,
+        "temp_C": pick(figs["temperatures_C"]),
+        "disturbance_Hz": args.disturbance_hz[0] if one_d else args.disturbance_hz,
+        "natural_frequency_Hz": pick(figs["natural_frequency_Hz"]),
+        "transmissibility": pick(trans),
+        "static_deflection_mm": pick(figs["static_deflection_mm"]),
+        "static_strain": pick(figs["static_strain"]),
+        "loss_factor_at_resonance": pick(figs["loss_factor_at_resonance"]),
+        "amplification_at_resonance": pick(figs["amplification_at_resonance"]),
+        "isolation_onset_Hz": pick(figs["isolation_onset_Hz"]),
+        "area_mm2": figs["area_mm2"],
+        "shape_factor": figs["shape_factor"],
+        "k_factor": figs["k_factor"],
+        "mass_per_mount_kg": design.mass_per_pad,
+        "long_term_sag_mm": figs["sag_mm"],
+        "long_term_strain": figs["sag_strain"],
+        "strain_limit": figs["strain_limit"],
+        "extrapolated": pick(figs["extrapolated"]),
+        "notes": figs["notes"],
+    }
+    lines = [f"{args.id}: {design.layout} pads, {design.mounts} x {design.mass_per_pad:g} kg"]
+    for i, t in enumerate(figs["temperatures_C"]):
+        tr = figs["transmissibility"][i]
+        lines.append(
+            f"  {t:6.1f} degC: fn {figs['natural_frequency_Hz'][i]:.2f} Hz, T = "
+            + ", ".join(f"{v:.3f}" for v in tr)
+            + f" at {', '.join(f'{f:g}' for f in args.disturbance_hz)} Hz, static "
+            f"{figs['static_deflection_mm'][i]:.2f} mm"
+            + ("  extrapolated" if figs["extrapolated"][i] else "")
+        )
+    lines.append(f"  pad area {figs['area_mm2']:.0f} mm2, long-term sag {figs['sag_mm']:.2f} mm")
+    lines += [f"  note: {n}" for n in figs["notes"]]
+    _emit(args, data, lines)
+    return 0
+
+
+def _criteria_from_args(args):
+    from engine.mountcheck import MountDesign
+    from engine.ranking import Constraints, Criteria
+    from engine.window import OperatingWindow
+
+    if args.criteria:
+        base = Criteria.load(args.criteria).to_dict()
+    else:
+        base = Criteria().to_dict()
+        base["indices"] = []
+    window = dict(base["window"])
+    if args.temp_range:
+        window["temp_range"] = args.temp_range
+    if args.temp_step:
+        window["temp_step"] = args.temp_step
+    if args.freq_range:
+        window["freq_range"] = args.freq_range
+    if args.freq_points:
+        window["freq_points"] = args.freq_points
+    base["window"] = OperatingWindow.from_dict(window).to_dict()
+    if args.design:
+        base["design"] = args.design
+        if not args.criteria:
+            base["indices"] = []
+    if args.index:
+        base["indices"] = [
+            {"name": n, "weight": 1.0, "aggregate": args.aggregate} for n in args.index
+        ]
+    cons = dict(base["constraints"])
+    for key in ("min_loss_factor", "max_price", "max_transmissibility", "max_static_strain"):
+        value = getattr(args, key)
+        if value is not None:
+            cons[key] = value
+    if args.allow_extrapolation:
+        cons["allow_extrapolation"] = True
+    if args.ignore_service_range:
+        cons["service_covers_window"] = False
+    base["constraints"] = Constraints.from_dict(cons).to_dict()
+    if args.mount:
+        path = Path(args.mount)
+        if not path.exists():
+            raise QuietgradeError(f"{path}: file not found")
+        try:
+            mount = json.loads(path.read_text(encoding="utf-8-sig"))
+        except json.JSONDecodeError as exc:
+            raise QuietgradeError(f"{path}: not valid JSON: {exc}") from None
+        base["mount"] = MountDesign.from_dict(mount).to_dict()
+    if args.pareto:
+        base["pareto"] = args.pareto
+    return Criteria.from_dict(base)
+
+
+def cmd_rank(args) -> int:
+    from engine.fits import fit_library
+    from engine.ranking import rank
+
+    lib = _library(args)
+    criteria = _criteria_from_args(args)
+    curves, errors = fit_library(lib)
+    if not curves:
+        raise QuietgradeError(f"no fitted grades in the library {lib.location}")
+    materials = {m.id: m for m in lib.materials()}
+    result = rank(curves, materials, criteria, errors)
+    if args.out:
+        from engine.export import write_shortlist
+
+        write_shortlist(result, args.out, lib)
+    rows = []
+    for g in result.grades:
+        rows.append(
+            {
+                "rank": g.rank,
+                "id": g.id,
+                "name": g.name,
+                "supplier": g.supplier,
+                "price_per_kg": g.price,
+                "passed": g.passed,
+                "score": g.score,
+                "pareto": g.pareto,
+                "indices": g.indices,
+                "failures": [
+                    {"constraint": f.constraint, "value": f.value, "limit": f.limit}
+                    for f in g.failures
+                ],
+                "reason": g.reason,
+                "extrapolated": g.extrapolated,
+                "mount": g.mount,
+            }
+        )
+    data = {
+        "criteria": criteria.to_dict(),
+        "engine_version": __version__,
+        "shortlist": [r for r in rows if r["passed"]],
+        "excluded": [r for r in rows if not r["passed"]],
+        "fit_errors": errors,
+        "out": args.out,
+    }
+    lo, hi = criteria.window.temp_range
+    flo, fhi = criteria.window.freq_range
+    lines = [
+        f"window {lo:g} to {hi:g} degC, {flo:g} to {fhi:g} Hz; "
+        f"{len(result.shortlist)} of {len(result.grades)} grade(s) pass"
+    ]
+    for g in result.shortlist:
+        lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f}  {g.reason}")
+    for g in result.excluded:
+        lines.append(f"    - {g.id:<14} {g.reason}")
+    if args.out:
+        lines.append(f"shortlist written to {args.out}")
+    _emit(args, data, lines)
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--db", help="library file or database URL (default: $QUIETGRADE_DB)")
@@ -263,6 +458,42 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("demo", parents=[common], help="load the invented demo grades")
     p.set_defaults(func=cmd_demo)
+
+    p = sub.add_parser("mount", parents=[common], help="check a mount made of one grade")
+    p.add_argument("id")
+    p.add_argument("--layout", choices=("shear", "compression"), required=True)
+    p.add_argument("--mass", type=float, required=True, help="total supported mass [kg]")
+    p.add_argument("--mounts", type=int, default=1, help="identical pads sharing the mass")
+    p.add_argument("--area-mm2", type=float, required=True, help="loaded area of one pad")
+    p.add_argument("--thickness-mm", type=float, required=True, help="rubber thickness")
+    p.add_argument("--shape", choices=("disc", "square"), default="disc")
+    p.add_argument("--shape-factor", type=float, help="loaded / force-free area")
+    p.add_argument("--k-factor", type=float, help="compression coefficient k")
+    p.add_argument("--temp", type=float, nargs="+", required=True, help="[degC]")
+    p.add_argument("--disturbance-hz", type=float, nargs="+", required=True)
+    p.add_argument("--target-fn", type=float, help="size the pad area for this fn [Hz]")
+    p.add_argument("--service-life-h", type=float, default=1000.0)
+    p.set_defaults(func=cmd_mount)
+
+    p = sub.add_parser("rank", parents=[common], help="the ranked shortlist")
+    p.add_argument("--criteria", help="criteria file (JSON or TOML) as the dashboard saves")
+    p.add_argument("--temp-range", type=float, nargs=2, metavar=("LO", "HI"))
+    p.add_argument("--temp-step", type=float)
+    p.add_argument("--freq-range", type=float, nargs=2, metavar=("LO", "HI"))
+    p.add_argument("--freq-points", type=int)
+    p.add_argument("--design", choices=("isolation_mount", "damping_layer", "general"))
+    p.add_argument("--index", nargs="+", help="merit indices (equal weights)")
+    p.add_argument("--aggregate", choices=("worst", "mean", "weighted", "best"), default="worst")
+    p.add_argument("--min-loss-factor", type=float)
+    p.add_argument("--max-price", type=float)
+    p.add_argument("--max-transmissibility", type=float)
+    p.add_argument("--max-static-strain", type=float)
+    p.add_argument("--allow-extrapolation", action="store_true")
+    p.add_argument("--ignore-service-range", action="store_true")
+    p.add_argument("--mount", help="mount design JSON file")
+    p.add_argument("--pareto", nargs=2, metavar=("INDEX_A", "INDEX_B"))
+    p.add_argument("--out", help="shortlist.csv, .xlsx or .html")
+    p.set_defaults(func=cmd_rank)
 
     return parser
 

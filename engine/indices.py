@@ -1,0 +1,260 @@
+"""Merit indices: built-in ones with their derivations, custom formulas, aggregation.
+
+A *point* index has a value at every window point and is aggregated over the window
+(worst case, mean, time-weighted mean over duty points, best). A *window* index is one
+number per grade for the whole window (stiffness drift, damping temperature span).
+Quantities offered to indices and formulas (units as named):
+
+=================  ==========================================================
+loss_factor        tan delta [-]
+storage_modulus    tensile-equivalent E' [MPa]
+loss_modulus       tensile-equivalent E'' [MPa]
+shear_modulus      G' [MPa]
+density            [kg/m3]
+price              [per kg]
+hardness           [Shore A]
+temperature        [degC]
+frequency          [Hz]
+=================  ==========================================================
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from engine.errors import CriteriaError
+from engine.formula import Formula, parse_formula
+
+QUANTITIES = (
+    "loss_factor",
+    "storage_modulus",
+    "loss_modulus",
+    "shear_modulus",
+    "density",
+    "price",
+    "hardness",
+    "temperature",
+    "frequency",
+)
+AGGREGATES = ("worst", "mean", "weighted", "best")
+
+
+@dataclass(frozen=True)
+class IndexSpec:
+    """One merit index.
+
+    ``kind`` is "point" or "window"; ``higher_is_better`` sets the direction of merit;
+    ``needs`` lists catalog fields without which the index is unknown for a grade.
+    """
+
+    name: str
+    label: str
+    unit: str
+    higher_is_better: bool
+    kind: str
+    needs: tuple[str, ...]
+    doc: str
+    point: Callable[[dict], np.ndarray] | None = None
+    formula: Formula | None = None
+
+
+def _q(q, name):
+    return q[name]
+
+
+def _beam(q):
+    return np.sqrt(q["loss_factor"] * q["storage_modulus"]) / q["density"]
+
+
+def _plate(q):
+    return np.cbrt(q["loss_factor"] * q["storage_modulus"]) / q["density"]
+
+
+BUILT_IN: dict[str, IndexSpec] = {}
+
+
+def _register(spec: IndexSpec) -> None:
+    BUILT_IN[spec.name] = spec
+
+
+_register(
+    IndexSpec(
+        "loss_factor",
+        "loss factor",
+        "-",
+        True,
+        "point",
+        (),
+        "tan delta = E''/E'. The share of energy a part dissipates per cycle: "
+        "Delta W / U = 2 pi eta. Higher is better for damping.",
+        point=lambda q: q["loss_factor"],
+    )
+)
+_register(
+    IndexSpec(
+        "loss_modulus",
+        "loss modulus E''",
+        "MPa",
+        True,
+        "point",
+        (),
+        "E'' = eta E'. For a free (unconstrained) damping layer on a stiff beam the "
+        "composite loss factor is proportional to E2'' for thin layers (Oberst; ASTM E756).",
+        point=lambda q: q["loss_modulus"],
+    )
+)
+_register(
+    IndexSpec(
+        "stiffness_drift",
+        "stiffness drift max E'/min E'",
+        "-",
+        False,
+        "window",
+        (),
+        "Ratio of the largest to the smallest E' over the whole window. A mount whose "
+        "stiffness changes by this factor moves its natural frequency by its square root.",
+    )
+)
+_register(
+    IndexSpec(
+        "frequency_drift",
+        "natural-frequency drift",
+        "-",
+        False,
+        "window",
+        (),
+        "sqrt(max E' / min E') over the window: the factor by which fn = (1/2 pi) "
+        "sqrt(k/m) of a mount moves, as k is proportional to the modulus.",
+    )
+)
+_register(
+    IndexSpec(
+        "damping_span",
+        "damping temperature span",
+        "K",
+        True,
+        "window",
+        (),
+        "Width of the temperature range inside the window where eta >= the chosen "
+        "threshold at the design frequency (1 K resolution).",
+    )
+)
+_register(
+    IndexSpec(
+        "beam_damping",
+        "beam damping index (eta E)^1/2 / rho",
+        "MPa^0.5 m3/kg",
+        True,
+        "point",
+        ("density",),
+        "A beam of given length and mass driven at resonance vibrates with amplitude "
+        "~ F / (eta k); k ~ E I / L^3 ~ E A^2 and A = m / (rho L), so the amplitude "
+        "~ rho^2 / (eta E): minimised by maximising (eta E)^(1/2) / rho. Same scaling as "
+        "the stiffness index E^(1/2)/rho of Ashby (2005), with E replaced by eta E.",
+        point=_beam,
+    )
+)
+_register(
+    IndexSpec(
+        "plate_damping",
+        "plate damping index (eta E)^1/3 / rho",
+        "MPa^(1/3) m3/kg",
+        True,
+        "point",
+        ("density",),
+        "A panel of given area and mass: k ~ E t^3 with t = m / (rho area), so the "
+        "resonant amplitude ~ rho^3 / (eta E): maximise (eta E)^(1/3) / rho (Ashby 2005 "
+        "scaling, with E replaced by eta E).",
+        point=_plate,
+    )
+)
+_register(
+    IndexSpec(
+        "beam_damping_per_cost",
+        "beam damping per cost (eta E)^1/2 / (rho price)",
+        "MPa^0.5 m3/currency",
+        True,
+        "point",
+        ("density", "price"),
+        "The beam damping index per unit material cost: cost of the beam = m * price.",
+        point=lambda q: _beam(q) / q["price"],
+    )
+)
+_register(
+    IndexSpec(
+        "plate_damping_per_cost",
+        "plate damping per cost (eta E)^1/3 / (rho price)",
+        "MPa^(1/3) m3/currency",
+        True,
+        "point",
+        ("density", "price"),
+        "The plate damping index per unit material cost.",
+        point=lambda q: _plate(q) / q["price"],
+    )
+)
+
+
+def custom_index(
+    name: str, formula_text: str, higher_is_better: bool = True, label: str | None = None
+) -> IndexSpec:
+    """A point index from a formula over :data:`QUANTITIES` (see :mod:`engine.formula`)."""
+    if not name or not name.replace("_", "").isalnum():
+        raise CriteriaError(f"custom index name '{name}' must be letters, digits and '_'")
+    if name in BUILT_IN:
+        raise CriteriaError(f"'{name}' is a built-in index; give the custom index another name")
+    formula = parse_formula(formula_text, QUANTITIES)
+    needs = tuple(n for n in ("density", "price", "hardness") if n in formula.names)
+    return IndexSpec(
+        name,
+        label or name,
+        "",
+        higher_is_better,
+        "point",
+        needs,
+        f"custom formula: {formula_text}",
+        point=formula.evaluate,
+        formula=formula,
+    )
+
+
+def resolve(name: str) -> IndexSpec:
+    try:
+        return BUILT_IN[name]
+    except KeyError:
+        raise CriteriaError(
+            f"unknown merit index '{name}'; built-in indices: {', '.join(BUILT_IN)}"
+        ) from None
+
+
+def aggregate(values: np.ndarray, how: str, higher_is_better: bool, share=None) -> np.ndarray:
+    """Reduce (grades, points) values over the points axis.
+
+    ``worst`` is the minimum for a higher-is-better index and the maximum otherwise;
+    ``best`` the reverse; ``weighted`` uses the duty-point shares.
+    """
+    if how not in AGGREGATES:
+        raise CriteriaError(f"unknown aggregation '{how}'; use one of {', '.join(AGGREGATES)}")
+    with np.errstate(invalid="ignore"):
+        if how == "mean":
+            return np.mean(values, axis=1)
+        if how == "weighted":
+            if share is None:
+                raise CriteriaError("the 'weighted' aggregation needs duty points in the window")
+            return values @ share
+        low = how == "worst" if higher_is_better else how == "best"
+        return np.min(values, axis=1) if low else np.max(values, axis=1)
+
+
+def damping_span(path_temperatures, path_loss_factor, threshold: float) -> np.ndarray:
+    """Width [K] of the temperature range where eta >= ``threshold`` (per grade).
+
+    ``path_loss_factor`` has shape (grades, temperatures) on a uniform grid.
+    """
+    t = np.asarray(path_temperatures, dtype=float)
+    if t.size < 2:
+        return np.zeros(path_loss_factor.shape[0])
+    step = t[1] - t[0]
+    return np.sum(path_loss_factor >= threshold, axis=1) * step

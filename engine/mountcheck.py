@@ -1,0 +1,307 @@
+"""Mount check of every grade over the window's temperatures, in one vectorised pass.
+
+Composes the pad mechanics of :mod:`engine.mount` with the stacked master curves of
+:mod:`engine.bank`: N identical pads share the supported mass; each pad is a shear pad
+(k' = G'A/h) or a compression pad (k' = Ec A/h, Ec = E'(1 + 2kS^2)); stiffness and loss
+factor follow the master curve in frequency and temperature.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from engine import mount
+from engine.bank import CurveBank
+from engine.errors import CriteriaError
+from engine.window import DEFAULT_POISSON
+
+LAYOUTS = ("shear", "compression")
+SHAPES = ("disc", "square")
+STATIC_LOAD_TIME_S = 10.0  # time over which the static load is applied (common practice)
+DEFAULT_SERVICE_LIFE_H = 1000.0
+DEFAULT_SIZING_TEMP_C = 23.0  # laboratory standard atmosphere, ISO 23529
+FALLBACK_K_FACTOR = 0.73  # Gent & Lindley table at 50 Shore A, used when hardness is unknown
+
+
+@dataclass(frozen=True)
+class MountDesign:
+    """Inputs of a mount check. ``mass_kg`` is the total mass shared by ``mounts`` pads.
+
+    Geometry is per pad: loaded area [mm2] and rubber thickness [mm]. For a compression
+    pad the shape factor is ``shape_factor`` when given, else that of a ``shape`` ("disc"
+    or "square") of the given area. ``target_fn_Hz`` switches on sizing: each grade's pad
+    area is chosen to put fn at the target at ``sizing_temp_C``.
+    """
+
+    layout: str = "compression"
+    mass_kg: float = 180.0
+    mounts: int = 4
+    area_mm2: float = 2000.0
+    thickness_mm: float = 10.0
+    shape: str = "disc"
+    shape_factor: float | None = None
+    k_factor: float | None = None
+    disturbance_Hz: tuple[float, ...] = (24.7,)
+    target_fn_Hz: float | None = None
+    sizing_temp_C: float = DEFAULT_SIZING_TEMP_C
+    service_life_h: float = DEFAULT_SERVICE_LIFE_H
+
+    def __post_init__(self) -> None:
+        if self.layout not in LAYOUTS:
+            raise CriteriaError(f"layout '{self.layout}' is not one of {', '.join(LAYOUTS)}")
+        if self.shape not in SHAPES:
+            raise CriteriaError(f"pad shape '{self.shape}' is not one of {', '.join(SHAPES)}")
+        checks = {
+            "mass_kg": self.mass_kg,
+            "area_mm2": self.area_mm2,
+            "thickness_mm": self.thickness_mm,
+            "service_life_h": self.service_life_h,
+        }
+        for name, value in checks.items():
+            if not (np.isfinite(value) and value > 0):
+                raise CriteriaError(f"mount {name} must be a positive number, not {value}")
+        if int(self.mounts) != self.mounts or self.mounts < 1:
+            raise CriteriaError(f"number of mounts must be a whole number >= 1, not {self.mounts}")
+        if not self.disturbance_Hz or any(f <= 0 for f in self.disturbance_Hz):
+            raise CriteriaError("give at least one positive disturbance frequency")
+        if self.shape_factor is not None and self.shape_factor <= 0:
+            raise CriteriaError("shape factor must be positive")
+        if self.k_factor is not None and self.k_factor <= 0:
+            raise CriteriaError("k factor must be positive")
+        if self.target_fn_Hz is not None and self.target_fn_Hz <= 0:
+            raise CriteriaError("target natural frequency must be positive")
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d["disturbance_Hz"] = list(self.disturbance_Hz)
+        return d
+
+    @classmethod
+    def from_dict(cls, data: dict) -> MountDesign:
+        known = set(cls.__dataclass_fields__)
+        unknown = set(data) - known
+        if unknown:
+            raise CriteriaError(
+                f"unknown mount setting(s) {', '.join(sorted(unknown))}; known: "
+                + ", ".join(sorted(known))
+            )
+        data = dict(data)
+        if "disturbance_Hz" in data:
+            d = data["disturbance_Hz"]
+            data["disturbance_Hz"] = tuple(
+                float(v) for v in (d if isinstance(d, list | tuple) else [d])
+            )
+        try:
+            return cls(**data)
+        except TypeError as exc:
+            raise CriteriaError(f"bad mount setting: {exc}") from None
+
+    @property
+    def mass_per_pad(self) -> float:
+        return self.mass_kg / self.mounts
+
+
+@dataclass
+class MountResult:
+    """Per grade (rows) and window temperature (columns) unless said otherwise. SI units."""
+
+    ids: list[str]
+    temperatures: np.ndarray  # [degC]
+    disturbance: np.ndarray  # [Hz]
+    area: np.ndarray  # (grades,) [m2], sized or as given
+    shape_factor: np.ndarray  # (grades,)
+    k_factor: np.ndarray  # (grades,)
+    natural_frequency: np.ndarray  # [Hz]
+    converged: np.ndarray
+    transmissibility: np.ndarray  # (grades, temperatures, disturbances)
+    amplification: np.ndarray  # transmissibility at fn
+    loss_factor_at_resonance: np.ndarray
+    isolation_onset: np.ndarray  # [Hz], sqrt(2) fn (hysteretic theory)
+    static_deflection: np.ndarray  # [m]
+    static_strain: np.ndarray  # [-]
+    sag: np.ndarray  # (grades,) [m] deflection after the service life at the hottest T
+    sag_strain: np.ndarray  # (grades,)
+    strain_limit: float
+    extrapolated: np.ndarray  # any property used at this temperature was extrapolated
+    notes: dict  # grade id -> list of notes
+
+    def grade(self, k: int) -> dict:
+        """JSON-ready figures of grade k (mm, Hz)."""
+        return {
+            "id": self.ids[k],
+            "area_mm2": float(self.area[k] * 1e6),
+            "shape_factor": float(self.shape_factor[k]),
+            "k_factor": float(self.k_factor[k]),
+            "temperatures_C": self.temperatures.tolist(),
+            "natural_frequency_Hz": self.natural_frequency[k].tolist(),
+            "transmissibility": self.transmissibility[k].tolist(),
+            "amplification_at_resonance": self.amplification[k].tolist(),
+            "loss_factor_at_resonance": self.loss_factor_at_resonance[k].tolist(),
+            "isolation_onset_Hz": self.isolation_onset[k].tolist(),
+            "static_deflection_mm": (self.static_deflection[k] * 1e3).tolist(),
+            "static_strain": self.static_strain[k].tolist(),
+            "sag_mm": float(self.sag[k] * 1e3),
+            "sag_strain": float(self.sag_strain[k]),
+            "strain_limit": self.strain_limit,
+            "extrapolated": self.extrapolated[k].tolist(),
+            "notes": self.notes.get(self.ids[k], []),
+        }
+
+
+def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes: dict):
+    if given is not None:
+        return np.full(hardness.shape, float(given))
+    lo, hi = 30.0, 75.0  # range of the Gent & Lindley table in engine.mount
+    out = np.empty(hardness.shape)
+    for k, h in enumerate(hardness):
+        if np.isnan(h):
+            out[k] = FALLBACK_K_FACTOR
+            notes.setdefault(ids[k], []).append(
+                f"hardness unknown: k = {FALLBACK_K_FACTOR} assumed for the compression modulus"
+            )
+            continue
+        if h < lo or h > hi:
+            notes.setdefault(ids[k], []).append(
+                f"hardness {h:g} Shore A outside the k-factor table ({lo:g}-{hi:g}): "
+                "nearest table value used"
+            )
+        out[k] = float(mount.k_factor_from_hardness(np.clip(h, lo, hi)))
+    return out
+
+
+def check_mounts(
+    bank: CurveBank,
+    design: MountDesign,
+    temperatures: np.ndarray,
+    poisson: np.ndarray,
+    hardness: np.ndarray,
+) -> MountResult:
+    """Mount check of every grade in ``bank`` at ``temperatures`` [degC].
+
+    Notes
+    -----
+    Natural frequency: the root of fn = (1/2 pi) sqrt(k'(fn)/m) by
+    scipy.optimize.elementwise.find_root (via :func:`engine.mount.natural_frequency`).
+    Transmissibility: T = |k*| / |k* - m (2 pi f)^2|, k* = k'(f)(1 + i eta(f)).
+    Static and long-term deflection use the relaxation modulus approximated by the
+    storage modulus at omega = 1/t (Schwarzl & Staverman; Ferry 1980, ch. 4) at
+    t = 10 s and at the service life, the latter at the hottest window temperature.
+    """
+    ids = list(bank.ids)
+    n = len(ids)
+    t = np.asarray(temperatures, dtype=float)
+    notes: dict[str, list[str]] = {}
+    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)
+    own_is_shear = bank.modes == "shear"
+    if design.layout == "shear":
+        to_layout = np.where(own_is_shear, 1.0, 1.0 / (2.0 * (1.0 + nu)))
+    else:
+        to_layout = np.where(own_is_shear, 2.0 * (1.0 + nu), 1.0)
+    h = design.thickness_mm * 1e-3
+    m = design.mass_per_pad
+    k_fac = _k_factors(hardness, design.k_factor, ids, notes)
+
+    def shape_factor(area):
+        if design.layout == "shear":
+            return np.zeros_like(area)
+        if design.shape_factor is not None:
+            return np.full_like(area, design.shape_factor)
+        if design.shape == "disc":
+            return mount.shape_factor_disc(np.sqrt(4.0 * area / np.pi), h)
+        side = np.sqrt(area)
+        return mount.shape_factor_block(side, side, h)
+
+    def layout_modulus(storage, area):
+        """Layout modulus (G' or Ec) from the grade's own modulus, rows = grades."""
+        base = storage * to_layout.reshape((-1,) + (1,) * (storage.ndim - 1))
+        if design.layout == "shear":
+            return base
+        s = shape_factor(area).reshape((-1,) + (1,) * (storage.ndim - 1))
+        kk = k_fac.reshape((-1,) + (1,) * (storage.ndim - 1))
+        return mount.compression_modulus(base, s, kk)
+
+    area = np.full(n, design.area_mm2 * 1e-6)
+    if design.target_fn_Hz is not None:
+        ft = design.target_fn_Hz
+        st, _, _ = bank.evaluate(np.array([design.sizing_temp_C]), np.array([ft]))
+        own = st[:, 0]
+        if design.layout == "shear":
+            area = mount.size_pad_area(ft, m, h, own * to_layout)
+        elif design.shape_factor is not None:
+            ec = mount.compression_modulus(own * to_layout, design.shape_factor, k_fac)
+            area = mount.size_pad_area(ft, m, h, ec)
+        else:
+            area = mount.size_compression_pad_area(ft, m, h, own * to_layout, k_fac, design.shape)
+    s_factor = shape_factor(area)
+    a_col = area[:, None]
+    t_rows = np.broadcast_to(t[None, :], (n, t.size))
+    extrap = np.zeros((n, t.size), dtype=bool)
+
+    def stiffness(freq):
+        # engine.mount.natural_frequency always passes the full (grades, T) shape.
+        storage, _, _ = bank.evaluate_rows(t_rows, np.asarray(freq, dtype=float))
+        return layout_modulus(storage, area) * a_col / h
+
+    masses = np.full((n, t.size), m)
+    nat = mount.natural_frequency(stiffness, masses)
+    fn = nat.frequency
+    ok = nat.converged
+    fn_safe = np.where(ok, fn, 1.0)
+    st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe)
+    eta_fn = np.where(ok, ls_fn / st_fn, np.nan)
+    extrap |= x_fn
+    k_fn = layout_modulus(st_fn, area) * a_col / h
+    amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
+    dist = np.asarray(design.disturbance_Hz, dtype=float)
+    t3 = np.broadcast_to(t[None, :, None], (n, t.size, dist.size))
+    f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
+    st_d, ls_d, x_d = bank.evaluate_rows(t3, f3)
+    extrap |= x_d.any(axis=2)
+    k_d = layout_modulus(st_d, area) * area[:, None, None] / h
+    trans = mount.transmissibility(f3, k_d, ls_d / st_d, m)
+
+    f_static = 1.0 / (2.0 * np.pi * STATIC_LOAD_TIME_S)
+    st_s, _, x_s = bank.evaluate_rows(t_rows, np.full_like(t_rows, f_static))
+    extrap |= x_s
+    k_static = layout_modulus(st_s, area) * a_col / h
+    deflection = mount.static_deflection(m, k_static)
+    t_hot = float(t.max())
+    f_life = 1.0 / (2.0 * np.pi * design.service_life_h * 3600.0)
+    st_l, _, x_l = bank.evaluate_rows(np.full((n, 1), t_hot), np.full((n, 1), f_life))
+    k_life = layout_modulus(st_l, area) * a_col / h
+    sag = mount.static_deflection(m, k_life)[:, 0]
+    for k in np.flatnonzero(x_l[:, 0]):
+        notes.setdefault(ids[k], []).append(
+            f"long-term sag after {design.service_life_h:g} h at {t_hot:g} degC extrapolates "
+            "the master curve"
+        )
+    for k in np.flatnonzero(~ok.all(axis=1)):
+        notes.setdefault(ids[k], []).append("natural frequency not found at some temperatures")
+    limit = (
+        mount.STATIC_SHEAR_STRAIN_LIMIT
+        if design.layout == "shear"
+        else mount.STATIC_COMPRESSIVE_STRAIN_LIMIT
+    )
+    return MountResult(
+        ids=ids,
+        temperatures=t,
+        disturbance=dist,
+        area=area,
+        shape_factor=s_factor,
+        k_factor=k_fac,
+        natural_frequency=np.where(ok, fn, np.nan),
+        converged=ok,
+        transmissibility=trans,
+        amplification=amplification,
+        loss_factor_at_resonance=eta_fn,
+        isolation_onset=np.where(ok, mount.isolation_onset_frequency(fn_safe), np.nan),
+        static_deflection=deflection,
+        static_strain=deflection / h,
+        sag=sag,
+        sag_strain=sag / h,
+        strain_limit=limit,
+        extrapolated=extrap,
+        notes=notes,
+    )

@@ -1,0 +1,566 @@
+"""Ranking: constraints, scores, Pareto flags and one-line reasons for every grade.
+
+The score of a passing grade is a weighted sum of log10 index values, each signed by its
+direction of merit: score = sum_i w_i s_i log10(v_i) / sum_i w_i with s_i = +1 where
+higher is better and -1 where lower is better. On log scales the order does not depend
+on the units or on which other grades are present, so adding a grade never reorders the
+others, and raising a weight never lowers the grade that is best on that index. For
+display the score is mapped to 0-100 over the passing grades.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from engine import __version__
+from engine.bank import CurveBank
+from engine.errors import CriteriaError
+from engine.indices import (
+    AGGREGATES,
+    BUILT_IN,
+    IndexSpec,
+    aggregate,
+    custom_index,
+    damping_span,
+    resolve,
+)
+from engine.mastercurve import MasterCurve
+from engine.mountcheck import MountDesign, MountResult, check_mounts
+from engine.store import Material
+from engine.window import OperatingWindow, WindowProps, evaluate_window
+
+DESIGN_TYPES = ("isolation_mount", "damping_layer", "general")
+DEFAULT_INDICES = {
+    "isolation_mount": [("loss_factor", 1.0, "worst"), ("frequency_drift", 1.0, "worst")],
+    "damping_layer": [("loss_modulus", 1.0, "worst"), ("damping_span", 1.0, "worst")],
+    "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
+}
+LOG_FLOOR = 1e-12  # values at or below zero are scored as this (a damping span of 0 K)
+
+
+@dataclass(frozen=True)
+class IndexChoice:
+    name: str
+    weight: float = 1.0
+    aggregate: str = "worst"
+    formula: str | None = None  # custom index when given
+    higher_is_better: bool = True
+
+    def spec(self) -> IndexSpec:
+        if self.formula is not None:
+            return custom_index(self.name, self.formula, self.higher_is_better)
+        return resolve(self.name)
+
+
+@dataclass(frozen=True)
+class Constraints:
+    """Limits a grade must meet; None switches a limit off. Units: degC, MPa, Hz, -."""
+
+    service_covers_window: bool = True
+    hardness_range: tuple[float, float] | None = None
+    max_price: float | None = None
+    min_loss_factor: float | None = None  # worst case over the window
+    max_transmissibility: float | None = None  # at the disturbance, worst case
+    fn_range_Hz: tuple[float, float] | None = None
+    max_static_strain: float | None = None  # None: the layout's common-practice limit
+    allow_extrapolation: bool = False
+
+    def to_dict(self) -> dict:
+        return {k: (list(v) if isinstance(v, tuple) else v) for k, v in self.__dict__.items()}
+
+    @classmethod
+    def from_dict(cls, data: dict) -> Constraints:
+        known = set(cls.__dataclass_fields__)
+        unknown = set(data) - known
+        if unknown:
+            raise CriteriaError(
+                f"unknown constraint(s) {', '.join(sorted(unknown))}; known: "
+                + ", ".join(sorted(known))
+            )
+        d = dict(data)
+        for key in ("hardness_range", "fn_range_Hz"):
+            if d.get(key) is not None:
+                lo, hi = (float(v) for v in d[key])
+                if lo > hi:
+                    raise CriteriaError(f"{key} {lo:g} to {hi:g} is inverted")
+                d[key] = (lo, hi)
+        return cls(**d)
+
+
+@dataclass(frozen=True)
+class Criteria:
+    """Everything a ranking depends on; saved and loaded as the criteria file."""
+
+    window: OperatingWindow = field(default_factory=OperatingWindow)
+    design: str = "isolation_mount"
+    indices: tuple[IndexChoice, ...] = ()
+    constraints: Constraints = field(default_factory=Constraints)
+    mount: MountDesign | None = None
+    pareto: tuple[str, str] | None = None
+    eta_threshold: float = 0.2  # for the damping temperature span
+
+    def __post_init__(self) -> None:
+        if self.design not in DESIGN_TYPES:
+            raise CriteriaError(
+                f"design type '{self.design}' is not one of {', '.join(DESIGN_TYPES)}"
+            )
+        if not self.indices:
+            object.__setattr__(
+                self,
+                "indices",
+                tuple(IndexChoice(n, w, a) for n, w, a in DEFAULT_INDICES[self.design]),
+            )
+        names = [c.name for c in self.indices]
+        if len(set(names)) != len(names):
+            raise CriteriaError("an index is chosen twice")
+        for c in self.indices:
+            if c.aggregate not in AGGREGATES:
+                raise CriteriaError(
+                    f"index '{c.name}': unknown aggregation '{c.aggregate}'; use one of "
+                    + ", ".join(AGGREGATES)
+                )
+            if not (math.isfinite(c.weight) and c.weight >= 0):
+                raise CriteriaError(f"index '{c.name}': weight must be a number >= 0")
+            c.spec()  # unknown names and bad formulas fail here
+            if c.aggregate == "weighted" and not self.window.duty_points:
+                raise CriteriaError(
+                    f"index '{c.name}': the 'weighted' aggregation needs duty points"
+                )
+        if sum(c.weight for c in self.indices) <= 0:
+            raise CriteriaError("at least one index needs a weight above zero")
+        if self.pareto is not None:
+            for p in self.pareto:
+                if p not in names:
+                    raise CriteriaError(f"Pareto index '{p}' is not among the chosen indices")
+        if self.eta_threshold <= 0:
+            raise CriteriaError("loss-factor threshold must be positive")
+        if self.mount is None and (
+            self.constraints.max_transmissibility is not None
+            or self.constraints.fn_range_Hz is not None
+        ):
+            raise CriteriaError("transmissibility and fn limits need a mount design")
+
+    def to_dict(self) -> dict:
+        return {
+            "window": self.window.to_dict(),
+            "design": self.design,
+            "indices": [
+                {
+                    "name": c.name,
+                    "weight": c.weight,
+                    "aggregate": c.aggregate,
+                    **(
+                        {"formula": c.formula, "higher_is_better": c.higher_is_better}
+                        if c.formula is not None
+                        else {}
+                    ),
+                }
+                for c in self.indices
+            ],
+            "constraints": self.constraints.to_dict(),
+            "mount": None if self.mount is None else self.mount.to_dict(),
+            "pareto": None if self.pareto is None else list(self.pareto),
+            "eta_threshold": self.eta_threshold,
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict) -> Criteria:
+        if not isinstance(data, dict):
+            raise CriteriaError("criteria must be a mapping of settings")
+        known = {"window", "design", "indices", "constraints", "mount", "pareto", "eta_threshold"}
+        unknown = set(data) - known
+        if unknown:
+            raise CriteriaError(
+                f"unknown criteria setting(s) {', '.join(sorted(unknown))}; known: "
+                + ", ".join(sorted(known))
+            )
+        try:
+            indices = tuple(
+                IndexChoice(
+                    name=str(c["name"]),
+                    weight=float(c.get("weight", 1.0)),
+                    aggregate=str(c.get("aggregate", "worst")),
+                    formula=c.get("formula"),
+                    higher_is_better=bool(c.get("higher_is_better", True)),
+                )
+                for c in data.get("indices", [])
+            )
+        except (KeyError, TypeError, ValueError, AttributeError) as exc:
+            raise CriteriaError(f"bad index entry: {exc}") from None
+        mount = data.get("mount")
+        pareto = data.get("pareto")
+        return cls(
+            window=OperatingWindow.from_dict(data.get("window", {})),
+            design=str(data.get("design", "isolation_mount")),
+            indices=indices,
+            constraints=Constraints.from_dict(data.get("constraints", {})),
+            mount=None if mount is None else MountDesign.from_dict(mount),
+            pareto=None if pareto is None else tuple(pareto),
+            eta_threshold=float(data.get("eta_threshold", 0.2)),
+        )
+
+    def save(self, path: str | Path) -> None:
+        Path(path).write_text(json.dumps(self.to_dict(), indent=1))
+
+    @classmethod
+    def load(cls, path: str | Path) -> Criteria:
+        p = Path(path)
+        if not p.exists():
+            raise CriteriaError(f"{p}: file not found")
+        text = p.read_text(encoding="utf-8-sig")
+        try:
+            data = tomllib.loads(text) if p.suffix.lower() == ".toml" else json.loads(text)
+        except (json.JSONDecodeError, tomllib.TOMLDecodeError) as exc:
+            raise CriteriaError(
+                f"{p}: not valid {'TOML' if p.suffix == '.toml' else 'JSON'}: {exc}"
+            ) from None
+        try:
+            return cls.from_dict(data)
+        except CriteriaError as exc:
+            raise CriteriaError(f"{p}: {exc}") from None
+
+
+@dataclass
+class Failure:
+    constraint: str
+    value: float | str
+    limit: str
+
+    def text(self) -> str:
+        return f"{self.constraint} {self.value} (needs {self.limit})"
+
+
+@dataclass
+class GradeResult:
+    id: str
+    name: str
+    supplier: str | None
+    family: str | None
+    price: float | None
+    density: float | None
+    passed: bool
+    failures: list[Failure]
+    indices: dict[str, float]  # aggregated index values (display units, see IndexSpec)
+    score: float | None = None  # 0-100 over the passing grades
+    raw_score: float | None = None
+    rank: int | None = None
+    pareto: bool = False
+    extrapolated: bool = False
+    reason: str = ""
+    mount: dict | None = None
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class RankResult:
+    criteria: Criteria
+    grades: list[GradeResult]  # passing in rank order, then excluded by id
+    specs: dict[str, IndexSpec]
+    window_props: WindowProps
+    mount: MountResult | None
+    created_at: str
+    engine_version: str = __version__
+    fit_errors: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def shortlist(self) -> list[GradeResult]:
+        return [g for g in self.grades if g.passed]
+
+    @property
+    def excluded(self) -> list[GradeResult]:
+        return [g for g in self.grades if not g.passed]
+
+
+def _quantities(props: WindowProps, materials: list[Material], duty: bool) -> dict:
+    """Named quantities of engine.indices at the window grid or the duty points.
+
+    Arrays have shape (grades, points); moduli in MPa (see engine.indices).
+    """
+    g = len(props.ids)
+    to_shear = (props.shear_storage[:, 0, 0] / props.storage[:, 0, 0])[:, None]
+    if duty:
+        storage, loss = props.duty_storage, props.duty_loss
+        temps = np.broadcast_to(props.duty_temperatures, storage.shape)
+        freqs = np.broadcast_to(props.duty_frequencies, storage.shape)
+    else:
+        storage = props.storage.reshape(g, -1)
+        loss = props.loss.reshape(g, -1)
+        tt, ff = np.meshgrid(props.temperatures, props.frequencies, indexing="ij")
+        temps = np.broadcast_to(tt.ravel(), storage.shape)
+        freqs = np.broadcast_to(ff.ravel(), storage.shape)
+
+    def column(name):
+        return np.array(
+            [np.nan if getattr(m, name) is None else float(getattr(m, name)) for m in materials]
+        )[:, None]
+
+    return {
+        "loss_factor": loss / storage,
+        "storage_modulus": storage / 1e6,
+        "loss_modulus": loss / 1e6,
+        "shear_modulus": storage * to_shear / 1e6,
+        "density": column("density"),
+        "price": column("price"),
+        "hardness": column("hardness"),
+        "temperature": temps,
+        "frequency": freqs,
+    }
+
+
+def _fmt(v: float) -> str:
+    if v is None or not np.isfinite(v):
+        return "unknown"
+    a = abs(v)
+    if a != 0 and (a >= 1e4 or a < 1e-2):
+        return f"{v:.3g}"
+    return f"{v:.3g}" if a < 100 else f"{v:.0f}"
+
+
+def rank(
+    curves: dict[str, MasterCurve],
+    materials: dict[str, Material],
+    criteria: Criteria,
+    fit_errors: dict[str, str] | None = None,
+    bank: CurveBank | None = None,
+) -> RankResult:
+    """Evaluate, constrain, score and order every grade with a master curve.
+
+    ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
+    """
+    ids = [i for i in curves if i in materials]
+    if bank is None or bank.ids != ids:
+        bank = CurveBank.from_curves({i: curves[i] for i in ids})
+    mats = [materials[i] for i in ids]
+    n = len(ids)
+    window = criteria.window
+    poisson = np.array([np.nan if m.poisson_ratio is None else m.poisson_ratio for m in mats])
+    hardness = np.array([np.nan if m.hardness is None else m.hardness for m in mats])
+    props = evaluate_window(bank, window, poisson)
+    specs = {c.name: c.spec() for c in criteria.indices}
+
+    # -- index values per grade -------------------------------------------------------
+    values: dict[str, np.ndarray] = {}
+    has_duty = bool(window.duty_points)
+    q_grid = _quantities(props, mats, duty=False)
+    q_duty = _quantities(props, mats, duty=True) if has_duty else None
+    for c in criteria.indices:
+        spec = specs[c.name]
+        if spec.kind == "point":
+            # With duty points the point indices are taken at the duty points.
+            q = q_duty if has_duty else q_grid
+            with np.errstate(all="ignore"):
+                v = np.broadcast_to(np.asarray(spec.point(q), dtype=float), q["loss_factor"].shape)
+            values[c.name] = aggregate(v, c.aggregate, spec.higher_is_better, props.duty_share)
+        elif c.name in ("stiffness_drift", "frequency_drift"):
+            e = props.storage.reshape(n, -1)
+            drift = e.max(axis=1) / e.min(axis=1)
+            values[c.name] = drift if c.name == "stiffness_drift" else np.sqrt(drift)
+        elif c.name == "damping_span":
+            eta_path = props.path_loss / props.path_storage
+            values[c.name] = damping_span(props.path_temperatures, eta_path, criteria.eta_threshold)
+        else:  # pragma: no cover - every window index is handled above
+            raise CriteriaError(f"index '{c.name}' has no evaluation")
+    extrap_any = props.extrapolated.reshape(n, -1).any(axis=1)
+    if has_duty:
+        extrap_any |= props.duty_extrapolated.any(axis=1)
+
+    # -- mount check -----------------------------------------------------------------
+    mres = None
+    if criteria.mount is not None:
+        mres = check_mounts(bank, criteria.mount, window.temperatures, poisson, hardness)
+
+    # -- constraints -----------------------------------------------------------------
+    con = criteria.constraints
+    lo_t, hi_t = window.temp_range
+    eta_worst = (props.loss / props.storage).reshape(n, -1).min(axis=1)
+    results: list[GradeResult] = []
+    for k, m in enumerate(mats):
+        fails: list[Failure] = []
+        if con.service_covers_window:
+            smin, smax = m.service_min, m.service_max
+            if smin is None or smax is None:
+                fails.append(
+                    Failure("service range", "unknown", f"to cover {lo_t:g} to {hi_t:g} degC")
+                )
+            elif smin > lo_t or smax < hi_t:
+                fails.append(
+                    Failure(
+                        "service range",
+                        f"{smin:g} to {smax:g} degC",
+                        f"to cover {lo_t:g} to {hi_t:g} degC",
+                    )
+                )
+        if con.hardness_range is not None:
+            a, b = con.hardness_range
+            if m.hardness is None:
+                fails.append(Failure("hardness", "unknown", f"{a:g}-{b:g} Shore A"))
+            elif not a <= m.hardness <= b:
+                fails.append(Failure("hardness", f"{m.hardness:g} Shore A", f"{a:g}-{b:g} Shore A"))
+        if con.max_price is not None:
+            if m.price is None:
+                fails.append(Failure("price", "unknown", f"<= {con.max_price:g} per kg"))
+            elif m.price > con.max_price:
+                fails.append(
+                    Failure("price", f"{m.price:g} per kg", f"<= {con.max_price:g} per kg")
+                )
+        if con.min_loss_factor is not None and eta_worst[k] < con.min_loss_factor:
+            fails.append(
+                Failure("worst-case loss factor", _fmt(eta_worst[k]), f">= {con.min_loss_factor:g}")
+            )
+        if not con.allow_extrapolation and extrap_any[k]:
+            fails.append(
+                Failure(
+                    "extrapolation",
+                    "the window reaches beyond the measured data",
+                    "not allowed",
+                )
+            )
+        for name, spec in specs.items():
+            missing = [f for f in spec.needs if getattr(m, f) is None]
+            if missing or not np.isfinite(values[name][k]):
+                fails.append(
+                    Failure(f"index {name}", "unknown", "needs " + (", ".join(missing) or "data"))
+                )
+        mount_figs = None
+        if mres is not None:
+            mount_figs = mres.grade(k)
+            fn = mres.natural_frequency[k]
+            if not np.isfinite(fn).all():
+                fails.append(Failure("natural frequency", "not found", "a root in 1 mHz-100 kHz"))
+            if con.fn_range_Hz is not None and np.isfinite(fn).any():
+                a, b = con.fn_range_Hz
+                if np.nanmin(fn) < a or np.nanmax(fn) > b:
+                    fails.append(
+                        Failure(
+                            "natural frequency",
+                            f"{np.nanmin(fn):.3g} to {np.nanmax(fn):.3g} Hz",
+                            f"{a:g} to {b:g} Hz",
+                        )
+                    )
+            if con.max_transmissibility is not None:
+                worst_t = float(np.nanmax(mres.transmissibility[k]))
+                if worst_t > con.max_transmissibility:
+                    fails.append(
+                        Failure(
+                            "transmissibility at the disturbance",
+                            _fmt(worst_t),
+                            f"<= {con.max_transmissibility:g}",
+                        )
+                    )
+            limit = (
+                con.max_static_strain if con.max_static_strain is not None else mres.strain_limit
+            )
+            strain = max(float(np.nanmax(mres.static_strain[k])), float(mres.sag_strain[k]))
+            if not strain <= limit:
+                fails.append(
+                    Failure("static strain incl. long-term sag", _fmt(strain), f"<= {limit:g}")
+                )
+            if not con.allow_extrapolation and mres.extrapolated[k].any():
+                if not any(f.constraint == "extrapolation" for f in fails):
+                    fails.append(
+                        Failure(
+                            "extrapolation",
+                            "the mount check leaves the measured data",
+                            "not allowed",
+                        )
+                    )
+        notes = list(curves[m.id].notes)
+        if mres is not None:
+            notes += mres.notes.get(m.id, [])
+        results.append(
+            GradeResult(
+                id=m.id,
+                name=m.name,
+                supplier=m.supplier,
+                family=m.family,
+                price=m.price,
+                density=m.density,
+                passed=not fails,
+                failures=fails,
+                indices={name: float(values[name][k]) for name in specs},
+                extrapolated=bool(extrap_any[k]),
+                mount=mount_figs,
+                notes=notes,
+            )
+        )
+
+    # -- scores, order, Pareto, reasons -------------------------------------------------
+    weights = {c.name: c.weight for c in criteria.indices}
+    total_w = sum(weights.values())
+    passing = [r for r in results if r.passed]
+    for r in passing:
+        s = 0.0
+        for name, spec in specs.items():
+            v = max(r.indices[name], LOG_FLOOR)
+            s += weights[name] * (1 if spec.higher_is_better else -1) * math.log10(v)
+        r.raw_score = s / total_w
+    first = criteria.indices[0].name
+
+    def order_key(r: GradeResult):
+        v = r.indices[first] * (1 if specs[first].higher_is_better else -1)
+        return (-r.raw_score, -v, r.price if r.price is not None else math.inf, r.id)
+
+    passing.sort(key=order_key)
+    if passing:
+        hi_s = passing[0].raw_score
+        lo_s = passing[-1].raw_score
+        for i, r in enumerate(passing, start=1):
+            r.rank = i
+            r.score = 100.0 if hi_s == lo_s else 100.0 * (r.raw_score - lo_s) / (hi_s - lo_s)
+    if criteria.pareto is not None and passing:
+        a, b = criteria.pareto
+        sa = 1 if specs[a].higher_is_better else -1
+        sb = 1 if specs[b].higher_is_better else -1
+        pts = np.array([[sa * r.indices[a], sb * r.indices[b]] for r in passing])
+        for i, r in enumerate(passing):
+            dominated = np.any(np.all(pts >= pts[i], axis=1) & np.any(pts > pts[i], axis=1))
+            r.pareto = not bool(dominated)
+    for r in passing:
+        r.reason = _reason(r, passing, specs, weights)
+    excluded = sorted((r for r in results if not r.passed), key=lambda r: r.id)
+    for r in excluded:
+        r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
+    return RankResult(
+        criteria=criteria,
+        grades=passing + excluded,
+        specs=specs,
+        window_props=props,
+        mount=mres,
+        created_at=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+        fit_errors=dict(fit_errors or {}),
+    )
+
+
+def _reason(r: GradeResult, passing: list[GradeResult], specs, weights) -> str:
+    """One line: where the grade stands and which index carried it."""
+    parts = []
+    best_on = []
+    for name, spec in specs.items():
+        vals = [p.indices[name] for p in passing]
+        best = max(vals) if spec.higher_is_better else min(vals)
+        if r.indices[name] == best and len(passing) > 1:
+            best_on.append(spec.label)
+    if best_on:
+        parts.append("best " + " and ".join(best_on))
+    def figure(n):
+        unit = "" if specs[n].unit in ("-", "") else " " + specs[n].unit
+        return f"{specs[n].label} {_fmt(r.indices[n])}{unit}"
+
+    shown = [figure(n) for n in sorted(specs, key=lambda n: -weights[n])[:2]]
+    parts.append(", ".join(shown))
+    if r.pareto:
+        parts.append("Pareto-optimal")
+    if r.extrapolated:
+        parts.append("uses extrapolated data")
+    return f"rank {r.rank} of {len(passing)}: " + "; ".join(parts) + "; meets every constraint"
+
+
+def built_in_indices() -> dict[str, IndexSpec]:
+    return dict(BUILT_IN)

@@ -1,0 +1,222 @@
+"""The operating window: where in temperature and frequency a grade must perform.
+
+A window is a temperature range with a step and a log-spaced frequency band, or a list
+of duty points (temperature, frequency, share of service time). :func:`evaluate_window`
+gives every grade's properties at every window point in one vectorised pass.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from engine.bank import CurveBank
+from engine.errors import CriteriaError
+from engine.units import ABSOLUTE_ZERO_C
+
+DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
+
+
+@dataclass(frozen=True)
+class DutyPoint:
+    temperature_C: float
+    frequency_Hz: float
+    share: float  # share of service time, any positive weights (normalised)
+
+
+@dataclass(frozen=True)
+class OperatingWindow:
+    """Temperatures [degC] x frequencies [Hz], or duty points.
+
+    ``design_frequency_Hz`` is the frequency at which temperature paths are drawn and the
+    damping temperature span is measured; by default the geometric mean of the band.
+    """
+
+    temp_range: tuple[float, float] = (-20.0, 60.0)
+    temp_step: float = 5.0
+    freq_range: tuple[float, float] = (5.0, 200.0)
+    freq_points: int = 13
+    duty_points: tuple[DutyPoint, ...] = field(default_factory=tuple)
+    design_frequency_Hz: float | None = None
+
+    def __post_init__(self) -> None:
+        lo, hi = self.temp_range
+        if not (np.isfinite(lo) and np.isfinite(hi)):
+            raise CriteriaError("window temperatures must be numbers")
+        if lo > hi:
+            raise CriteriaError(f"temperature range {lo:g} to {hi:g} degC is inverted")
+        if lo < ABSOLUTE_ZERO_C:
+            raise CriteriaError(f"temperature {lo:g} degC is below absolute zero")
+        if self.temp_step <= 0:
+            raise CriteriaError("temperature step must be positive")
+        flo, fhi = self.freq_range
+        if flo <= 0 or fhi <= 0:
+            raise CriteriaError("frequencies must be positive")
+        if flo > fhi:
+            raise CriteriaError(f"frequency range {flo:g} to {fhi:g} Hz is inverted")
+        if self.freq_points < 1:
+            raise CriteriaError("the frequency band needs at least one point")
+        if (hi - lo) / self.temp_step > 2000:
+            raise CriteriaError("temperature step too fine: more than 2000 temperatures")
+        if self.freq_points > 500:
+            raise CriteriaError("more than 500 frequencies in the band")
+        for p in self.duty_points:
+            if p.share < 0 or p.frequency_Hz <= 0 or p.temperature_C < ABSOLUTE_ZERO_C:
+                raise CriteriaError(
+                    "duty points need a temperature above absolute zero, a positive "
+                    "frequency and a non-negative share"
+                )
+        if self.duty_points and sum(p.share for p in self.duty_points) <= 0:
+            raise CriteriaError("duty-point shares add up to zero")
+        if self.design_frequency_Hz is not None and self.design_frequency_Hz <= 0:
+            raise CriteriaError("design frequency must be positive")
+
+    @property
+    def temperatures(self) -> np.ndarray:
+        lo, hi = self.temp_range
+        n = int(np.floor((hi - lo) / self.temp_step + 1e-9)) + 1
+        t = lo + self.temp_step * np.arange(n)
+        return t if np.isclose(t[-1], hi) else np.append(t, hi)
+
+    @property
+    def frequencies(self) -> np.ndarray:
+        lo, hi = self.freq_range
+        if self.freq_points == 1 or lo == hi:
+            return np.array([np.sqrt(lo * hi)])
+        return np.logspace(np.log10(lo), np.log10(hi), self.freq_points)
+
+    @property
+    def design_frequency(self) -> float:
+        if self.design_frequency_Hz is not None:
+            return float(self.design_frequency_Hz)
+        return float(np.sqrt(self.freq_range[0] * self.freq_range[1]))
+
+    def to_dict(self) -> dict:
+        return {
+            "temp_range": list(self.temp_range),
+            "temp_step": self.temp_step,
+            "freq_range": list(self.freq_range),
+            "freq_points": self.freq_points,
+            "duty_points": [
+                {"temp_C": p.temperature_C, "freq_Hz": p.frequency_Hz, "share": p.share}
+                for p in self.duty_points
+            ],
+            "design_frequency_Hz": self.design_frequency_Hz,
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict) -> OperatingWindow:
+        known = {
+            "temp_range",
+            "temp_step",
+            "freq_range",
+            "freq_points",
+            "duty_points",
+            "design_frequency_Hz",
+        }
+        unknown = set(data) - known
+        if unknown:
+            raise CriteriaError(
+                f"unknown window setting(s) {', '.join(sorted(unknown))}; known: "
+                + ", ".join(sorted(known))
+            )
+        try:
+            duty = tuple(
+                DutyPoint(float(p["temp_C"]), float(p["freq_Hz"]), float(p.get("share", 1.0)))
+                for p in data.get("duty_points", [])
+            )
+            return cls(
+                temp_range=tuple(float(v) for v in data.get("temp_range", (-20.0, 60.0))),
+                temp_step=float(data.get("temp_step", 5.0)),
+                freq_range=tuple(float(v) for v in data.get("freq_range", (5.0, 200.0))),
+                freq_points=int(data.get("freq_points", 13)),
+                duty_points=duty,
+                design_frequency_Hz=(
+                    None
+                    if data.get("design_frequency_Hz") is None
+                    else float(data["design_frequency_Hz"])
+                ),
+            )
+        except (KeyError, TypeError, ValueError) as exc:
+            raise CriteriaError(f"bad window setting: {exc}") from None
+
+
+@dataclass
+class WindowProps:
+    """Every grade's properties over the window.
+
+    Arrays have shape (grades, temperatures, frequencies); ``duty_*`` arrays have shape
+    (grades, duty points) when the window has duty points. Moduli are tensile-equivalent
+    E' and E'' [Pa] (shear data converted with E = 2(1+nu)G), and shear G' [Pa].
+    """
+
+    ids: list[str]
+    temperatures: np.ndarray
+    frequencies: np.ndarray
+    storage: np.ndarray
+    loss: np.ndarray
+    shear_storage: np.ndarray
+    extrapolated: np.ndarray
+    duty_storage: np.ndarray | None = None
+    duty_loss: np.ndarray | None = None
+    duty_extrapolated: np.ndarray | None = None
+    duty_share: np.ndarray | None = None
+    duty_temperatures: np.ndarray | None = None
+    duty_frequencies: np.ndarray | None = None
+    path_temperatures: np.ndarray | None = None  # fine grid at the design frequency
+    path_storage: np.ndarray | None = None
+    path_loss: np.ndarray | None = None
+    path_extrapolated: np.ndarray | None = None
+
+    @property
+    def loss_factor(self) -> np.ndarray:
+        return self.loss / self.storage
+
+
+def tensile_factor(modes, poisson) -> np.ndarray:
+    """Factor that turns each grade's own modulus into a tensile one: 1 or 2(1 + nu)."""
+    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)
+    return np.where(np.asarray(modes) == "shear", 2.0 * (1.0 + nu), 1.0)
+
+
+def evaluate_window(
+    bank: CurveBank, window: OperatingWindow, poisson: np.ndarray, path_step: float = 1.0
+) -> WindowProps:
+    """Properties of all grades of ``bank`` over ``window`` in one pass.
+
+    ``poisson`` holds each grade's Poisson ratio (NaN: 0.5) for the E <-> G conversion.
+    """
+    t = window.temperatures
+    f = window.frequencies
+    storage, loss, extrap = bank.evaluate(t[:, None], f[None, :])
+    to_e = tensile_factor(bank.modes, poisson)[:, None, None]
+    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)[:, None, None]
+    storage_e, loss_e = storage * to_e, loss * to_e
+    props = WindowProps(
+        ids=list(bank.ids),
+        temperatures=t,
+        frequencies=f,
+        storage=storage_e,
+        loss=loss_e,
+        shear_storage=storage_e / (2.0 * (1.0 + nu)),
+        extrapolated=extrap,
+    )
+    if window.duty_points:
+        dt = np.array([p.temperature_C for p in window.duty_points])
+        df = np.array([p.frequency_Hz for p in window.duty_points])
+        s, l, x = bank.evaluate(dt, df)
+        props.duty_storage = s * to_e[:, :, 0]
+        props.duty_loss = l * to_e[:, :, 0]
+        props.duty_extrapolated = x
+        share = np.array([p.share for p in window.duty_points])
+        props.duty_share = share / share.sum()
+        props.duty_temperatures, props.duty_frequencies = dt, df
+    lo, hi = window.temp_range
+    pt = np.arange(lo, hi + path_step / 2, path_step) if hi > lo else np.array([lo])
+    s, l, x = bank.evaluate(pt, window.design_frequency)
+    props.path_temperatures = pt
+    props.path_storage = s * to_e[:, :, 0]
+    props.path_loss = l * to_e[:, :, 0]
+    props.path_extrapolated = x
+    return props
