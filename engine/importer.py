@@ -491,3 +491,57 @@ def looks_like_catalog(table: RawTable) -> bool:
     """True when a table has the catalog's required columns and no sweep columns."""
     names = set(_columns(table))
     return set(CATALOG_REQUIRED) <= names and "storage_modulus" not in names
+
+
+# -- arbitrary instrument exports ---------------------------------------------------------
+
+SWEEP_TARGETS = ("temperature", "frequency", "storage_modulus", "loss_factor", "loss_modulus")
+
+
+def map_columns(
+    table: RawTable,
+    mapping: dict[str, str],
+    units: dict[str, str],
+    material_id: str | None = None,
+) -> RawTable:
+    """Turn an instrument export into a sweep table of the import format.
+
+    Parameters
+    ----------
+    table : RawTable
+        The export as read by :func:`read_table`.
+    mapping : dict
+        Target name (one of :data:`SWEEP_TARGETS` or ``"material"``) -> header in the
+        export. Temperature, frequency, storage modulus and one of loss factor or loss
+        modulus are needed.
+    units : dict
+        Target name -> unit of that column (``loss_factor`` needs none).
+    material_id : str, optional
+        Grade id for every row when the export has no material column.
+
+    Returns
+    -------
+    RawTable with canonical headers such as ``temperature [degC]``; validate it with
+    :func:`parse_sweeps` as any sweep file.
+    """
+    headers = set(table.headers)
+    for target, header in mapping.items():
+        if target not in (*SWEEP_TARGETS, "material"):
+            raise InputError(f"unknown target '{target}'", file=table.file)
+        if header not in headers:
+            raise InputError(f"no column '{header}' in the file", file=table.file)
+    if "material" not in mapping and not material_id:
+        raise InputError("choose the material column or give a grade id", file=table.file)
+    columns = {}
+    if "material" in mapping:
+        columns["material"] = table.frame[mapping["material"]]
+    else:
+        columns["material"] = pd.Series([material_id] * table.frame.shape[0], dtype=str)
+    for target in SWEEP_TARGETS:
+        if target not in mapping:
+            continue
+        head = target if target == "loss_factor" else f"{target} [{units.get(target, '')}]"
+        columns[head] = table.frame[mapping[target]].reset_index(drop=True)
+    columns["material"] = columns["material"].reset_index(drop=True)
+    frame = pd.DataFrame(columns)
+    return RawTable(table.file, list(frame.columns), frame, table.sha256, table.size_bytes)
