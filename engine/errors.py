@@ -62,3 +62,12 @@ class LibraryError(QuietgradeError):
 
 class FitError(QuietgradeError):
     """A master curve cannot be built from the data at hand."""
+
+
+def reject_unknown(data: dict, known, what: str) -> None:
+    """Raise CriteriaError naming any keys of ``data`` outside ``known``."""
+    unknown = set(data) - set(known)
+    if unknown:
+        raise CriteriaError(
+            f"unknown {what} {', '.join(sorted(unknown))}; known: {', '.join(sorted(known))}"
+        )

@@ -14,7 +14,7 @@ import numpy as np
 
 from engine import mount
 from engine.bank import CurveBank
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, reject_unknown
 from engine.window import DEFAULT_POISSON
 
 LAYOUTS = ("shear", "compression")
@@ -81,12 +81,7 @@ class MountDesign:
     @classmethod
     def from_dict(cls, data: dict) -> MountDesign:
         known = set(cls.__dataclass_fields__)
-        unknown = set(data) - known
-        if unknown:
-            raise CriteriaError(
-                f"unknown mount setting(s) {', '.join(sorted(unknown))}; known: "
-                + ", ".join(sorted(known))
-            )
+        reject_unknown(data, known, "mount setting(s)")
         data = dict(data)
         if "disturbance_Hz" in data:
             d = data["disturbance_Hz"]

@@ -21,7 +21,7 @@ import numpy as np
 
 from engine import __version__
 from engine.bank import CurveBank
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, reject_unknown
 from engine.indices import (
     AGGREGATES,
     BUILT_IN,
@@ -78,12 +78,7 @@ class Constraints:
     @classmethod
     def from_dict(cls, data: dict) -> Constraints:
         known = set(cls.__dataclass_fields__)
-        unknown = set(data) - known
-        if unknown:
-            raise CriteriaError(
-                f"unknown constraint(s) {', '.join(sorted(unknown))}; known: "
-                + ", ".join(sorted(known))
-            )
+        reject_unknown(data, known, "constraint(s)")
         d = dict(data)
         for key in ("hardness_range", "fn_range_Hz"):
             if d.get(key) is not None:
@@ -175,12 +170,7 @@ class Criteria:
         if not isinstance(data, dict):
             raise CriteriaError("criteria must be a mapping of settings")
         known = {"window", "design", "indices", "constraints", "mount", "pareto", "eta_threshold"}
-        unknown = set(data) - known
-        if unknown:
-            raise CriteriaError(
-                f"unknown criteria setting(s) {', '.join(sorted(unknown))}; known: "
-                + ", ".join(sorted(known))
-            )
+        reject_unknown(data, known, "criteria setting(s)")
         try:
             indices = tuple(
                 IndexChoice(
@@ -549,6 +539,7 @@ def _reason(r: GradeResult, passing: list[GradeResult], specs, weights) -> str:
             best_on.append(spec.label)
     if best_on:
         parts.append("best " + " and ".join(best_on))
+
     def figure(n):
         unit = "" if specs[n].unit in ("-", "") else " " + specs[n].unit
         return f"{specs[n].label} {_fmt(r.indices[n])}{unit}"

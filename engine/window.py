@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from engine.bank import CurveBank
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, reject_unknown
 from engine.units import ABSOLUTE_ZERO_C
 
 DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
@@ -115,12 +115,7 @@ class OperatingWindow:
             "duty_points",
             "design_frequency_Hz",
         }
-        unknown = set(data) - known
-        if unknown:
-            raise CriteriaError(
-                f"unknown window setting(s) {', '.join(sorted(unknown))}; known: "
-                + ", ".join(sorted(known))
-            )
+        reject_unknown(data, known, "window setting(s)")
         try:
             duty = tuple(
                 DutyPoint(float(p["temp_C"]), float(p["freq_Hz"]), float(p.get("share", 1.0)))
