@@ -155,6 +155,10 @@ def cmd_fit(args) -> int:
         f"  residuals: rms log E' {q['rms_log_storage']:.4f}, rms log tan d "
         f"{q['rms_log_loss_factor']:.4f}"
     )
+    for label in ("1 h", "1000 h"):
+        r = data["relaxation_modulus"][label]
+        flag = " (extrapolated)" if r["extrapolated"] else ""
+        lines.append(f"  relaxation modulus at {label}: {r['modulus_MPa']:.4g} MPa{flag}")
     lines += [f"  note: {n}" for n in curve.notes]
     _emit(args, data, lines)
     return 0

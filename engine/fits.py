@@ -6,9 +6,11 @@ grade is refitted only when its data, the engine or the options change.
 
 from __future__ import annotations
 
+import hashlib
 import os
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
+from pathlib import Path
 
 import numpy as np
 
@@ -18,10 +20,17 @@ from engine.store import Library
 
 Progress = Callable[[int, int], None]
 
+# The fit code itself is part of the cache key, so that a change to the fitting
+# chain refits even where the version number was not raised.
+_FIT_MODULES = ("shift.py", "prony.py", "transitions.py", "mastercurve.py", "units.py")
+FIT_FINGERPRINT = hashlib.sha256(
+    b"".join((Path(__file__).parent / name).read_bytes() for name in _FIT_MODULES)
+).hexdigest()[:12]
+
 
 def options_key(reference_C: float | None = None, vertical_shift: bool = False) -> str:
     ref = "auto" if reference_C is None else f"{float(reference_C):.3f}"
-    return f"ref={ref};vertical={int(bool(vertical_shift))}"
+    return f"ref={ref};vertical={int(bool(vertical_shift))};code={FIT_FINGERPRINT}"
 
 
 def _fit_one(args) -> tuple[str, dict | str]:
@@ -144,6 +153,7 @@ def summary(curve: MasterCurve) -> dict:
         "measured_temperature_range_C": list(curve.temperature_range),
         "residuals": curve.quality,
         "prony_terms": int(np.count_nonzero(curve.prony.weights)),
+        "relaxation_modulus": relaxation_summary(curve),
         "notes": curve.notes,
     }
     if law.kind in ("WLF", "WLF+Arrhenius"):
@@ -159,4 +169,27 @@ def summary(curve: MasterCurve) -> dict:
             {"law": "Arrhenius", "below_C": law.split_C},
             {"law": "WLF", "from_C": law.split_C},
         ]
+    return out
+
+
+DESIGN_TIMES_S = {"1 h": 3600.0, "1000 h": 3.6e6}
+
+
+def relaxation_summary(curve: MasterCurve, temperature_C: float | None = None) -> dict:
+    """Relaxation modulus at 1 h and 1000 h, the times design data sheets quote.
+
+    At ``temperature_C`` (default: the reference temperature), in MPa, with the flag
+    ``extrapolated`` where 1/(2 pi t) falls outside the covered reduced frequencies.
+    """
+    t = curve.reference_C if temperature_C is None else float(temperature_C)
+    out = {"temp_C": t, "mode": curve.mode}
+    lo, hi = curve.log_fr_range
+    for label, seconds in DESIGN_TIMES_S.items():
+        value = float(curve.relaxation_modulus(seconds, t))
+        log_fr = np.log10(1.0 / (2.0 * np.pi * seconds)) + float(curve.log_shift(t))
+        out[label] = {
+            "time_s": seconds,
+            "modulus_MPa": value / 1e6,
+            "extrapolated": bool(log_fr < lo or log_fr > hi),
+        }
     return out
