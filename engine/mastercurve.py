@@ -17,8 +17,9 @@ from engine.shift import ShiftResult, shift_isotherms, split_isotherms
 from engine.transitions import TG_METHODS, glass_transition, regions, secondary_transition
 from engine.units import c_to_k
 
-# Which Tg divides the WLF and Arrhenius regions, in order of preference: the storage
-# onset lies nearest the calorimetric Tg the WLF constants refer to (common practice).
+# Candidate glass transitions dividing the WLF and Arrhenius regions; the one whose law
+# fits the pairwise shifts best is used (the storage onset lies nearest the calorimetric
+# Tg the WLF constants refer to, the loss peaks above it: common practice).
 SPLIT_METHODS = ("storage_onset", "loss_modulus_peak", "loss_factor_peak")
 GLASSY_MODULUS = {"tensile": 300e6, "shear": 100e6}  # [Pa], common practice
 DEFAULT_REFERENCE_FALLBACK_C = 20.0
@@ -277,9 +278,8 @@ def build_master_curve(
         notes.append(f"1 Hz lies outside the measured frequencies: Tg reported at {f_tg:g} Hz")
     tg = transitions_at(t_curve, e_curve, eta_curve, f_tg)
     by_method = {r["method"]: r for r in tg}
-    split = next(
-        (by_method[m]["temperature_C"] for m in SPLIT_METHODS if by_method[m]["reached"]), None
-    )
+    candidates = [by_method[m]["temperature_C"] for m in SPLIT_METHODS if by_method[m]["reached"]]
+    split = candidates[0] if candidates else None
     glassy = bool(e_curve.size and np.median(e_curve) > GLASSY_MODULUS[mode])
 
     if reference_C is None:
@@ -297,7 +297,8 @@ def build_master_curve(
     if vertical_shift:
         storage *= c_to_k(reference_C) / c_to_k(points[:, 0])
         isotherms = split_isotherms(points[:, 0], points[:, 1], storage, points[:, 3])
-    shift = shift_isotherms(isotherms, reference_C, split, glassy)
+    shift = shift_isotherms(isotherms, reference_C, candidates or [None], glassy)
+    split = shift.law.split_C if shift.law.split_C is not None else split
     notes.extend(shift.notes)
     notes.extend(shift.law.notes)
 

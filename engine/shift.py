@@ -206,7 +206,7 @@ class PairShift:
 MIN_OVERLAP_POINTS = 3
 ILL_DETERMINED_SIGMA = 0.25  # decades; common practice threshold of this project
 MAX_OVERLAP_RMS = 0.1  # decades: a best overlap worse than this is no overlap at all
-OUTLIER_DECADES = 0.3  # a pair further than 3 sigma + this from the law is rejected
+OUTLIER_DECADES = 0.5  # a pair further than 3 sigma + this from the law is rejected
 _NOISE_FLOOR = 0.003  # log10 units, floor on the residual scatter used for sigma
 _GRID_STEP = 0.01  # decades
 
@@ -449,10 +449,40 @@ def fit_shift_law(
     return ShiftLaw(**{**law.to_dict(), "rms": rms, "notes": tuple(notes)})
 
 
+def _best_law(pairs, reference, splits, glassy_without_transition) -> ShiftLaw:
+    """The law over the candidate split temperatures that fits the pairwise shifts best.
+
+    Candidates come in order of preference; a later one is taken only when its robust
+    misfit is clearly lower (by more than 2, or 10 %), so that pairs left undetermined do
+    not decide the split.
+    """
+    fitted, errors = [], []
+    for split in splits:
+        try:
+            law = fit_shift_law(pairs, reference, split, glassy_without_transition)
+        except FitError as exc:
+            errors.append(exc)
+            continue
+        good = [p for p in pairs if p.status == "ok"]
+        resid = np.array(
+            [
+                (p.delta - float(law.log_shift(p.upper) - law.log_shift(p.lower)))
+                / max(p.sigma, 0.005)
+                for p in good
+            ]
+        )
+        fitted.append((float(np.sum(np.log1p(resid**2))), law))
+    if not fitted:
+        raise errors[0]
+    best_cost = min(cost for cost, _ in fitted)
+    tolerance = max(2.0, 0.1 * best_cost)
+    return next(law for cost, law in fitted if cost <= best_cost + tolerance)
+
+
 def shift_isotherms(
     isotherms: list[Isotherm],
     reference: float,
-    split: float | None,
+    split: float | None | list[float],
     glassy_without_transition: bool = False,
 ) -> ShiftResult:
     """Shift factors of all isotherms to ``reference`` and the law fitted to them.
@@ -460,7 +490,11 @@ def shift_isotherms(
     Pairwise shifts of neighbouring isotherms (:func:`pair_shift`) are summed from the
     reference isotherm outwards. A pair that does not overlap, or whose shift is
     ill-determined (flat curves), is bridged with the fitted shift law and flagged.
+    ``split`` may be a list of candidate glass transitions (for instance Tg by several
+    methods); the one whose WLF/Arrhenius law fits the pairwise shifts best is used.
     """
+    splits = split if isinstance(split, list | tuple) else [split]
+    splits = splits or [None]
     temps = np.array([iso.temperature for iso in isotherms])
     if temps.size < 2:
         law = ShiftLaw("none", reference, notes=("single isotherm: no superposition",))
@@ -471,7 +505,7 @@ def shift_isotherms(
         for p in pairs
         if p.status != "ok"
     ]
-    law = fit_shift_law(pairs, reference, split, glassy_without_transition)
+    law = _best_law(pairs, reference, splits, glassy_without_transition)
     # Reject pairs that disagree with the law fitted to all the others (aliasing on flat
     # curves can lock a pair onto a false overlap), then refit once.
     outliers = []
@@ -491,7 +525,7 @@ def shift_isotherms(
                 f"isotherms {p.lower:g} and {p.upper:g} degC: overlap shift {p.delta:.2f} "
                 "disagrees with the shift law, bridged with the law"
             )
-        law = fit_shift_law(pairs, reference, split, glassy_without_transition)
+        law = _best_law(pairs, reference, splits, glassy_without_transition)
     steps = np.empty(len(pairs))
     bridged_step = np.zeros(len(pairs), bool)
     for i, p in enumerate(pairs):
