@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import least_squares
+from scipy.optimize import minimize_scalar
 
 from engine.errors import FitError
 from engine.units import c_to_k
@@ -190,8 +190,7 @@ class PairShift:
 
     ``delta`` = log aT(upper) - log aT(lower) (negative when superposition holds).
     ``sigma`` is its standard error [decades]; ``overlap`` the number of points compared.
-    ``status``: "ok", "no overlap", "ill-determined" or "inconsistent" (rejected against
-    the law fitted to the other pairs).
+    ``status``: "ok", "no overlap" or "ill-determined" (flat or ambiguous overlap).
     """
 
     lower: float
@@ -206,7 +205,8 @@ class PairShift:
 MIN_OVERLAP_POINTS = 3
 ILL_DETERMINED_SIGMA = 0.25  # decades; common practice threshold of this project
 MAX_OVERLAP_RMS = 0.1  # decades: a best overlap worse than this is no overlap at all
-OUTLIER_DECADES = 0.5  # a pair further than 3 sigma + this from the law is rejected
+AMBIGUITY_DECADES = 0.3  # two overlap minima this far apart make a pair ill-determined
+ROBUST_PASSES = 3  # iteratively reweighted passes of the shift-law fit
 _NOISE_FLOOR = 0.003  # log10 units, floor on the residual scatter used for sigma
 _GRID_STEP = 0.01  # decades
 
@@ -236,6 +236,27 @@ def _pair_cost(lower: Isotherm, upper: Isotherm, deltas: np.ndarray):
     return cost, n
 
 
+def _ambiguous(deltas: np.ndarray, cost: np.ndarray) -> bool:
+    """True when a second, distinct local minimum of the overlap cost nearly ties the best.
+
+    Flat or wavy isotherms can overlap almost equally well at two shifts; such a pair
+    says little about the shift and is left to the law.
+    """
+    finite = np.isfinite(cost)
+    if finite.sum() < 3:
+        return False
+    c = np.where(finite, cost, np.inf)
+    inner = (c[1:-1] <= c[:-2]) & (c[1:-1] <= c[2:]) & finite[1:-1]
+    minima = np.flatnonzero(inner) + 1
+    if minima.size < 2:
+        return False
+    order = minima[np.argsort(c[minima])]
+    best, second = order[0], order[1:]
+    far = np.abs(deltas[second] - deltas[best]) > AMBIGUITY_DECADES
+    close = c[second] <= 2.0 * c[best] + _NOISE_FLOOR**2
+    return bool(np.any(far & close))
+
+
 def pair_shift(lower: Isotherm, upper: Isotherm) -> PairShift:
     """Horizontal shift of ``upper`` onto ``lower`` by least-squares overlap.
 
@@ -261,6 +282,7 @@ def pair_shift(lower: Isotherm, upper: Isotherm) -> PairShift:
             lower.temperature, upper.temperature, np.nan, np.inf, 0, np.nan, "no overlap"
         )
     best = coarse[np.argmin(cost)]
+    ambiguous = _ambiguous(coarse, cost)
     fine = np.arange(best - 0.06, best + 0.06 + 1e-12, _GRID_STEP / 5)
     fine = fine[fine <= 0.05 + 1e-12]
     cost_f, n_f = _pair_cost(lower, upper, fine)
@@ -278,7 +300,7 @@ def pair_shift(lower: Isotherm, upper: Isotherm) -> PairShift:
     sigma = float(np.sqrt(2 * s2 / s_pp)) if s_pp > 0 else np.inf
     if np.sqrt(cmin) > MAX_OVERLAP_RMS:
         status = "no overlap"
-    elif sigma > ILL_DETERMINED_SIGMA:
+    elif sigma > ILL_DETERMINED_SIGMA or ambiguous:
         status = "ill-determined"
     else:
         status = "ok"
@@ -374,8 +396,11 @@ def fit_shift_law(
     The law is fitted to the measured pairwise differences log aT(T_upper) - log aT(T_lower)
     rather than to accumulated shifts, so an error in one pair does not carry into the
     others. WLF (Williams, Landel & Ferry 1955) is parametrised at the lower end of its
-    region, Arrhenius below Tg is anchored to it at Tg so the law is continuous. The
-    least-squares fit uses scipy.optimize.least_squares with bounds 0.5 <= C1 <= 100,
+    region, Arrhenius below Tg is anchored to it at Tg so the law is continuous. With C2
+    fixed the law is linear in C1 and Ea, so the weighted least-squares fit is a linear
+    solve (numpy.linalg.lstsq, clipped to the bounds) inside a scalar search over log C2
+    by scipy.optimize.minimize_scalar (variable projection; Golub & Pereyra 1973).
+    Bounds: 0.5 <= C1 <= 100,
     5 K <= C2 <= 2000 K, 1 kJ/mol <= Ea <= 2000 kJ/mol.
     """
     good = [p for p in pairs if p.status == "ok"]
@@ -403,49 +428,98 @@ def fit_shift_law(
             f"only {len(good)} well-determined isotherm pair(s): too few to fit a {kind} law"
         )
 
-    def raw(t, params):
-        # The same piecewise law as ShiftLaw._raw, without building objects per call.
-        if kind == "Arrhenius":
-            return arrhenius_log_shift(t, params[0] * 1e3, reference)
-        wlf = wlf_log_shift(t, params[0], params[1], wlf_ref)
-        if kind == "WLF":
-            return wlf
-        at_split = wlf_log_shift(split, params[0], params[1], wlf_ref)
-        return np.where(t >= split, wlf, at_split + arrhenius_log_shift(t, params[2] * 1e3, split))
+    inv_k = 1.0 / (LN10 * GAS_CONSTANT)
 
-    def model(params):
-        return raw(hi, params) - raw(lo, params)
+    def design(c2):
+        """Columns of the law, linear in (C1, Ea [kJ/mol]) once C2 is fixed."""
+
+        def columns(t):
+            cols = []
+            if kind != "Arrhenius":
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    g = (t - wlf_ref) / (c2 + t - wlf_ref)
+                if kind == "WLF+Arrhenius":
+                    g = np.where(t >= split, g, 0.0)  # g(split) = 0: WLF is referred to it
+                cols.append(-g)
+            if kind != "WLF":
+                anchor = reference if kind == "Arrhenius" else split
+                x = 1e3 * inv_k * (1.0 / c_to_k(t) - 1.0 / c_to_k(anchor))
+                if kind == "WLF+Arrhenius":
+                    x = np.where(t >= split, 0.0, x)
+                cols.append(x)
+            return np.column_stack(cols)
+
+        return columns(hi) - columns(lo)
 
     if kind == "WLF":
-        x0, lb, ub = [WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2], [0.5, 5.0], [100.0, 2000.0]
+        lb, ub = [0.5], [100.0]
     elif kind == "Arrhenius":
-        x0, lb, ub = [150.0], [1.0], [2000.0]
+        lb, ub = [1.0], [2000.0]
     else:
-        x0, lb, ub = (
-            [WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2, 150.0],
-            [0.5, 5.0, 1.0],
-            [
-                100.0,
-                2000.0,
-                2000.0,
-            ],
-        )
+        lb, ub = [0.5, 1.0], [100.0, 2000.0]
+
+    def solve(c2):
+        """Weighted least squares in (C1, Ea) for fixed C2, clipped to the bounds."""
+        a = design(c2) * weight[:, None]
+        y = delta * weight
+        lower, upper = np.array(lb), np.array(ub)
+        x = np.linalg.lstsq(a, y, rcond=None)[0]
+        clipped = np.clip(x, lower, upper)
+        if a.shape[1] == 2 and not np.array_equal(clipped, x):
+            # Fix the parameter that left its range and solve for the other alone.
+            fixed = int(np.argmax(np.abs(x - clipped)))
+            free = 1 - fixed
+            rest = y - a[:, fixed] * clipped[fixed]
+            col = a[:, free]
+            denom = float(col @ col)
+            value = float(col @ rest) / denom if denom > 0 else clipped[free]
+            clipped[free] = np.clip(value, lower[free], upper[free])
+        r = a @ clipped - y
+        return clipped, float(r @ r)
+
+    c2_bounds = None
     if kind != "Arrhenius":
         # WLF must stay finite over the temperatures it is used at.
         t_min = float(lo.min()) if split is None else max(float(lo.min()), split)
-        lb[1] = max(lb[1], wlf_ref - t_min + 1.0)
-        x0[1] = max(x0[1], lb[1] + 1.0)
-
-    def resid(params):
-        return (model(params) - delta) * weight
-
-    sol = least_squares(resid, x0, bounds=(lb, ub), method="trf", x_scale="jac", loss="soft_l1")
+        c2_lo = max(5.0, wlf_ref - t_min + 1.0)
+        c2_bounds = (np.log(c2_lo), np.log(2000.0))
+    base_weight = weight.copy()
+    for _ in range(ROBUST_PASSES):
+        if c2_bounds is not None:
+            # Coarse scan, then a bounded scalar search around the best point.
+            grid = np.linspace(*c2_bounds, 17)
+            costs = [solve(np.exp(g))[1] for g in grid]
+            k = int(np.argmin(costs))
+            a, b = grid[max(k - 1, 0)], grid[min(k + 1, grid.size - 1)]
+            found = minimize_scalar(
+                lambda g: solve(np.exp(g))[1],
+                bounds=(a, b),
+                method="bounded",
+                options={"xatol": 1e-3},
+            )
+            c2 = float(np.exp(found.x))
+        else:
+            c2 = None
+        lin, _ = solve(c2)
+        # Soft-L1 reweighting (iteratively reweighted least squares): a pair far from
+        # the law, such as one straddling the glass transition, counts less.
+        r = (design(c2) @ lin - delta) * base_weight
+        weight = base_weight / np.sqrt(np.sqrt(1.0 + r**2))
+    if kind == "WLF":
+        params = [lin[0], c2]
+    elif kind == "Arrhenius":
+        params = [lin[0]]
+    else:
+        params = [lin[0], c2, lin[1]]
     notes = []
-    at_bound = np.isclose(sol.x, lb, rtol=1e-4) | np.isclose(sol.x, ub, rtol=1e-4)
+    at_bound = np.isclose(lin, lb, rtol=1e-4) | np.isclose(lin, ub, rtol=1e-4)
+    if c2 is not None:
+        at_bound = np.append(at_bound, np.isclose(np.log(c2), c2_bounds, atol=2e-3).any())
     if at_bound.any():
         notes.append("shift-law fit stopped at a parameter bound; treat its constants with care")
-    law = _law_from_params(kind, sol.x, reference, split, wlf_ref)
-    rms = float(np.sqrt(np.mean((model(sol.x) - delta) ** 2))) if delta.size else float("nan")
+    law = _law_from_params(kind, params, reference, split, wlf_ref)
+    model = law._raw(hi) - law._raw(lo)
+    rms = float(np.sqrt(np.mean((model - delta) ** 2))) if delta.size else float("nan")
     return ShiftLaw(**{**law.to_dict(), "rms": rms, "notes": tuple(notes)})
 
 
@@ -506,26 +580,6 @@ def shift_isotherms(
         if p.status != "ok"
     ]
     law = _best_law(pairs, reference, splits, glassy_without_transition)
-    # Reject pairs that disagree with the law fitted to all the others (aliasing on flat
-    # curves can lock a pair onto a false overlap), then refit once.
-    outliers = []
-    for i, p in enumerate(pairs):
-        if p.status != "ok":
-            continue
-        expected = float(law.log_shift(p.upper) - law.log_shift(p.lower))
-        if abs(p.delta - expected) > 3.0 * p.sigma + OUTLIER_DECADES:
-            outliers.append(i)
-    if outliers:
-        for i in outliers:
-            p = pairs[i]
-            pairs[i] = PairShift(
-                p.lower, p.upper, p.delta, p.sigma, p.overlap, p.mismatch, "inconsistent"
-            )
-            notes.append(
-                f"isotherms {p.lower:g} and {p.upper:g} degC: overlap shift {p.delta:.2f} "
-                "disagrees with the shift law, bridged with the law"
-            )
-        law = _best_law(pairs, reference, splits, glassy_without_transition)
     steps = np.empty(len(pairs))
     bridged_step = np.zeros(len(pairs), bool)
     for i, p in enumerate(pairs):
