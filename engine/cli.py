@@ -377,7 +377,7 @@ def cmd_rank(args) -> int:
     if args.out:
         from engine.export import write_shortlist
 
-        write_shortlist(result, args.out, lib)
+        write_shortlist(result, args.out, lib, curves)
     rows = []
     for g in result.grades:
         rows.append(

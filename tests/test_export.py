@@ -1,0 +1,390 @@
+"""Shortlist export: CSV, XLSX and HTML read back, escaping, dispatch and the CLI.
+
+Most checks compare an export with the ranking it came from (no outside value applies to
+a file layout); property values are checked against the master curve itself.
+"""
+
+import dataclasses
+import html
+import io
+import json
+import os
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import openpyxl
+import pandas as pd
+import plotly.colors
+import pytest
+
+from engine.caution import CAUTION
+from engine.cli import main
+from engine.errors import CriteriaError
+from engine.export import (
+    EXTENSIONS,
+    PALETTE,
+    map_figure,
+    report_html,
+    shortlist_csv,
+    shortlist_rows,
+    shortlist_xlsx,
+    window_properties,
+    write_shortlist,
+)
+from engine.fits import fit_library
+from engine.mountcheck import MountDesign
+from engine.ranking import Constraints, Criteria, rank
+from engine.window import OperatingWindow, tensile_factor
+
+ROOT = Path(__file__).resolve().parent.parent
+SHEETS = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]
+MARKUP = "<script>alert(1)</script> & co"
+
+
+@pytest.fixture(scope="module")
+def demo(demo_library):
+    curves, errors = fit_library(demo_library, processes=1)
+    assert not errors
+    materials = {m.id: m for m in demo_library.materials()}
+    return demo_library, curves, materials
+
+
+def _criteria(**window):
+    return Criteria(
+        window=OperatingWindow(temp_range=(-20.0, 45.0), freq_range=(10.0, 100.0), **window),
+        mount=MountDesign(thickness_mm=25, target_fn_Hz=10.0),
+        constraints=Constraints(max_transmissibility=1.0, allow_extrapolation=True),
+        pareto=("loss_factor", "frequency_drift"),
+    )
+
+
+@pytest.fixture(scope="module")
+def ranked(demo):
+    lib, curves, materials = demo
+    result = rank(curves, materials, _criteria())
+    # The criteria are chosen so that both tables of the export have rows.
+    assert len(result.shortlist) >= 2 and len(result.excluded) >= 2
+    return result
+
+
+def _with_markup(result):
+    """The same result with markup in a passing and an excluded grade's texts."""
+    grades = list(result.grades)
+    first = result.grades.index(result.shortlist[0])
+    last = result.grades.index(result.excluded[-1])
+    grades[first] = dataclasses.replace(grades[first], name=MARKUP, supplier="<b>Acme</b>")
+    grades[last] = dataclasses.replace(grades[last], name=MARKUP, notes=["<i>note</i>"])
+    return dataclasses.replace(result, grades=grades)
+
+
+# -- rows ----------------------------------------------------------------------------------
+def test_rows_one_per_grade_in_rank_order(ranked):
+    rows = shortlist_rows(ranked)
+    assert [r["id"] for r in rows] == [g.id for g in ranked.grades]
+    n = len(ranked.shortlist)
+    assert [r["rank"] for r in rows[:n]] == list(range(1, n + 1))
+    assert all(r["passed"] == "pass" for r in rows[:n])
+    assert all(r["passed"] == "fail" and r["rank"] is None for r in rows[n:])
+    assert all(r["failed constraints"] for r in rows[n:])
+    for name in ("loss_factor (worst) [-]", "frequency_drift (window) [-]", "fn min [Hz]"):
+        assert name in rows[0]
+    scores = [r["score"] for r in rows[:n]]
+    assert scores == sorted(scores, reverse=True) and scores[0] == 100.0
+
+
+def test_mount_columns_follow_the_mount_check(ranked):
+    # Consistency with the mount check's own arrays: fn range over the window
+    # temperatures, worst transmissibility over temperatures and disturbances.
+    m = ranked.mount
+    for row in shortlist_rows(ranked):
+        k = m.ids.index(row["id"])
+        fn = m.natural_frequency[k]
+        assert row["fn min [Hz]"] == pytest.approx(np.nanmin(fn), rel=1e-12)
+        assert row["fn max [Hz]"] == pytest.approx(np.nanmax(fn), rel=1e-12)
+        worst = np.nanmax(m.transmissibility[k])
+        assert row["worst transmissibility [-]"] == pytest.approx(worst, rel=1e-12)
+        assert row["max static strain [-]"] == pytest.approx(np.nanmax(m.static_strain[k]))
+        assert row["long-term sag [mm]"] == pytest.approx(m.sag[k] * 1e3, rel=1e-12)
+        assert row["pad area [mm2]"] == pytest.approx(m.area[k] * 1e6, rel=1e-12)
+
+
+def test_no_mount_columns_without_a_mount(demo):
+    lib, curves, materials = demo
+    result = rank(curves, materials, Criteria(constraints=Constraints(allow_extrapolation=True)))
+    row = shortlist_rows(result)[0]
+    assert "pad area [mm2]" not in row and "fn min [Hz]" not in row
+    assert row["pareto"] is None  # no Pareto pair chosen
+
+
+# -- CSV -----------------------------------------------------------------------------------
+def test_csv_reads_back_with_pandas(ranked):
+    data = shortlist_csv(ranked)
+    assert data.startswith(b"\xef\xbb\xbf")  # UTF-8 byte-order mark
+    df = pd.read_csv(io.BytesIO(data), comment="#", encoding="utf-8-sig")
+    rows = shortlist_rows(ranked)
+    assert list(df.columns) == list(rows[0])
+    assert len(df) == len(ranked.grades)
+    assert list(df["id"]) == [g.id for g in ranked.grades]
+    n = len(ranked.shortlist)
+    assert list(df["rank"][:n].astype(int)) == list(range(1, n + 1))
+    assert df["rank"][n:].isna().all()
+    # Numbers are written to 6 significant figures.
+    np.testing.assert_allclose(df["score"][:n], [g.score for g in ranked.shortlist], rtol=5e-6)
+    lines = data.decode("utf-8-sig").strip().splitlines()
+    assert lines[-1] == f"# caution: {CAUTION}"
+    assert lines[-2].startswith(f"# quietgrade {ranked.engine_version}, ranked ")
+
+
+def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):
+    grades = list(ranked.grades)
+    grades[0] = dataclasses.replace(
+        grades[0], name='Batch #7, "soft"', supplier="=HYPERLINK(1)", family="-x"
+    )
+    result = dataclasses.replace(ranked, grades=grades)
+    df = pd.read_csv(io.BytesIO(shortlist_csv(result)), comment="#", encoding="utf-8-sig")
+    assert len(df) == len(ranked.grades)
+    assert df["name"][0] == 'Batch #7, "soft"'
+    # A leading quote keeps a spreadsheet from running the cell (common practice).
+    assert df["supplier"][0] == "'=HYPERLINK(1)" and df["family"][0] == "'-x"
+    # In the workbook the text is stored as text, unchanged.
+    wb = openpyxl.load_workbook(io.BytesIO(shortlist_xlsx(result)))
+    header = [c.value for c in wb["Shortlist"][2]]
+    cell = wb["Shortlist"].cell(row=3, column=header.index("supplier") + 1)
+    assert cell.value == "=HYPERLINK(1)" and cell.data_type == "s"
+
+
+def test_csv_lists_grades_that_could_not_be_ranked(ranked):
+    result = dataclasses.replace(ranked, fit_errors={"XX-1": "too few\npoints"})
+    text = shortlist_csv(result).decode("utf-8-sig")
+    assert "# not ranked, master curve failed: XX-1: too few points\r\n" in text
+    assert text.rstrip().endswith(CAUTION)
+
+
+# -- XLSX ----------------------------------------------------------------------------------
+def test_xlsx_sheets_layout_and_caution(ranked, demo):
+    wb = openpyxl.load_workbook(io.BytesIO(shortlist_xlsx(ranked, demo[0])))
+    assert wb.sheetnames == SHEETS
+    for name in SHEETS:
+        ws = wb[name]
+        assert ws.freeze_panes == "A3"
+        assert ws["A2"].font.bold
+        assert ws.column_dimensions["A"].width >= 9
+    assert CAUTION in wb["Shortlist"]["A1"].value
+    assert CAUTION in wb["Criteria"]["A1"].value
+
+
+def test_xlsx_reads_back_with_pandas(ranked, demo):
+    lib = demo[0]
+    data = shortlist_xlsx(ranked, lib)
+    sheets = pd.read_excel(io.BytesIO(data), sheet_name=None, header=1)
+    short = sheets["Shortlist"]
+    assert list(short["id"]) == [g.id for g in ranked.shortlist]
+    assert list(short["rank"]) == list(range(1, len(ranked.shortlist) + 1))
+    excluded = sheets["Excluded"]
+    assert len(excluded) == sum(len(g.failures) for g in ranked.excluded)
+    first = ranked.excluded[0].failures[0]
+    assert excluded["constraint"][0] == first.constraint
+    assert excluded["limit needed"][0] == first.limit
+    window = sheets["Window properties"]
+    assert len(window) == len(ranked.grades) * len(ranked.window_props.temperatures)
+    crit = sheets["Criteria"].set_index("setting")["value"]
+    assert float(crit["highest temperature [degC]"]) == 45.0
+    assert float(crit["lowest frequency [Hz]"]) == 10.0
+    assert crit["design type"] == "isolation_mount"
+    assert crit["quietgrade version"] == ranked.engine_version
+    prov = sheets["Provenance"]
+    imports = prov[prov["record"] == "library import"]
+    assert list(imports["sha256"]) == [i["sha256"] for i in lib.imports()]
+    assert list(imports["size [bytes]"]) == [i["size_bytes"] for i in lib.imports()]
+    used = prov[prov["record"] == "data set used"].set_index("grade id")
+    assert list(used.index) == [g.id for g in ranked.grades]
+    for g in ranked.grades:
+        newest = lib.datasets(g.id)[-1]
+        assert used.loc[g.id, "sha256"] == newest.sha256
+        assert used.loc[g.id, "points"] == newest.n_points
+
+
+def test_xlsx_without_library_says_so(ranked):
+    wb = openpyxl.load_workbook(io.BytesIO(shortlist_xlsx(ranked)))
+    ws = wb["Provenance"]
+    assert "No library was given" in ws["A1"].value
+    assert ws.max_row == 2  # note and header only
+
+
+def _check_against_master_curves(result, demo, freq, storage, loss, atol_rel):
+    _, curves, materials = demo
+    temps = result.window_props.temperatures
+    for k, gid in enumerate(result.window_props.ids):
+        curve, m = curves[gid], materials[gid]
+        nu = np.array([np.nan if m.poisson_ratio is None else m.poisson_ratio])
+        to_e = tensile_factor(np.array([curve.mode]), nu)[0]
+        p = curve.evaluate(temps, freq)
+        np.testing.assert_allclose(storage[k], p.storage_modulus * to_e, rtol=atol_rel)
+        np.testing.assert_allclose(loss[k] / storage[k], p.loss_factor, rtol=atol_rel)
+
+
+@pytest.mark.parametrize("step", [5.0, 2.5])
+def test_window_properties_match_the_master_curves(ranked, demo, step):
+    # Integer steps lie on the 1 K path, 2.5 K steps are read from the window grid
+    # (the default design frequency is the middle band point). Both agree with
+    # MasterCurve.evaluate to the bank's tabulation (0.05-decade steps, ~1e-3).
+    lib, curves, materials = demo
+    result = ranked if step == 5.0 else rank(curves, materials, _criteria(temp_step=step))
+    freq, storage, loss, extrap, note = window_properties(result)
+    assert freq == pytest.approx(np.sqrt(10.0 * 100.0), rel=1e-12)
+    assert ("temperature path" if step == 5.0 else "window grid") in note
+    assert storage.shape == (len(result.grades), len(result.window_props.temperatures))
+    _check_against_master_curves(result, demo, freq, storage, loss, 3e-3)
+
+
+def test_window_properties_interpolate_between_path_points(demo):
+    # Design frequency off the band and temperatures off the 1 K path: linear
+    # interpolation in log10 modulus, so a midpoint is the geometric mean.
+    lib, curves, materials = demo
+    result = rank(curves, materials, _criteria(temp_step=2.5, design_frequency_Hz=30.0))
+    freq, storage, loss, extrap, note = window_properties(result)
+    assert freq == 30.0 and "interpolated" in note
+    props = result.window_props
+    i = int(np.flatnonzero(props.temperatures == -17.5)[0])
+    j = int(np.flatnonzero(props.path_temperatures == -18.0)[0])
+    neighbours = props.path_storage[:, j : j + 2]
+    np.testing.assert_allclose(storage[:, i], np.sqrt(neighbours.prod(axis=1)), rtol=1e-12)
+    either = props.path_extrapolated[:, j] | props.path_extrapolated[:, j + 1]
+    np.testing.assert_array_equal(extrap[:, i], either)
+
+
+def test_window_properties_without_a_path_use_the_nearest_band_frequency(ranked):
+    props = dataclasses.replace(ranked.window_props, path_storage=None, path_loss=None)
+    window = dataclasses.replace(ranked.criteria.window, design_frequency_Hz=30.0)
+    criteria = dataclasses.replace(ranked.criteria, window=window)
+    result = dataclasses.replace(ranked, window_props=props, criteria=criteria)
+    freq, storage, _, _, note = window_properties(result)
+    bands = props.frequencies
+    assert freq == bands[np.argmin(np.abs(np.log10(bands / 30.0)))]
+    assert "nearest the design frequency" in note
+    j = int(np.flatnonzero(bands == freq)[0])
+    np.testing.assert_array_equal(storage, props.storage[:, :, j])
+
+
+# -- HTML ----------------------------------------------------------------------------------
+def test_html_is_self_contained_with_the_caution(ranked, demo):
+    text = report_html(ranked, demo[0], demo[1])
+    assert "<title>quietgrade shortlist</title>" in text
+    assert html.escape(CAUTION) in text and 'class="caution"' in text
+    assert not re.search(r"<script[^>]*\bsrc\s*=", text, re.IGNORECASE)
+    assert not re.search(r"<link[^>]*\bhref\s*=\s*[\"']?https?:", text, re.IGNORECASE)
+    # Plotly's script once, inline, and one plot per figure (map and curves).
+    assert text.count("* plotly.js v") == 1
+    assert text.count('class="plotly-graph-div"') == 2
+    for g in ranked.shortlist:
+        assert html.escape(g.reason) in text
+    for g in ranked.excluded:
+        for f in g.failures:
+            assert f"{html.escape(f.constraint)}: {html.escape(str(f.value))}" in text
+            assert f"(needs {html.escape(f.limit)})" in text
+    assert "Provenance" in text and demo[0].imports()[0]["sha256"] in text
+
+
+def test_html_escapes_text_from_data(ranked, demo):
+    result = _with_markup(ranked)
+    text = report_html(result, demo[0], demo[1])
+    assert MARKUP not in text and "<script>alert" not in text
+    assert html.escape(MARKUP) in text
+    assert "<b>Acme</b>" not in text and "&lt;b&gt;Acme&lt;/b&gt;" in text
+    assert "<i>note</i>" not in text
+    # Chart labels and hover texts carry the escaped form too.
+    labels = []
+    for trace in map_figure(result).data:
+        labels += [trace.name, trace.hovertemplate]
+    assert any("&lt;script&gt;alert(1)&lt;/script&gt; &amp; co" in s for s in labels)
+    assert not any("<script>" in s or "<b>" in s for s in labels)
+
+
+def test_palette_is_our_own(ranked):
+    assert len(PALETTE) == 12 and len({c.lower() for c in PALETTE}) == 12
+    defaults = (
+        plotly.colors.qualitative.Plotly
+        + plotly.colors.qualitative.D3
+        + plotly.colors.qualitative.T10
+        + plotly.colors.qualitative.G10
+    )
+    assert not {c.lower() for c in PALETTE} & {c.lower() for c in defaults}
+    fig = map_figure(ranked)
+    first = next(t for t in fig.data if t.name.startswith("1. "))
+    assert first.line.color == PALETTE[0]
+    greys = [t for t in fig.data if t.legendgroup == "excluded"]
+    assert len(greys) == 2 * len(ranked.excluded)
+
+
+# -- files ---------------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    ("name", "magic"),
+    [("list.csv", b"\xef\xbb\xbf"), ("list.XLSX", b"PK"), ("list.Html", b"<!DOCTYPE html>")],
+)
+def test_write_shortlist_dispatches_on_the_extension(ranked, demo, tmp_path, name, magic):
+    target = tmp_path / "new" / "folder" / name
+    out = write_shortlist(ranked, target, demo[0])
+    assert out == target and target.read_bytes().startswith(magic)
+
+
+@pytest.mark.parametrize(
+    ("name", "shown"), [("list.pdf", r"'\.pdf'"), ("list", "no extension"), ("a.csv.txt", "txt")]
+)
+def test_write_shortlist_rejects_other_extensions(ranked, tmp_path, name, shown):
+    assert EXTENSIONS == (".csv", ".xlsx", ".html")
+    with pytest.raises(
+        CriteriaError, match=shown + r".*accepted extensions: \.csv, \.xlsx, \.html"
+    ):
+        write_shortlist(ranked, tmp_path / "sub" / name)
+    assert not (tmp_path / "sub").exists()
+
+
+# -- command line --------------------------------------------------------------------------
+def test_cli_rank_writes_a_workbook(tmp_path, monkeypatch, capsys):
+    # The library is loaded by the CLI's own demo command (in this process, to save an
+    # interpreter start); the ranking and the export run as a separate process.
+    monkeypatch.setenv("QUIETGRADE_DB", str(tmp_path / "lib.sqlite"))
+    assert main(["demo"]) == 0
+    assert "demo library loaded" in capsys.readouterr().out
+    env = {**os.environ, "QUIETGRADE_DB": str(tmp_path / "lib.sqlite")}
+    run = [sys.executable, "-m", "engine"]
+    mount = tmp_path / "mount.json"
+    mount.write_text(json.dumps({"thickness_mm": 25, "target_fn_Hz": 10.0}))
+    out = tmp_path / "out" / "shortlist.xlsx"
+    ranked = subprocess.run(
+        [
+            *run,
+            "rank",
+            "--temp-range",
+            "-20",
+            "45",
+            "--freq-range",
+            "10",
+            "100",
+            "--allow-extrapolation",
+            "--mount",
+            str(mount),
+            "--max-transmissibility",
+            "1",
+            "--json",
+            "--out",
+            str(out),
+        ],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert ranked.returncode == 0, ranked.stderr
+    data = json.loads(ranked.stdout)
+    wb = openpyxl.load_workbook(out)
+    assert wb.sheetnames == SHEETS
+    short = pd.read_excel(out, sheet_name="Shortlist", header=1)
+    assert list(short["id"]) == [r["id"] for r in data["shortlist"]]
+    assert "pad area [mm2]" in short.columns
+    excluded = pd.read_excel(out, sheet_name="Excluded", header=1)
+    assert len(excluded) == sum(len(r["failures"]) for r in data["excluded"])
