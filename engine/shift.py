@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from engine.errors import FitError
 from engine.units import c_to_k
@@ -398,8 +397,8 @@ def fit_shift_law(
     others. WLF (Williams, Landel & Ferry 1955) is parametrised at the lower end of its
     region, Arrhenius below Tg is anchored to it at Tg so the law is continuous. With C2
     fixed the law is linear in C1 and Ea, so the weighted least-squares fit is a linear
-    solve (numpy.linalg.lstsq, clipped to the bounds) inside a scalar search over log C2
-    by scipy.optimize.minimize_scalar (variable projection; Golub & Pereyra 1973).
+    solve (normal equations, bounds enforced) inside a search over log C2 by nested
+    grids refined to 1e-4 in log C2 (variable projection; Golub & Pereyra 1973).
     Bounds: 0.5 <= C1 <= 100,
     5 K <= C2 <= 2000 K, 1 kJ/mol <= Ea <= 2000 kJ/mol.
     """
@@ -430,52 +429,79 @@ def fit_shift_law(
 
     inv_k = 1.0 / (LN10 * GAS_CONSTANT)
 
+    def wlf_column(t, c2):
+        """d log aT / d C1 at temperatures t for each C2 of the array c2: shape (K, n)."""
+        c2 = np.asarray(c2, dtype=float)[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g = (t - wlf_ref) / (c2 + t - wlf_ref)
+        if kind == "WLF+Arrhenius":
+            g = np.where(t >= split, g, 0.0)  # g(split) = 0: WLF is referred to the split
+        return -g
+
+    def arrhenius_column(t):
+        anchor = reference if kind == "Arrhenius" else split
+        x = 1e3 * inv_k * (1.0 / c_to_k(t) - 1.0 / c_to_k(anchor))
+        return np.where(t >= split, 0.0, x) if kind == "WLF+Arrhenius" else x
+
+    arr_col = arrhenius_column(hi) - arrhenius_column(lo) if kind != "WLF" else None
+
     def design(c2):
-        """Columns of the law, linear in (C1, Ea [kJ/mol]) once C2 is fixed."""
-
-        def columns(t):
-            cols = []
-            if kind != "Arrhenius":
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    g = (t - wlf_ref) / (c2 + t - wlf_ref)
-                if kind == "WLF+Arrhenius":
-                    g = np.where(t >= split, g, 0.0)  # g(split) = 0: WLF is referred to it
-                cols.append(-g)
-            if kind != "WLF":
-                anchor = reference if kind == "Arrhenius" else split
-                x = 1e3 * inv_k * (1.0 / c_to_k(t) - 1.0 / c_to_k(anchor))
-                if kind == "WLF+Arrhenius":
-                    x = np.where(t >= split, 0.0, x)
-                cols.append(x)
-            return np.column_stack(cols)
-
-        return columns(hi) - columns(lo)
+        """Design matrices (K, n, p): the law is linear in (C1, Ea [kJ/mol]) for fixed C2."""
+        cols = []
+        if kind != "Arrhenius":
+            cols.append(wlf_column(hi, c2) - wlf_column(lo, c2))
+        if kind != "WLF":
+            k = 1 if c2 is None else np.size(c2)
+            cols.append(np.broadcast_to(arr_col, (k, arr_col.size)))
+        return np.stack(cols, axis=-1)
 
     if kind == "WLF":
-        lb, ub = [0.5], [100.0]
+        lb, ub = np.array([0.5]), np.array([100.0])
     elif kind == "Arrhenius":
-        lb, ub = [1.0], [2000.0]
+        lb, ub = np.array([1.0]), np.array([2000.0])
     else:
-        lb, ub = [0.5, 1.0], [100.0, 2000.0]
+        lb, ub = np.array([0.5, 1.0]), np.array([100.0, 2000.0])
 
-    def solve(c2):
-        """Weighted least squares in (C1, Ea) for fixed C2, clipped to the bounds."""
-        a = design(c2) * weight[:, None]
-        y = delta * weight
-        lower, upper = np.array(lb), np.array(ub)
-        x = np.linalg.lstsq(a, y, rcond=None)[0]
-        clipped = np.clip(x, lower, upper)
-        if a.shape[1] == 2 and not np.array_equal(clipped, x):
-            # Fix the parameter that left its range and solve for the other alone.
-            fixed = int(np.argmax(np.abs(x - clipped)))
-            free = 1 - fixed
-            rest = y - a[:, fixed] * clipped[fixed]
-            col = a[:, free]
-            denom = float(col @ col)
-            value = float(col @ rest) / denom if denom > 0 else clipped[free]
-            clipped[free] = np.clip(value, lower[free], upper[free])
-        r = a @ clipped - y
-        return clipped, float(r @ r)
+    def solve(c2, w):
+        """Weighted least squares in (C1, Ea) for each fixed C2, clipped to the bounds.
+
+        Returns parameters (K, p) and summed squares (K,). With two parameters, where
+        the unconstrained optimum leaves the bounds, each parameter in turn is held at
+        its bound and the other solved alone; the better admissible answer is kept.
+        """
+        a = design(c2) * w[None, :, None]
+        y = delta * w
+        ata = np.einsum("kni,knj->kij", a, a)
+        aty = np.einsum("kni,n->ki", a, y)
+
+        def cost(x):
+            r = np.einsum("kni,ki->kn", a, x) - y
+            return np.sum(r * r, axis=1)
+
+        if a.shape[2] == 1:
+            x = np.clip(aty / np.maximum(ata[:, :, 0], 1e-300), lb, ub)
+            return x, cost(x)
+        det = ata[:, 0, 0] * ata[:, 1, 1] - ata[:, 0, 1] ** 2
+        safe = np.where(np.abs(det) > 1e-300, det, 1e-300)
+        x0 = (ata[:, 1, 1] * aty[:, 0] - ata[:, 0, 1] * aty[:, 1]) / safe
+        x1 = (ata[:, 0, 0] * aty[:, 1] - ata[:, 0, 1] * aty[:, 0]) / safe
+        free = np.stack([x0, x1], axis=1)
+        inside = np.all((free >= lb) & (free <= ub), axis=1) & (np.abs(det) > 1e-300)
+        best = np.where(inside[:, None], free, np.clip(free, lb, ub))
+        best_cost = cost(best)
+        for fixed in (0, 1):
+            other = 1 - fixed
+            cand = np.empty_like(free)
+            cand[:, fixed] = np.clip(free[:, fixed], lb[fixed], ub[fixed])
+            rest = aty[:, other] - ata[:, other, fixed] * cand[:, fixed]
+            cand[:, other] = np.clip(
+                rest / np.maximum(ata[:, other, other], 1e-300), lb[other], ub[other]
+            )
+            c = cost(cand)
+            better = ~inside & (c < best_cost)
+            best = np.where(better[:, None], cand, best)
+            best_cost = np.where(better, c, best_cost)
+        return best, best_cost
 
     c2_bounds = None
     if kind != "Arrhenius":
@@ -486,24 +512,23 @@ def fit_shift_law(
     base_weight = weight.copy()
     for _ in range(ROBUST_PASSES):
         if c2_bounds is not None:
-            # Coarse scan, then a bounded scalar search around the best point.
-            grid = np.linspace(*c2_bounds, 17)
-            costs = [solve(np.exp(g))[1] for g in grid]
-            k = int(np.argmin(costs))
-            a, b = grid[max(k - 1, 0)], grid[min(k + 1, grid.size - 1)]
-            found = minimize_scalar(
-                lambda g: solve(np.exp(g))[1],
-                bounds=(a, b),
-                method="bounded",
-                options={"xatol": 1e-3},
-            )
-            c2 = float(np.exp(found.x))
+            # A coarse scan of log C2, then two finer scans around the best point.
+            grid = np.linspace(*c2_bounds, 33)
+            for _refine in range(3):
+                _, costs = solve(np.exp(grid), weight)
+                k = int(np.argmin(costs))
+                a = grid[max(k - 1, 0)]
+                b = grid[min(k + 1, grid.size - 1)]
+                grid = np.linspace(a, b, 21)
+            _, costs = solve(np.exp(grid), weight)
+            c2 = float(np.exp(grid[int(np.argmin(costs))]))
+            lin = solve(np.array([c2]), weight)[0][0]
         else:
             c2 = None
-        lin, _ = solve(c2)
+            lin = solve(None, weight)[0][0]
         # Soft-L1 reweighting (iteratively reweighted least squares): a pair far from
         # the law, such as one straddling the glass transition, counts less.
-        r = (design(c2) @ lin - delta) * base_weight
+        r = (design(None if c2 is None else np.array([c2]))[0] @ lin - delta) * base_weight
         weight = base_weight / np.sqrt(np.sqrt(1.0 + r**2))
     if kind == "WLF":
         params = [lin[0], c2]

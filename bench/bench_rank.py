@@ -1,0 +1,353 @@
+"""Ranking a large library with a sized mount check, against a plain per-point loop.
+
+(a) 10,000 grades (2,000 in quick mode) whose master curves are already fitted: the
+    fits of the invented demo grades (rubbers, damping polymers, a glassy reference),
+    cloned with perturbed modulus scales, shifted temperature axes and scattered
+    catalog fields. Timed: :meth:`engine.bank.CurveBank.from_curves` and
+    :func:`engine.ranking.rank` over a 41-temperature x 13-frequency window with three
+    merit indices and a compression mount sized for a target fn. Peak memory of the
+    same work is measured in a second pass under tracemalloc.
+(b) The same work written as the loop a user would otherwise write: for each grade, for
+    each temperature and frequency, a scalar ``MasterCurve.evaluate``; fn per grade and
+    temperature by ``scipy.optimize.brentq`` on scalar evaluations; scalar
+    transmissibility. Timed on a subset and extrapolated linearly to the full size.
+
+Run: ``python -m bench.bench_rank [--full]`` or through ``python -m bench.run_all``.
+"""
+
+from __future__ import annotations
+
+import math
+import resource
+import sys
+import tempfile
+import time
+import tracemalloc
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+from scipy.optimize import brentq
+
+from bench import Figure
+from engine import mount
+from engine.bank import CurveBank
+from engine.fits import fit_library
+from engine.importer import import_files
+from engine.mastercurve import MasterCurve
+from engine.mountcheck import FALLBACK_K_FACTOR, STATIC_LOAD_TIME_S, MountDesign
+from engine.ranking import Constraints, Criteria, IndexChoice, rank
+from engine.store import Library, Material
+from engine.window import DEFAULT_POISSON, OperatingWindow
+
+FULL_GRADES = 10_000
+QUICK_GRADES = 2_000
+FULL_BASELINE = 200
+QUICK_BASELINE = 50
+RANK_TARGET_S = 1.0  # CurveBank.from_curves + rank of 10,000 grades
+MEMORY_TARGET_MIB = 2048.0
+SPEEDUP_TARGET = 30.0  # loop time / vectorised time, at least
+DEMO = Path(__file__).resolve().parent.parent / "demo_materials"
+
+WINDOW_KW = {"temp_range": (-20.0, 60.0), "temp_step": 2.0, "freq_range": (10.0, 1000.0)}
+INDICES = (
+    IndexChoice("loss_factor", 1.0, "worst"),
+    IndexChoice("frequency_drift", 1.0, "worst"),
+    IndexChoice("beam_damping", 1.0, "mean"),
+)
+DESIGN = MountDesign(
+    layout="compression",
+    mass_kg=180.0,
+    mounts=4,
+    thickness_mm=30.0,
+    shape="disc",
+    disturbance_Hz=(24.7,),
+    target_fn_Hz=10.0,
+    sizing_temp_C=23.0,
+)
+
+
+def criteria() -> Criteria:
+    return Criteria(
+        window=OperatingWindow(**WINDOW_KW),
+        indices=INDICES,
+        constraints=Constraints(allow_extrapolation=True),
+        mount=DESIGN,
+    )
+
+
+# ------------------------------------------------------------------ synthetic library
+
+
+def base_grades() -> list[tuple[dict, Material]]:
+    """The demo grades, imported and fitted in a temporary library (curve dicts, rows)."""
+    with tempfile.TemporaryDirectory(prefix="quietgrade-bench-") as tmp:
+        lib = Library(str(Path(tmp) / "demo.sqlite"))
+        import_files(lib, [DEMO / "catalog.csv"], [DEMO / "sweeps.csv"])
+        curves, _ = fit_library(lib, processes=1)
+        return [(curves[m.id].to_dict(), m) for m in lib.materials() if m.id in curves]
+
+
+def clone(base: dict, scale: float, dt: float) -> MasterCurve:
+    """``base`` with moduli x ``scale`` and its shift law moved by ``dt`` [K]."""
+    prony = base["prony"]
+    shift = base["shift"]
+    law = dict(shift["law"])
+    for key in ("reference_C", "wlf_reference_C", "split_C"):
+        if law[key] is not None:
+            law[key] += dt
+    return MasterCurve.from_dict(
+        {
+            **base,
+            "prony": {
+                "tau_s": prony["tau_s"],
+                "weights_Pa": [w * scale for w in prony["weights_Pa"]],
+                "equilibrium_Pa": prony["equilibrium_Pa"] * scale,
+            },
+            "shift": {
+                **shift,
+                "law": law,
+                "temperatures_C": [t + dt for t in shift["temperatures_C"]],
+            },
+            "reference_C": base["reference_C"] + dt,
+            "temperature_range": [t + dt for t in base["temperature_range"]],
+        }
+    )
+
+
+def library(n: int) -> tuple[dict[str, MasterCurve], dict[str, Material]]:
+    """n grades: cloned curves and catalog rows with scattered density, price, hardness."""
+    bases = base_grades()
+    rng = np.random.default_rng(2024)
+    curves, materials = {}, {}
+    for k in range(n):
+        gid = f"RANK-{k:05d}"
+        curve, row = bases[k % len(bases)]
+        dt = float(rng.uniform(-8.0, 8.0))
+        curves[gid] = clone(curve, 10.0 ** rng.uniform(-0.3, 0.3), dt)
+        hardness = None if row.hardness is None else float(row.hardness + rng.uniform(-5, 5))
+        materials[gid] = replace(
+            row,
+            id=gid,
+            name=f"Bench grade {k} ({row.family})",
+            density=float(row.density * rng.uniform(0.9, 1.1)),
+            price=float(rng.uniform(2.0, 25.0)),
+            hardness=hardness,
+            service_min=row.service_min + dt,
+            service_max=row.service_max + dt,
+        )
+    return curves, materials
+
+
+# ------------------------------------------------------------------ vectorised
+
+
+def vectorised(curves, materials, crit):
+    """Build the bank and rank; returns (result, bank seconds, rank seconds, CPU seconds)."""
+    cpu = time.process_time()
+    start = time.perf_counter()
+    bank = CurveBank.from_curves(curves)
+    built = time.perf_counter()
+    result = rank(curves, materials, crit, bank=bank)
+    done = time.perf_counter()
+    return result, built - start, done - built, time.process_time() - cpu
+
+
+def peak_memory_mib(curves, materials, crit) -> float:
+    """Peak memory traced while building the bank and ranking [MiB]."""
+    tracemalloc.start()
+    try:
+        vectorised(curves, materials, crit)
+        _, peak = tracemalloc.get_traced_memory()
+    finally:
+        tracemalloc.stop()
+    return peak / 2**20
+
+
+# ------------------------------------------------------------------ plain loop
+
+
+def loop_one(curve: MasterCurve, mat: Material, temps, freqs, design: MountDesign) -> dict:
+    """Everything rank() computes for one grade, point by point with scalar calls."""
+    nu = DEFAULT_POISSON if mat.poisson_ratio is None else mat.poisson_ratio
+    to_e = 2.0 * (1.0 + nu) if curve.mode == "shear" else 1.0  # E = 2 (1 + nu) G
+    storage = [[0.0] * len(freqs) for _ in temps]
+    eta = [[0.0] * len(freqs) for _ in temps]
+    for i, t in enumerate(temps):
+        for j, f in enumerate(freqs):
+            p = curve.evaluate(t, f)
+            storage[i][j] = float(p.storage_modulus) * to_e
+            eta[i][j] = float(p.loss_factor)
+    flat_e = [v for row in storage for v in row]
+    flat_eta = [v for row in eta for v in row]
+    beam = [math.sqrt(x * e / 1e6) / mat.density for x, e in zip(flat_eta, flat_e, strict=True)]
+    indices = {
+        "loss_factor": min(flat_eta),
+        "frequency_drift": math.sqrt(max(flat_e) / min(flat_e)),
+        "beam_damping": sum(beam) / len(beam),
+    }
+    # Sizing: compression disc at the target fn and the sizing temperature.
+    m, h = design.mass_per_pad, design.thickness_mm * 1e-3
+    if mat.hardness is None:
+        kf = FALLBACK_K_FACTOR
+    else:
+        kf = float(mount.k_factor_from_hardness(min(max(mat.hardness, 30.0), 75.0)))
+    e_target = to_e * float(
+        curve.evaluate(design.sizing_temp_C, design.target_fn_Hz).storage_modulus
+    )
+    area = float(mount.size_compression_pad_area(design.target_fn_Hz, m, h, e_target, kf))
+    s = math.sqrt(4.0 * area / math.pi) / (4.0 * h)
+    pad = (1.0 + 2.0 * kf * s * s) * area / h * to_e
+
+    def stiffness(t, f):
+        return float(curve.evaluate(t, f).storage_modulus) * pad
+
+    fn, trans, amplification, strain = [], [], [], []
+    f_dist = design.disturbance_Hz[0]
+    f_static = 1.0 / (2.0 * math.pi * STATIC_LOAD_TIME_S)
+    for t in temps:
+
+        def residual(log_f, t=t):
+            k = stiffness(t, 10.0**log_f)
+            return log_f - 0.5 * math.log10(k / m) + math.log10(2.0 * math.pi)
+
+        try:
+            f_n = 10.0 ** brentq(residual, -3.0, 5.0)
+        except ValueError:  # no root in 1 mHz - 100 kHz
+            f_n = math.nan
+        fn.append(f_n)
+        if math.isfinite(f_n):
+            k_n = stiffness(t, f_n)
+            kc = complex(k_n, k_n * float(curve.evaluate(t, f_n).loss_factor))
+            amplification.append(abs(kc) / abs(kc - m * (2.0 * math.pi * f_n) ** 2))
+        k_d = stiffness(t, f_dist)
+        kc = complex(k_d, k_d * float(curve.evaluate(t, f_dist).loss_factor))
+        trans.append(abs(kc) / abs(kc - m * (2.0 * math.pi * f_dist) ** 2))
+        strain.append(m * mount.STANDARD_GRAVITY / stiffness(t, f_static) / h)
+    f_life = 1.0 / (2.0 * math.pi * design.service_life_h * 3600.0)
+    sag = m * mount.STANDARD_GRAVITY / stiffness(max(temps), f_life) / h
+    score = (
+        math.log10(indices["loss_factor"])
+        - math.log10(indices["frequency_drift"])
+        + math.log10(indices["beam_damping"])
+    ) / 3.0
+    return {
+        "indices": indices,
+        "fn": fn,
+        "transmissibility": trans,
+        "amplification": amplification,
+        "strain": max(max(strain), sag),
+        "area": area,
+        "score": score,
+    }
+
+
+def plain_loop(curves, materials, ids, crit):
+    temps = [float(t) for t in crit.window.temperatures]
+    freqs = [float(f) for f in crit.window.frequencies]
+    start = time.perf_counter()
+    out = {gid: loop_one(curves[gid], materials[gid], temps, freqs, crit.mount) for gid in ids}
+    order = sorted(ids, key=lambda g: -out[g]["score"])
+    return out, order, time.perf_counter() - start
+
+
+def agreement(result, loop_out) -> float:
+    """Largest relative difference between the two methods over indices and fn."""
+    by_id = {g.id: g for g in result.grades}
+    worst = 0.0
+    for gid, ref in loop_out.items():
+        g = by_id[gid]
+        for name, v in ref["indices"].items():
+            worst = max(worst, abs(g.indices[name] / v - 1.0))
+        fn = np.asarray(g.mount["natural_frequency_Hz"], dtype=float)
+        worst = max(worst, float(np.nanmax(np.abs(fn / np.asarray(ref["fn"]) - 1.0))))
+    return worst
+
+
+# ------------------------------------------------------------------ figures
+
+
+def main(quick: bool = True) -> list[Figure]:
+    n = QUICK_GRADES if quick else FULL_GRADES
+    n_loop = QUICK_BASELINE if quick else FULL_BASELINE
+    crit = criteria()
+    sys.stderr.write(f"  building {n:,} cloned master curves\n")
+    curves, materials = library(n)
+    window = f"{crit.window.temperatures.size} T x {crit.window.frequencies.size} f"
+    vectorised(dict(list(curves.items())[:50]), materials, crit)  # warm-up
+    sys.stderr.write(f"  bank + rank of {n:,} grades\n")
+    result, t_bank, t_rank, cpu = vectorised(curves, materials, crit)
+    total = t_bank + t_rank
+    if n == FULL_GRADES:
+        vec_full, how = total, f"CPU {cpu:.2f} s"
+    else:
+        # Extrapolate with the growth measured between n/2 and n grades (not assumed
+        # linear: a step that grows faster than n shows up here).
+        half = dict(list(curves.items())[: n // 2])
+        _, b2, r2, _ = vectorised(half, materials, crit)
+        growth = max(1.0, math.log((t_bank + t_rank) / (b2 + r2)) / math.log(2.0))
+        vec_full = total * (FULL_GRADES / n) ** growth
+        how = (
+            f"measured {total:.2f} s (CPU {cpu:.2f} s) at {n:,}; extrapolated as "
+            f"n^{growth:.2f} from {n // 2:,} and {n:,}"
+        )
+    sys.stderr.write("  peak memory (tracemalloc pass)\n")
+    peak = peak_memory_mib(curves, materials, crit)
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # kB -> MiB (Linux)
+    scale = FULL_GRADES / n
+    sys.stderr.write(f"  plain loop over {n_loop} grades\n")
+    ids = list(curves)[:n_loop]
+    cpu_loop = time.process_time()
+    loop_out, _, t_loop = plain_loop(curves, materials, ids, crit)
+    cpu_loop = time.process_time() - cpu_loop
+    loop_full = t_loop * FULL_GRADES / n_loop
+    speedup = loop_full / vec_full
+    cpu_speedup = (cpu_loop * FULL_GRADES / n_loop) / (cpu * scale)
+    diff = agreement(result, loop_out)
+    return [
+        Figure(
+            f"CurveBank.from_curves, {n:,} grades",
+            t_bank,
+            "s",
+            None,
+            "tabulate and stack the fitted curves",
+        ),
+        Figure(
+            f"rank, {n:,} grades, {window}, 3 indices, sized mount",
+            t_rank,
+            "s",
+            None,
+            f"{len(result.shortlist):,} pass",
+        ),
+        Figure(f"bank + rank, {FULL_GRADES:,} grades", vec_full, "s", RANK_TARGET_S, how),
+        Figure(
+            f"peak traced memory, bank + rank, {FULL_GRADES:,} grades",
+            peak * scale,
+            "MiB",
+            MEMORY_TARGET_MIB,
+            (f"measured {peak:.0f} MiB at {n:,}, x {scale:g}; " if n != FULL_GRADES else "")
+            + f"process max RSS {rss:.0f} MiB",
+        ),
+        Figure(
+            f"plain loop, {n_loop} grades",
+            t_loop,
+            "s",
+            None,
+            f"{t_loop / n_loop * 1e3:.0f} ms per grade; x {FULL_GRADES // n_loop} -> "
+            f"{loop_full:.0f} s for {FULL_GRADES:,}",
+        ),
+        Figure(
+            "vectorised / loop time, 10,000 grades",
+            100.0 / speedup,
+            "%",
+            100.0 / SPEEDUP_TARGET,
+            f"speed-up {speedup:.0f} x wall, {cpu_speedup:.0f} x CPU (target >= "
+            f"{SPEEDUP_TARGET:g} x); results agree to {diff:.1e} relative",
+        ),
+    ]
+
+
+if __name__ == "__main__":
+    from bench.run_all import table
+
+    sys.stdout.write(table(main(quick="--full" not in sys.argv[1:])) + "\n")

@@ -1,0 +1,118 @@
+"""The stacked curve bank against the master curves it was built from.
+
+The reference is :meth:`engine.mastercurve.MasterCurve.evaluate` (the Prony series at the
+shifted frequency); the bank tabulates it every 0.05 decade and interpolates linearly in
+log-log, so agreement to 0.5 % is the interpolation error of that grid (common practice).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from engine.bank import CurveBank
+from engine.mastercurve import TABLE_MARGIN, build_master_curve
+from tests import synthetic
+
+T_GRID = np.linspace(-80.0, 150.0, 47)[:, None]  # [degC]
+F_GRID = np.logspace(-7.0, 10.0, 35)[None, :]  # [Hz]
+
+
+@pytest.fixture(scope="module")
+def curves():
+    """Synthetic grades covering every kind of shift law and the vertical factor."""
+    sweep = synthetic.sweep
+    return {
+        "full": build_master_curve(sweep(noise=0.01), "tensile"),
+        "vertical": build_master_curve(
+            sweep(noise=0.01, seed=2), "shear", reference_C=20.0, vertical_shift=True
+        ),
+        "glassy": build_master_curve(
+            sweep(temperatures=np.arange(-60.0, -24.0, 5.0), noise=0.01, seed=3), "tensile"
+        ),
+        "rubbery": build_master_curve(
+            sweep(temperatures=np.arange(-5.0, 86.0, 5.0), noise=0.01, seed=4), "tensile"
+        ),
+        "single": build_master_curve(sweep(temperatures=[20.0]), "tensile"),
+    }
+
+
+@pytest.fixture(scope="module")
+def bank(curves):
+    return CurveBank.from_curves(curves)
+
+
+def test_bank_covers_every_law_kind(curves, bank):
+    kinds = {c.shift.law.kind for c in curves.values()}
+    assert {"none", "Arrhenius", "WLF+Arrhenius"} <= kinds
+    assert len(bank) == len(curves) and bank.ids == list(curves)
+    assert bank.modes.tolist() == [c.mode for c in curves.values()]
+
+
+def test_bank_agrees_with_master_curves(curves, bank):
+    storage, loss, extrapolated = bank.evaluate(T_GRID, F_GRID)
+    shape = (len(curves), T_GRID.shape[0], F_GRID.shape[1])
+    assert storage.shape == loss.shape == extrapolated.shape == shape
+    for k, (grade, curve) in enumerate(curves.items()):
+        ref = curve.evaluate(T_GRID, F_GRID)
+        assert np.array_equal(extrapolated[k], ref.extrapolated), grade
+        np.testing.assert_allclose(
+            bank.log_shift(T_GRID)[k], curve.log_shift(T_GRID), rtol=1e-12, atol=1e-12
+        )
+        log_fr = np.log10(ref.reduced_frequency)
+        lo, hi = curve.log_fr_range
+        tabulated = (log_fr >= lo - TABLE_MARGIN) & (log_fr <= hi + TABLE_MARGIN)
+        assert tabulated.any()
+        np.testing.assert_allclose(
+            storage[k][tabulated], ref.storage_modulus[tabulated], rtol=5e-3, err_msg=grade
+        )
+        np.testing.assert_allclose(
+            loss[k][tabulated], ref.loss_modulus[tabulated], rtol=5e-3, err_msg=grade
+        )
+        if (~tabulated).any():
+            # Beyond the table the bank extends linearly in log-log, as the Prony series
+            # does there (E' flat, E'' ~ omega or 1/omega; Ferry 1980): within 5 %.
+            np.testing.assert_allclose(
+                storage[k][~tabulated], ref.storage_modulus[~tabulated], rtol=0.05
+            )
+            np.testing.assert_allclose(loss[k][~tabulated], ref.loss_modulus[~tabulated], rtol=0.05)
+
+
+def test_far_outside_the_table_is_checked(curves, bank):
+    # The grid above does reach beyond the tabulated range for the full-range grade.
+    curve = curves["full"]
+    log_fr = np.log10(curve.evaluate(T_GRID, F_GRID).reduced_frequency)
+    lo, hi = curve.log_fr_range
+    assert (log_fr < lo - TABLE_MARGIN).any() and (log_fr > hi + TABLE_MARGIN).any()
+
+
+def test_scalar_point(curves, bank):
+    storage, loss, extrapolated = bank.evaluate(25.0, 3.0)
+    assert storage.shape == (len(curves),)
+    ref = curves["full"].evaluate(25.0, 3.0)
+    assert storage[0] == pytest.approx(float(ref.storage_modulus), rel=5e-3)
+    assert loss[0] == pytest.approx(float(ref.loss_modulus), rel=5e-3)
+    assert bool(extrapolated[0]) is False
+
+
+def test_evaluate_rows_is_the_diagonal_of_evaluate(curves, bank):
+    rng = np.random.default_rng(11)
+    n = len(curves)
+    t = rng.uniform(-70.0, 120.0, size=(n, 6))
+    f = 10.0 ** rng.uniform(-3.0, 6.0, size=(n, 6))
+    rows = bank.evaluate_rows(t, f)
+    for k in range(n):
+        full = bank.evaluate(t[k], f[k])
+        for got, want in zip(rows, full, strict=True):
+            np.testing.assert_array_equal(got[k], want[k])
+
+
+def test_evaluate_rows_broadcasts_one_frequency(bank):
+    t = np.full((len(bank), 3), 20.0)
+    storage, _, _ = bank.evaluate_rows(t, 10.0)
+    assert storage.shape == (len(bank), 3)
+
+
+def test_evaluate_rows_needs_one_row_per_grade(bank):
+    with pytest.raises(ValueError, match=r"one row per grade \(5\)"):
+        bank.evaluate_rows(np.zeros((len(bank) - 1, 3)), 1.0)

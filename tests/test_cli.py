@@ -1,0 +1,291 @@
+"""The command line contract of DESIGN.md, through real subprocesses.
+
+Each ``python -m engine`` start costs one to three seconds of imports, so the commands
+run once per module: a library is loaded, copied, and independent command chains run in
+parallel on their own copies; the tests then read the recorded results.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+import shutil
+import subprocess
+import sys
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from engine.shift import wlf_change_reference
+from tests import synthetic
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = ROOT / "demo_materials"
+PROPS_KEYS = {
+    "temp_C",
+    "freq_Hz",
+    "storage_MPa",
+    "loss_MPa",
+    "loss_factor",
+    "extrapolated",
+    "mode",
+}
+BAD_ROW = 116  # spreadsheet row of the broken cell (header is row 1)
+
+
+@dataclass(frozen=True)
+class Run:
+    args: tuple[str, ...]
+    returncode: int
+    stdout: str
+    stderr: str
+
+    def json(self):
+        return json.loads(self.stdout)
+
+
+def engine(args, db: Path) -> Run:
+    env = {**os.environ, "QUIETGRADE_DB": str(db)}
+    done = subprocess.run(
+        [sys.executable, "-m", "engine", *map(str, args)],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+    return Run(tuple(map(str, args)), done.returncode, done.stdout, done.stderr)
+
+
+def write_files(folder: Path) -> dict[str, Path]:
+    files = {name: folder / f"{name}.csv" for name in ("catalog", "s1", "s2", "cat3", "bad")}
+    synthetic.write_catalog(files["catalog"], ids=("SYN-1", "SYN-2"))
+    synthetic.write_catalog(files["cat3"], ids=("SYN-3",))
+    synthetic.write_csv(files["s1"], synthetic.sweep(noise=0.01), "SYN-1")
+    synthetic.write_csv(files["s2"], synthetic.sweep(noise=0.01, seed=3), "SYN-2")
+    lines = files["s1"].read_text().splitlines()
+    cells = lines[BAD_ROW - 1].split(",")
+    cells[3] = "abc"
+    lines[BAD_ROW - 1] = ",".join(cells)
+    files["bad"].write_text("\n".join(lines).replace("SYN-1,", "SYN-3,") + "\n")
+    return files
+
+
+@pytest.fixture(scope="module")
+def cli(tmp_path_factory):
+    """Every command of these tests, run once; results by name.
+
+    Chains that need the loaded library run on copies of it once it is loaded; the
+    others start at once.
+    """
+    folder = tmp_path_factory.mktemp("cli")
+    files = write_files(folder)
+    main = folder / "main.sqlite"
+    garbage = folder / "garbage.sqlite"
+    garbage.write_bytes(b"\x00garbage, not a library\n" * 100)
+    loaded = {
+        "again": [["load", files["catalog"], files["s1"], files["s2"], "--json"]],
+        "bad": [["load", files["cat3"], files["bad"], "--json"], ["list", "--json"]],
+        "fit": [["fit", "SYN-1", "--json"]],
+        "props": [["props", "SYN-1", "--temp", 20, 30, "--freq", 1, 10, 100, "--json"]],
+        "unknown": [["fit", "NOPE", "--json"]],
+    }
+    independent = {
+        "demo": [["demo", "--json"], ["demo", "--json"]],
+        "folder": [["list", "--json", "--db", folder]],
+        "garbage": [["list", "--json", "--db", garbage]],
+    }
+
+    def run_chain(chain, db):
+        return [engine(args, db) for args in chain]
+
+    with ThreadPoolExecutor(max_workers=3) as pool:
+        first = pool.submit(
+            run_chain,
+            [["load", files["catalog"], files["s1"], files["s2"], "--json"], ["list", "--json"]],
+            main,
+        )
+        later = {
+            name: pool.submit(run_chain, chain, folder / f"chain-{name}.sqlite")
+            for name, chain in independent.items()
+        }
+        results = dict(zip(("load", "list"), first.result(), strict=True))
+        for name, chain in loaded.items():
+            db = folder / f"chain-{name}.sqlite"
+            shutil.copy(main, db)
+            later[name] = pool.submit(run_chain, chain, db)
+        results.update({name: future.result() for name, future in later.items()})
+    results["files"] = files
+    return results
+
+
+def one_line(run: Run) -> str:
+    lines = run.stderr.strip().splitlines()
+    assert len(lines) == 1, run.stderr
+    return lines[0]
+
+
+# ---------------------------------------------------------------- load and list
+
+
+def test_load_prints_what_was_added(cli):
+    run = cli["load"]
+    assert run.returncode == 0, run.stderr
+    summary = run.json()
+    assert summary["materials_added"] == ["SYN-1", "SYN-2"]
+    assert summary["materials_updated"] == [] and summary["files_skipped"] == []
+    n = synthetic.TEMPERATURES.size * synthetic.FREQUENCIES.size
+    assert summary["datasets_added"] == [
+        {"material": "SYN-1", "points": n},
+        {"material": "SYN-2", "points": n},
+    ]
+
+
+def test_load_again_changes_nothing(cli):
+    (load,) = cli["again"]
+    assert load.returncode == 0, load.stderr
+    summary = load.json()
+    assert summary["materials_added"] == summary["materials_updated"] == []
+    assert summary["datasets_added"] == [] and len(summary["files_skipped"]) == 3
+
+
+def test_bad_sweep_is_refused_with_one_line_and_nothing_changes(cli):
+    load, listing = cli["bad"]
+    assert load.returncode == 2 and load.stdout == ""
+    line = one_line(load)
+    assert "bad.csv" in line
+    assert f"row {BAD_ROW}" in line
+    assert "column 'storage_modulus [MPa]'" in line
+    assert "'abc' is not a number" in line
+    # All or nothing: the good catalog of the same command (SYN-3) was not written.
+    assert listing.returncode == 0
+    assert listing.json() == cli["list"].json()
+
+
+def test_list_fields(cli):
+    run = cli["list"]
+    assert run.returncode == 0, run.stderr
+    rows = run.json()
+    assert [r["id"] for r in rows] == ["SYN-1", "SYN-2"]
+    row = rows[0]
+    assert set(row) == {
+        "id",
+        "name",
+        "mode",
+        "supplier",
+        "family",
+        "density_kg_m3",
+        "price_per_kg",
+        "hardness_shore_a",
+        "service_min_C",
+        "service_max_C",
+        "poisson_ratio",
+        "notes",
+        "extra",
+        "datasets",
+    }
+    assert row["mode"] == "tensile" and row["density_kg_m3"] == 1100.0
+    assert row["service_min_C"] is None  # blank optional cell: unknown
+    (dataset,) = row["datasets"]
+    assert dataset["points"] == 210 and dataset["file"] == "s1.csv" and dataset["in_use"]
+    assert len(dataset["sha256"]) == 64
+
+
+# ---------------------------------------------------------------- fit and props
+
+
+def test_fit_json(cli):
+    (run,) = cli["fit"]
+    assert run.returncode == 0, run.stderr
+    data = run.json()
+    for key in ("reference_C", "shift_factors", "tg", "reduced_frequency_range_Hz", "residuals"):
+        assert key in data
+    assert "wlf" in data or "arrhenius" in data
+    # Shift factors: one per isotherm, within 0.1 decade of the known law (round trip).
+    temps = np.array([s["temp_C"] for s in data["shift_factors"]])
+    log_at = np.array([s["log_aT"] for s in data["shift_factors"]])
+    np.testing.assert_array_equal(temps, synthetic.TEMPERATURES)
+    law = synthetic.TRUE_LAW
+    truth = law.log_shift(temps) - law.log_shift(data["reference_C"])
+    assert np.max(np.abs(log_at - truth)) < 0.1
+    assert set(data["wlf"]) >= {"C1", "C2_K", "reference_C"}
+    # WLF constants moved to Tg = -20 degC (Ferry 1980, ch. 11: C2' = C2 + T1 - T0,
+    # C1' = C1 C2 / C2') against the universal 17.44 and 51.6 K of the model (WLF 1955).
+    w = data["wlf"]
+    c1, c2 = wlf_change_reference(w["C1"], w["C2_K"], w["reference_C"], synthetic.TG_C)
+    assert c1 == pytest.approx(17.44, rel=0.1) and c2 == pytest.approx(51.6, rel=0.1)
+    assert data["arrhenius"]["activation_kJ_per_mol"] == pytest.approx(200.0, rel=0.05)
+    # Tg with method and frequency (ASTM E1640, ISO 6721-11).
+    assert {t["method"] for t in data["tg"]} == {
+        "storage_onset",
+        "loss_modulus_peak",
+        "loss_factor_peak",
+    }
+    assert all(t["frequency_Hz"] == 1.0 for t in data["tg"])
+    lo, hi = data["reduced_frequency_range_Hz"]
+    assert 0 < lo < hi
+    assert np.log10(hi) - np.log10(lo) > 15.0  # 30 isotherms span many decades
+    assert len(data["residuals"]["per_isotherm"]) == temps.size
+    assert data["residuals"]["rms_log_storage"] < 0.05
+
+
+def measured(files, material="SYN-1") -> dict[tuple[float, float], float]:
+    with open(files["s1"], newline="") as handle:
+        return {
+            (float(r["temperature [degC]"]), float(r["frequency [Hz]"])): float(
+                r["storage_modulus [MPa]"]
+            )
+            for r in csv.DictReader(handle)
+            if r["material"] == material
+        }
+
+
+def test_props_json(cli):
+    (run,) = cli["props"]
+    assert run.returncode == 0, run.stderr
+    rows = run.json()
+    assert len(rows) == 6
+    assert all(set(r) == PROPS_KEYS for r in rows)
+    assert [(r["temp_C"], r["freq_Hz"]) for r in rows] == [
+        (t, f) for t in (20.0, 30.0) for f in (1.0, 10.0, 100.0)
+    ]
+    assert {r["mode"] for r in rows} == {"tensile"}
+    assert not any(r["extrapolated"] for r in rows)
+    data = measured(cli["files"])
+    for r in rows:
+        # MPa in, MPa out: the fitted curve within 3 % of the imported 1 %-noise value.
+        assert r["storage_MPa"] == pytest.approx(data[(r["temp_C"], r["freq_Hz"])], rel=0.03)
+        assert r["loss_MPa"] == pytest.approx(r["loss_factor"] * r["storage_MPa"], rel=1e-9)
+
+
+# ---------------------------------------------------------------- failures
+
+
+def test_unknown_grade_is_exit_2_with_one_line(cli):
+    (run,) = cli["unknown"]
+    assert run.returncode == 2 and run.stdout == ""
+    assert "no grade 'NOPE'" in one_line(run)
+
+
+@pytest.mark.parametrize("name", ["folder", "garbage"])
+def test_db_that_is_not_a_library(cli, name):
+    (run,) = cli[name]
+    assert run.returncode == 2 and run.stdout == ""
+    assert "not a quietgrade library" in one_line(run)
+
+
+def test_demo_twice_is_idempotent(cli):
+    first, second = cli["demo"]
+    assert first.returncode == 0, first.stderr
+    assert second.returncode == 0, second.stderr
+    a, b = first.json(), second.json()
+    with open(DEMO / "catalog.csv", newline="") as handle:
+        ids = sorted(r["id"] for r in csv.DictReader(handle))
+    assert sorted(a["materials_added"]) == ids
+    assert b["materials_added"] == b["materials_updated"] == b["datasets_added"] == []
+    assert len(b["files_skipped"]) == 2
+    assert a["fitted"] == b["fitted"] and a["fit_errors"] == b["fit_errors"]

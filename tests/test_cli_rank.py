@@ -1,0 +1,267 @@
+"""Tests of the command line for ``mount`` and ``rank`` (``python -m engine``).
+
+The demo library is loaded once with ``python -m engine demo`` into a library named by
+QUIETGRADE_DB; ``mount``, ``rank`` and one bad-input case then run as separate processes,
+side by side. Further bad-input cases call :func:`engine.cli.main` in this process (the
+same code path without another interpreter start-up, which costs seconds here).
+The mount figures are checked against the single-degree-of-freedom isolator (Snowdon
+1968), the static-deflection estimate fn = (1/2 pi) sqrt(g/delta) (common practice) and
+the shape factor of a bonded disc (Gent & Lindley 1959). Bad input must exit with
+status 2 and one line on stderr (the CLI contract).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from engine.cli import main
+
+ROOT = Path(__file__).resolve().parent.parent
+G0 = 9.80665  # standard gravity [m/s2], CGPM 1901
+WINDOW = ["--temp-range", "-20", "45", "--freq-range", "10", "100"]
+MOUNT = [
+    "mount",
+    "BW-NR40",
+    "--layout",
+    "compression",
+    "--mass",
+    "180",
+    "--mounts",
+    "4",
+    "--area-mm2",
+    "2000",
+    "--thickness-mm",
+    "25",
+    "--temp",
+    "23",
+    "--disturbance-hz",
+    "24.7",
+    "--json",
+]
+
+
+def _start(args, env):
+    return subprocess.Popen(
+        [sys.executable, "-m", "engine", *args],
+        cwd=ROOT,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+
+
+def _digest(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+@pytest.fixture(scope="module")
+def cli(tmp_path_factory):
+    """Load the demo library, then run every command of this module in parallel."""
+    tmp = tmp_path_factory.mktemp("cli")
+    db = tmp / "library.sqlite"
+    env = {**os.environ, "QUIETGRADE_DB": str(db)}
+    demo = subprocess.run(
+        [sys.executable, "-m", "engine", "demo", "--json"],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+    assert demo.returncode == 0, demo.stderr
+    cases = {
+        "mount": MOUNT,
+        "rank": ["rank", *WINDOW, "--json"],
+        "inverted": ["rank", "--temp-range", "45", "-20", "--freq-range", "10", "100"],
+    }
+    before = _digest(db)
+    procs = {name: _start(args, env) for name, args in cases.items()}
+    runs = {}
+    for name, proc in procs.items():
+        out, err = proc.communicate(timeout=300)
+        runs[name] = (proc.returncode, out, err)
+    return {"demo": json.loads(demo.stdout), "runs": runs, "db": db, "before": before}
+
+
+def _ok_json(cli, name):
+    code, out, err = cli["runs"][name]
+    assert code == 0, err
+    return json.loads(out)
+
+
+# ------------------------------------------------------------------ mount
+
+
+def test_mount_json_keys(cli):
+    data = _ok_json(cli, "mount")
+    for key in (
+        "natural_frequency_Hz",
+        "transmissibility",
+        "static_deflection_mm",
+        "loss_factor_at_resonance",
+        "amplification_at_resonance",
+        "isolation_onset_Hz",
+        "static_strain",
+        "area_mm2",
+        "shape_factor",
+        "mass_per_mount_kg",
+    ):
+        assert key in data, key
+    assert data["id"] == "BW-NR40"
+    assert data["layout"] == "compression"
+    assert data["mass_per_mount_kg"] == pytest.approx(45.0)  # 180 kg on 4 pads
+
+
+def test_mount_figures_are_physically_consistent(cli):
+    d = _ok_json(cli, "mount")
+    fn, delta = d["natural_frequency_Hz"], d["static_deflection_mm"] * 1e-3
+    # fn from the static deflection, (1/2 pi) sqrt(g / delta) (common practice). Rubber
+    # is stiffer dynamically than statically, so the real fn lies at or above it, and
+    # for a soft rubber well above Tg within a factor of about 1.5.
+    fn_static = math.sqrt(G0 / delta) / (2.0 * math.pi)
+    assert fn_static <= fn <= 1.5 * fn_static
+    # At fn, k' = m (2 pi fn)^2 and T = sqrt(1 + eta^2)/eta (Snowdon 1968).
+    eta = d["loss_factor_at_resonance"]
+    assert 0.0 < eta < 1.0
+    assert d["amplification_at_resonance"] == pytest.approx(math.sqrt(1 + eta**2) / eta, rel=1e-6)
+    # T = 1 at sqrt(2) fn for hysteretic damping; the disturbance lies above it, so the
+    # pad isolates (Snowdon 1968).
+    assert d["isolation_onset_Hz"] == pytest.approx(math.sqrt(2.0) * fn, rel=1e-9)
+    assert 24.7 > d["isolation_onset_Hz"]
+    assert 0.0 < d["transmissibility"] < 1.0
+    # Static strain = deflection / rubber thickness (25 mm).
+    assert d["static_strain"] == pytest.approx(d["static_deflection_mm"] / 25.0, rel=1e-9)
+    # Bonded disc of 2000 mm2, 25 mm thick: S = D/(4h) = 0.5046 (Gent & Lindley 1959).
+    diameter = math.sqrt(4.0 * 2000.0 / math.pi)
+    assert d["shape_factor"] == pytest.approx(diameter / 100.0, rel=1e-9)
+    assert d["shape_factor"] == pytest.approx(0.5046, abs=5e-5)
+    assert d["area_mm2"] == pytest.approx(2000.0)
+
+
+def test_mount_bad_layout_exits_2(cli, capsys):
+    with pytest.raises(SystemExit) as stop:
+        main([*MOUNT[:3], "torsion", *MOUNT[4:], "--db", str(cli["db"])])
+    assert stop.value.code == 2
+    out, err = capsys.readouterr()
+    assert out == ""
+    assert len(err.strip().splitlines()) == 1
+    assert "invalid choice: 'torsion'" in err
+
+
+# ------------------------------------------------------------------ rank
+
+
+def test_rank_json_shortlist_and_excluded(cli):
+    data = _ok_json(cli, "rank")
+    shortlist, excluded = data["shortlist"], data["excluded"]
+    assert shortlist, "the demo library has grades that pass"
+    n = len(shortlist)
+    assert [r["rank"] for r in shortlist] == list(range(1, n + 1))
+    for r in shortlist:
+        assert r["passed"] is True and r["failures"] == []
+        assert r["reason"].startswith(f"rank {r['rank']} of {n}: ")
+        assert set(r["indices"]) == {"loss_factor", "frequency_drift"}  # mount defaults
+    for r in excluded:
+        assert r["rank"] is None and r["passed"] is False
+        assert r["reason"].startswith("excluded: ") and r["failures"]
+    assert sorted(r["id"] for r in shortlist + excluded) == sorted(cli["demo"]["fitted"])
+    assert [r["id"] for r in excluded] == sorted(r["id"] for r in excluded)
+    assert data["criteria"]["window"]["temp_range"] == [-20.0, 45.0]
+    assert data["criteria"]["window"]["freq_range"] == [10.0, 100.0]
+
+
+def test_rank_excludes_grades_whose_service_range_misses_the_window(cli):
+    # A grade rated from 0 or -10 degC cannot serve a window from -20 degC.
+    data = _ok_json(cli, "rank")
+    by_id = {r["id"]: r for r in data["shortlist"] + data["excluded"]}
+    for gid in ("BW-FD30", "QC-PVC75"):
+        fails = {f["constraint"]: f for f in by_id[gid]["failures"]}
+        assert "service range" in fails
+        assert fails["service range"]["limit"] == "to cover -20 to 45 degC"
+
+
+def test_rank_inverted_range_exits_2_with_one_line(cli):
+    code, out, err = cli["runs"]["inverted"]
+    assert code == 2
+    assert out == ""
+    assert err.strip().splitlines() == ["error: temperature range 45 to -20 degC is inverted"]
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--index", "loss_factor", "tan_delta"], "unknown merit index 'tan_delta'"),
+        (["--criteria", "{tmp}/bad.json"], "bad.json: not valid JSON"),
+        (["--mount", "{tmp}/nothere.json"], "nothere.json: file not found"),
+        (["--pareto", "loss_factor", "damping_span"], "Pareto index 'damping_span' is not"),
+        (["--max-transmissibility", "0.3"], "need a mount design"),
+    ],
+)
+def test_rank_bad_input_exits_2_with_one_line(cli, tmp_path, capsys, args, message):
+    (tmp_path / "bad.json").write_text('{"window": {"temp_range": [-20, 45]},,}')
+    args = [a.replace("{tmp}", str(tmp_path)) for a in args]
+    assert main(["rank", "--db", str(cli["db"]), *WINDOW, *args]) == 2
+    out, err = capsys.readouterr()
+    assert out == ""
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    assert message in lines[0]
+    assert _digest(cli["db"]) == cli["before"]  # nothing in the library changed
+
+
+def test_library_unchanged_by_the_commands(cli):
+    assert _digest(cli["db"]) == cli["before"]
+
+
+# ------------------------------------------------------------------ known defects
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="engine/ranking.py Criteria.from_dict: float(eta_threshold) outside any try, "
+    "so a criteria file with a text threshold ends in a ValueError traceback (exit 1)",
+)
+def test_rank_criteria_with_a_text_threshold_exits_2(cli, tmp_path, capsys):
+    path = tmp_path / "criteria.json"
+    path.write_text('{"eta_threshold": "high"}')
+    assert main(["rank", "--db", str(cli["db"]), "--criteria", str(path)]) == 2
+    assert "eta_threshold" in capsys.readouterr().err
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="engine/mountcheck.py MountDesign.from_dict: float() on disturbance_Hz outside "
+    "its try, so a --mount file with a text disturbance ends in a ValueError traceback",
+)
+def test_rank_mount_file_with_a_text_disturbance_exits_2(cli, tmp_path, capsys):
+    path = tmp_path / "mount.json"
+    path.write_text('{"disturbance_Hz": "fast"}')
+    assert main(["rank", "--db", str(cli["db"]), *WINDOW, "--mount", str(path)]) == 2
+    assert "disturbance" in capsys.readouterr().err
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="engine/cli.py _criteria_from_args tests 'if args.temp_step:' and "
+    "'if args.freq_points:', so --temp-step 0 and --freq-points 0 are silently ignored "
+    "instead of being refused; test 'is not None' instead",
+)
+@pytest.mark.parametrize(
+    ("option", "message"),
+    [
+        (["--temp-step", "0"], "temperature step must be positive"),
+        (["--freq-points", "0"], "the frequency band needs at least one point"),
+    ],
+)
+def test_rank_zero_step_is_refused(cli, option, message, capsys):
+    assert main(["rank", "--db", str(cli["db"]), *WINDOW, *option, "--json"]) == 2
+    assert message in capsys.readouterr().err
