@@ -17,6 +17,7 @@ from engine.shift import GAS_CONSTANT, LN10
 from engine.units import c_to_k
 
 _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
+CORRECTION_STEP = 1.0  # K
 
 
 @dataclass
@@ -42,6 +43,8 @@ class CurveBank:
     t_lo: np.ndarray  # measured temperatures [degC]
     t_hi: np.ndarray
     step: float = TABLE_STEP
+    correction: np.ndarray | None = None  # (grades, 1 K nodes): measured minus law log aT
+    n_correction: np.ndarray | None = None
 
     @classmethod
     def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
@@ -55,6 +58,16 @@ class CurveBank:
             ls[k, : s.size], ls[k, s.size :] = s, s[-1]
             ll[k, : l.size], ll[k, l.size :] = l, l[-1]
         laws = [curves[i].shift.law for i in ids]
+        # Measured-minus-law shift corrections on a 1 K grid over each measured range
+        # (MasterCurve.log_shift), held at the ends.
+        t_lo = np.array([curves[i].temperature_range[0] for i in ids], dtype=float)
+        t_hi = np.array([curves[i].temperature_range[1] for i in ids], dtype=float)
+        n_corr = np.maximum(np.ceil(t_hi - t_lo).astype(int) + 1, 2) if n else np.zeros(0, int)
+        corr = np.zeros((n, int(n_corr.max()) if n else 2))
+        for k, i in enumerate(ids):
+            grid = t_lo[k] + np.arange(n_corr[k]) * CORRECTION_STEP
+            values = curves[i].shift_correction(grid)
+            corr[k, : values.size], corr[k, values.size :] = values, values[-1]
 
         def arr(values):
             return np.array([np.nan if v is None else v for v in values], dtype=float)
@@ -76,8 +89,10 @@ class CurveBank:
             vertical=np.array([curves[i].vertical_shift for i in ids]),
             fr_lo=np.array([curves[i].log_fr_range[0] for i in ids]),
             fr_hi=np.array([curves[i].log_fr_range[1] for i in ids]),
-            t_lo=np.array([curves[i].temperature_range[0] for i in ids]),
-            t_hi=np.array([curves[i].temperature_range[1] for i in ids]),
+            t_lo=t_lo,
+            t_hi=t_hi,
+            correction=corr,
+            n_correction=n_corr,
         )
 
     def __len__(self) -> int:
@@ -100,11 +115,12 @@ class CurveBank:
         return np.where(kind == 3, combined, out)
 
     def log_shift(self, temperature) -> np.ndarray:
-        """log10 aT, shape (grades, *temperature.shape)."""
+        """log10 aT, shape (grades, *temperature.shape), as MasterCurve.log_shift."""
         t = np.asarray(temperature, dtype=float)
         g = np.arange(len(self)).reshape((-1,) + (1,) * t.ndim)
         ref = self.reference[g]
-        return self._raw_law(t[None, ...], g) - self._raw_law(ref, g)
+        tb = t[None, ...]
+        return self._raw_law(tb, g) - self._raw_law(ref, g) + self._correction(g, tb)
 
     def evaluate(self, temperature, frequency):
         """E', E'' [Pa] and the extrapolated flag at every (T, f) for every grade.
@@ -131,8 +147,22 @@ class CurveBank:
         g = np.arange(len(self)).reshape((-1,) + (1,) * (t.ndim - 1))
         return self._evaluate(g, t, f)
 
+    def _correction(self, g, t):
+        if self.correction is None:
+            return 0.0
+        pos = np.clip((t - self.t_lo[g]) / CORRECTION_STEP, 0.0, self.n_correction[g] - 1.0)
+        i0 = np.minimum(np.floor(pos).astype(np.intp), self.n_correction[g] - 2)
+        w = pos - i0
+        rows = np.broadcast_to(g, i0.shape)
+        return self.correction[rows, i0] * (1 - w) + self.correction[rows, i0 + 1] * w
+
     def _evaluate(self, g, t, f):
-        log_fr = np.log10(f) + self._raw_law(t, g) - self._raw_law(self.reference[g], g)
+        log_fr = (
+            np.log10(f)
+            + self._raw_law(t, g)
+            - self._raw_law(self.reference[g], g)
+            + self._correction(g, t)
+        )
         pos = (log_fr - self.start[g]) / self.step
         # Linear in log-log between nodes and beyond the ends (where a Prony series tends
         # to E'' ~ omega and ~ 1/omega with E' flat).

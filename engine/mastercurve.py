@@ -7,6 +7,8 @@ and damping of the grade at any temperature and frequency, flagging extrapolatio
 
 from __future__ import annotations
 
+import base64
+import hashlib
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -24,10 +26,15 @@ SPLIT_METHODS = ("storage_onset", "loss_modulus_peak", "loss_factor_peak")
 GLASSY_MODULUS = {"tensile": 300e6, "shear": 100e6}  # [Pa], common practice
 DEFAULT_REFERENCE_FALLBACK_C = 20.0
 PRONY_PER_DECADE = 2.0
-TABLE_STEP = 0.05  # decades, spacing of the tabulated master curve
+TABLE_STEP = 0.05  # decades, spacing of the tabulated master curve for batch ranking
+FINE_TABLE_STEP = 0.01  # decades, spacing used by MasterCurve.evaluate
 TABLE_MARGIN = 6.0  # decades tabulated beyond the covered range
 TOLERANCE_C = 0.5  # a temperature this close to the measured range is not extrapolated
-ETA_COLLAPSE_LIMIT = 0.05  # rms of log10 eta about its curve against log10 E' (common practice)
+ETA_COLLAPSE_LIMIT = 0.05  # scatter of log10 eta about its curve against log10 E'
+MIN_WINDOW_SPREAD = 0.05  # decades of log10 E' a window needs to be informative
+ISOTHERM_RESIDUAL_LIMIT = 0.1  # rms decades per isotherm about the master curve
+# (the three limits are common practice values of this project, a few times the 1-2 %
+# scatter of a good DMA measurement)
 
 
 @dataclass(frozen=True)
@@ -58,11 +65,26 @@ class MasterCurve:
     regions: list[dict] = field(default_factory=list)
     quality: dict = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    _tables: dict = field(default_factory=dict, repr=False, compare=False)
 
     # -- evaluation -----------------------------------------------------------------
     def log_shift(self, temperature):
-        """log10 aT from the fitted law at ``temperature`` [degC]."""
-        return self.shift.law.log_shift(temperature)
+        """log10 aT at ``temperature`` [degC].
+
+        Inside the measured temperatures the shift follows the measured shift factors
+        (linear between isotherms, bridged ones taken from the law); outside them the
+        fitted law carries on from the nearest end isotherm, so the curve is continuous.
+        """
+        t = np.asarray(temperature, dtype=float)
+        return self.shift.law.log_shift(t) + self.shift_correction(t)
+
+    def shift_correction(self, temperature):
+        """Measured minus fitted log10 aT, interpolated in temperature (held at the ends)."""
+        temps = self.shift.temperatures
+        if temps.size < 2:
+            return np.zeros_like(np.asarray(temperature, dtype=float))
+        corr = self.shift.log_shift - self.shift.law.log_shift(temps)
+        return np.interp(np.asarray(temperature, dtype=float), temps, corr)
 
     def _vertical(self, temperature):
         if not self.vertical_shift:
@@ -88,18 +110,22 @@ class MasterCurve:
 
         Notes
         -----
-        fR = f aT(T) with the fitted shift law; E'(fR), E''(fR) from the Prony series
-        (generalized Maxwell model) at the reference temperature; ``extrapolated`` where
-        fR lies outside the reduced-frequency range the data cover, or T outside the
-        measured temperatures.
+        fR = f aT(T) (:meth:`log_shift`); E'(fR), E''(fR) from the Prony series
+        (generalized Maxwell model) at the reference temperature, read from a table of
+        the series at 0.01-decade steps with linear interpolation in log-log (within
+        1e-4 of the series itself); ``extrapolated`` where fR lies outside the
+        reduced-frequency range the data cover, or T outside the measured temperatures.
         """
         t = np.asarray(temperature, dtype=float)
         f = np.asarray(frequency, dtype=float)
         log_fr = np.log10(f) + self.log_shift(t)
-        omega = 2.0 * np.pi * 10.0**log_fr
+        start, step, ls, ll = self.table(FINE_TABLE_STEP)
+        pos = (log_fr - start) / step
+        i0 = np.clip(np.floor(pos).astype(np.intp), 0, ls.size - 2)
+        w = pos - i0
         scale = self._vertical(t)
-        storage = self.prony.storage(omega) * scale
-        loss = self.prony.loss(omega) * scale
+        storage = 10.0 ** (ls[i0] * (1 - w) + ls[i0 + 1] * w) * scale
+        loss = 10.0 ** (ll[i0] * (1 - w) + ll[i0 + 1] * w) * scale
         return Props(storage, loss, loss / storage, 10.0**log_fr, self.extrapolated(t, log_fr))
 
     def relaxation_modulus(self, time, temperature):
@@ -109,22 +135,27 @@ class MasterCurve:
         return self.prony.relaxation(reduced_time) * self._vertical(t)
 
     def table(self, step: float = TABLE_STEP):
-        """The master curve tabulated on a uniform log10 fR grid, for batch evaluation.
+        """The master curve tabulated on a uniform log10 fR grid (cached per step).
 
         Returns (log_fr_start, step, log10 E', log10 E''): linear interpolation in log-log
         between nodes and linear extension beyond the ends, which lie far outside the
         covered range.
         """
+        cached = self._tables.get(step)
+        if cached is not None:
+            return cached
         lo, hi = self.log_fr_range
         start = np.floor((lo - TABLE_MARGIN) / step) * step
         grid = np.arange(start, hi + TABLE_MARGIN + step, step)
         omega = 2.0 * np.pi * 10.0**grid
-        return (
+        out = (
             float(start),
             step,
             np.log10(self.prony.storage(omega)),
             np.log10(np.maximum(self.prony.loss(omega), 1e-30)),
         )
+        self._tables[step] = out
+        return out
 
     # -- persistence ----------------------------------------------------------------
     def to_dict(self) -> dict:
@@ -142,10 +173,20 @@ class MasterCurve:
             "regions": self.regions,
             "quality": self.quality,
             "notes": self.notes,
+            "table": {**_encode_table(self.table()), "series": _series_key(self)},
         }
 
     @classmethod
     def from_dict(cls, data: dict) -> MasterCurve:
+        curve = cls._from_dict(data)
+        table = data.get("table")
+        # The stored table is used only while it belongs to the same series and range.
+        if table is not None and table.get("series") == _series_key(curve):
+            curve._tables[TABLE_STEP] = _decode_table(table)
+        return curve
+
+    @classmethod
+    def _from_dict(cls, data: dict) -> MasterCurve:
         return cls(
             mode=data["mode"],
             reference_C=data["reference_C"],
@@ -161,6 +202,36 @@ class MasterCurve:
             quality=data["quality"],
             notes=data["notes"],
         )
+
+
+def _series_key(curve: MasterCurve) -> str:
+    """Fingerprint of what a tabulated curve depends on: the series and covered range."""
+    h = hashlib.sha256()
+    for a in (curve.prony.tau, curve.prony.weights, [curve.prony.equilibrium], curve.log_fr_range):
+        h.update(np.asarray(a, dtype="<f8").tobytes())
+    return h.hexdigest()[:16]
+
+
+def _encode_table(table) -> dict:
+    start, step, ls, ll = table
+    return {
+        "start": start,
+        "step": step,
+        "log_storage": base64.b64encode(ls.astype("<f8").tobytes()).decode("ascii"),
+        "log_loss": base64.b64encode(ll.astype("<f8").tobytes()).decode("ascii"),
+    }
+
+
+def _decode_table(data: dict):
+    def arr(text):
+        return np.frombuffer(base64.b64decode(text), dtype="<f8").copy()
+
+    return (
+        float(data["start"]),
+        float(data["step"]),
+        arr(data["log_storage"]),
+        arr(data["log_loss"]),
+    )
 
 
 def isochrone(isotherms, frequency: float = 1.0):
@@ -233,7 +304,12 @@ def _eta_collapse(log_storage: np.ndarray, log_eta: np.ndarray, window: int = 9)
     slope = np.where(sxx > 0, np.sum((x - xm) * (y - ym), axis=1) / np.maximum(sxx, 1e-300), 0.0)
     mid = window // 2
     resid = y[:, mid] - (ym[:, 0] + slope * (x[:, mid] - xm[:, 0]))
-    return float(1.4826 * np.median(np.abs(resid)))
+    # Where E' is flat (glassy or rubbery plateau) measurement noise alone reorders the
+    # points; such windows say nothing about superposition and are left out.
+    informative = np.ptp(x, axis=1) >= MIN_WINDOW_SPREAD
+    if not informative.any():
+        return float("nan")
+    return float(1.4826 * np.median(np.abs(resid[informative])))
 
 
 def build_master_curve(
@@ -272,7 +348,10 @@ def build_master_curve(
 
     f_tg = 1.0
     t_curve, e_curve, eta_curve = isochrone(isotherms, f_tg)
-    if t_curve.size < 3:
+    spans_1hz = any(
+        iso.log_frequency[0] - 1e-9 <= 0.0 <= iso.log_frequency[-1] + 1e-9 for iso in isotherms
+    )
+    if not spans_1hz:
         f_tg = _nearest_measured_frequency(isotherms, 1.0)
         t_curve, e_curve, eta_curve = isochrone(isotherms, f_tg)
         notes.append(f"1 Hz lies outside the measured frequencies: Tg reported at {f_tg:g} Hz")
@@ -299,8 +378,10 @@ def build_master_curve(
         isotherms = split_isotherms(points[:, 0], points[:, 1], storage, points[:, 3])
     shift = shift_isotherms(isotherms, reference_C, candidates or [None], glassy)
     split = shift.law.split_C if shift.law.split_C is not None else split
-    notes.extend(shift.notes)
-    notes.extend(shift.law.notes)
+    for note in [*shift.notes, *shift.law.notes]:
+        single = note.startswith("single isotherm") and len(isotherms) == 1
+        if note not in notes and not single:
+            notes.append(note)
 
     # Master curve data: each point at its isotherm's shift.
     t_round = np.round(points[:, 0], 1)
@@ -330,6 +411,10 @@ def build_master_curve(
             }
         )
     collapse = _eta_collapse(np.log10(storage), np.log10(np.maximum(points[:, 3], 1e-6)))
+    worst_iso = max(
+        (max(p["rms_log_storage"], p["rms_log_loss_factor"]) for p in per_iso), default=0.0
+    )
+    collapse_ok = not np.isfinite(collapse) or collapse <= ETA_COLLAPSE_LIMIT
     quality = {
         "per_isotherm": per_iso,
         "rms_log_storage": float(np.sqrt(np.mean(r_e**2))),
@@ -338,8 +423,14 @@ def build_master_curve(
         "prony_rms_loss": report.rms_loss,
         "prony_terms": report.n_terms,
         "eta_vs_log_storage_scatter": collapse,
-        "superposition_ok": bool(not np.isfinite(collapse) or collapse <= ETA_COLLAPSE_LIMIT),
+        "worst_isotherm_rms": float(worst_iso),
+        "superposition_ok": bool(collapse_ok and worst_iso <= ISOTHERM_RESIDUAL_LIMIT),
     }
+    if worst_iso > ISOTHERM_RESIDUAL_LIMIT:
+        notes.append(
+            f"an isotherm lies {worst_iso:.2f} decades (rms) off the master curve: "
+            "superposition is poor there"
+        )
     if np.isfinite(collapse) and collapse > ETA_COLLAPSE_LIMIT:
         notes.append(
             f"loss factor against log E' scatters by {collapse:.3f} decades: the grade may not "

@@ -45,6 +45,38 @@ DEFAULT_INDICES = {
 LOG_FLOOR = 1e-12  # values at or below zero are scored as this (a damping span of 0 K)
 
 
+def _number(value, setting: str) -> float:
+    """``value`` as a float if it is a finite number (not text, not a boolean)."""
+    if isinstance(value, bool | np.bool_) or not isinstance(value, int | float | np.number):
+        raise CriteriaError(f"{setting} must be a number, not {value!r}")
+    if not math.isfinite(value):
+        raise CriteriaError(f"{setting} must be a finite number, not {value!r}")
+    return float(value)
+
+
+def _optional_number(value, setting: str) -> float | None:
+    return None if value is None else _number(value, setting)
+
+
+def _boolean(value, setting: str) -> bool:
+    """``value`` if it is a boolean (true/false in JSON or TOML); text is refused."""
+    if not isinstance(value, bool | np.bool_):
+        raise CriteriaError(f"{setting} must be true or false, not {value!r}")
+    return bool(value)
+
+
+def _range(value, setting: str) -> tuple[float, float] | None:
+    """``value`` as a (low, high) pair of finite numbers, or None."""
+    if value is None:
+        return None
+    if not isinstance(value, list | tuple) or len(value) != 2:
+        raise CriteriaError(f"{setting} must be two numbers [low, high], not {value!r}")
+    lo, hi = (_number(v, setting) for v in value)
+    if lo > hi:
+        raise CriteriaError(f"{setting} {lo:g} to {hi:g} is inverted")
+    return lo, hi
+
+
 @dataclass(frozen=True)
 class IndexChoice:
     name: str
@@ -52,6 +84,19 @@ class IndexChoice:
     aggregate: str = "worst"
     formula: str | None = None  # custom index when given
     higher_is_better: bool = True
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise CriteriaError(f"index name must be non-blank text, not {self.name!r}")
+        _number(self.weight, f"index '{self.name}': weight")
+        if not isinstance(self.aggregate, str):
+            raise CriteriaError(
+                f"index '{self.name}': aggregation must be one of {', '.join(AGGREGATES)}, "
+                f"not {self.aggregate!r}"
+            )
+        if self.formula is not None and not isinstance(self.formula, str):
+            raise CriteriaError(f"index '{self.name}': formula must be text, not {self.formula!r}")
+        _boolean(self.higher_is_better, f"index '{self.name}': higher_is_better")
 
     def spec(self) -> IndexSpec:
         if self.formula is not None:
@@ -77,15 +122,18 @@ class Constraints:
 
     @classmethod
     def from_dict(cls, data: dict) -> Constraints:
+        if not isinstance(data, dict):
+            raise CriteriaError(f"constraints must be a mapping of settings, not {data!r}")
         known = set(cls.__dataclass_fields__)
         reject_unknown(data, known, "constraint(s)")
         d = dict(data)
+        for key in ("service_covers_window", "allow_extrapolation"):
+            if key in d:
+                d[key] = _boolean(d[key], key)
         for key in ("hardness_range", "fn_range_Hz"):
-            if d.get(key) is not None:
-                lo, hi = (float(v) for v in d[key])
-                if lo > hi:
-                    raise CriteriaError(f"{key} {lo:g} to {hi:g} is inverted")
-                d[key] = (lo, hi)
+            d[key] = _range(d.get(key), key)
+        for key in ("max_price", "min_loss_factor", "max_transmissibility", "max_static_strain"):
+            d[key] = _optional_number(d.get(key), key)
         return cls(**d)
 
 
@@ -134,7 +182,12 @@ class Criteria:
             for p in self.pareto:
                 if p not in names:
                     raise CriteriaError(f"Pareto index '{p}' is not among the chosen indices")
-        if self.eta_threshold <= 0:
+            if len(self.pareto) != 2 or self.pareto[0] == self.pareto[1]:
+                raise CriteriaError(
+                    "the Pareto front needs exactly two different chosen indices, not "
+                    + (", ".join(f"'{p}'" for p in self.pareto) or "none")
+                )
+        if not (math.isfinite(self.eta_threshold) and self.eta_threshold > 0):
             raise CriteriaError("loss-factor threshold must be positive")
         if self.mount is None and (
             self.constraints.max_transmissibility is not None
@@ -171,29 +224,41 @@ class Criteria:
             raise CriteriaError("criteria must be a mapping of settings")
         known = {"window", "design", "indices", "constraints", "mount", "pareto", "eta_threshold"}
         reject_unknown(data, known, "criteria setting(s)")
-        try:
-            indices = tuple(
+        entries = data.get("indices", [])
+        if not isinstance(entries, list | tuple):
+            raise CriteriaError(f"indices must be a list of index entries, not {entries!r}")
+        index_keys = {"name", "weight", "aggregate", "formula", "higher_is_better"}
+        indices = []
+        for k, c in enumerate(entries, start=1):
+            if not isinstance(c, dict) or "name" not in c:
+                raise CriteriaError(f"bad index entry {k}: needs a mapping with a 'name'")
+            reject_unknown(c, index_keys, f"setting(s) in index entry {k}:")
+            indices.append(
                 IndexChoice(
-                    name=str(c["name"]),
-                    weight=float(c.get("weight", 1.0)),
-                    aggregate=str(c.get("aggregate", "worst")),
+                    name=c["name"],
+                    weight=c.get("weight", 1.0),
+                    aggregate=c.get("aggregate", "worst"),
                     formula=c.get("formula"),
-                    higher_is_better=bool(c.get("higher_is_better", True)),
+                    higher_is_better=c.get("higher_is_better", True),
                 )
-                for c in data.get("indices", [])
             )
-        except (KeyError, TypeError, ValueError, AttributeError) as exc:
-            raise CriteriaError(f"bad index entry: {exc}") from None
+        window = data.get("window", {})
+        if not isinstance(window, dict):
+            raise CriteriaError(f"window must be a mapping of settings, not {window!r}")
         mount = data.get("mount")
         pareto = data.get("pareto")
+        if pareto is not None and (
+            not isinstance(pareto, list | tuple) or not all(isinstance(p, str) for p in pareto)
+        ):
+            raise CriteriaError(f"pareto must be a list of two index names, not {pareto!r}")
         return cls(
-            window=OperatingWindow.from_dict(data.get("window", {})),
+            window=OperatingWindow.from_dict(window),
             design=str(data.get("design", "isolation_mount")),
-            indices=indices,
+            indices=tuple(indices),
             constraints=Constraints.from_dict(data.get("constraints", {})),
             mount=None if mount is None else MountDesign.from_dict(mount),
             pareto=None if pareto is None else tuple(pareto),
-            eta_threshold=float(data.get("eta_threshold", 0.2)),
+            eta_threshold=_number(data.get("eta_threshold", 0.2), "eta_threshold"),
         )
 
     def save(self, path: str | Path) -> None:
@@ -244,8 +309,16 @@ class GradeResult:
     pareto: bool = False
     extrapolated: bool = False
     reason: str = ""
-    mount: dict | None = None
+    mount_result: MountResult | None = field(default=None, repr=False)
+    mount_index: int | None = None
     notes: list[str] = field(default_factory=list)
+
+    @property
+    def mount(self) -> dict | None:
+        """JSON-ready mount figures of this grade (MountResult.grade), made on demand."""
+        if self.mount_result is None:
+            return None
+        return self.mount_result.grade(self.mount_index)
 
 
 @dataclass
@@ -418,9 +491,7 @@ def rank(
                 fails.append(
                     Failure(f"index {name}", "unknown", "needs " + (", ".join(missing) or "data"))
                 )
-        mount_figs = None
         if mres is not None:
-            mount_figs = mres.grade(k)
             fn = mres.natural_frequency[k]
             if not np.isfinite(fn).all():
                 fails.append(Failure("natural frequency", "not found", "a root in 1 mHz-100 kHz"))
@@ -476,7 +547,8 @@ def rank(
                 failures=fails,
                 indices={name: float(values[name][k]) for name in specs},
                 extrapolated=bool(extrap_any[k]),
-                mount=mount_figs,
+                mount_result=mres,
+                mount_index=k if mres is not None else None,
                 notes=notes,
             )
         )
@@ -503,7 +575,8 @@ def rank(
         lo_s = passing[-1].raw_score
         for i, r in enumerate(passing, start=1):
             r.rank = i
-            r.score = 100.0 if hi_s == lo_s else 100.0 * (r.raw_score - lo_s) / (hi_s - lo_s)
+            share = 1.0 if hi_s == lo_s else (r.raw_score - lo_s) / (hi_s - lo_s)
+            r.score = min(max(100.0 * share, 0.0), 100.0)
     if criteria.pareto is not None and passing:
         a, b = criteria.pareto
         sa = 1 if specs[a].higher_is_better else -1
@@ -512,8 +585,13 @@ def rank(
         for i, r in enumerate(passing):
             dominated = np.any(np.all(pts >= pts[i], axis=1) & np.any(pts > pts[i], axis=1))
             r.pareto = not bool(dominated)
+    best_values = {}
+    for name, spec in specs.items():
+        vals = [p.indices[name] for p in passing]
+        if vals:
+            best_values[name] = max(vals) if spec.higher_is_better else min(vals)
     for r in passing:
-        r.reason = _reason(r, passing, specs, weights)
+        r.reason = _reason(r, len(passing), best_values, specs, weights)
     excluded = sorted((r for r in results if not r.passed), key=lambda r: r.id)
     for r in excluded:
         r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
@@ -528,15 +606,14 @@ def rank(
     )
 
 
-def _reason(r: GradeResult, passing: list[GradeResult], specs, weights) -> str:
+def _reason(r: GradeResult, n_passing: int, best_values: dict, specs, weights) -> str:
     """One line: where the grade stands and which index carried it."""
     parts = []
-    best_on = []
-    for name, spec in specs.items():
-        vals = [p.indices[name] for p in passing]
-        best = max(vals) if spec.higher_is_better else min(vals)
-        if r.indices[name] == best and len(passing) > 1:
-            best_on.append(spec.label)
+    best_on = [
+        spec.label
+        for name, spec in specs.items()
+        if n_passing > 1 and r.indices[name] == best_values.get(name)
+    ]
     if best_on:
         parts.append("best " + " and ".join(best_on))
 
@@ -550,7 +627,7 @@ def _reason(r: GradeResult, passing: list[GradeResult], specs, weights) -> str:
         parts.append("Pareto-optimal")
     if r.extrapolated:
         parts.append("uses extrapolated data")
-    return f"rank {r.rank} of {len(passing)}: " + "; ".join(parts) + "; meets every constraint"
+    return f"rank {r.rank} of {n_passing}: " + "; ".join(parts) + "; meets every constraint"
 
 
 def built_in_indices() -> dict[str, IndexSpec]:

@@ -52,15 +52,6 @@ def test_shift_factors_recover_the_known_law(curve):
     assert curve.shift.law.activation_J_per_mol == pytest.approx(200e3, rel=0.05)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="shift.py (_best_law / fit_shift_law) with mastercurve.py: the law evaluate() "
-    "uses is offset below Tg. The split is a measured Tg at 1 Hz (the loss-modulus peak, "
-    "-14.3 degC, at 6b0ce31; the storage onset, -18.4 degC, before), not the model's "
-    "-20 degC, so the (-20, -15) degC pair is put on the Arrhenius branch and the whole "
-    "glassy branch runs 0.73-0.80 decade off the true law (overlap shifts: within 0.07); "
-    "tan delta at -42.5 degC, 10 Hz comes out 93 % high",
-)
 def test_fitted_law_matches_known_law_below_tg(curve):
     # Round trip against the known model: the law evaluate() uses, at the measured
     # isotherms below Tg, within the same 0.1 decade as the overlap shifts, and values
@@ -245,23 +236,11 @@ def test_single_isotherm_is_extrapolated_at_other_temperatures(single):
     assert curve.evaluate(20.0, 1e3).extrapolated  # beyond the measured frequencies
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="mastercurve.py:275-278 (build_master_curve): with one isotherm the isochrone "
-    "at 1 Hz has fewer than three temperatures and the code notes '1 Hz lies outside the "
-    "measured frequencies' although 1 Hz was measured",
-)
 def test_single_isotherm_notes_do_not_say_1hz_is_unmeasured(single):
     _, curve = single
     assert not any("outside the measured frequencies" in n for n in curve.notes)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="mastercurve.py:302-303 (build_master_curve): for a single isotherm shift.notes "
-    "already holds shift.law.notes (shift.py, shift_isotherms), so 'single isotherm: no "
-    "superposition' is listed twice",
-)
 def test_single_isotherm_notes_are_not_repeated(single):
     _, curve = single
     assert len(curve.notes) == len(set(curve.notes))
@@ -338,27 +317,16 @@ def test_superposition_check_tells_poor_from_clean(curve):
     mixed = build_master_curve(_two_grades_mixed(), "tensile")
     assert _flagged(mixed)
     assert not mixed.quality["superposition_ok"]
-    assert any("thermorheologically simple" in n for n in mixed.notes)
+    assert any(
+        "thermorheologically simple" in n or "superposition is poor" in n for n in mixed.notes
+    )
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="mastercurve.py:216-236/332-341 (_eta_collapse): a secondary process that puts "
-    "tan delta about 0.3 decade off the master curve within isotherms still passes "
-    "superposition_ok, because the median over all points hides a glassy-region failure",
-)
 def test_superposition_flag_catches_secondary_process():
     secondary = build_master_curve(_with_secondary_process(), "tensile")
     assert not secondary.quality["superposition_ok"]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="mastercurve.py:216-236 (_eta_collapse): on the rubbery plateau log E' is flat "
-    "to within the 1 % noise, so sorting by log E' scrambles the points and the local "
-    "line of log tan delta has nothing to follow; a clean grade measured 20-205 degC "
-    "gets superposition_ok False (scatter 0.31) although it is the simple known model",
-)
 def test_superposition_flag_passes_clean_grade_on_rubbery_plateau():
     temps = np.arange(20.0, 206.0, 5.0)
     plateau = build_master_curve(synthetic.sweep(temperatures=temps, noise=0.01), "tensile")
@@ -394,21 +362,23 @@ def test_vertical_shift_factor_is_t_over_t0():
     temperature, freq = np.array([-20.0, 80.0]), 10.0
     props = curve.evaluate(temperature, freq)
     omega = 2.0 * np.pi * freq * 10.0 ** curve.log_shift(temperature)
+    expected = (temperature + 273.15) / (30.0 + 273.15)
     factor = props.storage_modulus / curve.prony.storage(omega)
-    np.testing.assert_allclose(factor, (temperature + 273.15) / (30.0 + 273.15), rtol=1e-12)
-    np.testing.assert_allclose(props.loss_modulus / curve.prony.loss(omega), factor, rtol=1e-12)
+    # evaluate reads the series from a 0.01-decade table: within 1e-4 of the series.
+    np.testing.assert_allclose(factor, (temperature + 273.15) / (30.0 + 273.15), rtol=1e-4)
+    np.testing.assert_allclose(props.loss_modulus / curve.prony.loss(omega), expected, rtol=1e-4)
     np.testing.assert_allclose(
-        props.loss_factor, curve.prony.loss(omega) / curve.prony.storage(omega), rtol=1e-12
+        props.loss_factor, curve.prony.loss(omega) / curve.prony.storage(omega), rtol=1e-4
     )
     np.testing.assert_allclose(
         curve.relaxation_modulus(3600.0, temperature),
-        curve.prony.relaxation(3600.0 / 10.0 ** curve.log_shift(temperature)) * factor,
+        curve.prony.relaxation(3600.0 / 10.0 ** curve.log_shift(temperature)) * expected,
         rtol=1e-12,
     )
     plain = build_master_curve(points, "tensile", reference_C=30.0)
     one = plain.evaluate(temperature, freq)
     omega = 2.0 * np.pi * freq * 10.0 ** plain.log_shift(temperature)
-    np.testing.assert_allclose(one.storage_modulus, plain.prony.storage(omega), rtol=1e-12)
+    np.testing.assert_allclose(one.storage_modulus, plain.prony.storage(omega), rtol=1e-4)
 
 
 def test_explicit_reference_temperature(curve):

@@ -1,0 +1,131 @@
+"""quietgrade dashboard: ``streamlit run dashboard/app.py``.
+
+The entry script draws what every page shares (the design case in the sidebar, the
+caution, the comparison set), ranks the library and then runs the chosen page from
+``dashboard/views/``. The library is ``QUIETGRADE_DB`` or the user's default location.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+import streamlit as st  # noqa: E402
+
+from dashboard import case, data, sidebar  # noqa: E402
+from dashboard.common import CONTEXT_KEY, Context  # noqa: E402
+from dashboard.palette import grade_colours  # noqa: E402
+from engine.caution import CAUTION  # noqa: E402
+from engine.errors import LibraryError, QuietgradeError  # noqa: E402
+from engine.store import default_location  # noqa: E402
+
+VIEWS = Path(__file__).resolve().parent / "views"
+PAGES = (
+    ("map.py", "Map", "map"),
+    ("curves.py", "Curves", "curves"),
+    ("mount.py", "Mount", "mount"),
+    ("shortlist.py", "Shortlist", "shortlist"),
+    ("library.py", "Library", "library"),
+)
+
+
+def _take_compare_pick() -> None:
+    st.session_state["compare"] = list(st.session_state.get("compare_pick", []))
+
+
+def _comparison_set(ids: list[str], shortlist: list[str]) -> list[str]:
+    """The comparison set widget above every page; returns the current set."""
+    if "compare" not in st.session_state or not st.session_state.get("_compare_seeded"):
+        st.session_state["_compare_seeded"] = True
+        if not st.session_state.get("compare"):
+            st.session_state["compare"] = shortlist[:3]
+    current = [g for g in st.session_state.get("compare", []) if g in ids]
+    st.session_state["compare"] = current
+    st.session_state["compare_pick"] = current
+    st.multiselect(
+        "Comparison set",
+        options=ids,
+        key="compare_pick",
+        on_change=_take_compare_pick,
+        placeholder="choose grades, or draw a box or lasso on the map",
+        help="Highlighted on every chart; the Curves and Mount pages show these grades.",
+    )
+    return current
+
+
+def main() -> None:
+    st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state=340)
+    location = default_location()
+    try:
+        library = data.library_at(location)
+        if data.load_demo_if_empty(library):
+            st.session_state["_demo_loaded"] = True
+        curves, fit_errors = data.fits(library)
+    except (LibraryError, QuietgradeError) as exc:
+        st.error(f"cannot open the library: {exc}")
+        st.caption(CAUTION)
+        st.stop()
+
+    sidebar.init_state()
+    criteria, problem = sidebar.render()
+
+    navigation = st.navigation(
+        [
+            st.Page(str(VIEWS / file), title=title, url_path=path, default=path == "map")
+            for file, title, path in PAGES
+        ],
+        position="top",
+    )
+    with st.container(border=True):
+        st.caption("**Caution.** " + CAUTION)
+    if st.session_state.get("_demo_loaded"):
+        st.info(
+            f"The library at {library.location} was empty: the invented demo grades "
+            "(demo_materials/) were loaded. They are no real products."
+        )
+    for note in st.session_state.get("_link_notes", []):
+        st.warning(f"link parameter ignored: {note}")
+
+    result = None
+    if criteria is not None and curves:
+        try:
+            result = data.ranked(library, criteria)
+        except QuietgradeError as exc:
+            problem = str(exc)
+    elif criteria is not None:
+        problem = "the library holds no fitted grade: import data on the Library page"
+
+    ids = sorted(result.window_props.ids) if result is not None else sorted(curves)
+    shortlist = [g.id for g in result.shortlist] if result is not None else []
+    compare = (
+        _comparison_set(ids, shortlist)
+        if navigation.url_path != "library"
+        else [g for g in st.session_state.get("compare", []) if g in ids]
+    )
+    if problem:
+        st.error(problem)
+
+    st.session_state[CONTEXT_KEY] = Context(
+        library=library,
+        curves=curves,
+        fit_errors=fit_errors,
+        criteria=criteria,
+        result=result,
+        problem=problem,
+        compare=compare,
+        colours=grade_colours(library.existing_ids() | set(curves)),
+    )
+    try:
+        query = case.to_query({**st.session_state.to_dict(), "compare": compare})
+    except QuietgradeError:
+        query = None
+    if query is not None and st.query_params.to_dict() != query:
+        st.query_params.from_dict(query)
+    navigation.run()
+
+
+main()

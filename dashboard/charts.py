@@ -1,0 +1,1083 @@
+"""Plotly figures of engine results. Plotting transforms only: every value drawn comes
+from an engine object (WindowProps, MasterCurve, MountResult) or the measured points;
+the few arrays made here are axis geometry (guide lines, label positions, shifted
+abscissae from the engine's shift factors)."""
+
+from __future__ import annotations
+
+import numpy as np
+import plotly.graph_objects as go
+from plotly.subplots import make_subplots
+
+from dashboard.palette import (
+    ACCENT,
+    FREQUENCY_DASHES,
+    FREQUENCY_SYMBOLS,
+    GUIDE,
+    INK,
+    TEMPERATURE_SCALE,
+    WARN,
+    WINDOW_BAND,
+    faded,
+)
+from engine.mastercurve import MasterCurve
+from engine.ranking import RankResult
+
+TEMPLATE = "quietgrade"
+HOUR_S = 3600.0
+
+
+def _log_span(values, pad: float = 0.12) -> tuple[float, float]:
+    """log10 range covering the finite positive ``values``, padded [decades]."""
+    v = np.asarray(values, dtype=float).ravel()
+    v = v[np.isfinite(v) & (v > 0)]
+    if v.size == 0:
+        return (-1.0, 1.0)
+    lo, hi = np.log10(v.min()), np.log10(v.max())
+    if hi - lo < 0.5:
+        mid = 0.5 * (lo + hi)
+        lo, hi = mid - 0.25, mid + 0.25
+    return (float(lo - pad), float(hi + pad))
+
+
+def tidy_log_axes(fig: go.Figure) -> go.Figure:
+    """Readable tick labels on log axes: few labels on narrow spans, decades on wide ones."""
+    spans: dict[str, list[float]] = {}
+    for trace in fig.data:
+        for letter in ("x", "y"):
+            ref = getattr(trace, f"{letter}axis", None) or letter
+            values = getattr(trace, letter, None)
+            if values is None:
+                continue
+            v = np.asarray(values, dtype=float).ravel()
+            v = v[np.isfinite(v) & (v > 0)]
+            if v.size:
+                lo, hi = spans.get(ref, [np.inf, -np.inf])
+                spans[ref] = [min(lo, np.log10(v.min())), max(hi, np.log10(v.max()))]
+    for ref, (lo, hi) in spans.items():
+        name = ("xaxis" if ref[0] == "x" else "yaxis") + ref[1:]
+        axis = fig.layout[name] if name in fig.layout else None
+        if axis is None or axis.type != "log":
+            continue
+        if axis.range is not None:
+            lo, hi = sorted(axis.range)
+        span = hi - lo
+        if span >= 2.5:
+            axis.update(
+                dtick=1 if span <= 12 else 2,
+                exponentformat="power" if span > 7 else "none",
+                minor={"ticks": "outside", "ticklen": 3, "dtick": "D1", "showgrid": False},
+            )
+        elif span >= 0.7:
+            axis.update(dtick="D2")
+    return fig
+
+
+def _mode_symbol(curve: MasterCurve) -> str:
+    return "G" if curve.mode == "shear" else "E"
+
+
+def empty_figure(message: str) -> go.Figure:
+    fig = go.Figure()
+    fig.add_annotation(text=message, showarrow=False, xref="paper", yref="paper", x=0.5, y=0.5)
+    fig.update_layout(template=TEMPLATE, height=260, xaxis_visible=False, yaxis_visible=False)
+    return fig
+
+
+# -- map -----------------------------------------------------------------------------------
+
+
+def map_figure(
+    result: RankResult,
+    colours: dict[str, str],
+    chosen: list[str],
+    min_loss_factor: float | None,
+    show_excluded: bool = True,
+) -> go.Figure:
+    """E' against loss factor, each grade a path through the window's temperatures."""
+    props = result.window_props
+    grades = {g.id: g for g in result.grades}
+    temps = np.asarray(props.path_temperatures, dtype=float)
+    storage = np.asarray(props.path_storage, dtype=float) / 1e6
+    loss = np.asarray(props.path_loss, dtype=float) / 1e6
+    with np.errstate(divide="ignore", invalid="ignore"):
+        eta = loss / storage
+    shown = [k for k, gid in enumerate(props.ids) if show_excluded or grades[gid].passed]
+    xa, xb = _log_span(
+        np.concatenate([eta[shown].ravel(), [min_loss_factor] if min_loss_factor else []]), 0.15
+    )
+    ya, yb = _log_span(storage[shown], 0.15)
+    fig = go.Figure()
+
+    # Feasible region (eta >= limit), drawn as a filled polygon in data coordinates.
+    if min_loss_factor:
+        x0 = max(min_loss_factor, 10**xa)
+        fig.add_trace(
+            go.Scatter(
+                x=[x0, 10**xb, 10**xb, x0, x0],
+                y=[10**ya, 10**ya, 10**yb, 10**yb, 10**ya],
+                fill="toself",
+                fillcolor="rgba(46, 111, 115, 0.09)",
+                line={"width": 0},
+                mode="lines",
+                hoverinfo="skip",
+                showlegend=False,
+            )
+        )
+        fig.add_annotation(
+            x=np.log10(x0),
+            y=yb,
+            yshift=-4,
+            text=f"η ≥ {min_loss_factor:g} (limit met)",
+            showarrow=False,
+            xanchor="left",
+            yanchor="top",
+            font={"size": 11, "color": ACCENT},
+        )
+
+    # Guides: constant loss modulus E'' = eta E' (straight lines of slope -1 here).
+    lo_d = int(np.floor(xa + ya))
+    hi_d = int(np.ceil(xb + yb))
+    for d in range(lo_d, hi_d + 1):
+        v = 10.0**d
+        fig.add_trace(
+            go.Scatter(
+                x=[10**xa, 10**xb],
+                y=[v / 10**xa, v / 10**xb],
+                mode="lines",
+                line={"color": GUIDE, "width": 0.8, "dash": "dot"},
+                hoverinfo="skip",
+                showlegend=False,
+            )
+        )
+        # Label where the guide enters the plot from the top or the left.
+        x_top = d - yb
+        if xa <= x_top <= xb:
+            x_lab, y_lab = x_top, yb
+        elif ya <= d - xa <= yb:
+            x_lab, y_lab = xa, d - xa
+        else:
+            continue
+        fig.add_annotation(
+            x=x_lab + 0.02,
+            y=y_lab - 0.04,
+            text=f"E'' = {v:g} MPa",
+            showarrow=False,
+            xanchor="left",
+            yanchor="top",
+            font={"size": 10, "color": "#A39E91"},
+        )
+
+    on_ten = np.isclose(np.mod(temps, 10.0), 0.0) | np.isclose(np.mod(temps, 10.0), 10.0)
+    sizes = np.where(on_ten, 7, 0)
+    sizes[0] = sizes[-1] = 9
+    labels = [""] * temps.size
+    labels[0] = f"{temps[0]:g} °C"
+    labels[-1] = f"{temps[-1]:g} °C"
+    for k in shown:
+        gid = props.ids[k]
+        g = grades[gid]
+        colour = colours.get(gid, INK)
+        picked = gid in chosen
+        if g.passed:
+            status = f"rank {g.rank}, score {g.score:.0f}"
+            alpha = 1.0 if (picked or not chosen) else 0.5
+            width = 4.0 if picked else 2.0
+            dash = "solid"
+        else:
+            status = "excluded:<br>" + "<br>".join(f.text() for f in g.failures)
+            alpha = 0.9 if picked else 0.38
+            width = 3.0 if picked else 1.3
+            dash = "dot"
+        labelled = g.passed or picked
+        marks = sizes if labelled else np.where(sizes > 0, 4, 0)
+        extrap = np.asarray(props.path_extrapolated[k], dtype=bool)
+        custom = np.empty((temps.size, 3), dtype=object)
+        custom[:, 0] = gid
+        custom[:, 1] = temps
+        custom[:, 2] = np.where(extrap, " (extrapolated)", "")
+        name = gid if g.passed else f"{gid} (excluded)"
+        fig.add_trace(
+            go.Scatter(
+                x=eta[k],
+                y=storage[k],
+                mode="lines+markers+text",
+                name=name,
+                legendgroup=gid,
+                line={"color": faded(colour, alpha), "width": width, "dash": dash},
+                marker={
+                    "size": marks,
+                    "color": faded(colour, alpha),
+                    "symbol": np.where(extrap, "circle-open", "circle").tolist(),
+                    "line": {"width": 1.2, "color": faded(colour, alpha)},
+                },
+                text=labels if labelled else None,
+                textposition="top right",
+                textfont={"size": 10, "color": faded(colour, max(alpha, 0.5))},
+                customdata=custom,
+                hovertemplate=(
+                    f"<b>%{{customdata[0]}}</b> {g.name}<br>"
+                    "T = %{customdata[1]:.0f} °C%{customdata[2]}<br>"
+                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>"
+                    f"{status}<extra></extra>"
+                ),
+                selected={"marker": {"opacity": 1.0}},
+                unselected={"marker": {"opacity": 1.0}},
+            )
+        )
+    fig.update_layout(
+        template=TEMPLATE,
+        height=640,
+        dragmode="select",
+        title=(
+            f"Paths through the window at {result.criteria.window.design_frequency:.3g} Hz, "
+            f"{temps[0]:g} to {temps[-1]:g} °C"
+        ),
+        xaxis={"type": "log", "range": [xa, xb], "title": {"text": "loss factor η = tan δ [-]"}},
+        yaxis={
+            "type": "log",
+            "range": [ya, yb],
+            "title": {"text": "storage modulus E' [MPa] (tensile equivalent)"},
+        },
+        legend={"title": {"text": "grade"}, "itemclick": "toggle"},
+        hovermode="closest",
+    )
+    return tidy_log_axes(fig)
+
+
+# -- curves --------------------------------------------------------------------------------
+
+
+def _nearest_measured(points: np.ndarray, frequency: float) -> tuple[float, np.ndarray]:
+    """The measured frequency nearest ``frequency`` (log scale) and the rows measured there."""
+    logs = np.log10(points[:, 1])
+    levels = np.unique(np.round(logs, 2))
+    level = levels[np.argmin(np.abs(levels - np.log10(frequency)))]
+    rows = np.abs(logs - level) < 0.006
+    return float(10.0**level), rows
+
+
+def temperature_figure(
+    ids: list[str],
+    curves: dict[str, MasterCurve],
+    points: dict[str, np.ndarray],
+    frequencies: list[float],
+    window_range: tuple[float, float],
+    colours: dict[str, str],
+) -> go.Figure:
+    """E', E'' and tan delta against temperature at chosen frequencies, with measurements."""
+    fig = make_subplots(rows=3, cols=1, shared_xaxes=True, vertical_spacing=0.035)
+    t_lo = min([window_range[0]] + [curves[g].temperature_range[0] for g in ids])
+    t_hi = max([window_range[1]] + [curves[g].temperature_range[1] for g in ids])
+    grid = np.linspace(t_lo, t_hi, 241)
+    for gid in ids:
+        curve = curves[gid]
+        colour = colours.get(gid, INK)
+        m = _mode_symbol(curve)
+        pts = points.get(gid)
+        for j, f in enumerate(frequencies):
+            p = curve.evaluate(grid, f)
+            x = np.asarray(p.extrapolated, dtype=bool)
+            dash = FREQUENCY_DASHES[j % len(FREQUENCY_DASHES)]
+            series = (
+                (1, p.storage_modulus / 1e6, f"{m}'"),
+                (2, p.loss_modulus / 1e6, f"{m}''"),
+                (3, p.loss_factor, "tan δ"),
+            )
+            for row, values, what in series:
+                for part, mask in (("", ~x), (" extrapolated", x)):
+                    fig.add_trace(
+                        go.Scatter(
+                            x=grid,
+                            y=np.where(mask, values, np.nan),
+                            mode="lines",
+                            name=f"{gid} {f:g} Hz",
+                            legendgroup=f"{gid}-{j}",
+                            showlegend=row == 1 and not part,
+                            line={
+                                "color": colour if not part else faded(colour, 0.35),
+                                "dash": dash,
+                                "width": 2 if not part else 1.5,
+                            },
+                            hovertemplate=(
+                                f"{gid} {what}{part}<br>T = %{{x:.1f}} °C, f = {f:g} Hz<br>"
+                                "%{y:.3g}<extra></extra>"
+                            ),
+                        ),
+                        row=row,
+                        col=1,
+                    )
+            if pts is None or pts.size == 0:
+                continue
+            fm, rows = _nearest_measured(pts, f)
+            sel = pts[rows]
+            symbol = FREQUENCY_SYMBOLS[j % len(FREQUENCY_SYMBOLS)]
+            measured = (
+                (1, sel[:, 2] / 1e6),
+                (2, sel[:, 2] * sel[:, 3] / 1e6),
+                (3, sel[:, 3]),
+            )
+            for row, values in measured:
+                fig.add_trace(
+                    go.Scatter(
+                        x=sel[:, 0],
+                        y=values,
+                        mode="markers",
+                        name=f"{gid} measured {fm:.3g} Hz",
+                        legendgroup=f"{gid}-{j}",
+                        showlegend=row == 1,
+                        marker={
+                            "symbol": symbol + "-open",
+                            "size": 6,
+                            "color": colour,
+                            "line": {"width": 1.2},
+                        },
+                        hovertemplate=(
+                            f"{gid} measured at {fm:.3g} Hz<br>T = %{{x:.1f}} °C<br>"
+                            "%{y:.3g}<extra></extra>"
+                        ),
+                    ),
+                    row=row,
+                    col=1,
+                )
+    for row in (1, 2, 3):
+        fig.add_vrect(
+            x0=window_range[0],
+            x1=window_range[1],
+            fillcolor=WINDOW_BAND,
+            line_width=0,
+            row=row,
+            col=1,
+        )
+    fig.add_annotation(
+        x=window_range[0],
+        y=1.0,
+        xref="x",
+        yref="paper",
+        text="window",
+        showarrow=False,
+        xanchor="left",
+        yanchor="bottom",
+        font={"size": 11, "color": "#8C6A12"},
+    )
+    fig.update_yaxes(type="log")
+    fig.update_yaxes(title_text="storage modulus E' or G' [MPa]", row=1, col=1)
+    fig.update_yaxes(title_text="loss modulus E'' or G'' [MPa]", row=2, col=1)
+    fig.update_yaxes(title_text="loss factor tan δ [-]", row=3, col=1)
+    fig.update_xaxes(title_text="temperature [°C]", row=3, col=1)
+    fig.update_layout(
+        template=TEMPLATE,
+        height=860,
+        title="Stiffness and damping against temperature (lines: master curve; marks: measured)",
+        legend={"font": {"size": 10}},
+        hovermode="closest",
+    )
+    return tidy_log_axes(fig)
+
+
+def _isotherm_index(points: np.ndarray, curve: MasterCurve) -> np.ndarray:
+    temps = np.asarray(curve.shift.temperatures, dtype=float)
+    return np.argmin(np.abs(points[:, 0][:, None] - temps[None, :]), axis=1)
+
+
+def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
+    """The master curve at the reference temperature with the shifted measured points."""
+    m = _mode_symbol(curve)
+    lo, hi = curve.log_fr_range
+    fr = np.logspace(lo - 1.0, hi + 1.0, 400)
+    p = curve.evaluate(curve.reference_C, fr)
+    inside = (np.log10(fr) >= lo) & (np.log10(fr) <= hi)
+    fig = make_subplots(
+        rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.05, row_heights=[0.62, 0.38]
+    )
+    idx = _isotherm_index(points, curve)
+    shifted = points[:, 1] * 10.0 ** np.asarray(curve.shift.log_shift, dtype=float)[idx]
+    t_range = (float(points[:, 0].min()), float(points[:, 0].max()))
+    for row, values, label, symbol in (
+        (1, points[:, 2] / 1e6, f"{m}' measured, shifted", "circle"),
+        (1, points[:, 2] * points[:, 3] / 1e6, f"{m}'' measured, shifted", "diamond-open"),
+        (2, points[:, 3], "tan δ measured, shifted", "circle"),
+    ):
+        fig.add_trace(
+            go.Scatter(
+                x=shifted,
+                y=values,
+                mode="markers",
+                name=label,
+                marker={
+                    "symbol": symbol,
+                    "size": 5,
+                    "color": points[:, 0],
+                    "colorscale": [list(s) for s in TEMPERATURE_SCALE],
+                    "cmin": t_range[0],
+                    "cmax": t_range[1],
+                    "showscale": row == 1 and symbol == "circle",
+                    "colorbar": {"title": {"text": "T [°C]"}, "len": 0.6, "y": 0.7},
+                },
+                customdata=points[:, [0, 1]],
+                hovertemplate=(
+                    "T = %{customdata[0]:.1f} °C, f = %{customdata[1]:.3g} Hz<br>"
+                    "fR = %{x:.3g} Hz<br>%{y:.3g}<extra></extra>"
+                ),
+            ),
+            row=row,
+            col=1,
+        )
+    for row, values, label, colour in (
+        (1, p.storage_modulus / 1e6, f"{m}' master curve", INK),
+        (1, p.loss_modulus / 1e6, f"{m}'' master curve", "#8C6239"),
+        (2, p.loss_factor, "tan δ master curve", INK),
+    ):
+        for part, mask in (("", inside), (" (beyond the data)", ~inside)):
+            fig.add_trace(
+                go.Scatter(
+                    x=fr,
+                    y=np.where(mask, values, np.nan),
+                    mode="lines",
+                    name=label + part,
+                    showlegend=not part,
+                    line={"color": colour, "width": 2, "dash": "solid" if not part else "dot"},
+                    hovertemplate=(
+                        f"{label}{part}<br>fR = %{{x:.3g}} Hz<br>%{{y:.3g}}<extra></extra>"
+                    ),
+                ),
+                row=row,
+                col=1,
+            )
+    fig.update_xaxes(type="log")
+    fig.update_yaxes(type="log")
+    fig.update_xaxes(title_text="reduced frequency fR = f·aT [Hz]", row=2, col=1)
+    fig.update_yaxes(title_text=f"{m}', {m}'' [MPa]", row=1, col=1)
+    fig.update_yaxes(title_text="loss factor tan δ [-]", row=2, col=1)
+    fig.update_layout(
+        template=TEMPLATE,
+        height=640,
+        title=f"Master curve of {gid} at the reference temperature {curve.reference_C:g} °C",
+        legend={"orientation": "h", "y": -0.14, "font": {"size": 10}},
+    )
+    return tidy_log_axes(fig)
+
+
+def shift_figure(gid: str, curve: MasterCurve, window_range: tuple[float, float]) -> go.Figure:
+    """Shift factors of the isotherms with the fitted law."""
+    shift = curve.shift
+    temps = np.asarray(shift.temperatures, dtype=float)
+    logs = np.asarray(shift.log_shift, dtype=float)
+    bridged = np.asarray(shift.bridged, dtype=bool)
+    t_lo = min(temps.min(), window_range[0])
+    t_hi = max(temps.max(), window_range[1])
+    grid = np.linspace(t_lo, t_hi, 301)
+    law = np.asarray(curve.log_shift(grid), dtype=float)
+    inside = (grid >= curve.temperature_range[0]) & (grid <= curve.temperature_range[1])
+    fig = go.Figure()
+    fig.add_vrect(x0=window_range[0], x1=window_range[1], fillcolor=WINDOW_BAND, line_width=0)
+    for part, mask in (("", inside), (" (beyond the data)", ~inside)):
+        fig.add_trace(
+            go.Scatter(
+                x=grid,
+                y=np.where(mask, law, np.nan),
+                mode="lines",
+                name=f"fitted law: {shift.law.kind}{part}",
+                showlegend=not part or bool((~inside).any()),
+                line={"color": ACCENT, "width": 2, "dash": "solid" if not part else "dot"},
+                hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>law</extra>",
+            )
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=temps[~bridged],
+            y=logs[~bridged],
+            mode="markers",
+            name="from overlapping isotherms",
+            marker={"color": INK, "size": 8},
+            hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>data</extra>",
+        )
+    )
+    if bridged.any():
+        fig.add_trace(
+            go.Scatter(
+                x=temps[bridged],
+                y=logs[bridged],
+                mode="markers",
+                name="bridged (no overlap: taken from the law)",
+                marker={"color": WARN, "size": 10, "symbol": "x-thin-open", "line": {"width": 2}},
+                hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>bridged</extra>",
+            )
+        )
+    if shift.law.kind == "WLF+Arrhenius" and shift.law.split_C is not None:
+        fig.add_vline(
+            x=shift.law.split_C,
+            line={"color": GUIDE, "dash": "dash"},
+            annotation_text=f"Arrhenius below, WLF above {shift.law.split_C:.0f} °C",
+            annotation_position="top right",
+            annotation_font_size=11,
+        )
+    fig.update_layout(
+        template=TEMPLATE,
+        height=440,
+        title=f"Shift factors of {gid} (reference {curve.reference_C:g} °C)",
+        xaxis_title="temperature [°C]",
+        yaxis_title="log10 aT [-]",
+        legend={"font": {"size": 10}},
+    )
+    return fig
+
+
+def nomogram_figure(
+    gid: str,
+    curve: MasterCurve,
+    window_range: tuple[float, float],
+    band_Hz: tuple[float, float],
+    reading: tuple[float, float] | None = None,
+) -> go.Figure:
+    """Reduced-frequency nomogram in the layout of ISO 10112.
+
+    Reduced frequency along the bottom (log), E' and loss factor on the left (log),
+    frequency on the right (log), and isotherms as diagonals log f = log fR - log aT(T).
+    """
+    m = _mode_symbol(curve)
+    lo, hi = curve.log_fr_range
+    xa, xb = lo - 0.5, hi + 0.5
+    fr = np.logspace(xa, xb, 400)
+    p = curve.evaluate(curve.reference_C, fr)
+    f_lo = min(curve.frequency_range[0], band_Hz[0])
+    f_hi = max(curve.frequency_range[1], band_Hz[1])
+    fa, fb = np.floor(np.log10(f_lo)) - 1.0, np.ceil(np.log10(f_hi)) + 1.0
+    fig = go.Figure()
+    fig.add_trace(
+        go.Scatter(
+            x=fr,
+            y=p.storage_modulus / 1e6,
+            mode="lines",
+            name=f"{m}' [MPa]",
+            line={"color": INK, "width": 2.5},
+            hovertemplate=f"fR = %{{x:.3g}} Hz<br>{m}' = %{{y:.3g}} MPa<extra></extra>",
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=fr,
+            y=p.loss_factor,
+            mode="lines",
+            name="loss factor η",
+            yaxis="y3",
+            line={"color": "#B8562F", "width": 2.5, "dash": "dash"},
+            hovertemplate="fR = %{x:.3g} Hz<br>η = %{y:.3g}<extra></extra>",
+        )
+    )
+    # Window frequency band on the right-hand axis.
+    fig.add_trace(
+        go.Scatter(
+            x=[10**xa, 10**xb, 10**xb, 10**xa, 10**xa],
+            y=[band_Hz[0], band_Hz[0], band_Hz[1], band_Hz[1], band_Hz[0]],
+            yaxis="y2",
+            fill="toself",
+            fillcolor=WINDOW_BAND,
+            line={"width": 0},
+            mode="lines",
+            hoverinfo="skip",
+            name="window band",
+        )
+    )
+    t_lo, t_hi = curve.temperature_range
+    t_lo, t_hi = min(t_lo, window_range[0]), max(t_hi, window_range[1])
+    step = 10.0 if (t_hi - t_lo) <= 100.0 else 20.0
+    temps = np.arange(np.ceil(t_lo / step) * step, t_hi + 1e-9, step)
+    marked = sorted({float(window_range[0]), float(window_range[1])})
+    lines = []
+    for t in sorted(set(temps.tolist()) | set(marked)):
+        s = float(curve.log_shift(t))
+        # log f = log fR - s; the segment inside the box [xa, xb] x [fa, fb].
+        x0, x1 = max(xa, fa + s), min(xb, fb + s)
+        if x1 > x0:
+            lines.append((t, s, x0, x1, t in marked))
+    placed: list[tuple[float, float]] = []  # label positions, as fractions of the box
+    for t, s, x0, x1, bold in sorted(lines, key=lambda item: not item[4]):
+        fig.add_trace(
+            go.Scatter(
+                x=[10**x0, 10**x1],
+                y=[10 ** (x0 - s), 10 ** (x1 - s)],
+                mode="lines",
+                yaxis="y2",
+                showlegend=False,
+                line={"color": ACCENT if bold else GUIDE, "width": 2 if bold else 0.9},
+                hovertemplate=(
+                    f"isotherm {t:g} °C<br>fR = %{{x:.3g}} Hz, f = %{{y:.3g}} Hz<extra></extra>"
+                ),
+            )
+        )
+        spot = ((x1 - xa) / (xb - xa), (x1 - s - fa) / (fb - fa))
+        if not bold and any(abs(spot[0] - a) < 0.05 and abs(spot[1] - b) < 0.06 for a, b in placed):
+            continue  # the label would sit on another one; the line keeps its hover text
+        placed.append(spot)
+        fig.add_annotation(
+            x=x1,
+            y=x1 - s,
+            xref="x",
+            yref="y2",
+            text=f"{t:g} °C",
+            showarrow=False,
+            xanchor="right" if x1 >= xb - 1e-9 else "center",
+            yanchor="bottom",
+            font={"size": 10, "color": ACCENT if bold else "#7D786C"},
+        )
+    if reading is not None:
+        t_r, f_r = reading
+        fr_r = f_r * 10.0 ** float(curve.log_shift(t_r))
+        fig.add_trace(
+            go.Scatter(
+                x=[fr_r],
+                y=[f_r],
+                yaxis="y2",
+                mode="markers",
+                name=f"reading {t_r:g} °C, {f_r:.3g} Hz",
+                marker={
+                    "size": 11,
+                    "color": ACCENT,
+                    "symbol": "circle-open",
+                    "line": {"width": 2.5},
+                },
+                hovertemplate=f"{t_r:g} °C, {f_r:.3g} Hz -> fR = {fr_r:.3g} Hz<extra></extra>",
+            )
+        )
+        fig.add_shape(
+            type="line",
+            x0=fr_r,
+            x1=fr_r,
+            y0=0,
+            y1=1,
+            xref="x",
+            yref="paper",
+            line={"color": ACCENT, "dash": "dot", "width": 1.5},
+        )
+    ea, eb = _log_span(p.storage_modulus / 1e6, 0.1)
+    na, nb = _log_span(p.loss_factor, 0.1)
+    fig.update_layout(
+        template=TEMPLATE,
+        height=620,
+        title=f"Reduced-frequency nomogram of {gid} (ISO 10112 layout)",
+        xaxis={
+            "type": "log",
+            "range": [xa, xb],
+            "domain": [0.1, 0.93],
+            "title": {"text": "reduced frequency fR = f·aT [Hz]"},
+        },
+        yaxis={"type": "log", "range": [ea, eb], "title": {"text": f"{m}' [MPa]"}},
+        yaxis3={
+            "type": "log",
+            "range": [na, nb],
+            "overlaying": "y",
+            "side": "left",
+            "anchor": "free",
+            "position": 0.0,
+            "title": {"text": "loss factor η [-]"},
+            "showgrid": False,
+            "tickfont": {"color": "#B8562F"},
+        },
+        yaxis2={
+            "type": "log",
+            "range": [fa, fb],
+            "overlaying": "y",
+            "side": "right",
+            "title": {"text": "frequency f [Hz]"},
+            "showgrid": False,
+        },
+        legend={"orientation": "h", "y": -0.15, "font": {"size": 10}},
+        margin={"l": 40, "r": 70},
+    )
+    return tidy_log_axes(fig)
+
+
+def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
+    """E' and tan delta at the Tg frequency, with Tg by each method and the regions."""
+    m = _mode_symbol(curve)
+    f_tg = float(curve.tg[0]["frequency_Hz"]) if curve.tg else 1.0
+    t_lo, t_hi = curve.temperature_range
+    grid = np.linspace(t_lo, t_hi, 301)
+    p = curve.evaluate(grid, f_tg)
+    fig = go.Figure()
+    shades = ("rgba(53, 89, 143, 0.07)", "rgba(196, 154, 42, 0.09)", "rgba(91, 127, 46, 0.08)")
+    for k, region in enumerate(curve.regions):
+        fig.add_vrect(
+            x0=region["low_C"],
+            x1=region["high_C"],
+            fillcolor=shades[k % len(shades)],
+            line_width=0,
+            annotation_text=region["name"],
+            annotation_position="bottom left",
+            annotation_font_size=11,
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=grid,
+            y=p.storage_modulus / 1e6,
+            mode="lines",
+            name=f"{m}' [MPa]",
+            line={"color": INK, "width": 2.2},
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=grid,
+            y=p.loss_factor,
+            mode="lines",
+            name="tan δ",
+            yaxis="y2",
+            line={"color": "#B8562F", "width": 2.2, "dash": "dash"},
+        )
+    )
+    if points is not None and points.size:
+        fm, rows = _nearest_measured(points, f_tg)
+        sel = points[rows]
+        fig.add_trace(
+            go.Scatter(
+                x=sel[:, 0],
+                y=sel[:, 2] / 1e6,
+                mode="markers",
+                name=f"{m}' measured {fm:.3g} Hz",
+                marker={"color": INK, "size": 6, "symbol": "circle-open"},
+            )
+        )
+        fig.add_trace(
+            go.Scatter(
+                x=sel[:, 0],
+                y=sel[:, 3],
+                mode="markers",
+                yaxis="y2",
+                name=f"tan δ measured {fm:.3g} Hz",
+                marker={"color": "#B8562F", "size": 6, "symbol": "diamond-open"},
+            )
+        )
+    dashes = ("dash", "dot", "dashdot")
+    for k, tg in enumerate(curve.tg):
+        if not tg.get("reached") or tg.get("temperature_C") is None:
+            continue
+        fig.add_vline(
+            x=tg["temperature_C"],
+            line={"color": ACCENT, "dash": dashes[k % len(dashes)], "width": 1.5},
+            annotation_text=(
+                f"Tg {tg['method'].replace('_', ' ')} at {tg['frequency_Hz']:g} Hz: "
+                f"{tg['temperature_C']:.0f} °C"
+            ),
+            annotation_position="top right" if k % 2 == 0 else "top left",
+            annotation_font_size=11,
+            annotation_yshift=-14 * k,
+        )
+    fig.update_layout(
+        template=TEMPLATE,
+        height=460,
+        title=f"Glass transition of {gid} at {f_tg:g} Hz",
+        xaxis_title="temperature [°C]",
+        yaxis={"type": "log", "title": {"text": f"{m}' [MPa]"}},
+        yaxis2={
+            "type": "log",
+            "overlaying": "y",
+            "side": "right",
+            "showgrid": False,
+            "title": {"text": "loss factor tan δ [-]"},
+        },
+        legend={"orientation": "h", "y": -0.2, "font": {"size": 10}},
+    )
+    return tidy_log_axes(fig)
+
+
+def relaxation_figure(
+    gid: str, curve: MasterCurve, temperatures: list[float], colours: list[str]
+) -> go.Figure:
+    """Relaxation modulus against time, with the 1 h and 1000 h values marked."""
+    m = _mode_symbol(curve)
+    t = np.logspace(-3, 9, 361)
+    marks = np.array([HOUR_S, 1000.0 * HOUR_S])
+    fig = go.Figure()
+    for k, temp in enumerate(temperatures):
+        colour = colours[k % len(colours)]
+        hover = f"{temp:g} °C<br>t = %{{x:.3g}} s<br>{m}(t) = %{{y:.3g}} MPa<extra></extra>"
+        e = np.asarray(curve.relaxation_modulus(t, temp), dtype=float) / 1e6
+        fig.add_trace(
+            go.Scatter(
+                x=t,
+                y=e,
+                mode="lines",
+                name=f"{temp:g} °C",
+                line={"color": colour, "width": 2},
+                hovertemplate=hover,
+            )
+        )
+        v = np.asarray(curve.relaxation_modulus(marks, temp), dtype=float) / 1e6
+        fig.add_trace(
+            go.Scatter(
+                x=marks,
+                y=v,
+                mode="markers+text",
+                showlegend=False,
+                marker={"color": colour, "size": 9, "symbol": "square"},
+                text=[f"{x:.3g} MPa" for x in v],
+                textposition="middle right",
+                textfont={"size": 10, "color": colour},
+                hovertemplate=hover,
+            )
+        )
+    for x, label in ((HOUR_S, "1 h"), (1000.0 * HOUR_S, "1000 h")):
+        fig.add_shape(
+            type="line",
+            x0=x,
+            x1=x,
+            y0=0,
+            y1=1,
+            xref="x",
+            yref="paper",
+            line={"color": GUIDE, "dash": "dash"},
+        )
+        fig.add_annotation(
+            x=np.log10(x),
+            y=1.0,
+            xref="x",
+            yref="paper",
+            text=label,
+            showarrow=False,
+            yanchor="bottom",
+            font={"size": 11},
+        )
+    fig.update_layout(
+        template=TEMPLATE,
+        height=440,
+        title=f"Relaxation modulus of {gid}",
+        xaxis={"type": "log", "range": [-3, 9], "title": {"text": "time t [s]"}},
+        yaxis={"type": "log", "title": {"text": f"relaxation modulus {m}(t) [MPa]"}},
+    )
+    return tidy_log_axes(fig)
+
+
+def residual_figure(gid: str, curve: MasterCurve) -> go.Figure:
+    """Residual of the master curve per isotherm (rms of log10 values)."""
+    rows = curve.quality.get("per_isotherm", [])
+    temps = [r["temperature_C"] for r in rows]
+    bridged = [bool(r["bridged"]) for r in rows]
+    fig = go.Figure()
+    fig.add_trace(
+        go.Bar(
+            x=temps,
+            y=[r["rms_log_storage"] for r in rows],
+            name="log E' (or G')",
+            marker={"color": ACCENT, "pattern": {"shape": ["/" if b else "" for b in bridged]}},
+        )
+    )
+    fig.add_trace(
+        go.Bar(
+            x=temps,
+            y=[r["rms_log_loss_factor"] for r in rows],
+            name="log tan δ",
+            marker={"color": "#C49A2A", "pattern": {"shape": ["/" if b else "" for b in bridged]}},
+        )
+    )
+    fig.update_layout(
+        template=TEMPLATE,
+        height=380,
+        barmode="group",
+        title=f"Fit residual per isotherm of {gid} (hatched: bridged isotherm)",
+        xaxis_title="isotherm temperature [°C]",
+        yaxis_title="rms residual [decades]",
+        legend={"orientation": "h", "y": -0.25},
+    )
+    return fig
+
+
+def collapse_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
+    """Loss factor against storage modulus of the measured points (needs no shifts)."""
+    scatter = curve.quality.get("eta_vs_log_storage_scatter")
+    ok = curve.quality.get("superposition_ok")
+    fig = go.Figure(
+        go.Scatter(
+            x=points[:, 2] / 1e6,
+            y=points[:, 3],
+            mode="markers",
+            name="measured",
+            marker={
+                "size": 5,
+                "color": points[:, 0],
+                "colorscale": [list(s) for s in TEMPERATURE_SCALE],
+                "colorbar": {"title": {"text": "T [°C]"}},
+            },
+            customdata=points[:, [0, 1]],
+            hovertemplate=(
+                "T = %{customdata[0]:.1f} °C, f = %{customdata[1]:.3g} Hz<br>"
+                "E' = %{x:.3g} MPa, tan δ = %{y:.3g}<extra></extra>"
+            ),
+        )
+    )
+    text = "n/a" if scatter is None or not np.isfinite(scatter) else f"{scatter:.3f} decades"
+    fig.update_layout(
+        template=TEMPLATE,
+        height=380,
+        title=(
+            f"tan δ against {_mode_symbol(curve)}' of {gid}: scatter {text}, "
+            + ("one curve (superposition holds)" if ok else "does not collapse onto one curve")
+        ),
+        xaxis={"type": "log", "title": {"text": f"storage modulus {_mode_symbol(curve)}' [MPa]"}},
+        yaxis={"type": "log", "title": {"text": "loss factor tan δ [-]"}},
+    )
+    return tidy_log_axes(fig)
+
+
+# -- mount ---------------------------------------------------------------------------------
+
+
+def mount_figures(
+    result: RankResult, ids: list[str], colours: dict[str, str]
+) -> tuple[go.Figure, go.Figure, go.Figure]:
+    """Natural frequency, transmissibility and static deflection against temperature."""
+    mres = result.mount
+    design = result.criteria.mount
+    con = result.criteria.constraints
+    temps = np.asarray(mres.temperatures, dtype=float)
+    rows = {gid: k for k, gid in enumerate(mres.ids)}
+    fn_fig, tr_fig, sd_fig = go.Figure(), go.Figure(), go.Figure()
+    for f in mres.disturbance:
+        fn_fig.add_hline(
+            y=float(f),
+            line={"color": WARN, "dash": "dash", "width": 1.2},
+            annotation_text=f"disturbance {f:g} Hz",
+            annotation_position="top left",
+            annotation_font_size=10,
+        )
+    if con.fn_range_Hz is not None:
+        fn_fig.add_hrect(
+            y0=con.fn_range_Hz[0], y1=con.fn_range_Hz[1], fillcolor=WINDOW_BAND, line_width=0
+        )
+    if design.target_fn_Hz is not None:
+        fn_fig.add_trace(
+            go.Scatter(
+                x=[design.sizing_temp_C],
+                y=[design.target_fn_Hz],
+                mode="markers",
+                name=f"sizing target {design.target_fn_Hz:g} Hz at {design.sizing_temp_C:g} °C",
+                marker={"symbol": "star-open", "size": 13, "color": INK, "line": {"width": 1.5}},
+            )
+        )
+    # Level lines as traces: shapes on a log axis would stretch its autorange.
+    levels = [(1.0, "1: no isolation", GUIDE, "dot")]
+    if con.max_transmissibility is not None:
+        levels.append(
+            (con.max_transmissibility, f"limit {con.max_transmissibility:g}", WARN, "dash")
+        )
+    for y, label, colour, dash in levels:
+        tr_fig.add_trace(
+            go.Scatter(
+                x=[temps.min(), temps.max()],
+                y=[y, y],
+                mode="lines+text",
+                line={"color": colour, "dash": dash, "width": 1.2},
+                text=[label, ""],
+                textposition="top right",
+                textfont={"size": 10},
+                hoverinfo="skip",
+                showlegend=False,
+            )
+        )
+    single = mres.disturbance.size == 1
+    for gid in ids:
+        if gid not in rows:
+            continue
+        k = rows[gid]
+        colour = colours.get(gid, INK)
+        fn_fig.add_trace(
+            go.Scatter(
+                x=temps,
+                y=mres.natural_frequency[k],
+                mode="lines+markers",
+                name=gid,
+                line={"color": colour, "width": 2},
+                marker={"size": 5},
+                hovertemplate=f"{gid}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>",
+            )
+        )
+        for j, f in enumerate(mres.disturbance):
+            tr_fig.add_trace(
+                go.Scatter(
+                    x=temps,
+                    y=mres.transmissibility[k][:, j],
+                    mode="lines+markers",
+                    name=gid if single else f"{gid} at {f:g} Hz",
+                    legendgroup=gid,
+                    line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
+                    marker={"size": 5},
+                    hovertemplate=(
+                        f"{gid} at {f:g} Hz<br>T = %{{x:g}} °C<br>transmissibility %{{y:.3g}}"
+                        "<extra></extra>"
+                    ),
+                )
+            )
+        sd_fig.add_trace(
+            go.Scatter(
+                x=temps,
+                y=mres.static_strain[k],
+                mode="lines+markers",
+                name=gid,
+                legendgroup=gid,
+                line={"color": colour, "width": 2},
+                marker={"size": 5},
+                customdata=mres.static_deflection[k] * 1e3,
+                hovertemplate=(
+                    f"{gid}<br>T = %{{x:g}} °C<br>static strain %{{y:.3g}} "
+                    "(%{customdata:.3g} mm)<extra></extra>"
+                ),
+            )
+        )
+        sd_fig.add_trace(
+            go.Scatter(
+                x=[temps.max()],
+                y=[mres.sag_strain[k]],
+                mode="markers",
+                legendgroup=gid,
+                showlegend=False,
+                name=f"{gid} with sag after {design.service_life_h:g} h",
+                marker={
+                    "color": colour,
+                    "size": 11,
+                    "symbol": "triangle-down-open",
+                    "line": {"width": 2},
+                },
+                customdata=[mres.sag[k] * 1e3],
+                hovertemplate=(
+                    f"{gid}: strain %{{y:.3g}} (%{{customdata:.3g}} mm) after "
+                    f"{design.service_life_h:g} h at {temps.max():g} °C<extra></extra>"
+                ),
+            )
+        )
+    limit = mres.strain_limit if con.max_static_strain is None else con.max_static_strain
+    sd_fig.add_hline(
+        y=limit,
+        line={"color": WARN, "dash": "dash"},
+        annotation_text=f"strain limit {limit:g}",
+        annotation_position="top left",
+        annotation_font_size=10,
+    )
+    bottom = {"orientation": "h", "y": -0.22, "font": {"size": 10}}
+    fn_fig.update_layout(
+        template=TEMPLATE,
+        height=460,
+        title="Natural frequency across the window",
+        xaxis_title="temperature [°C]",
+        yaxis_title="natural frequency fn [Hz]",
+        legend=bottom,
+    )
+    tr_fig.update_layout(
+        template=TEMPLATE,
+        height=460,
+        title="Transmissibility at the disturbance",
+        xaxis_title="temperature [°C]",
+        yaxis={"type": "log", "title": {"text": "transmissibility [-]"}},
+        legend=bottom,
+    )
+    sd_fig.update_layout(
+        template=TEMPLATE,
+        height=460,
+        title=f"Static strain (triangles: with sag after {design.service_life_h:g} h)",
+        xaxis_title="temperature [°C]",
+        yaxis={
+            "title": {"text": "static strain (deflection / thickness) [-]"},
+            "rangemode": "tozero",
+        },
+        legend=bottom,
+    )
+    return tidy_log_axes(fn_fig), tidy_log_axes(tr_fig), tidy_log_axes(sd_fig)

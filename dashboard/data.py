@@ -1,0 +1,85 @@
+"""The library, its master curves and the ranking, cached for the dashboard.
+
+Caches are keyed on the library location and :meth:`engine.store.Library.version`, so
+any change to the library (an import, an edit, a deletion) refits and reranks. Results
+hold numpy arrays, dataclasses and formula callables, so they are kept as resources
+(shared, never pickled) and must be treated as read-only.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import streamlit as st
+
+from engine.cli import DEMO_DIR
+from engine.fits import fit_library
+from engine.importer import import_files
+from engine.mastercurve import MasterCurve
+from engine.ranking import Criteria, RankResult, rank
+from engine.store import Library
+
+
+@st.cache_resource(show_spinner=False)
+def library_at(location: str) -> Library:
+    """One :class:`Library` object per location, shared by all sessions."""
+    return Library(location)
+
+
+def load_demo_if_empty(library: Library) -> bool:
+    """Import the invented demo grades into a library that has never held anything."""
+    if library.materials(include_deleted=True) or library.imports():
+        return False
+    import_files(library, [DEMO_DIR / "catalog.csv"], [DEMO_DIR / "sweeps.csv"])
+    return True
+
+
+@st.cache_resource(show_spinner=False)
+def _fit_store() -> dict:
+    return {}
+
+
+def fits(library: Library) -> tuple[dict[str, MasterCurve], dict[str, str]]:
+    """Master curves and fit errors of every grade; shows a progress bar while fitting."""
+    key = (library.location, library.version())
+    store = _fit_store()
+    if key in store:
+        return store[key]
+    bar = st.progress(0.0, text="Fitting master curves")
+
+    def progress(done: int, total: int) -> None:
+        bar.progress(
+            done / total if total else 1.0, text=f"Fitting master curves: {done} of {total}"
+        )
+
+    try:
+        result = fit_library(library, progress=progress)
+    finally:
+        bar.empty()
+    for old in [k for k in store if k[0] == library.location]:
+        del store[old]
+    store[key] = result
+    return result
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _ranked(location: str, version: int, criteria_json: str) -> RankResult:
+    library = library_at(location)
+    found = _fit_store().get((location, version))
+    curves, errors = found if found is not None else fit_library(library)
+    materials = {m.id: m for m in library.materials()}
+    return rank(curves, materials, Criteria.from_dict(json.loads(criteria_json)), errors)
+
+
+def ranked(library: Library, criteria: Criteria) -> RankResult:
+    """The ranking of the library's fitted grades under ``criteria`` (cached)."""
+    fits(library)
+    key = json.dumps(criteria.to_dict(), sort_keys=True)
+    return _ranked(library.location, library.version(), key)
+
+
+@st.cache_data(max_entries=256, show_spinner=False)
+def measured_points(location: str, version: int, material_id: str) -> np.ndarray:
+    """The newest measured points of a grade: degC, Hz, Pa, loss factor (n x 4)."""
+    return library_at(location).latest_points(material_id)[1]

@@ -1,0 +1,131 @@
+"""Tables of ranking results for display (values as the engine gives them)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from engine.ranking import GradeResult, RankResult
+
+# Constraint names of engine.ranking that belong to the mount check.
+MOUNT_CONSTRAINTS = (
+    "natural frequency",
+    "transmissibility at the disturbance",
+    "static strain incl. long-term sag",
+)
+
+
+def _span(values) -> str:
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        return "not found"
+    lo, hi = v.min(), v.max()
+    return f"{lo:.3g}" if np.isclose(lo, hi) else f"{lo:.3g} to {hi:.3g}"
+
+
+def _status(g: GradeResult, n_pass: int) -> str:
+    return f"rank {g.rank} of {n_pass}" if g.passed else "excluded"
+
+
+def index_columns(result: RankResult) -> dict[str, str]:
+    """Index name -> column title with its unit."""
+    out = {}
+    for name, spec in result.specs.items():
+        unit = "" if spec.unit in ("", "-") else f" [{spec.unit}]"
+        out[name] = f"{spec.label}{unit}"
+    return out
+
+
+def comparison_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
+    """Key figures of the grades in the comparison set."""
+    props = result.window_props
+    rows_of = {gid: k for k, gid in enumerate(props.ids)}
+    grades = {g.id: g for g in result.grades}
+    n_pass = len(result.shortlist)
+    titles = index_columns(result)
+    rows = []
+    for gid in ids:
+        if gid not in grades or gid not in rows_of:
+            continue
+        g, k = grades[gid], rows_of[gid]
+        row = {
+            "grade": gid,
+            "name": g.name,
+            "supplier": g.supplier,
+            "status": _status(g, n_pass),
+            "score": g.score,
+            "E' in window [MPa]": _span(props.storage[k] / 1e6),
+            "worst loss factor in window": float(np.nanmin(props.loss_factor[k])),
+        }
+        for name, title in titles.items():
+            row[title] = g.indices.get(name)
+        if g.mount is not None:
+            row["fn [Hz]"] = _span(g.mount["natural_frequency_Hz"])
+            row["worst transmissibility"] = float(np.nanmax(g.mount["transmissibility"]))
+            row["pad area [mm²]"] = g.mount["area_mm2"]
+        row["price [per kg]"] = g.price
+        row["extrapolated"] = g.extrapolated
+        rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def shortlist_frame(result: RankResult) -> pd.DataFrame:
+    """The ranked grades with score, index values and the one-line reason."""
+    titles = index_columns(result)
+    rows = []
+    for g in result.shortlist:
+        row = {
+            "rank": g.rank,
+            "grade": g.id,
+            "name": g.name,
+            "supplier": g.supplier,
+            "family": g.family,
+            "price [per kg]": g.price,
+            "score": g.score,
+        }
+        for name, title in titles.items():
+            row[title] = g.indices.get(name)
+        row["Pareto"] = g.pareto
+        row["extrapolated"] = g.extrapolated
+        row["reason"] = g.reason
+        rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def mount_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
+    """Sized pad, deflections and the mount checks of each grade."""
+    grades = {g.id: g for g in result.grades}
+    n_pass = len(result.shortlist)
+    own_limit = result.criteria.constraints.max_static_strain
+    rows = []
+    for gid in ids:
+        g = grades.get(gid)
+        if g is None or g.mount is None:
+            continue
+        m = g.mount
+        mount_fails = [f.text() for f in g.failures if f.constraint in MOUNT_CONSTRAINTS]
+        if any(f.constraint == "extrapolation" and "mount" in str(f.value) for f in g.failures):
+            mount_fails.append("the mount check leaves the measured data")
+        rows.append(
+            {
+                "grade": gid,
+                "status": _status(g, n_pass),
+                "pad area [mm²]": m["area_mm2"],
+                "shape factor": m["shape_factor"],
+                "k factor": m["k_factor"],
+                "fn [Hz]": _span(m["natural_frequency_Hz"]),
+                "worst transmissibility": float(np.nanmax(m["transmissibility"])),
+                "peak amplification at resonance": float(
+                    np.nanmax(m["amplification_at_resonance"])
+                ),
+                "static deflection [mm]": _span(m["static_deflection_mm"]),
+                "largest static strain": float(np.nanmax(m["static_strain"])),
+                "long-term sag [mm]": m["sag_mm"],
+                "sag strain": m["sag_strain"],
+                "strain limit": m["strain_limit"] if own_limit is None else own_limit,
+                "mount checks": "pass" if not mount_fails else "; ".join(mount_fails),
+                "notes": "; ".join(m["notes"]),
+            }
+        )
+    return pd.DataFrame(rows)

@@ -1,0 +1,175 @@
+"""Curves page: measured data and master curves of the comparison set or one grade."""
+
+import pandas as pd
+import streamlit as st
+
+from dashboard import case, charts
+from dashboard.common import context
+from dashboard.palette import GRADE_COLOURS
+from engine.errors import CriteriaError
+from engine.fits import summary
+
+ctx = context()
+st.header("Curves")
+available = sorted(ctx.curves)
+if not available:
+    st.error("no fitted grade in the library: import data on the Library page")
+    st.stop()
+criteria = ctx.criteria
+window_range = tuple(criteria.window.temp_range) if criteria else (-20.0, 60.0)
+band = tuple(criteria.window.freq_range) if criteria else (1.0, 100.0)
+design_f = criteria.window.design_frequency if criteria else 10.0
+
+c1, c2, c3 = st.columns([1.2, 1.6, 1.6])
+which = c1.radio("Show", ("comparison set", "one grade"), key="curves_which", horizontal=True)
+if which == "one grade" or not ctx.compare:
+    default = ctx.compare[0] if ctx.compare else available[0]
+    if st.session_state.get("curves_one") not in available:
+        st.session_state["curves_one"] = default
+    one = c2.selectbox("Grade", available, key="curves_one")
+    shown = [one]
+else:
+    shown = [g for g in ctx.compare if g in ctx.curves]
+    c2.caption("Grades: " + ", ".join(shown))
+st.session_state.setdefault("curves_freqs", f"{band[0]:g}, {design_f:.3g}, {band[1]:g}")
+text = c3.text_input(
+    "Frequencies [Hz]", key="curves_freqs", help="Up to five, separated by commas."
+)
+try:
+    frequencies = [f for f in case.parse_numbers(text, "frequencies") if f > 0][:5]
+    if not frequencies:
+        raise CriteriaError("frequencies: give at least one positive number")
+except CriteriaError as exc:
+    st.error(str(exc))
+    frequencies = [design_f]
+
+points = {gid: ctx.points(gid) for gid in shown}
+st.plotly_chart(
+    charts.temperature_figure(shown, ctx.curves, points, frequencies, window_range, ctx.colours),
+    theme=None,
+    key="curves_temperature",
+)
+st.caption(
+    "Moduli in each grade's own mode: E' for tensile data, G' for shear data. Faint "
+    "line parts are extrapolated; marks are the measurements at the measured frequency "
+    "nearest each chosen one."
+)
+
+st.subheader("One grade in detail")
+if st.session_state.get("curves_focus") not in shown:
+    st.session_state["curves_focus"] = shown[0]
+focus = st.selectbox("Grade", shown, key="curves_focus")
+curve = ctx.curves[focus]
+pts = points.get(focus)
+if pts is None:
+    pts = ctx.points(focus)
+tabs = st.tabs(
+    ["Master curve", "Shift factors", "Nomogram", "Transitions", "Relaxation", "Data quality"]
+)
+with tabs[0]:
+    if pts is not None:
+        st.plotly_chart(charts.master_curve_figure(focus, curve, pts), theme=None, key="mc")
+    lo, hi = curve.log_fr_range
+    st.caption(
+        f"Covered reduced frequencies: {10**lo:.3g} to {10**hi:.3g} Hz (dotted beyond). "
+        f"Measured {curve.temperature_range[0]:g} to {curve.temperature_range[1]:g} °C, "
+        f"{curve.frequency_range[0]:g} to {curve.frequency_range[1]:g} Hz."
+    )
+with tabs[1]:
+    st.plotly_chart(charts.shift_figure(focus, curve, window_range), theme=None, key="shift")
+    s = summary(curve)
+    law_rows = []
+    if "wlf" in s:
+        w = s["wlf"]
+        law_rows.append(
+            {"law": "WLF", "C1": w["C1"], "C2 [K]": w["C2_K"], "reference [°C]": w["reference_C"]}
+        )
+    if "arrhenius" in s:
+        a = s["arrhenius"]
+        law_rows.append(
+            {
+                "law": "Arrhenius",
+                "activation energy [kJ/mol]": a["activation_kJ_per_mol"],
+                "reference [°C]": a["reference_C"],
+            }
+        )
+    if law_rows:
+        st.dataframe(
+            pd.DataFrame(law_rows),
+            hide_index=True,
+            column_config={
+                c: st.column_config.NumberColumn(format="%.4g")
+                for c in ("C1", "C2 [K]", "reference [°C]", "activation energy [kJ/mol]")
+            },
+        )
+    st.caption(f"rms of the data about the law: {s['shift_law_rms']:.3g} decades")
+with tabs[2]:
+    c1, c2 = st.columns(2)
+    st.session_state.setdefault("nomo_t", float(round(sum(window_range) / 2)))
+    st.session_state.setdefault("nomo_f", float(f"{design_f:.3g}"))
+    t_read = c1.number_input("Read at temperature [°C]", format="%g", key="nomo_t")
+    f_read = c2.number_input("and frequency [Hz]", min_value=1e-9, format="%g", key="nomo_f")
+    st.plotly_chart(
+        charts.nomogram_figure(focus, curve, window_range, band, (t_read, f_read)),
+        theme=None,
+        key="nomogram",
+    )
+    p = curve.evaluate(t_read, f_read)
+    sym = "G" if curve.mode == "shear" else "E"
+    st.caption(
+        f"At {t_read:g} °C and {f_read:g} Hz: fR = {float(p.reduced_frequency):.3g} Hz, "
+        f"{sym}' = {float(p.storage_modulus) / 1e6:.3g} MPa, η = {float(p.loss_factor):.3g}"
+        + (" (extrapolated)" if bool(p.extrapolated) else "")
+        + ". Follow the isotherm to the frequency on the right-hand axis, then read down to "
+        "the curves."
+    )
+with tabs[3]:
+    st.plotly_chart(charts.transitions_figure(focus, curve, pts), theme=None, key="tg")
+    st.dataframe(
+        pd.DataFrame(
+            [
+                {
+                    "method": t["method"].replace("_", " "),
+                    "frequency [Hz]": t["frequency_Hz"],
+                    "Tg [°C]": t["temperature_C"],
+                    "found": t["reached"],
+                    "note": t["note"],
+                }
+                for t in curve.tg
+            ]
+        ),
+        hide_index=True,
+        width="stretch",
+        column_config={
+            "Tg [°C]": st.column_config.NumberColumn(format="%.1f"),
+            "frequency [Hz]": st.column_config.NumberColumn(format="%g"),
+        },
+    )
+    if curve.regions:
+        st.caption(
+            "Regions: "
+            + "; ".join(
+                f"{r['name']} {r['low_C']:.0f} to {r['high_C']:.0f} °C" for r in curve.regions
+            )
+        )
+    if curve.secondary_C is not None:
+        st.caption(f"Secondary transition near {curve.secondary_C:.0f} °C")
+with tabs[4]:
+    lo_t, hi_t = window_range
+    temps = sorted({float(lo_t), float(round((lo_t + hi_t) / 2)), float(hi_t)})
+    st.plotly_chart(
+        charts.relaxation_figure(focus, curve, temps, list(GRADE_COLOURS)), theme=None, key="relax"
+    )
+with tabs[5]:
+    q = curve.quality
+    m1, m2, m3, m4 = st.columns(4)
+    m1.metric("rms log E' [decades]", f"{q.get('rms_log_storage', float('nan')):.3f}")
+    m2.metric("rms log tan δ [decades]", f"{q.get('rms_log_loss_factor', float('nan')):.3f}")
+    m3.metric("Prony terms", q.get("prony_terms", 0))
+    ok = q.get("superposition_ok")
+    m4.metric("superposition", "holds" if ok else "in doubt")
+    st.plotly_chart(charts.residual_figure(focus, curve), theme=None, key="resid")
+    if pts is not None:
+        st.plotly_chart(charts.collapse_figure(focus, curve, pts), theme=None, key="collapse")
+    for note in curve.notes:
+        st.caption("Note: " + note)

@@ -1,0 +1,53 @@
+"""Map page: every grade's path through the window on storage modulus against loss factor."""
+
+import streamlit as st
+
+from dashboard import charts, tables
+from dashboard.common import context, need_result, take_map_selection
+
+ctx = context()
+st.header("Map")
+result = need_result(ctx)
+if result is not None:
+    c1, c2 = st.columns([3, 1])
+    c1.caption(
+        "Each line is a grade's path through the window's temperatures at the design "
+        "frequency; small marks every 10 K, open marks where the master curve is "
+        "extrapolated. Dotted, faded lines are excluded grades (hover for the reason). "
+        "Grey dotted diagonals are lines of constant loss modulus E'' = η E'. Draw a box or "
+        "a lasso to put grades in the comparison set."
+    )
+    show_excluded = c2.toggle("Show excluded grades", value=True, key="map_show_excluded")
+    c2.toggle("Selection adds to the set", key="map_adds")
+    fig = charts.map_figure(
+        result,
+        ctx.colours,
+        ctx.compare,
+        result.criteria.constraints.min_loss_factor,
+        show_excluded=show_excluded,
+    )
+    st.plotly_chart(
+        fig,
+        key="map_chart",
+        on_select=take_map_selection,
+        selection_mode=("box", "lasso"),
+        theme=None,
+        config={"displaylogo": False},
+    )
+    st.subheader("Comparison set")
+    frame = tables.comparison_frame(result, ctx.compare)
+    if frame.empty:
+        st.caption("No grade chosen yet.")
+    else:
+        st.dataframe(
+            frame,
+            hide_index=True,
+            width="stretch",
+            key="compare_table",
+            column_config={
+                "score": st.column_config.NumberColumn(format="%.0f"),
+                "worst loss factor in window": st.column_config.NumberColumn(format="%.3g"),
+                "worst transmissibility": st.column_config.NumberColumn(format="%.3g"),
+                "pad area [mm²]": st.column_config.NumberColumn(format="%.0f"),
+            },
+        )

@@ -1,0 +1,89 @@
+"""Shortlist page: ranked grades with reasons, excluded grades with theirs, downloads."""
+
+import streamlit as st
+
+from dashboard import tables
+from dashboard.common import context, need_result
+
+ctx = context()
+st.header("Shortlist")
+result = need_result(ctx)
+
+
+def _exports(result, library, curves):
+    """Download buttons; the files are made only when a button is pressed."""
+    try:
+        from engine import export
+    except ImportError as exc:
+        st.warning(f"exports are not available in this installation ({exc})")
+        return
+    c1, c2, c3, _ = st.columns([1, 1, 1, 2])
+    c1.download_button(
+        "Shortlist CSV",
+        data=lambda: export.shortlist_csv(result),
+        file_name="quietgrade-shortlist.csv",
+        mime="text/csv",
+        key="dl_csv",
+    )
+    c2.download_button(
+        "Shortlist XLSX",
+        data=lambda: export.shortlist_xlsx(result, library),
+        file_name="quietgrade-shortlist.xlsx",
+        mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        key="dl_xlsx",
+    )
+    c3.download_button(
+        "Report (HTML)",
+        data=lambda: export.report_html(result, library, curves),
+        file_name="quietgrade-report.html",
+        mime="text/html",
+        key="dl_html",
+    )
+
+
+if result is not None:
+    n = len(result.grades)
+    st.caption(
+        f"{len(result.shortlist)} of {n} grade(s) meet every limit. Score: weighted log10 "
+        "index values, 100 for the best passing grade and 0 for the last."
+    )
+    _exports(result, ctx.library, ctx.curves)
+    frame = tables.shortlist_frame(result)
+    if frame.empty:
+        st.warning("No grade meets every limit: see the reasons below.")
+    else:
+        st.dataframe(
+            frame,
+            hide_index=True,
+            width="stretch",
+            key="shortlist_table",
+            column_config={
+                "score": st.column_config.ProgressColumn(
+                    "score", min_value=0.0, max_value=100.0, format="%.0f"
+                ),
+                "reason": st.column_config.TextColumn(width="large"),
+            },
+        )
+        with st.expander("Reasons, in full", expanded=True):
+            st.markdown("\n".join(f"- **{g.id}** {g.reason}" for g in result.shortlist))
+    st.subheader("Excluded")
+    if not result.excluded:
+        st.caption("None.")
+    else:
+        st.markdown(
+            "\n".join(
+                f"- **{g.id}** ({g.name}"
+                + (f", {g.family}" if g.family else "")
+                + "): "
+                + "; ".join(f.text() for f in g.failures)
+                for g in result.excluded
+            )
+        )
+    if result.fit_errors:
+        st.subheader("Grades without a master curve")
+        for gid, reason in sorted(result.fit_errors.items()):
+            st.error(f"{gid}: {reason}")
+    with st.expander("Notes on individual grades"):
+        for g in result.grades:
+            for note in g.notes:
+                st.caption(f"{g.id}: {note}")

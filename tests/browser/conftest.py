@@ -1,0 +1,102 @@
+"""Real-browser fixtures: a Streamlit server on 127.0.0.1 and Debian's chromium.
+
+The tests are skipped, with the reason printed, only where chromium is absent.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
+SHOTS = ROOT / "screenshots"
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def pytest_collection_modifyitems(config, items):
+    if Path(CHROMIUM).exists() or shutil.which("chromium"):
+        return
+    skip = pytest.mark.skip(reason=f"chromium not found at {CHROMIUM}: browser tests skipped")
+    for item in items:
+        if "browser" in item.keywords:
+            item.add_marker(skip)
+
+
+@pytest.fixture(scope="session")
+def app_url(tmp_path_factory):
+    """Start the dashboard on a free port with a fresh demo library; yield its URL."""
+    db = tmp_path_factory.mktemp("browser") / "library.sqlite"
+    env = {**os.environ, "QUIETGRADE_DB": str(db)}
+    subprocess.run([sys.executable, "-m", "engine", "demo"], cwd=ROOT, env=env, check=True,
+                   capture_output=True)
+    port = _free_port()
+    proc = subprocess.Popen(
+        [
+            sys.executable, "-m", "streamlit", "run", "dashboard/app.py",
+            "--server.address", "127.0.0.1", "--server.port", str(port),
+            "--server.headless", "true", "--browser.gatherUsageStats", "false",
+        ],
+        cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+    )
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        try:
+            with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
+                if r.status == 200:
+                    break
+        except OSError:
+            time.sleep(0.3)
+    else:
+        proc.kill()
+        raise RuntimeError("the dashboard did not start within 60 s")
+    yield url, db
+    proc.terminate()
+    try:
+        proc.wait(timeout=10)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+
+
+@pytest.fixture(scope="session")
+def browser():
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        yield b
+        b.close()
+
+
+@pytest.fixture
+def page(browser):
+    SHOTS.mkdir(exist_ok=True)
+    context = browser.new_context(viewport={"width": 1280, "height": 900}, accept_downloads=True)
+    pg = context.new_page()
+    pg.set_default_timeout(60_000)
+    yield pg
+    context.close()

@@ -1,0 +1,348 @@
+"""The dashboard, driven headless with Streamlit's AppTest, and its helper modules.
+
+The checks are behavioural: every page renders, the shown ranking follows the window and
+agrees with the engine's own ranking, the comparison set is highlighted, a link
+reproduces the case, and a bad import shows its one-line reason and writes nothing.
+"""
+
+import json
+from pathlib import Path
+
+import pytest
+
+from tests import synthetic
+
+pytest.importorskip("streamlit")
+
+from streamlit.testing.v1 import AppTest  # noqa: E402
+
+from dashboard import case, importing  # noqa: E402
+from engine.caution import CAUTION  # noqa: E402
+from engine.errors import CriteriaError, InputError  # noqa: E402
+from engine.fits import fit_library  # noqa: E402
+from engine.importer import import_files  # noqa: E402
+from engine.ranking import Criteria, rank  # noqa: E402
+from engine.store import Library  # noqa: E402
+
+ROOT = Path(__file__).resolve().parent.parent
+APP = str(ROOT / "dashboard" / "app.py")
+PAGES = {
+    "views/map.py": "Map",
+    "views/curves.py": "Curves",
+    "views/mount.py": "Mount",
+    "views/shortlist.py": "Shortlist",
+    "views/library.py": "Library",
+}
+SWEEP_HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"
+
+
+@pytest.fixture(scope="module")
+def demo_db(tmp_path_factory):
+    """An empty library file: the app's first run loads the demo grades into it."""
+    return tmp_path_factory.mktemp("dash") / "dash.sqlite"
+
+
+def app(monkeypatch, db, **query) -> AppTest:
+    monkeypatch.setenv("QUIETGRADE_DB", str(db))
+    at = AppTest.from_file(APP, default_timeout=60)
+    for key, value in query.items():
+        at.query_params[key] = value
+    return at.run()
+
+
+def shortlist_ids(at: AppTest) -> list[str]:
+    tables = [d.value for d in at.dataframe if "rank" in d.value.columns]
+    assert tables, "no shortlist table on the page"
+    return tables[0]["grade"].tolist()
+
+
+def engine_shortlist(db, criteria: Criteria) -> list[str]:
+    lib = Library(str(db))
+    curves, errors = fit_library(lib, processes=1)
+    result = rank(curves, {m.id: m for m in lib.materials()}, criteria, errors)
+    return [g.id for g in result.shortlist]
+
+
+def test_empty_library_loads_demo_and_every_page_renders(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    assert not at.exception
+    assert any("demo grades" in i.value for i in at.info)
+    assert len(Library(str(demo_db)).materials()) == 14  # demo_materials/catalog.csv rows
+    for page, title in PAGES.items():
+        at.switch_page(page).run()
+        assert not at.exception, f"{page}: {at.exception}"
+        assert at.header[0].value == title
+        assert any(CAUTION in c.value for c in at.caption), f"{page}: no caution"
+
+
+def test_changing_the_window_changes_the_ranking(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/shortlist.py").run()
+    before = shortlist_ids(at)
+    assert before == engine_shortlist(demo_db, case.criteria_from_state(case.default_state()))
+    at.slider(key="c_temp").set_value((0.0, 40.0)).run()
+    assert not at.exception
+    after = shortlist_ids(at)
+    state = case.default_state()
+    state["c_temp"] = (0.0, 40.0)
+    assert after == engine_shortlist(demo_db, case.criteria_from_state(state))
+    assert after != before
+    assert at.query_params["t"] == "0,40"
+
+
+def test_comparison_set_is_listed_and_highlighted(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    chosen = ["BW-FD30", "QC-IIR55"]
+    at.multiselect(key="compare_pick").set_value(chosen).run()
+    assert not at.exception
+    table = [d.value for d in at.dataframe if "worst loss factor in window" in d.value.columns]
+    assert table and table[0]["grade"].tolist() == chosen
+    spec = json.loads(at.get("plotly_chart")[0].proto.spec)
+    widths = {t["legendgroup"]: t["line"]["width"] for t in spec["data"] if t.get("legendgroup")}
+    others = [w for g, w in widths.items() if g not in chosen]
+    assert all(widths[g] > max(others) for g in chosen)
+    assert at.query_params["g"] == "BW-FD30,QC-IIR55"
+
+
+def test_a_link_reproduces_the_case(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db, t="0,40", f="5,50", d="layer", le="0.05", g="FP-VL15")
+    assert not at.exception
+    assert at.slider(key="c_temp").value == (0.0, 40.0)
+    assert at.selectbox(key="c_design").value == "damping_layer"
+    assert at.multiselect(key="c_indices").value == ["loss_modulus", "damping_span"]
+    assert at.session_state["compare"] == ["FP-VL15"]
+    result = at.session_state["_context"].result
+    assert result.criteria.window.freq_range == (5.0, 50.0)
+    assert result.criteria.constraints.min_loss_factor == 0.05
+    assert result.criteria.mount is None  # no mount check by default for a damping layer
+    assert at.query_params["d"] == "layer" and at.query_params["le"] == "0.05"
+
+
+def test_a_bad_link_parameter_is_reported_and_ignored(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db, t="cold,hot")
+    assert not at.exception
+    assert any("t=cold,hot" in w.value for w in at.warning)
+    assert at.slider(key="c_temp").value == case.DEFAULTS["c_temp"]
+
+
+def test_link_values_the_widgets_cannot_hold_are_refused(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db, mm="-5", hd="-10,150", ix="loss_factor:-1:worst")
+    assert not at.exception
+    notes = " ".join(w.value for w in at.warning)
+    assert "mass -5 is below" in notes and "hardness -10 to 150" in notes
+    assert at.number_input(key="c_mass").value == case.DEFAULTS["c_mass"]
+
+
+def test_invalid_case_shows_the_engine_reason(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.toggle(key="c_cx_on").set_value(True).run()
+    at.text_input(key="c_cx_formula").set_value("loss_factor +").run()
+    assert not at.exception
+    assert at.error and "formula" in at.error[0].value.lower()
+    for page in PAGES:
+        at.switch_page(page).run()
+        assert not at.exception, f"{page}: {at.exception}"
+    at.text_input(key="c_cx_formula").set_value("loss_factor * sqrt(storage_modulus)").run()
+    assert not at.exception and not at.error
+    assert "own_index" in at.session_state["_context"].result.specs
+
+
+def test_bad_case_file_shows_the_reason(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.file_uploader(key="case_file").set_value(("case.json", b"{not json", "application/json"))
+    at.run()
+    assert any("not valid JSON" in e.value for e in at.error)
+    good = case.state_from_criteria(case.criteria_from_state(case.default_state()))
+    good["c_temp"] = (-10.0, 30.0)
+    payload = json.dumps(case.criteria_dict(good)).encode()
+    at.file_uploader(key="case_file").set_value(("case.json", payload, "application/json"))
+    at.run()
+    assert not at.exception
+    assert at.slider(key="c_temp").value == (-10.0, 30.0)
+
+
+def test_bad_import_shows_the_reason_and_writes_nothing(monkeypatch, demo_db):
+    lib = Library(str(demo_db))
+    bad = (SWEEP_HEADER + "NOPE,20,1,5,0.1\n").encode()
+    version = lib.version()
+    with pytest.raises(InputError, match=r"bad\.csv, row 2, column 'material': unknown grade"):
+        importing.plan_uploads(lib, [("bad.csv", bad)])
+    preview, reason = importing.try_plan(importing.plan_uploads, lib, [("bad.csv", bad)])
+    assert preview is None and "unknown grade id 'NOPE'" in reason
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/library.py").run()
+    at.file_uploader(key="upload_format_0").set_value(("bad.csv", bad, "text/csv")).run()
+    assert not at.exception
+    assert any("unknown grade id 'NOPE'" in e.value for e in at.error)
+    assert not [b for b in at.button if b.label == "Write to library"]
+    assert lib.version() == version
+
+
+def test_bad_column_mapping_names_the_problem(monkeypatch, demo_db):
+    lib = Library(str(demo_db))
+    export = ("run7.csv", b"Temp (C);Freq;E1 (MPa);tan d\n20;1;5,0;0,1\n")
+    with pytest.raises(InputError, match="no column 'Frequency'"):
+        importing.plan_mapped(
+            lib,
+            export,
+            {"temperature": "Temp (C)", "frequency": "Frequency", "storage_modulus": "E1 (MPa)"},
+            {"temperature": "degC", "frequency": "Hz", "storage_modulus": "MPa"},
+            material_id="BW-NR40",
+        )
+    with pytest.raises(InputError, match="this is not a catalog"):
+        importing.plan_mapped(
+            lib,
+            export,
+            {
+                "temperature": "Temp (C)",
+                "frequency": "Freq",
+                "storage_modulus": "E1 (MPa)",
+                "loss_factor": "tan d",
+            },
+            {"temperature": "degC", "frequency": "Hz", "storage_modulus": "MPa"},
+            material_id="NEW-1",
+            catalogs=[("notes.csv", b"a,b\n1,2\n")],
+        )
+    with pytest.raises(InputError, match="no file uploaded"):
+        importing.plan_uploads(lib, [])
+
+
+def test_import_edit_delete_and_restore(monkeypatch, tmp_path):
+    """On a library of its own: a mapped export is previewed, then written on request."""
+    db = tmp_path / "own.sqlite"
+    synthetic.write_catalog(tmp_path / "catalog.csv", ids=("SYN-1",))
+    lib = Library(str(db))
+    import_files(lib, [tmp_path / "catalog.csv"], [])
+    points = synthetic.sweep(temperatures=(-30.0, -20.0, -10.0, 0.0, 10.0), frequencies=(1.0, 10.0))
+    lines = ["Temp (C),Freq (Hz),E' (MPa),tan d"] + [
+        f"{t:g},{f:g},{e / 1e6:.6g},{eta:.6g}" for t, f, e, eta in points
+    ]
+    export = ("\n".join(lines) + "\n").encode()
+    guess = importing.guess_mapping(["Temp (C)", "Freq (Hz)", "E' (MPa)", "tan d"])
+    assert guess["temperature"] == "Temp (C)" and guess["loss_factor"] == "tan d"
+
+    at = app(monkeypatch, db)
+    assert not at.exception
+    at.switch_page("views/library.py").run()
+    at.radio(key="import_how").set_value("one instrument export (map its columns)").run()
+    at.file_uploader(key="upload_export_0").set_value(("run.csv", export, "text/csv")).run()
+    assert not at.exception
+    assert at.selectbox(key="map_unit_storage_modulus").value == "MPa"  # from "E' (MPa)"
+    assert not [b for b in at.button if b.label == "Write to library"]  # no grade chosen yet
+    at.selectbox(key="map_grade_id").set_value("SYN-1").run()
+    version = lib.version()
+    assert lib.datasets("SYN-1") == []  # previewed only
+    write = [b for b in at.button if b.label == "Write to library"]
+    assert write
+    assert not [e for e in at.error if "run.csv" in e.value]
+    write[0].click().run()
+    assert not at.exception
+    assert lib.version() > version
+    assert lib.datasets("SYN-1")[0].n_points == len(points)
+
+    at.session_state["catalog_editor_0"] = {
+        "edited_rows": {0: {"price": 7.5}},
+        "added_rows": [],
+        "deleted_rows": [],
+    }
+    at.run()
+    at.button(key="catalog_save").click().run()
+    assert not at.exception
+    assert lib.material("SYN-1").price == 7.5
+
+    at.checkbox(key="delete_sure_0").check().run()
+    at.button(key="delete_go").click().run()
+    assert lib.deleted_ids() == ["SYN-1"]
+    at.button(key="restore_go").click().run()
+    assert not at.exception
+    assert lib.deleted_ids() == [] and "SYN-1" in lib.existing_ids()
+
+
+# -- the case as widget values, criteria and link ------------------------------------------
+
+
+def full_state() -> dict:
+    state = case.default_state()
+    state.update(
+        c_temp=(-10.0, 50.0),
+        c_tstep=2.5,
+        c_fdesign=40.0,
+        c_duty=[{"temp_C": 20.0, "freq_Hz": 25.0, "share": 3.0}],
+        c_indices=["loss_factor", "stiffness_drift"],
+        c_cx_on=True,
+        c_cx_name="stiff_damping",
+        c_cx_formula="loss_factor * sqrt(storage_modulus)",
+        c_cx_hi=True,
+        c_cx_w=2.0,
+        c_cx_a="weighted",
+        c_pareto=["loss_factor", "stiff_damping"],
+        c_eta_min=0.05,
+        c_price_max=12.0,
+        c_hard_on=True,
+        c_hard=(40.0, 70.0),
+        c_trans_max=0.5,
+        c_extrap=False,
+        c_fn_lo=5.0,
+        c_fn_hi=15.0,
+        c_layout="shear",
+        c_mass=90.0,
+        c_mounts=3,
+        c_thick=12.0,
+        c_size_on=False,
+        c_dist="24.7, 49.4",
+        compare=["BW-NR40"],
+    )
+    state[case.weight_key("stiffness_drift")] = 0.5
+    state[case.aggregate_key("stiffness_drift")] = "worst"
+    state[case.weight_key("loss_factor")] = 1.5
+    state[case.aggregate_key("loss_factor")] = "mean"
+    return state
+
+
+def test_case_round_trips_through_criteria_and_link():
+    state = full_state()
+    criteria = case.criteria_from_state(state)
+    assert criteria.mount.disturbance_Hz == (24.7, 49.4)
+    assert criteria.indices[-1].formula == "loss_factor * sqrt(storage_modulus)"
+    again = case.criteria_from_state(case.state_from_criteria(criteria))
+    assert again.to_dict() == criteria.to_dict()
+    back, notes = case.from_query(case.to_query(state))
+    assert notes == []
+    assert case.criteria_from_state(back).to_dict() == criteria.to_dict()
+    assert back["compare"] == ["BW-NR40"]
+
+
+def test_default_link_is_short():
+    assert case.to_query(case.default_state()) == {"t": "-20,45", "f": "10,100", "d": "mount"}
+
+
+@pytest.mark.parametrize("design", ["isolation_mount", "damping_layer", "general"])
+@pytest.mark.parametrize("mount_on", [True, False])
+def test_mount_switch_survives_the_link(design, mount_on):
+    state = case.default_state()
+    state.update(c_design=design, c_mount_on=mount_on)
+    back, notes = case.from_query(case.to_query(state))
+    assert notes == [] and back["c_mount_on"] is mount_on
+
+
+def test_case_errors_name_the_setting():
+    state = case.default_state()
+    state["c_dist"] = "fast"
+    with pytest.raises(CriteriaError, match="disturbance frequencies: 'fast' is not a list"):
+        case.criteria_from_state(state)
+    state = case.default_state()
+    state["c_fn_lo"] = 5.0
+    with pytest.raises(CriteriaError, match="both ends of the natural-frequency range"):
+        case.criteria_from_state(state)
+    state = case.default_state()
+    state["c_indices"] = []
+    with pytest.raises(CriteriaError, match="at least one merit index"):
+        case.criteria_from_state(state)
+    state = case.default_state()
+    state["c_duty"] = [{"temp_C": 20.0, "freq_Hz": None, "share": 1.0}]
+    with pytest.raises(CriteriaError, match="both a temperature and a frequency"):
+        case.criteria_from_state(state)
+    state = case.default_state()
+    state["c_temp"] = (40.0, 10.0)
+    with pytest.raises(CriteriaError, match="inverted"):
+        case.criteria_from_state(state)
