@@ -324,11 +324,11 @@ def _criteria_from_args(args):
     window = dict(base["window"])
     if args.temp_range:
         window["temp_range"] = args.temp_range
-    if args.temp_step:
+    if args.temp_step is not None:
         window["temp_step"] = args.temp_step
     if args.freq_range:
         window["freq_range"] = args.freq_range
-    if args.freq_points:
+    if args.freq_points is not None:
         window["freq_points"] = args.freq_points
     base["window"] = OperatingWindow.from_dict(window).to_dict()
     if args.design:

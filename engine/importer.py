@@ -11,6 +11,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -109,19 +110,51 @@ def read_table(source: str | Path | bytes, name: str | None = None) -> RawTable:
     else:
         text = _decode(raw, file)
         delim = _delimiter(text)
-        rows = list(csv.reader(io.StringIO(text), delimiter=delim))
-        rows = [r for r in rows if any(c.strip() for c in r)]
-        if not rows:
+        first = next(csv.reader(io.StringIO(text.split("\n", 1)[0]), delimiter=delim), [])
+        headers = [h.strip() for h in first]
+        if not any(headers):
             raise InputError("the file is empty", file=file)
-        headers = [h.strip() for h in rows[0]]
-        width = len(headers)
-        for i, r in enumerate(rows[1:], start=2):
-            if len(r) > width and any(c.strip() for c in r[width:]):
+        _check_duplicate_headers(headers, file)
+        try:
+            frame = pd.read_csv(
+                io.StringIO(text),
+                sep=delim,
+                dtype=str,
+                keep_default_na=False,
+                skip_blank_lines=True,
+                header=None,
+                skiprows=1,
+                index_col=False,
+                engine="c",
+            )
+        except pd.errors.ParserError as exc:
+            match = re.search(r"line (\d+), saw (\d+)", str(exc))
+            if match:
                 raise InputError(
-                    f"{len(r)} cells but the header has {width} columns", file=file, row=i
+                    f"{match.group(2)} cells but the header has {len(headers)} columns",
+                    file=file,
+                    row=int(match.group(1)),
+                ) from None
+            raise InputError(f"cannot read this file as CSV ({exc})", file=file) from None
+        except pd.errors.EmptyDataError:
+            frame = pd.DataFrame(columns=range(len(headers)), dtype=str)
+        width = len(headers)
+        if frame.shape[1] > width:
+            extra = frame.iloc[:, width:].apply(lambda col: col.str.strip() != "").any(axis=1)
+            extra = extra.to_numpy()
+            if extra.any():
+                i = int(np.argmax(extra))
+                n_cells = width + int(
+                    frame.iloc[i, width:].str.strip().ne("").to_numpy().nonzero()[0].max() + 1
                 )
-        body = [(r + [""] * width)[:width] for r in rows[1:]]
-        frame = pd.DataFrame(body, columns=range(width), dtype=str)
+                raise InputError(
+                    f"{n_cells} cells but the header has {width} columns", file=file, row=i + 2
+                )
+            frame = frame.iloc[:, :width]
+        elif frame.shape[1] < width:
+            for k in range(frame.shape[1], width):
+                frame[k] = ""
+        frame = frame.fillna("")
         frame.columns = headers
         if delim == ";":
             # Semicolon files come from locales that write decimal commas.
@@ -129,13 +162,17 @@ def read_table(source: str | Path | bytes, name: str | None = None) -> RawTable:
     if frame.shape[0] == 0:
         raise InputError("the file has a header but no data rows", file=file)
     frame = frame.apply(lambda col: col.astype(str).str.strip())
+    _check_duplicate_headers(headers, file)
+    return RawTable(file, headers, frame, sha, len(raw))
+
+
+def _check_duplicate_headers(headers: list[str], file: str) -> None:
     seen = set()
     for h in headers:
         key = split_header(h)[0]
         if key in seen:
             raise InputError(f"column '{key}' appears twice", file=file, column=h)
         seen.add(key)
-    return RawTable(file, headers, frame, sha, len(raw))
 
 
 def _columns(table: RawTable) -> dict[str, tuple[str, str | None]]:

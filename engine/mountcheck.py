@@ -80,18 +80,37 @@ class MountDesign:
 
     @classmethod
     def from_dict(cls, data: dict) -> MountDesign:
+        if not isinstance(data, dict):
+            raise CriteriaError(f"mount design must be a mapping of settings, not {data!r}")
         known = set(cls.__dataclass_fields__)
         reject_unknown(data, known, "mount setting(s)")
         data = dict(data)
-        if "disturbance_Hz" in data:
-            d = data["disturbance_Hz"]
-            data["disturbance_Hz"] = tuple(
-                float(v) for v in (d if isinstance(d, list | tuple) else [d])
-            )
-        try:
-            return cls(**data)
-        except TypeError as exc:
-            raise CriteriaError(f"bad mount setting: {exc}") from None
+
+        def number(value) -> float:
+            if isinstance(value, bool) or not isinstance(value, int | float | np.number):
+                raise ValueError(f"{value!r} is not a number")
+            if not np.isfinite(value):
+                raise ValueError(f"{value!r} is not a finite number")
+            return float(value)
+
+        optional = ("shape_factor", "k_factor", "target_fn_Hz")
+        for key, value in list(data.items()):
+            try:
+                if key == "disturbance_Hz":
+                    values = value if isinstance(value, list | tuple) else [value]
+                    data[key] = tuple(number(v) for v in values)
+                elif key == "mounts":
+                    if number(value) != int(value):
+                        raise ValueError(f"{value!r} is not a whole number")
+                    data[key] = int(value)
+                elif key in ("layout", "shape"):
+                    if not isinstance(value, str):
+                        raise ValueError(f"{value!r} is not text")
+                elif value is not None or key not in optional:
+                    data[key] = number(value)
+            except ValueError as exc:
+                raise CriteriaError(f"bad mount setting {key}: {exc}") from None
+        return cls(**data)
 
     @property
     def mass_per_pad(self) -> float:
@@ -107,7 +126,7 @@ class MountResult:
     disturbance: np.ndarray  # [Hz]
     area: np.ndarray  # (grades,) [m2], sized or as given
     shape_factor: np.ndarray  # (grades,)
-    k_factor: np.ndarray  # (grades,)
+    k_factor: np.ndarray  # (grades,), NaN for shear pads (no compression modulus)
     natural_frequency: np.ndarray  # [Hz]
     converged: np.ndarray
     transmissibility: np.ndarray  # (grades, temperatures, disturbances)
@@ -196,7 +215,10 @@ def check_mounts(
         to_layout = np.where(own_is_shear, 2.0 * (1.0 + nu), 1.0)
     h = design.thickness_mm * 1e-3
     m = design.mass_per_pad
-    k_fac = _k_factors(hardness, design.k_factor, ids, notes)
+    if design.layout == "shear":
+        k_fac = np.full(n, np.nan)  # a shear pad needs no compression modulus
+    else:
+        k_fac = _k_factors(hardness, design.k_factor, ids, notes)
 
     def shape_factor(area):
         if design.layout == "shear":

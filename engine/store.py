@@ -20,6 +20,7 @@ import sqlalchemy as sa
 
 from engine import __version__
 from engine.errors import LibraryError
+from engine.units import ABSOLUTE_ZERO_C
 
 SCHEMA_VERSION = 1
 
@@ -139,6 +140,57 @@ def points_to_blob(points: np.ndarray) -> bytes:
 
 def blob_to_points(blob: bytes) -> np.ndarray:
     return np.frombuffer(blob, dtype="<f8").reshape(-1, 4).copy()
+
+
+MODES = ("tensile", "shear")  # the modulus a grade's data give: E (tensile) or G (shear)
+_TEXT_FIELDS = ("supplier", "family", "notes")
+# Numeric catalog fields: name -> (test that a value is accepted, what is accepted)
+_NUMBER_FIELDS = {
+    "density": (lambda v: v > 0, "a positive density [kg/m3]"),
+    "price": (lambda v: v >= 0, "a price of zero or more"),
+    "hardness": (lambda v: 0 <= v <= 100, "a Shore A hardness between 0 and 100"),
+    "service_min": (lambda v: v >= ABSOLUTE_ZERO_C, "a temperature above absolute zero [degC]"),
+    "service_max": (lambda v: v >= ABSOLUTE_ZERO_C, "a temperature above absolute zero [degC]"),
+    "poisson_ratio": (lambda v: -1 < v <= 0.5, "a Poisson's ratio in (-1, 0.5]"),
+}
+
+
+def _checked_catalog_changes(material_id: str, changes: dict, old: dict) -> dict:
+    """``changes`` to catalog fields if the import would accept them; else LibraryError.
+
+    ``old`` is the grade's current row, used for the service range check.
+    """
+    out = {}
+    for name, value in changes.items():
+        where = f"grade '{material_id}', field '{name}'"
+        if name in ("name", "mode"):
+            if not isinstance(value, str) or not value.strip():
+                raise LibraryError(f"{where}: {value!r} is not accepted; give non-blank text")
+            if name == "mode":
+                value = value.strip().lower()
+                if value not in MODES:
+                    raise LibraryError(
+                        f"{where}: mode '{changes[name]}' is not one of {', '.join(MODES)}"
+                    )
+        elif name in _TEXT_FIELDS:
+            if value is not None and not isinstance(value, str):
+                raise LibraryError(f"{where}: {value!r} is not accepted; give text or None")
+        elif value is not None:
+            accepted, what = _NUMBER_FIELDS[name]
+            is_number = isinstance(value, int | float | np.number) and not isinstance(
+                value, bool | np.bool_
+            )
+            if not (is_number and np.isfinite(value) and accepted(value)):
+                raise LibraryError(f"{where}: {value!r} is not accepted; give {what} or None")
+            value = float(value)
+        out[name] = value
+    lo = out.get("service_min", old["service_min"])
+    hi = out.get("service_max", old["service_max"])
+    if lo is not None and hi is not None and lo >= hi:
+        raise LibraryError(
+            f"grade '{material_id}': service_min {lo:g} degC is not below service_max {hi:g} degC"
+        )
+    return out
 
 
 @dataclass
@@ -370,54 +422,73 @@ class Library:
                     )
                 )
                 import_ids[f["key"]] = result.inserted_primary_key[0]
+            ids = [m.id for m in materials]
+            existing_rows = {}
+            for start in range(0, len(ids), 500):
+                chunk = ids[start : start + 500]
+                for r in conn.execute(
+                    sa.select(materials_table).where(materials_table.c.id.in_(chunk))
+                ):
+                    existing_rows[r.id] = dict(r._mapping)
+            inserts, history = [], []
             for m in materials:
-                existing = conn.execute(
-                    sa.select(materials_table).where(materials_table.c.id == m.id)
-                ).first()
                 row = {**m.as_row(), "updated_at": now, "deleted_at": None}
-                if existing is None:
-                    conn.execute(materials_table.insert().values(**row))
+                old = existing_rows.get(m.id)
+                if old is None:
+                    inserts.append(row)
                     summary.materials_added.append(m.id)
                     continue
-                old = dict(existing._mapping)
-                if (
-                    all(old[k] == row[k] for k in ("extra", *CATALOG_FIELDS))
-                    and not old["deleted_at"]
-                ):
+                unchanged = all(old[k] == row[k] for k in ("extra", *CATALOG_FIELDS))
+                if unchanged and not old["deleted_at"]:
                     continue
-                conn.execute(
-                    history_table.insert().values(
-                        material_id=m.id,
-                        changed_at=now,
-                        reason="catalog import",
-                        previous=json.dumps(old, default=str),
-                    )
+                history.append(
+                    {
+                        "material_id": m.id,
+                        "changed_at": now,
+                        "reason": "catalog import",
+                        "previous": json.dumps(old, default=str),
+                    }
                 )
                 conn.execute(
                     materials_table.update().where(materials_table.c.id == m.id).values(**row)
                 )
                 summary.materials_updated.append(m.id)
+            if inserts:
+                conn.execute(materials_table.insert(), inserts)
+            if history:
+                conn.execute(history_table.insert(), history)
+            wanted = {d["material_id"] for d in datasets}
+            present = set()
+            for start in range(0, len(wanted), 500):
+                chunk = sorted(wanted)[start : start + 500]
+                present |= {
+                    tuple(row)
+                    for row in conn.execute(
+                        sa.select(datasets_table.c.material_id, datasets_table.c.data_hash).where(
+                            datasets_table.c.material_id.in_(chunk),
+                            datasets_table.c.deleted_at.is_(None),
+                        )
+                    )
+                }
+            new_sets = []
             for d in datasets:
-                dup = conn.execute(
-                    sa.select(datasets_table.c.dataset_id).where(
-                        datasets_table.c.material_id == d["material_id"],
-                        datasets_table.c.data_hash == d["data_hash"],
-                        datasets_table.c.deleted_at.is_(None),
-                    )
-                ).first()
-                if dup is not None:
+                key = (d["material_id"], d["data_hash"])
+                if key in present:
                     continue
-                conn.execute(
-                    datasets_table.insert().values(
-                        material_id=d["material_id"],
-                        import_id=import_ids[d["file_key"]],
-                        data_hash=d["data_hash"],
-                        n_points=int(d["points"].shape[0]),
-                        points=points_to_blob(d["points"]),
-                        created_at=now,
-                    )
+                present.add(key)
+                new_sets.append(
+                    {
+                        "material_id": d["material_id"],
+                        "import_id": import_ids[d["file_key"]],
+                        "data_hash": d["data_hash"],
+                        "n_points": int(d["points"].shape[0]),
+                        "points": points_to_blob(d["points"]),
+                        "created_at": now,
+                    }
                 )
                 summary.datasets_added.append((d["material_id"], int(d["points"].shape[0])))
+            if new_sets:
+                conn.execute(datasets_table.insert(), new_sets)
             if summary.materials_added or summary.materials_updated or summary.datasets_added:
                 self._bump(conn)
         return summary
@@ -436,6 +507,11 @@ class Library:
             ).first()
             if old is None:
                 raise LibraryError(f"no grade '{material_id}' in the library")
+            if old.deleted_at is not None:
+                raise LibraryError(
+                    f"grade '{material_id}' is deleted; restore it before editing its catalog"
+                )
+            changes = _checked_catalog_changes(material_id, changes, dict(old._mapping))
             conn.execute(
                 history_table.insert().values(
                     material_id=material_id,

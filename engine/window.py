@@ -48,9 +48,13 @@ class OperatingWindow:
             raise CriteriaError(f"temperature range {lo:g} to {hi:g} degC is inverted")
         if lo < ABSOLUTE_ZERO_C:
             raise CriteriaError(f"temperature {lo:g} degC is below absolute zero")
-        if self.temp_step <= 0:
-            raise CriteriaError("temperature step must be positive")
+        if not (np.isfinite(self.temp_step) and self.temp_step > 0):
+            raise CriteriaError(
+                f"temperature step must be positive and finite, not {self.temp_step:g}"
+            )
         flo, fhi = self.freq_range
+        if not (np.isfinite(flo) and np.isfinite(fhi)):
+            raise CriteriaError(f"frequencies must be finite numbers, not {flo:g} to {fhi:g} Hz")
         if flo <= 0 or fhi <= 0:
             raise CriteriaError("frequencies must be positive")
         if flo > fhi:
@@ -62,6 +66,11 @@ class OperatingWindow:
         if self.freq_points > 500:
             raise CriteriaError("more than 500 frequencies in the band")
         for p in self.duty_points:
+            if not np.isfinite([p.temperature_C, p.frequency_Hz, p.share]).all():
+                raise CriteriaError(
+                    "duty-point temperature, frequency and share must be finite numbers, not "
+                    f"{p.temperature_C:g} degC, {p.frequency_Hz:g} Hz, {p.share:g}"
+                )
             if p.share < 0 or p.frequency_Hz <= 0 or p.temperature_C < ABSOLUTE_ZERO_C:
                 raise CriteriaError(
                     "duty points need a temperature above absolute zero, a positive "
@@ -69,8 +78,10 @@ class OperatingWindow:
                 )
         if self.duty_points and sum(p.share for p in self.duty_points) <= 0:
             raise CriteriaError("duty-point shares add up to zero")
-        if self.design_frequency_Hz is not None and self.design_frequency_Hz <= 0:
-            raise CriteriaError("design frequency must be positive")
+        if self.design_frequency_Hz is not None and not (
+            np.isfinite(self.design_frequency_Hz) and self.design_frequency_Hz > 0
+        ):
+            raise CriteriaError("design frequency must be positive and finite")
 
     @property
     def temperatures(self) -> np.ndarray:
@@ -115,6 +126,8 @@ class OperatingWindow:
             "duty_points",
             "design_frequency_Hz",
         }
+        if not isinstance(data, dict):
+            raise CriteriaError(f"window must be a mapping of settings, not {data!r}")
         reject_unknown(data, known, "window setting(s)")
         try:
             duty = tuple(

@@ -222,14 +222,9 @@ def test_library_unchanged_by_the_commands(cli):
     assert _digest(cli["db"]) == cli["before"]
 
 
-# ------------------------------------------------------------------ known defects
+# ------------------------------------------------------------------ bad settings exit 2
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/ranking.py Criteria.from_dict: float(eta_threshold) outside any try, "
-    "so a criteria file with a text threshold ends in a ValueError traceback (exit 1)",
-)
 def test_rank_criteria_with_a_text_threshold_exits_2(cli, tmp_path, capsys):
     path = tmp_path / "criteria.json"
     path.write_text('{"eta_threshold": "high"}')
@@ -237,11 +232,6 @@ def test_rank_criteria_with_a_text_threshold_exits_2(cli, tmp_path, capsys):
     assert "eta_threshold" in capsys.readouterr().err
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/mountcheck.py MountDesign.from_dict: float() on disturbance_Hz outside "
-    "its try, so a --mount file with a text disturbance ends in a ValueError traceback",
-)
 def test_rank_mount_file_with_a_text_disturbance_exits_2(cli, tmp_path, capsys):
     path = tmp_path / "mount.json"
     path.write_text('{"disturbance_Hz": "fast"}')
@@ -249,12 +239,6 @@ def test_rank_mount_file_with_a_text_disturbance_exits_2(cli, tmp_path, capsys):
     assert "disturbance" in capsys.readouterr().err
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/cli.py _criteria_from_args tests 'if args.temp_step:' and "
-    "'if args.freq_points:', so --temp-step 0 and --freq-points 0 are silently ignored "
-    "instead of being refused; test 'is not None' instead",
-)
 @pytest.mark.parametrize(
     ("option", "message"),
     [

@@ -277,12 +277,6 @@ def test_score_beats_every_tie_break():
     assert lm["Z-LAST"] == pytest.approx(4.0 * lm["A-FIRST"], rel=1e-9)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/ranking.py rank(): score = 100.0 * (raw - lo) / (hi - lo) multiplies "
-    "before dividing, so the top grade can score 100.00000000000001 and others just "
-    "outside 0-100; dividing first, 100.0 * ((raw - lo) / (hi - lo)), is exact at both ends",
-)
 def test_scores_stay_within_0_100():
     # Pairs of frequency-independent grades of known loss factor. In IEEE arithmetic
     # (100 x)/x differs from 100 for roughly one x in eight, so among 105 pairs some
@@ -598,55 +592,120 @@ def test_bad_criteria(make, message):
         make()
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/ranking.py Criteria.__post_init__ checks only that each Pareto name is "
-    "chosen, not that there are exactly two; rank() then fails with ValueError at "
-    "'a, b = criteria.pareto'",
-)
 @pytest.mark.parametrize(
-    "pareto", [("loss_factor",), ("loss_factor", "frequency_drift", "loss_factor")]
+    "pareto",
+    [
+        ("loss_factor",),
+        ("loss_factor", "loss_factor"),
+        ("loss_factor", "frequency_drift", "loss_factor"),
+    ],
 )
 def test_pareto_needs_exactly_two_indices(pareto):
-    with pytest.raises(CriteriaError, match="two"):
+    with pytest.raises(CriteriaError, match="Pareto front needs exactly two different chosen"):
         Criteria(pareto=pareto)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/ranking.py Criteria.from_dict / Constraints.from_dict do not convert or "
-    "check value types: float(eta_threshold) and the range unpacking raise ValueError, a "
-    "non-mapping window raises AttributeError, and a text max_price is accepted and only "
-    "fails inside rank() with TypeError",
-)
 @pytest.mark.parametrize(
-    "data",
+    ("data", "message"),
     [
-        {"eta_threshold": "high"},
-        {"window": [-20, 45]},
-        {"constraints": {"hardness_range": [40]}},
-        {"constraints": {"max_price": "cheap"}},
+        ({"eta_threshold": "high"}, "eta_threshold must be a number, not 'high'"),
+        ({"eta_threshold": float("nan")}, "eta_threshold must be a finite number, not nan"),
+        ({"eta_threshold": True}, "eta_threshold must be a number, not True"),
+        ({"window": [-20, 45]}, "window must be a mapping of settings, not [-20, 45]"),
+        ({"constraints": [1]}, "constraints must be a mapping of settings, not [1]"),
+        (
+            {"constraints": {"hardness_range": [40]}},
+            "hardness_range must be two numbers [low, high], not [40]",
+        ),
+        (
+            {"constraints": {"fn_range_Hz": "5-10"}},
+            "fn_range_Hz must be two numbers [low, high], not '5-10'",
+        ),
+        ({"constraints": {"hardness_range": [40, "x"]}}, "hardness_range must be a number"),
+        ({"constraints": {"max_price": "cheap"}}, "max_price must be a number, not 'cheap'"),
+        (
+            {"constraints": {"min_loss_factor": float("inf")}},
+            "min_loss_factor must be a finite number, not inf",
+        ),
+        ({"constraints": {"max_static_strain": "0.2"}}, "max_static_strain must be a number"),
+        (
+            {"constraints": {"service_covers_window": 0}},
+            "service_covers_window must be true or false, not 0",
+        ),
+        ({"indices": {"name": "loss_factor"}}, "indices must be a list of index entries"),
+        ({"indices": ["loss_factor"]}, "bad index entry 1: needs a mapping with a 'name'"),
+        (
+            {"indices": [{"name": "loss_factor", "weigth": 2}]},
+            "unknown setting(s) in index entry 1: weigth",
+        ),
+        (
+            {"indices": [{"name": "loss_factor", "weight": "heavy"}]},
+            "index 'loss_factor': weight must be a number, not 'heavy'",
+        ),
+        ({"indices": [{"name": 7}]}, "index name must be non-blank text, not 7"),
+        (
+            {"indices": [{"name": "loss_factor", "aggregate": 3}]},
+            "index 'loss_factor': aggregation must be one of",
+        ),
+        (
+            {"indices": [{"name": "mine", "formula": 2}]},
+            "index 'mine': formula must be text, not 2",
+        ),
+        ({"pareto": "loss_factor"}, "pareto must be a list of two index names"),
     ],
 )
-def test_criteria_values_of_the_wrong_type_are_criteria_errors(data):
-    with pytest.raises(CriteriaError):
+def test_criteria_values_of_the_wrong_type_are_criteria_errors(data, message):
+    with pytest.raises(CriteriaError, match=re.escape(message)):
         Criteria.from_dict(data)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/ranking.py Criteria.from_dict uses bool(...) on higher_is_better and "
-    "Constraints.from_dict keeps allow_extrapolation as given, so the text 'false' "
-    "silently means True",
+@pytest.mark.parametrize(
+    ("data", "message"),
+    [
+        (
+            {"indices": [{"name": "mine", "formula": "loss_factor", "higher_is_better": "false"}]},
+            "index 'mine': higher_is_better must be true or false, not 'false'",
+        ),
+        (
+            {"constraints": {"allow_extrapolation": "false"}},
+            "allow_extrapolation must be true or false, not 'false'",
+        ),
+        (
+            {"constraints": {"service_covers_window": "no"}},
+            "service_covers_window must be true or false, not 'no'",
+        ),
+    ],
 )
-def test_boolean_settings_given_as_text_are_not_silently_true():
+def test_boolean_settings_given_as_text_are_not_silently_true(data, message):
+    with pytest.raises(CriteriaError, match=re.escape(message)):
+        Criteria.from_dict(data)
+
+
+def test_boolean_and_number_settings_of_the_right_type_are_kept():
     data = {
-        "indices": [{"name": "mine", "formula": "loss_factor", "higher_is_better": "false"}],
-        "constraints": {"allow_extrapolation": "false"},
+        "indices": [
+            {"name": "mine", "formula": "loss_factor", "higher_is_better": False, "weight": 2}
+        ],
+        "constraints": {
+            "allow_extrapolation": True,
+            "service_covers_window": False,
+            "hardness_range": [40, 70],
+            "max_price": 8,
+        },
+        "eta_threshold": 0.3,
     }
-    try:
-        c = Criteria.from_dict(data)
-    except CriteriaError:
-        return
-    assert c.indices[0].higher_is_better is False
-    assert c.constraints.allow_extrapolation is False
+    c = Criteria.from_dict(data)
+    assert c.indices[0].higher_is_better is False and c.indices[0].weight == 2.0
+    assert c.constraints.allow_extrapolation is True
+    assert c.constraints.service_covers_window is False
+    assert c.constraints.hardness_range == (40.0, 70.0) and c.constraints.max_price == 8.0
+    assert c.eta_threshold == 0.3
+
+
+def test_index_choice_checks_its_own_types():
+    with pytest.raises(CriteriaError, match=r"index 'loss_factor': weight must be a number"):
+        IndexChoice("loss_factor", weight="1")
+    with pytest.raises(CriteriaError, match=r"higher_is_better must be true or false, not 1"):
+        IndexChoice("mine", formula="loss_factor", higher_is_better=1)
+    with pytest.raises(CriteriaError, match=r"index name must be non-blank text, not ''"):
+        IndexChoice("")

@@ -3,6 +3,7 @@ cache (engine/store.py and engine/fits.py)."""
 
 from __future__ import annotations
 
+import re
 import sqlite3
 
 import numpy as np
@@ -114,16 +115,65 @@ def test_edit_of_unknown_grade_is_refused(library):
         library.update_catalog("G9", {"density": 1000.0})
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="store.py:425-451 (update_catalog) writes any value the import would refuse "
-    "(mode 'bending', density -5, hardness 300); a later fit then fails with KeyError "
-    "'bending' in mastercurve.py (GLASSY_MODULUS[mode]) instead of a specific error",
-)
 def test_edit_with_invalid_mode_is_refused(tmp_path, library):
     load_grades(library, tmp_path, ("G1",))
     with pytest.raises(LibraryError, match="mode"):
         library.update_catalog("G1", {"mode": "bending"})
+
+
+@pytest.mark.parametrize(
+    ("changes", "message"),
+    [
+        ({"mode": "bending"}, "field 'mode': mode 'bending' is not one of tensile, shear"),
+        ({"mode": None}, "field 'mode': None is not accepted; give non-blank text"),
+        ({"name": "  "}, "field 'name': '  ' is not accepted; give non-blank text"),
+        ({"density": -5.0}, "field 'density': -5.0 is not accepted; give a positive density"),
+        ({"density": 0}, "field 'density': 0 is not accepted; give a positive density"),
+        ({"density": "heavy"}, "field 'density': 'heavy' is not accepted"),
+        ({"density": float("nan")}, "field 'density': nan is not accepted"),
+        ({"price": -0.5}, "field 'price': -0.5 is not accepted; give a price of zero or more"),
+        ({"price": float("inf")}, "field 'price': inf is not accepted"),
+        ({"price": True}, "field 'price': True is not accepted"),
+        ({"hardness": 300.0}, "give a Shore A hardness between 0 and 100"),
+        ({"hardness": -1.0}, "give a Shore A hardness between 0 and 100"),
+        # Poisson's ratio of an isotropic solid lies in (-1, 0.5] (Timoshenko & Goodier 1970).
+        ({"poisson_ratio": 0.6}, "give a Poisson's ratio in (-1, 0.5]"),
+        ({"poisson_ratio": -1.0}, "give a Poisson's ratio in (-1, 0.5]"),
+        ({"service_min": -300.0}, "give a temperature above absolute zero"),
+        ({"service_min": 80.0, "service_max": 20.0}, "service_min 80 degC is not below"),
+        ({"supplier": 12}, "field 'supplier': 12 is not accepted; give text or None"),
+    ],
+)
+def test_edit_with_invalid_value_is_refused(tmp_path, library, changes, message):
+    load_grades(library, tmp_path, ("G1",))
+    before = library.version()
+    with pytest.raises(LibraryError, match="grade 'G1'.*" + re.escape(message)):
+        library.update_catalog("G1", changes)
+    assert library.version() == before and library.history("G1") == []
+
+
+def test_service_range_edit_is_checked_against_the_stored_end(tmp_path, library):
+    load_grades(library, tmp_path, ("G1",))
+    library.update_catalog("G1", {"service_min": -40.0, "service_max": 80.0})
+    with pytest.raises(LibraryError, match="service_min 90 degC is not below service_max 80"):
+        library.update_catalog("G1", {"service_min": 90.0})
+    with pytest.raises(LibraryError, match="service_min -40 degC is not below service_max -50"):
+        library.update_catalog("G1", {"service_max": -50.0})
+    # Clearing one end lifts the check; the edge values of the ranges are accepted.
+    library.update_catalog("G1", {"service_max": None, "service_min": 90.0})
+    library.update_catalog("G1", {"mode": "Shear", "hardness": 100, "poisson_ratio": 0.5})
+    m = library.material("G1")
+    assert (m.service_min, m.service_max, m.mode) == (90.0, None, "shear")
+    assert (m.hardness, m.poisson_ratio) == (100.0, 0.5)
+
+
+def test_edit_of_deleted_grade_is_refused(tmp_path, library):
+    load_grades(library, tmp_path, ("G1",))
+    library.delete_material("G1")
+    before = library.version()
+    with pytest.raises(LibraryError, match="grade 'G1' is deleted; restore it before editing"):
+        library.update_catalog("G1", {"density": 1000.0})
+    assert library.version() == before
 
 
 def test_delete_and_restore_are_recoverable(tmp_path, library):

@@ -168,25 +168,28 @@ def test_from_dict_bad_values(data, message):
         OperatingWindow.from_dict(data)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="engine/window.py OperatingWindow.__post_init__: NaN temp_step, NaN frequencies "
-    "and NaN duty-point values pass every '<= 0' / '<' check (comparisons with NaN are "
-    "False); the window fails later with ValueError or silently yields NaN frequencies",
-)
 @pytest.mark.parametrize(
-    "kwargs",
+    ("kwargs", "message"),
     [
-        {"temp_step": NAN},
-        {"freq_range": (NAN, 100.0)},
-        {"freq_range": (10.0, float("inf"))},
-        {"design_frequency_Hz": NAN},
-        {"duty_points": (DutyPoint(NAN, 10.0, 1.0),)},
+        ({"temp_step": NAN}, "temperature step must be positive and finite, not nan"),
+        ({"temp_step": float("inf")}, "temperature step must be positive and finite, not inf"),
+        ({"freq_range": (NAN, 100.0)}, "frequencies must be finite numbers, not nan to 100 Hz"),
+        ({"freq_range": (10.0, float("inf"))}, "frequencies must be finite numbers"),
+        ({"design_frequency_Hz": NAN}, "design frequency must be positive and finite"),
+        ({"design_frequency_Hz": float("inf")}, "design frequency must be positive and finite"),
+        ({"duty_points": (DutyPoint(NAN, 10.0, 1.0),)}, "duty-point temperature, frequency"),
+        ({"duty_points": (DutyPoint(20.0, float("inf"), 1.0),)}, "must be finite numbers"),
+        ({"duty_points": (DutyPoint(20.0, 10.0, NAN),)}, "not 20 degC, 10 Hz, nan"),
     ],
 )
-def test_non_finite_window_values_are_rejected(kwargs):
-    with pytest.raises(CriteriaError, match="must be|need"):
+def test_non_finite_window_values_are_rejected(kwargs, message):
+    with pytest.raises(CriteriaError, match=re.escape(message)):
         OperatingWindow(**kwargs)
+
+
+def test_window_from_dict_needs_a_mapping():
+    with pytest.raises(CriteriaError, match=re.escape("window must be a mapping of settings")):
+        OperatingWindow.from_dict([-20, 45])
 
 
 @pytest.mark.parametrize(
