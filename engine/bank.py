@@ -118,34 +118,49 @@ class CurveBank:
         """log10 aT, shape (grades, *temperature.shape), as MasterCurve.log_shift."""
         t = np.asarray(temperature, dtype=float)
         g = np.arange(len(self)).reshape((-1,) + (1,) * t.ndim)
-        ref = self.reference[g]
-        tb = t[None, ...]
-        return self._raw_law(tb, g) - self._raw_law(ref, g) + self._correction(g, tb)
+        return self.shift_at(g, t[None, ...])
 
-    def evaluate(self, temperature, frequency):
+    def evaluate(self, temperature, frequency, loss: bool = True):
         """E', E'' [Pa] and the extrapolated flag at every (T, f) for every grade.
 
         ``temperature`` and ``frequency`` broadcast together to a shape P; results have
-        shape (grades, *P).
+        shape (grades, *P). With ``loss=False`` E'' is not computed (None).
         """
-        t, f = np.broadcast_arrays(
-            np.asarray(temperature, dtype=float), np.asarray(frequency, dtype=float)
-        )
-        g = np.arange(len(self)).reshape((-1,) + (1,) * t.ndim)
-        return self._evaluate(g, t[None, ...], f[None, ...])
+        t = np.asarray(temperature, dtype=float)
+        f = np.asarray(frequency, dtype=float)
+        nd = max(t.ndim, f.ndim)
+        g = np.arange(len(self)).reshape((-1,) + (1,) * nd)
+        t = t.reshape((1,) * (nd - t.ndim + 1) + t.shape)
+        f = f.reshape((1,) * (nd - f.ndim + 1) + f.shape)
+        return self._evaluate(g, t, f, self.shift_at(g, t), loss)
 
-    def evaluate_rows(self, temperature, frequency):
+    def evaluate_rows(self, temperature, frequency, loss: bool = True, shift=None):
         """Like :meth:`evaluate`, but row k of the inputs belongs to grade k.
 
-        ``temperature`` and ``frequency`` broadcast to shape (grades, ...).
+        ``temperature`` and ``frequency`` broadcast to shape (grades, ...). ``shift`` may
+        hold :meth:`shift_rows` of ``temperature`` computed once for repeated calls.
         """
-        t, f = np.broadcast_arrays(
-            np.asarray(temperature, dtype=float), np.asarray(frequency, dtype=float)
-        )
-        if t.shape[0] != len(self):
+        t = np.asarray(temperature, dtype=float)
+        f = np.asarray(frequency, dtype=float)
+        if t.shape[:1] != (len(self),) and f.shape[:1] != (len(self),):
             raise ValueError(f"first axis must have one row per grade ({len(self)})")
+        nd = max(t.ndim, f.ndim)
+        g = np.arange(len(self)).reshape((-1,) + (1,) * (nd - 1))
+        t = t.reshape(t.shape + (1,) * (nd - t.ndim))
+        f = f.reshape(f.shape + (1,) * (nd - f.ndim))
+        if shift is None:
+            shift = self.shift_at(g, t)
+        return self._evaluate(g, t, f, shift, loss)
+
+    def shift_rows(self, temperature) -> np.ndarray:
+        """log10 aT where row k of ``temperature`` belongs to grade k."""
+        t = np.asarray(temperature, dtype=float)
         g = np.arange(len(self)).reshape((-1,) + (1,) * (t.ndim - 1))
-        return self._evaluate(g, t, f)
+        return self.shift_at(g, t)
+
+    def shift_at(self, g, t):
+        """log10 aT of grades ``g`` at temperatures ``t`` (broadcast), as MasterCurve."""
+        return self._raw_law(t, g) - self._raw_law(self.reference[g], g) + self._correction(g, t)
 
     def _correction(self, g, t):
         if self.correction is None:
@@ -156,24 +171,44 @@ class CurveBank:
         rows = np.broadcast_to(g, i0.shape)
         return self.correction[rows, i0] * (1 - w) + self.correction[rows, i0 + 1] * w
 
-    def _evaluate(self, g, t, f):
-        log_fr = (
-            np.log10(f)
-            + self._raw_law(t, g)
-            - self._raw_law(self.reference[g], g)
-            + self._correction(g, t)
-        )
+    def _flat(self):
+        """Tables flattened with their node-to-node differences, for one-gather lookups."""
+        cached = getattr(self, "_flat_cache", None)
+        if cached is None:
+            width = self.log_storage.shape[1]
+            ds = np.diff(self.log_storage, axis=1, append=self.log_storage[:, -1:])
+            dl = np.diff(self.log_loss, axis=1, append=self.log_loss[:, -1:])
+            # The last valid node continues with the slope of the one before it.
+            rows = np.arange(len(self))
+            last = np.maximum(self.n_nodes - 1, 1)
+            ds[rows, last] = ds[rows, last - 1]
+            dl[rows, last] = dl[rows, last - 1]
+            # Natural-log units so that one exp() turns a node value into a modulus.
+            cached = (
+                width,
+                self.log_storage.ravel() * LN10,
+                ds.ravel() * LN10,
+                self.log_loss.ravel() * LN10,
+                dl.ravel() * LN10,
+            )
+            self._flat_cache = cached
+        return cached
+
+    def _evaluate(self, g, t, f, shift, want_loss=True):
+        width, ls_flat, ds_flat, ll_flat, dl_flat = self._flat()
+        log_fr = np.log10(f) + shift
         pos = (log_fr - self.start[g]) / self.step
         # Linear in log-log between nodes and beyond the ends (where a Prony series tends
         # to E'' ~ omega and ~ 1/omega with E' flat).
         i0 = np.clip(np.floor(pos).astype(np.intp), 0, np.maximum(self.n_nodes[g] - 2, 0))
         w = pos - i0
-        rows = np.broadcast_to(g, i0.shape)
-        ls = self.log_storage[rows, i0] * (1 - w) + self.log_storage[rows, i0 + 1] * w
-        ll = self.log_loss[rows, i0] * (1 - w) + self.log_loss[rows, i0 + 1] * w
-        scale = np.where(self.vertical[g], c_to_k(t) / c_to_k(self.reference[g]), 1.0)
-        storage = 10.0**ls * scale
-        loss = 10.0**ll * scale
+        flat = g * width + i0
+        storage = np.exp(ls_flat[flat] + w * ds_flat[flat])
+        loss = np.exp(ll_flat[flat] + w * dl_flat[flat]) if want_loss else None
+        if self.vertical.any():
+            scale = np.where(self.vertical[g], c_to_k(t) / c_to_k(self.reference[g]), 1.0)
+            storage = storage * scale
+            loss = None if loss is None else loss * scale
         single = self.kind[g] == 0
         extrap = (log_fr < self.fr_lo[g] - 1e-9) | (log_fr > self.fr_hi[g] + 1e-9)
         extrap |= np.where(

@@ -168,20 +168,19 @@ def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes:
     if given is not None:
         return np.full(hardness.shape, float(given))
     lo, hi = 30.0, 75.0  # range of the Gent & Lindley table in engine.mount
-    out = np.empty(hardness.shape)
-    for k, h in enumerate(hardness):
-        if np.isnan(h):
-            out[k] = FALLBACK_K_FACTOR
-            notes.setdefault(ids[k], []).append(
-                f"hardness unknown: k = {FALLBACK_K_FACTOR} assumed for the compression modulus"
-            )
-            continue
-        if h < lo or h > hi:
-            notes.setdefault(ids[k], []).append(
-                f"hardness {h:g} Shore A outside the k-factor table ({lo:g}-{hi:g}): "
-                "nearest table value used"
-            )
-        out[k] = float(mount.k_factor_from_hardness(np.clip(h, lo, hi)))
+    unknown = np.isnan(hardness)
+    out = np.full(hardness.shape, FALLBACK_K_FACTOR)
+    known = ~unknown
+    out[known] = mount.k_factor_from_hardness(np.clip(hardness[known], lo, hi))
+    for k in np.flatnonzero(unknown):
+        notes.setdefault(ids[k], []).append(
+            f"hardness unknown: k = {FALLBACK_K_FACTOR} assumed for the compression modulus"
+        )
+    for k in np.flatnonzero(known & ((hardness < lo) | (hardness > hi))):
+        notes.setdefault(ids[k], []).append(
+            f"hardness {hardness[k]:g} Shore A outside the k-factor table ({lo:g}-{hi:g}): "
+            "nearest table value used"
+        )
     return out
 
 
@@ -254,11 +253,21 @@ def check_mounts(
     s_factor = shape_factor(area)
     a_col = area[:, None]
     t_rows = np.broadcast_to(t[None, :], (n, t.size))
+    shift_rows = bank.shift_rows(t_rows)  # log10 aT once, for every evaluation below
     extrap = np.zeros((n, t.size), dtype=bool)
+    # Pad stiffness per unit modulus of the grade's own mode, (grades, 1).
+    if design.layout == "shear":
+        per_modulus = (to_layout * area / h)[:, None]
+    else:
+        per_modulus = None
 
     def stiffness(freq):
         # engine.mount.natural_frequency always passes the full (grades, T) shape.
-        storage, _, _ = bank.evaluate_rows(t_rows, np.asarray(freq, dtype=float))
+        storage, _, _ = bank.evaluate_rows(
+            t_rows, np.asarray(freq, dtype=float), loss=False, shift=shift_rows
+        )
+        if per_modulus is not None:
+            return storage * per_modulus
         return layout_modulus(storage, area) * a_col / h
 
     masses = np.full((n, t.size), m)
@@ -266,21 +275,20 @@ def check_mounts(
     fn = nat.frequency
     ok = nat.converged
     fn_safe = np.where(ok, fn, 1.0)
-    st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe)
+    st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
     eta_fn = np.where(ok, ls_fn / st_fn, np.nan)
     extrap |= x_fn
     k_fn = layout_modulus(st_fn, area) * a_col / h
     amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
     dist = np.asarray(design.disturbance_Hz, dtype=float)
-    t3 = np.broadcast_to(t[None, :, None], (n, t.size, dist.size))
     f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
-    st_d, ls_d, x_d = bank.evaluate_rows(t3, f3)
+    st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
     extrap |= x_d.any(axis=2)
     k_d = layout_modulus(st_d, area) * area[:, None, None] / h
     trans = mount.transmissibility(f3, k_d, ls_d / st_d, m)
 
     f_static = 1.0 / (2.0 * np.pi * STATIC_LOAD_TIME_S)
-    st_s, _, x_s = bank.evaluate_rows(t_rows, np.full_like(t_rows, f_static))
+    st_s, _, x_s = bank.evaluate_rows(t_rows, f_static, loss=False, shift=shift_rows)
     extrap |= x_s
     k_static = layout_modulus(st_s, area) * a_col / h
     deflection = mount.static_deflection(m, k_static)

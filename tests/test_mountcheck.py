@@ -201,8 +201,10 @@ def test_sized_area_puts_fn_on_target_flat(layout, extra):
     )
     res = check_mounts(bank, design, np.array([23.0]), np.full(3, np.nan), np.full(3, 55.0))
     np.testing.assert_allclose(res.natural_frequency[:, 0], 9.0, rtol=1e-3)
-    # Stiffer grades need smaller pads for the same fn.
-    assert res.area[0] > res.area[1] > res.area[2]
+    # G' = 0.8 MPa in shear equals E' = 2.4 MPa with nu = 0.5 (E = 3G, common practice):
+    # the same pad; the stiffer third grade needs a smaller one for the same fn.
+    assert res.area[0] == pytest.approx(res.area[1], rel=1e-9)
+    assert res.area[1] > res.area[2]
     if layout == "compression" and "shape" in extra:
         side = np.sqrt(4 * res.area / np.pi) if extra["shape"] == "disc" else np.sqrt(res.area)
         np.testing.assert_allclose(res.shape_factor, side / (4 * 20e-3), rtol=1e-12)
