@@ -80,7 +80,7 @@ DEFAULTS: dict = {
     "c_mass": 180.0,
     "c_mounts": 4,
     "c_area": 2000.0,
-    "c_thick": 25.0,
+    "c_thick": 30.0,
     "c_shape": "disc",
     "c_sf": None,
     "c_kf": None,

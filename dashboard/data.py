@@ -13,7 +13,7 @@ import json
 import numpy as np
 import streamlit as st
 
-from engine.cli import DEMO_DIR
+from engine.demo import DEMO_DIR
 from engine.fits import fit_library
 from engine.importer import import_files
 from engine.mastercurve import MasterCurve

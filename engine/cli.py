@@ -18,8 +18,6 @@ from engine import __version__
 from engine.errors import QuietgradeError
 from engine.store import Library, default_location
 
-DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_materials"
-
 
 class _Parser(argparse.ArgumentParser):
     def error(self, message):  # one line, exit status 2
@@ -204,11 +202,11 @@ def cmd_props(args) -> int:
 
 
 def cmd_demo(args) -> int:
+    from engine.demo import load_demo
     from engine.fits import fit_library
-    from engine.importer import import_files
 
     lib = _library(args)
-    summary = import_files(lib, [DEMO_DIR / "catalog.csv"], [DEMO_DIR / "sweeps.csv"])
+    summary = load_demo(lib)
     curves, errors = fit_library(lib)
     data = {**summary.to_dict(), "fitted": sorted(curves), "fit_errors": errors}
     if summary.materials_added or summary.datasets_added:

@@ -42,6 +42,13 @@ DEFAULT_INDICES = {
     "damping_layer": [("loss_modulus", 1.0, "worst"), ("damping_span", 1.0, "worst")],
     "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
 }
+CATALOG_CONSTRAINTS = ("service range", "hardness", "price")
+MOUNT_CONSTRAINTS = (
+    "natural frequency",
+    "transmissibility at the disturbance",
+    "static strain incl. long-term sag",
+)
+MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
 LOG_FLOOR = 1e-12  # values at or below zero are scored as this (a damping span of 0 K)
 
 
@@ -284,9 +291,13 @@ class Criteria:
 
 @dataclass
 class Failure:
+    """A failed constraint: what, the value found, the limit; ``topic`` groups them
+    ("catalog", "window" or "mount")."""
+
     constraint: str
     value: float | str
     limit: str
+    topic: str = "window"
 
     def text(self) -> str:
         return f"{self.constraint} {self.value} (needs {self.limit})"
@@ -308,6 +319,7 @@ class GradeResult:
     rank: int | None = None
     pareto: bool = False
     extrapolated: bool = False
+    worst_loss_factor: float | None = None  # over the window grid
     reason: str = ""
     mount_result: MountResult | None = field(default=None, repr=False)
     mount_index: int | None = None
@@ -528,10 +540,15 @@ def rank(
                     fails.append(
                         Failure(
                             "extrapolation",
-                            "the mount check leaves the measured data",
+                            MOUNT_EXTRAPOLATION,
                             "not allowed",
                         )
                     )
+        for f in fails:
+            if f.constraint in CATALOG_CONSTRAINTS:
+                f.topic = "catalog"
+            elif f.constraint in MOUNT_CONSTRAINTS or f.value == MOUNT_EXTRAPOLATION:
+                f.topic = "mount"
         notes = list(curves[m.id].notes)
         if mres is not None:
             notes += mres.notes.get(m.id, [])
@@ -547,6 +564,7 @@ def rank(
                 failures=fails,
                 indices={name: float(values[name][k]) for name in specs},
                 extrapolated=bool(extrap_any[k]),
+                worst_loss_factor=float(eta_worst[k]),
                 mount_result=mres,
                 mount_index=k if mres is not None else None,
                 notes=notes,

@@ -181,6 +181,13 @@ class WindowProps:
     def loss_factor(self) -> np.ndarray:
         return self.loss / self.storage
 
+    @property
+    def path_loss_factor(self) -> np.ndarray | None:
+        """Loss factor along the temperature path at the design frequency."""
+        if self.path_loss is None:
+            return None
+        return self.path_loss / self.path_storage
+
 
 def tensile_factor(modes, poisson) -> np.ndarray:
     """Factor that turns each grade's own modulus into a tensile one: 1 or 2(1 + nu)."""
