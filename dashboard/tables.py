@@ -7,13 +7,6 @@ import pandas as pd
 
 from engine.ranking import GradeResult, RankResult
 
-# Constraint names of engine.ranking that belong to the mount check.
-MOUNT_CONSTRAINTS = (
-    "natural frequency",
-    "transmissibility at the disturbance",
-    "static strain incl. long-term sag",
-)
-
 
 def _span(values) -> str:
     v = np.asarray(values, dtype=float)
@@ -56,7 +49,7 @@ def comparison_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
             "status": _status(g, n_pass),
             "score": g.score,
             "E' in window [MPa]": _span(props.storage[k] / 1e6),
-            "worst loss factor in window": float(np.nanmin(props.loss_factor[k])),
+            "worst loss factor in window": g.worst_loss_factor,
         }
         for name, title in titles.items():
             row[title] = g.indices.get(name)
@@ -104,7 +97,7 @@ def mount_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
         if g is None or g.mount is None:
             continue
         m = g.mount
-        mount_fails = [f.text() for f in g.failures if f.constraint in MOUNT_CONSTRAINTS]
+        mount_fails = [f.text() for f in g.failures if f.topic == "mount"]
         if any(f.constraint == "extrapolation" and "mount" in str(f.value) for f in g.failures):
             mount_fails.append("the mount check leaves the measured data")
         rows.append(
