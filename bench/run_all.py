@@ -19,6 +19,8 @@ from bench import Figure
 BENCHES = [
     "bench.bench_fit",
     "bench.bench_library",
+    "bench.bench_rank",
+    "bench.bench_dashboard",
 ]
 
 

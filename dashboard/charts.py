@@ -87,6 +87,48 @@ def empty_figure(message: str) -> go.Figure:
 # -- map -----------------------------------------------------------------------------------
 
 
+CROWD_LIMIT = 40  # more grades than this on the map: the rest share two traces
+CROWD_TOP = 10  # passing grades always drawn on their own
+
+
+def _add_crowd(fig, props, grades, rows, eta, storage, temps) -> None:
+    """Draw many grades as one trace per state, paths separated by gaps."""
+    for passed in (True, False):
+        ks = [k for k in rows if grades[props.ids[k]].passed == passed]
+        if not ks:
+            continue
+        xs, ys, custom = [], [], []
+        for k in ks:
+            g = grades[props.ids[k]]
+            state = (
+                f"rank {g.rank}"
+                if passed
+                else "excluded: " + "; ".join(f.text() for f in g.failures)
+            )
+            xs.extend([*eta[k], None])
+            ys.extend([*storage[k], None])
+            custom.extend([[g.id, t, state] for t in temps] + [[None, None, None]])
+        fig.add_trace(
+            go.Scatter(
+                x=xs,
+                y=ys,
+                mode="lines+markers",  # box and lasso select marked points only
+                marker={"size": 3, "color": faded(INK, 0.35 if passed else 0.18)},
+                name=f"{len(ks)} other {'passing' if passed else 'excluded'} grades",
+                line={
+                    "color": faded(INK, 0.35 if passed else 0.18),
+                    "width": 1.0,
+                    "dash": "solid" if passed else "dot",
+                },
+                customdata=custom,
+                hovertemplate=(
+                    "<b>%{customdata[0]}</b><br>T = %{customdata[1]:.0f} °C<br>"
+                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>%{customdata[2]}<extra></extra>"
+                ),
+            )
+        )
+
+
 def map_figure(
     result: RankResult,
     colours: dict[str, str],
@@ -174,6 +216,13 @@ def map_figure(
     labels = [""] * temps.size
     labels[0] = f"{temps[0]:g} °C"
     labels[-1] = f"{temps[-1]:g} °C"
+    # A large library: grades outside the comparison set and the top ranks are drawn as
+    # two shared traces (passing, excluded), which keeps a rerun quick.
+    if len(shown) > CROWD_LIMIT:
+        top = {g.id for g in result.shortlist[:CROWD_TOP]}
+        crowd = [k for k in shown if props.ids[k] not in chosen and props.ids[k] not in top]
+        _add_crowd(fig, props, grades, crowd, eta, storage, temps)
+        shown = [k for k in shown if k not in set(crowd)]
     for k in shown:
         gid = props.ids[k]
         g = grades[gid]

@@ -1,0 +1,256 @@
+"""Dashboard rerun time after a change of the operating window.
+
+The dashboard is driven headless by ``streamlit.testing.v1.AppTest`` (its own overhead
+is part of every figure). For each library the app is run once to warm the caches (the
+master curves are already fitted and cached in the library), then the temperature range
+slider of the sidebar is moved and the rerun is timed:
+
+- alternating between two ranges: after each range has been seen once its ranking is
+  a cache hit, so this is the user going back and forth;
+- a new range every time: the ranking is computed on every rerun, the case of a user
+  dragging the slider to fresh positions.
+
+(a) the invented demo library (``python -m engine demo``), target 0.3 s per rerun;
+(b) 500 grades (200 in quick mode) cloned from the demo sweeps with perturbed moduli and
+    scattered catalog fields, imported from CSV files and fitted first (the fitting
+    time is printed as its own figure), target 1 s per rerun.
+
+For reference, the engine-only part, :func:`engine.ranking.rank` on the same curves
+with the same new windows, is timed too: the rest of a rerun is the dashboard.
+
+Run: ``python -m bench.bench_dashboard [--full]`` or through ``python -m bench.run_all``.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import csv
+import io
+import os
+import statistics
+import sys
+import tempfile
+import time
+from collections.abc import Iterator
+from pathlib import Path
+
+import numpy as np
+
+from bench import Figure, progress_line
+from dashboard import case
+from engine import cli
+from engine.fits import fit_library
+from engine.importer import import_files
+from engine.ranking import rank
+from engine.store import Library
+
+ROOT = Path(__file__).resolve().parent.parent
+APP = str(ROOT / "dashboard" / "app.py")
+DEMO = ROOT / "demo_materials"
+FULL_GRADES = 500
+QUICK_GRADES = 200
+DEMO_TARGET_S = 0.3
+LARGE_TARGET_S = 1.0
+REPEATS = 5
+ALTERNATING = ((0.0, 40.0), (-20.0, 45.0))  # the second is the dashboard's default
+# New ranges, one per timed rerun: none repeats, so no ranking is a cache hit.
+FRESH = tuple((-20.0 + k, 45.0 - k) for k in range(1, REPEATS + 1))
+
+
+@contextlib.contextmanager
+def library_env(db: Path) -> Iterator[None]:
+    """``QUIETGRADE_DB`` set to ``db`` for the duration, then restored."""
+    before = os.environ.get("QUIETGRADE_DB")
+    os.environ["QUIETGRADE_DB"] = str(db)
+    try:
+        yield
+    finally:
+        if before is None:
+            os.environ.pop("QUIETGRADE_DB", None)
+        else:
+            os.environ["QUIETGRADE_DB"] = before
+
+
+# ------------------------------------------------------------------ libraries
+
+
+def demo_library(folder: Path) -> Path:
+    """The demo grades loaded and fitted by the command line, in a new library file."""
+    db = folder / "demo.sqlite"
+    with library_env(db), contextlib.redirect_stdout(io.StringIO()):
+        status = cli.main(["demo"])
+    if status != 0:
+        raise RuntimeError(f"python -m engine demo failed with status {status}")
+    return db
+
+
+def write_clones(folder: Path, n: int, seed: int = 7) -> tuple[Path, Path]:
+    """A catalog and a sweep CSV of n grades cloned from the demo grades.
+
+    Each clone takes the sweep of demo grade ``k mod 14`` with its storage modulus scaled
+    by 10^u, u uniform in [-0.3, 0.3], and 1 % multiplicative scatter on both storage
+    modulus and loss factor; the catalog row gets a scattered price and hardness.
+    """
+    rng = np.random.default_rng(seed)
+    with open(DEMO / "catalog.csv", newline="") as fh:
+        reader = csv.DictReader(fh)
+        cat_header = list(reader.fieldnames or [])
+        catalog = list(reader)
+    with open(DEMO / "sweeps.csv", newline="") as fh:
+        reader = csv.reader(fh)
+        sweep_header = next(reader)
+        sweeps: dict[str, list[list[float]]] = {}
+        for row in reader:
+            sweeps.setdefault(row[0], []).append([float(v) for v in row[1:]])
+    bases = [row for row in catalog if row["id"] in sweeps]
+    cat_rows, sweep_lines = [], [",".join(sweep_header)]
+    for k in range(n):
+        base = bases[k % len(bases)]
+        gid = f"DASH-{k:04d}"
+        row = dict(base, id=gid, name=f"Bench grade {k} ({base['family']})")
+        row["price [per kg]"] = f"{rng.uniform(2.0, 25.0):.2f}"
+        if row["hardness [Shore A]"]:
+            hardness = float(row["hardness [Shore A]"]) + rng.uniform(-5.0, 5.0)
+            row["hardness [Shore A]"] = f"{min(max(hardness, 10.0), 95.0):.0f}"
+        cat_rows.append(row)
+        points = np.array(sweeps[base["id"]])
+        scale = 10.0 ** rng.uniform(-0.3, 0.3)
+        storage = points[:, 2] * scale * np.exp(rng.normal(0.0, 0.01, len(points)))
+        eta = points[:, 3] * np.exp(rng.normal(0.0, 0.01, len(points)))
+        for (t, f, _, _), e, d in zip(points, storage, eta, strict=True):
+            sweep_lines.append(f"{gid},{t:g},{f:g},{e:.6g},{d:.6g}")
+    cat_path = folder / "catalog.csv"
+    with open(cat_path, "w", newline="") as fh:
+        writer = csv.DictWriter(fh, fieldnames=cat_header)
+        writer.writeheader()
+        writer.writerows(cat_rows)
+    sweep_path = folder / "sweeps.csv"
+    sweep_path.write_text("\n".join(sweep_lines) + "\n")
+    return cat_path, sweep_path
+
+
+def large_library(folder: Path, n: int) -> tuple[Path, float, str]:
+    """A library of n cloned grades, imported and fitted; (file, fit seconds, note)."""
+    db = folder / f"clones{n}.sqlite"
+    lib = Library(str(db))
+    catalog, sweeps = write_clones(folder, n)
+    import_files(lib, [catalog], [sweeps])
+    start = time.perf_counter()
+    curves, errors = fit_library(lib, processes=2, progress=progress_line(f"fitting {n}"))
+    fitted = time.perf_counter() - start
+    return db, fitted, f"{len(curves)} fitted, {len(errors)} fit errors, 2 processes"
+
+
+# ------------------------------------------------------------------ timing
+
+
+def _check(at, temp_range: tuple[float, float]) -> None:
+    if at.exception:
+        raise RuntimeError(f"the dashboard raised: {at.exception[0].message}")
+    result = at.session_state["_context"].result
+    if result is None or tuple(result.criteria.window.temp_range) != temp_range:
+        raise RuntimeError(f"the rerun did not rank the window {temp_range}")
+
+
+def time_reruns(db: Path) -> dict[str, float]:
+    """Median rerun times [s] after a window change: alternating and new ranges."""
+    from streamlit.testing.v1 import AppTest
+
+    with library_env(db):
+        at = AppTest.from_file(APP, default_timeout=120)
+        start = time.perf_counter()
+        at.run()
+        first = time.perf_counter() - start
+        _check(at, case.DEFAULTS["c_temp"])
+
+        def rerun(temp_range: tuple[float, float]) -> float:
+            at.slider(key="c_temp").set_value(temp_range)
+            start = time.perf_counter()
+            at.run()
+            elapsed = time.perf_counter() - start
+            _check(at, temp_range)
+            return elapsed
+
+        rerun(ALTERNATING[0])  # each alternating range seen once before timing
+        alternating = [rerun(ALTERNATING[(k + 1) % 2]) for k in range(REPEATS)]
+        fresh = [rerun(r) for r in FRESH]
+    return {
+        "first": first,
+        "alternating": statistics.median(alternating),
+        "fresh": statistics.median(fresh),
+        "fresh_max": max(fresh),
+    }
+
+
+def time_engine(db: Path) -> float:
+    """Median time of ``rank`` on the cached curves for the new windows [s]."""
+    lib = Library(str(db))
+    curves, errors = fit_library(lib, processes=1)
+    materials = {m.id: m for m in lib.materials()}
+    times = []
+    for temp_range in FRESH:
+        state = case.default_state()
+        state["c_temp"] = temp_range
+        crit = case.criteria_from_state(state)
+        start = time.perf_counter()
+        rank(curves, materials, crit, errors)
+        times.append(time.perf_counter() - start)
+    return statistics.median(times)
+
+
+def figures_for(label: str, db: Path, target: float) -> list[Figure]:
+    sys.stderr.write(f"  dashboard reruns, {label}\n")
+    t = time_reruns(db)
+    engine = time_engine(db)
+    return [
+        Figure(
+            f"dashboard rerun, {label}, alternating 2 ranges",
+            t["alternating"],
+            "s",
+            target,
+            f"median of {REPEATS}; ranking a cache hit; first run {t['first']:.2f} s",
+        ),
+        Figure(
+            f"dashboard rerun, {label}, new range each time",
+            t["fresh"],
+            "s",
+            target,
+            f"median of {REPEATS} (max {t['fresh_max']:.2f} s); ranking computed",
+        ),
+        Figure(
+            f"  engine only: rank, {label}, new range",
+            engine,
+            "s",
+            None,
+            f"median of {REPEATS}; UI and AppTest ~{max(t['fresh'] - engine, 0.0):.2f} s",
+        ),
+    ]
+
+
+def main(quick: bool = True) -> list[Figure]:
+    n = QUICK_GRADES if quick else FULL_GRADES
+    with tempfile.TemporaryDirectory(prefix="quietgrade-bench-") as tmp:
+        folder = Path(tmp)
+        figures = figures_for("demo (14 grades)", demo_library(folder), DEMO_TARGET_S)
+        sys.stderr.write(f"  building and fitting {n} cloned grades\n")
+        db, fitted, note = large_library(folder, n)
+        label = f"{n} grades"
+        large = figures_for(label, db, LARGE_TARGET_S)
+        if quick:
+            large = [
+                Figure(
+                    f.name, f.value, f.unit, f.target, f"{f.note}; quick mode ({FULL_GRADES} full)"
+                )
+                for f in large
+            ]
+        figures += large
+        figures.append(
+            Figure(f"  fit_library, {label} (setup, not timed above)", fitted, "s", None, note)
+        )
+    return figures
+
+
+if __name__ == "__main__":
+    from bench.run_all import table
+
+    sys.stdout.write(table(main(quick="--full" not in sys.argv[1:])) + "\n")
