@@ -555,21 +555,23 @@ def _best_law(pairs, reference, splits, glassy_without_transition) -> ShiftLaw:
     misfit is clearly lower (by more than 2, or 10 %), so that pairs left undetermined do
     not decide the split.
     """
-    fitted, errors = [], []
+    fitted, errors, tried = [], [], []
+    good = [p for p in pairs if p.status == "ok"]
+    lo = np.array([p.lower for p in good])
+    hi = np.array([p.upper for p in good])
+    delta = np.array([p.delta for p in good])
+    sigma = np.maximum(np.array([p.sigma for p in good]), 0.005)
     for split in splits:
+        # Candidates closer than 1 K to one already tried give the same law.
+        if split is not None and any(t is not None and abs(t - split) < 1.0 for t in tried):
+            continue
+        tried.append(split)
         try:
             law = fit_shift_law(pairs, reference, split, glassy_without_transition)
         except FitError as exc:
             errors.append(exc)
             continue
-        good = [p for p in pairs if p.status == "ok"]
-        resid = np.array(
-            [
-                (p.delta - float(law.log_shift(p.upper) - law.log_shift(p.lower)))
-                / max(p.sigma, 0.005)
-                for p in good
-            ]
-        )
+        resid = (delta - (law.log_shift(hi) - law.log_shift(lo))) / sigma
         fitted.append((float(np.sum(np.log1p(resid**2))), law))
     if not fitted:
         raise errors[0]
