@@ -32,6 +32,8 @@ TABLE_MARGIN = 6.0  # decades tabulated beyond the covered range
 TOLERANCE_C = 0.5  # a temperature this close to the measured range is not extrapolated
 ETA_COLLAPSE_LIMIT = 0.05  # scatter of log10 eta about its curve against log10 E'
 MIN_WINDOW_SPREAD = 0.05  # decades of log10 E' a window needs to be informative
+NOISE_LOG_STORAGE = 0.0043  # 1 % in E', decades
+NOISE_LOG_ETA = 0.0086  # 2 % in tan delta, decades
 ISOTHERM_RESIDUAL_LIMIT = 0.1  # rms decades per isotherm about the master curve
 # (the three limits are common practice values of this project, a few times the 1-2 %
 # scatter of a good DMA measurement)
@@ -304,6 +306,10 @@ def _eta_collapse(log_storage: np.ndarray, log_eta: np.ndarray, window: int = 9)
     slope = np.where(sxx > 0, np.sum((x - xm) * (y - ym), axis=1) / np.maximum(sxx, 1e-300), 0.0)
     mid = window // 2
     resid = y[:, mid] - (ym[:, 0] + slope * (x[:, mid] - xm[:, 0]))
+    # Where eta is steep against log E', scatter in E' alone moves points off the line:
+    # scale the residual by the combined noise (errors in both variables, with 1 % on E'
+    # and 2 % on tan delta as typical DMA scatter; common practice).
+    resid = resid / np.sqrt(1.0 + (slope * NOISE_LOG_STORAGE / NOISE_LOG_ETA) ** 2)
     # Where E' is flat (glassy or rubbery plateau) measurement noise alone reorders the
     # points; such windows say nothing about superposition and are left out.
     informative = np.ptp(x, axis=1) >= MIN_WINDOW_SPREAD

@@ -205,7 +205,7 @@ MIN_OVERLAP_POINTS = 3
 ILL_DETERMINED_SIGMA = 0.25  # decades; common practice threshold of this project
 MAX_OVERLAP_RMS = 0.1  # decades: a best overlap worse than this is no overlap at all
 AMBIGUITY_DECADES = 0.3  # two overlap minima this far apart make a pair ill-determined
-ROBUST_PASSES = 3  # iteratively reweighted passes of the shift-law fit
+ROBUST_PASSES = 2  # iteratively reweighted passes of the shift-law fit
 _NOISE_FLOOR = 0.003  # log10 units, floor on the residual scatter used for sigma
 _GRID_STEP = 0.01  # decades
 
@@ -510,19 +510,26 @@ def fit_shift_law(
         c2_lo = max(5.0, wlf_ref - t_min + 1.0)
         c2_bounds = (np.log(c2_lo), np.log(2000.0))
     base_weight = weight.copy()
-    for _ in range(ROBUST_PASSES):
+    c2 = None
+    for robust_pass in range(ROBUST_PASSES):
         if c2_bounds is not None:
-            # A coarse scan of log C2, then two finer scans around the best point.
-            grid = np.linspace(*c2_bounds, 33)
-            for _refine in range(3):
+            # A coarse scan of log C2 (later passes: around the previous optimum), then
+            # finer scans around the best point, down to about 0.4 % in C2.
+            if robust_pass == 0:
+                grid = np.linspace(*c2_bounds, 25)
+            else:
+                g0 = np.log(c2)
+                grid = np.linspace(max(g0 - 0.3, c2_bounds[0]), min(g0 + 0.3, c2_bounds[1]), 13)
+            for _refine in range(2):
                 _, costs = solve(np.exp(grid), weight)
                 k = int(np.argmin(costs))
                 a = grid[max(k - 1, 0)]
                 b = grid[min(k + 1, grid.size - 1)]
-                grid = np.linspace(a, b, 21)
-            _, costs = solve(np.exp(grid), weight)
-            c2 = float(np.exp(grid[int(np.argmin(costs))]))
-            lin = solve(np.array([c2]), weight)[0][0]
+                grid = np.linspace(a, b, 15)
+            params, costs = solve(np.exp(grid), weight)
+            k = int(np.argmin(costs))
+            c2 = float(np.exp(grid[k]))
+            lin = params[k]
         else:
             c2 = None
             lin = solve(None, weight)[0][0]
