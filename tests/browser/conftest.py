@@ -48,20 +48,46 @@ def pytest_collection_modifyitems(config, items):
 
 @pytest.fixture(scope="session")
 def app_url(tmp_path_factory):
-    """Start the dashboard on a free port with a fresh demo library; yield its URL."""
+    """Start the dashboard on a free port with a fresh demo library; yield (URL, library).
+
+    The server boots while the demo library is loaded (it opens the library only when
+    the first browser session runs the script).
+    """
     db = tmp_path_factory.mktemp("browser") / "library.sqlite"
     env = {**os.environ, "QUIETGRADE_DB": str(db)}
-    subprocess.run([sys.executable, "-m", "engine", "demo"], cwd=ROOT, env=env, check=True,
-                   capture_output=True)
     port = _free_port()
     proc = subprocess.Popen(
         [
-            sys.executable, "-m", "streamlit", "run", "dashboard/app.py",
-            "--server.address", "127.0.0.1", "--server.port", str(port),
-            "--server.headless", "true", "--browser.gatherUsageStats", "false",
+            sys.executable,
+            "-m",
+            "streamlit",
+            "run",
+            "dashboard/app.py",
+            "--server.address",
+            "127.0.0.1",
+            "--server.port",
+            str(port),
+            "--server.headless",
+            "true",
+            "--browser.gatherUsageStats",
+            "false",
         ],
-        cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+        cwd=ROOT,
+        env=env,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
     )
+    try:
+        subprocess.run(
+            [sys.executable, "-m", "engine", "demo"],
+            cwd=ROOT,
+            env=env,
+            check=True,
+            capture_output=True,
+        )
+    except subprocess.CalledProcessError as exc:
+        proc.kill()
+        raise RuntimeError(f"loading the demo library failed: {exc.stderr.decode()}") from None
     url = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
@@ -92,11 +118,21 @@ def browser():
         b.close()
 
 
-@pytest.fixture
-def page(browser):
+@pytest.fixture(scope="session")
+def context(browser):
+    """One browser context for the run: its cache keeps the large chart bundle warm.
+
+    Every page opened in it is a new Streamlit session with the default case.
+    """
     SHOTS.mkdir(exist_ok=True)
-    context = browser.new_context(viewport={"width": 1280, "height": 900}, accept_downloads=True)
+    ctx = browser.new_context(viewport={"width": 1280, "height": 900}, accept_downloads=True)
+    yield ctx
+    ctx.close()
+
+
+@pytest.fixture
+def page(context):
     pg = context.new_page()
     pg.set_default_timeout(60_000)
     yield pg
-    context.close()
+    pg.close()
