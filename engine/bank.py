@@ -20,6 +20,17 @@ _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
 CORRECTION_STEP = 1.0  # K
 
 
+def _gap_array(gap_lists) -> np.ndarray | None:
+    width = max((len(g) for g in gap_lists), default=0)
+    if width == 0:
+        return None
+    out = np.full((len(gap_lists), width, 2), np.nan)
+    for k, gaps in enumerate(gap_lists):
+        for j, (lo, hi) in enumerate(gaps):
+            out[k, j] = lo, hi
+    return out
+
+
 @dataclass
 class CurveBank:
     """Stacked master curves of ``ids`` (in that order). Moduli in each grade's own mode."""
@@ -43,6 +54,7 @@ class CurveBank:
     t_lo: np.ndarray  # measured temperatures [degC]
     t_hi: np.ndarray
     step: float = TABLE_STEP
+    gaps: np.ndarray | None = None  # (grades, k, 2) uncovered log10 fR intervals, NaN padded
     correction: np.ndarray | None = None  # (grades, 1 K nodes): measured minus law log aT
     n_correction: np.ndarray | None = None
 
@@ -89,6 +101,7 @@ class CurveBank:
             vertical=np.array([curves[i].vertical_shift for i in ids]),
             fr_lo=np.array([curves[i].log_fr_range[0] for i in ids]),
             fr_hi=np.array([curves[i].log_fr_range[1] for i in ids]),
+            gaps=_gap_array([curves[i].gaps for i in ids]),
             t_lo=t_lo,
             t_hi=t_hi,
             correction=corr,
@@ -211,6 +224,10 @@ class CurveBank:
             loss = None if loss is None else loss * scale
         single = self.kind[g] == 0
         extrap = (log_fr < self.fr_lo[g] - 1e-9) | (log_fr > self.fr_hi[g] + 1e-9)
+        if self.gaps is not None:
+            for j in range(self.gaps.shape[1]):
+                g_lo, g_hi = self.gaps[g, j, 0], self.gaps[g, j, 1]
+                extrap |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN padding compares False
         extrap |= np.where(
             single,
             np.abs(t - self.reference[g]) > TOLERANCE_C,

@@ -26,6 +26,8 @@ SPLIT_METHODS = ("storage_onset", "loss_modulus_peak", "loss_factor_peak")
 GLASSY_MODULUS = {"tensile": 300e6, "shear": 100e6}  # [Pa], common practice
 DEFAULT_REFERENCE_FALLBACK_C = 20.0
 PRONY_PER_DECADE = 2.0
+PRONY_SMOOTHING = 0.3  # light second-difference penalty on the spectrum
+GAP_DECADES = 1.0  # an empty stretch of reduced frequency wider than this is a gap
 TABLE_STEP = 0.05  # decades, spacing of the tabulated master curve for batch ranking
 FINE_TABLE_STEP = 0.01  # decades, spacing used by MasterCurve.evaluate
 TABLE_MARGIN = 6.0  # decades tabulated beyond the covered range
@@ -67,6 +69,7 @@ class MasterCurve:
     regions: list[dict] = field(default_factory=list)
     quality: dict = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    gaps: list = field(default_factory=list)  # uncovered log10 fR intervals inside the range
     _tables: dict = field(default_factory=dict, repr=False, compare=False)
 
     # -- evaluation -----------------------------------------------------------------
@@ -102,6 +105,8 @@ class MasterCurve:
         t = np.asarray(temperature, dtype=float)
         lo, hi = self.log_fr_range
         out = (log_reduced_frequency < lo - 1e-9) | (log_reduced_frequency > hi + 1e-9)
+        for g_lo, g_hi in self.gaps:
+            out = out | ((log_reduced_frequency > g_lo) & (log_reduced_frequency < g_hi))
         if self.single_isotherm():
             return out | (np.abs(t - self.reference_C) > TOLERANCE_C)
         t_lo, t_hi = self.temperature_range
@@ -167,6 +172,7 @@ class MasterCurve:
             "shift": self.shift.to_dict(),
             "prony": self.prony.to_dict(),
             "log_fr_range": list(self.log_fr_range),
+            "gaps": [list(g) for g in self.gaps],
             "temperature_range": list(self.temperature_range),
             "frequency_range": list(self.frequency_range),
             "vertical_shift": self.vertical_shift,
@@ -195,6 +201,7 @@ class MasterCurve:
             shift=ShiftResult.from_dict(data["shift"]),
             prony=PronySeries.from_dict(data["prony"]),
             log_fr_range=tuple(data["log_fr_range"]),
+            gaps=[tuple(g) for g in data.get("gaps", [])],
             temperature_range=tuple(data["temperature_range"]),
             frequency_range=tuple(data["frequency_range"]),
             vertical_shift=data["vertical_shift"],
@@ -396,7 +403,11 @@ def build_master_curve(
     loss = storage * points[:, 3]
     omega = 2.0 * np.pi * 10.0**log_fr
     prony, report = fit_prony(
-        omega, storage, np.maximum(loss, storage * 1e-6), per_decade=PRONY_PER_DECADE
+        omega,
+        storage,
+        np.maximum(loss, storage * 1e-6),
+        per_decade=PRONY_PER_DECADE,
+        smoothing=PRONY_SMOOTHING,
     )
 
     # Quality: residual per isotherm against the spectrum, at the data shifts.
@@ -443,6 +454,17 @@ def build_master_curve(
             "be thermorheologically simple; treat superposed values with care"
         )
 
+    # Stretches of reduced frequency the shifted data leave empty (a non-overlapping
+    # pair): values there come from the spectrum alone and are flagged like extrapolation.
+    ordered = np.sort(log_fr)
+    jumps = np.flatnonzero(np.diff(ordered) > GAP_DECADES)
+    gaps = [(float(ordered[j]), float(ordered[j + 1])) for j in jumps]
+    for g_lo, g_hi in gaps:
+        notes.append(
+            f"no data between reduced frequencies {10**g_lo:.3g} and {10**g_hi:.3g} Hz: "
+            "values there are flagged as extrapolated"
+        )
+
     secondary = None
     region_list: list[dict] = []
     if t_curve.size >= 3:
@@ -459,6 +481,7 @@ def build_master_curve(
         shift=shift,
         prony=prony,
         log_fr_range=(float(log_fr.min()), float(log_fr.max())),
+        gaps=gaps,
         temperature_range=(float(temps.min()), float(temps.max())),
         frequency_range=(float(points[:, 1].min()), float(points[:, 1].max())),
         vertical_shift=vertical_shift,

@@ -398,3 +398,19 @@ def test_explicit_reference_temperature(curve):
 def test_too_few_points_is_a_fit_error(points):
     with pytest.raises(FitError, match="at least two measured points"):
         build_master_curve(points, "tensile")
+
+
+def test_gap_in_reduced_frequency_is_flagged():
+    # A 25 K gap above Tg leaves reduced frequencies with no data (common practice: values
+    # there come from the spectrum alone and are shown as extrapolated).
+    temps = np.array([-20.0, -15.0, -10.0, 15.0, 20.0, 25.0, 30.0, 35.0, 40.0])
+    curve = build_master_curve(synthetic.sweep(temperatures=temps), "tensile", reference_C=20.0)
+    assert curve.gaps, "the empty stretch between -10 and 15 degC should be a gap"
+    g_lo, g_hi = curve.gaps[0]
+    middle = 10.0 ** (0.5 * (g_lo + g_hi))
+    props = curve.evaluate(20.0, middle)
+    assert bool(props.extrapolated)
+    assert not bool(curve.evaluate(20.0, 10.0 ** (g_hi + 0.5)).extrapolated)
+    assert any("no data between reduced frequencies" in n for n in curve.notes)
+    again = MasterCurve.from_dict(curve.to_dict())
+    assert again.gaps == curve.gaps
