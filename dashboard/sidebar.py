@@ -329,7 +329,7 @@ def render() -> tuple[Criteria | None, str | None]:
         )
         with st.expander("Operating window", expanded=True):
             _window()
-        with st.expander("Limits", expanded=False):
+        with st.expander("Must meet", expanded=False):
             _limits()
         with st.expander("Merit indices", expanded=False):
             _indices()

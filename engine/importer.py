@@ -416,6 +416,16 @@ def parse_sweeps(table: RawTable, known_ids: set[str]) -> SweepData:
         eta = loss / storage
     points = np.column_stack([temperature, frequency, storage, eta])
     codes, uniques = pd.factorize(ids)
+    counts = np.bincount(codes, minlength=len(uniques))
+    if (counts < 2).any():
+        k = int(np.argmax(counts < 2))
+        raise InputError(
+            f"grade '{uniques[k]}' has a single measured point; a data set needs at least "
+            "two (a sweep over frequency or temperature)",
+            file=f,
+            row=int(np.argmax(codes == k)) + 2,
+            column=cols["material"][0],
+        )
     by_material = {}
     for k, mid in enumerate(uniques):
         sel = points[codes == k]

@@ -22,6 +22,7 @@ SHAPES = ("disc", "square")
 STATIC_LOAD_TIME_S = 10.0  # time over which the static load is applied (common practice)
 DEFAULT_SERVICE_LIFE_H = 1000.0
 DEFAULT_SIZING_TEMP_C = 23.0  # laboratory standard atmosphere, ISO 23529
+SLENDER_SHAPE_FACTOR = 0.5  # below this a compression pad may buckle (common practice)
 FALLBACK_K_FACTOR = 0.73  # Gent & Lindley table at 50 Shore A, used when hardness is unknown
 
 
@@ -302,6 +303,12 @@ def check_mounts(
             f"long-term sag after {design.service_life_h:g} h at {t_hot:g} degC extrapolates "
             "the master curve"
         )
+    if design.layout == "compression":
+        for k in np.flatnonzero(s_factor < SLENDER_SHAPE_FACTOR):
+            notes.setdefault(ids[k], []).append(
+                f"shape factor {s_factor[k]:.2f}: a tall, slender pad; check it against "
+                "buckling or use a wider, thinner pad"
+            )
     for k in np.flatnonzero(~ok.all(axis=1)):
         notes.setdefault(ids[k], []).append("natural frequency not found at some temperatures")
     limit = (

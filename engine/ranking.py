@@ -532,9 +532,10 @@ def rank(
             )
             strain = max(float(np.nanmax(mres.static_strain[k])), float(mres.sag_strain[k]))
             if not strain <= limit:
-                fails.append(
-                    Failure("static strain incl. long-term sag", _fmt(strain), f"<= {limit:g}")
-                )
+                needs = f"<= {limit:g}"
+                if strain > 1.0:
+                    needs += "; above 1 the pad cannot carry the load at all"
+                fails.append(Failure("static strain incl. long-term sag", _fmt(strain), needs))
             if not con.allow_extrapolation and mres.extrapolated[k].any():
                 if not any(f.constraint == "extrapolation" for f in fails):
                     fails.append(

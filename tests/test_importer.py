@@ -271,3 +271,13 @@ def test_large_import_is_vectorised(tmp_path, library):
             [write(tmp_path, "c.csv", CATALOG)],
             [write(tmp_path, "s.csv", "\n".join(lines))],
         )
+
+
+def test_single_point_data_set_is_refused(tmp_path, library):
+    # A data set of one point cannot be fitted; refusing it keeps the richer one in use.
+    import_files(library, [write(tmp_path, "cat.csv", CATALOG)])
+    before = snapshot(library)
+    sw = write(tmp_path, "one.csv", HEADER + "G1,20,1,5,0.1\n")
+    with pytest.raises(InputError, match=r"one\.csv, row 2, column 'material': grade 'G1' has a"):
+        import_files(library, [], [sw])
+    assert snapshot(library) == before
