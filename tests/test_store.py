@@ -235,13 +235,26 @@ def test_fit_of_unknown_grade_is_refused(library):
 
 def test_fit_error_is_cached_and_reported(tmp_path, library):
     load_grades(library, tmp_path, ("G1",), temperatures=np.array([20.0]))
-    # One point only: write it by hand.
-    text = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"
+    # One point only: the importer refuses such a data set, so write it to the store by
+    # hand, as an older library or another tool might have.
     catalog = tmp_path / "cat2.csv"
     synthetic.write_catalog(catalog, ids=("G2",))
-    sweep = tmp_path / "one.csv"
-    sweep.write_text(text + "G2,20,1,5,0.1\n")
-    import_files(library, [catalog], [sweep])
+    import_files(library, [catalog])
+    point = np.array([[20.0, 1.0, 5e6, 0.1]])
+    library.write_import(
+        [
+            {
+                "key": "k",
+                "file_name": "one.csv",
+                "sha256": "0" * 64,
+                "size_bytes": 1,
+                "rows": 1,
+                "kind": "sweep",
+            }
+        ],
+        [],
+        [{"material_id": "G2", "file_key": "k", "data_hash": "1" * 64, "points": point}],
+    )
     curves, errors = fit_library(library, processes=1)
     assert list(curves) == ["G1"] and "at least two measured points" in errors["G2"]
     dataset, _ = library.latest_points("G2")
