@@ -193,6 +193,27 @@ def _checked_catalog_changes(material_id: str, changes: dict, old: dict) -> dict
     return out
 
 
+def _dataset_query(*extra):
+    """Live data sets with the import they came from, oldest first per grade."""
+    d, i = datasets_table, imports_table
+    return (
+        sa.select(
+            d.c.dataset_id,
+            d.c.material_id,
+            d.c.data_hash,
+            d.c.n_points,
+            d.c.created_at,
+            i.c.file_name,
+            i.c.sha256,
+            i.c.imported_at,
+            *extra,
+        )
+        .join(i, d.c.import_id == i.c.import_id)
+        .where(d.c.deleted_at.is_(None))
+        .order_by(d.c.material_id, d.c.dataset_id)
+    )
+
+
 @dataclass
 class Material:
     """One catalog row. Units: density [kg/m3], hardness [Shore A], service [degC]."""
@@ -334,22 +355,8 @@ class Library:
             )
 
     def datasets(self, material_id: str | None = None) -> list[DataSet]:
-        d, i = datasets_table, imports_table
-        query = (
-            sa.select(
-                d.c.dataset_id,
-                d.c.material_id,
-                d.c.data_hash,
-                d.c.n_points,
-                d.c.created_at,
-                i.c.file_name,
-                i.c.sha256,
-                i.c.imported_at,
-            )
-            .join(i, d.c.import_id == i.c.import_id)
-            .where(d.c.deleted_at.is_(None))
-            .order_by(d.c.material_id, d.c.dataset_id)
-        )
+        d = datasets_table
+        query = _dataset_query()
         if material_id is not None:
             query = query.where(d.c.material_id == material_id)
         with self.engine.connect() as conn:
@@ -616,23 +623,7 @@ class Library:
 
     def all_latest_points(self) -> dict[str, tuple[DataSet, np.ndarray]]:
         """Newest data set of every grade that has one, in one query."""
-        d, i = datasets_table, imports_table
-        query = (
-            sa.select(
-                d.c.dataset_id,
-                d.c.material_id,
-                d.c.data_hash,
-                d.c.n_points,
-                d.c.created_at,
-                i.c.file_name,
-                i.c.sha256,
-                i.c.imported_at,
-                d.c.points,
-            )
-            .join(i, d.c.import_id == i.c.import_id)
-            .where(d.c.deleted_at.is_(None))
-            .order_by(d.c.material_id, d.c.dataset_id)
-        )
+        query = _dataset_query(datasets_table.c.points)
         out = {}
         with self.engine.connect() as conn:
             for r in conn.execute(query):
