@@ -141,9 +141,7 @@ def map_figure(
     grades = {g.id: g for g in result.grades}
     temps = np.asarray(props.path_temperatures, dtype=float)
     storage = np.asarray(props.path_storage, dtype=float) / 1e6
-    loss = np.asarray(props.path_loss, dtype=float) / 1e6
-    with np.errstate(divide="ignore", invalid="ignore"):
-        eta = loss / storage
+    eta = np.asarray(props.path_loss_factor, dtype=float)
     shown = [k for k, gid in enumerate(props.ids) if show_excluded or grades[gid].passed]
     xa, xb = _log_span(
         np.concatenate([eta[shown].ravel(), [min_loss_factor] if min_loss_factor else []]), 0.15

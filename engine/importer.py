@@ -107,6 +107,7 @@ def read_table(source: str | Path | bytes, name: str | None = None) -> RawTable:
             raise InputError(f"cannot read this XLSX workbook ({exc})", file=file) from None
         frame = frame.fillna("")
         headers = [str(h) for h in frame.columns]
+        _check_duplicate_headers(headers, file)
     else:
         text = _decode(raw, file)
         delim = _delimiter(text)
@@ -162,7 +163,6 @@ def read_table(source: str | Path | bytes, name: str | None = None) -> RawTable:
     if frame.shape[0] == 0:
         raise InputError("the file has a header but no data rows", file=file)
     frame = frame.apply(lambda col: col.astype(str).str.strip())
-    _check_duplicate_headers(headers, file)
     return RawTable(file, headers, frame, sha, len(raw))
 
 

@@ -230,15 +230,6 @@ def check_mounts(
         side = np.sqrt(area)
         return mount.shape_factor_block(side, side, h)
 
-    def layout_modulus(storage, area):
-        """Layout modulus (G' or Ec) from the grade's own modulus, rows = grades."""
-        base = storage * to_layout.reshape((-1,) + (1,) * (storage.ndim - 1))
-        if design.layout == "shear":
-            return base
-        s = shape_factor(area).reshape((-1,) + (1,) * (storage.ndim - 1))
-        kk = k_fac.reshape((-1,) + (1,) * (storage.ndim - 1))
-        return mount.compression_modulus(base, s, kk)
-
     area = np.full(n, design.area_mm2 * 1e-6)
     if design.target_fn_Hz is not None:
         ft = design.target_fn_Hz
@@ -252,24 +243,28 @@ def check_mounts(
         else:
             area = mount.size_compression_pad_area(ft, m, h, own * to_layout, k_fac, design.shape)
     s_factor = shape_factor(area)
-    a_col = area[:, None]
+    # The layout modulus (G' = own x to_layout, or Ec = E'(1 + 2kS^2)) is the grade's own
+    # modulus times a constant per grade, so the pad stiffness is too: k' = M A / h.
+    if design.layout == "shear":
+        layout_factor = to_layout
+    else:
+        layout_factor = mount.compression_modulus(to_layout, s_factor, k_fac)
+    per_modulus = layout_factor * area / h
+
+    def pad_stiffness(storage):
+        """Storage stiffness [N/m] of one pad from the grade's own modulus, rows = grades."""
+        return storage * per_modulus.reshape((-1,) + (1,) * (storage.ndim - 1))
+
     t_rows = np.broadcast_to(t[None, :], (n, t.size))
     shift_rows = bank.shift_rows(t_rows)  # log10 aT once, for every evaluation below
     extrap = np.zeros((n, t.size), dtype=bool)
-    # Pad stiffness per unit modulus of the grade's own mode, (grades, 1).
-    if design.layout == "shear":
-        per_modulus = (to_layout * area / h)[:, None]
-    else:
-        per_modulus = None
 
     def stiffness(freq):
         # engine.mount.natural_frequency always passes the full (grades, T) shape.
         storage, _, _ = bank.evaluate_rows(
             t_rows, np.asarray(freq, dtype=float), loss=False, shift=shift_rows
         )
-        if per_modulus is not None:
-            return storage * per_modulus
-        return layout_modulus(storage, area) * a_col / h
+        return pad_stiffness(storage)
 
     masses = np.full((n, t.size), m)
     nat = mount.natural_frequency(stiffness, masses)
@@ -279,24 +274,24 @@ def check_mounts(
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
     eta_fn = np.where(ok, ls_fn / st_fn, np.nan)
     extrap |= x_fn
-    k_fn = layout_modulus(st_fn, area) * a_col / h
+    k_fn = pad_stiffness(st_fn)
     amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
     dist = np.asarray(design.disturbance_Hz, dtype=float)
     f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
     st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
     extrap |= x_d.any(axis=2)
-    k_d = layout_modulus(st_d, area) * area[:, None, None] / h
+    k_d = pad_stiffness(st_d)
     trans = mount.transmissibility(f3, k_d, ls_d / st_d, m)
 
     f_static = 1.0 / (2.0 * np.pi * STATIC_LOAD_TIME_S)
     st_s, _, x_s = bank.evaluate_rows(t_rows, f_static, loss=False, shift=shift_rows)
     extrap |= x_s
-    k_static = layout_modulus(st_s, area) * a_col / h
+    k_static = pad_stiffness(st_s)
     deflection = mount.static_deflection(m, k_static)
     t_hot = float(t.max())
     f_life = 1.0 / (2.0 * np.pi * design.service_life_h * 3600.0)
     st_l, _, x_l = bank.evaluate_rows(np.full((n, 1), t_hot), np.full((n, 1), f_life))
-    k_life = layout_modulus(st_l, area) * a_col / h
+    k_life = pad_stiffness(st_l)
     sag = mount.static_deflection(m, k_life)[:, 0]
     for k in np.flatnonzero(x_l[:, 0]):
         notes.setdefault(ids[k], []).append(

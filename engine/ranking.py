@@ -423,13 +423,12 @@ def rank(
     # -- index values per grade -------------------------------------------------------
     values: dict[str, np.ndarray] = {}
     has_duty = bool(window.duty_points)
-    q_grid = _quantities(props, mats, duty=False)
-    q_duty = _quantities(props, mats, duty=True) if has_duty else None
+    # With duty points the point indices are taken at the duty points, else on the grid.
+    quantities = _quantities(props, mats, duty=has_duty)
     for c in criteria.indices:
         spec = specs[c.name]
         if spec.kind == "point":
-            # With duty points the point indices are taken at the duty points.
-            q = q_duty if has_duty else q_grid
+            q = quantities
             with np.errstate(all="ignore"):
                 v = np.broadcast_to(np.asarray(spec.point(q), dtype=float), q["loss_factor"].shape)
             values[c.name] = aggregate(v, c.aggregate, spec.higher_is_better, props.duty_share)
@@ -438,8 +437,9 @@ def rank(
             drift = e.max(axis=1) / e.min(axis=1)
             values[c.name] = drift if c.name == "stiffness_drift" else np.sqrt(drift)
         elif c.name == "damping_span":
-            eta_path = props.path_loss / props.path_storage
-            values[c.name] = damping_span(props.path_temperatures, eta_path, criteria.eta_threshold)
+            values[c.name] = damping_span(
+                props.path_temperatures, props.path_loss_factor, criteria.eta_threshold
+            )
         else:  # pragma: no cover - every window index is handled above
             raise CriteriaError(f"index '{c.name}' has no evaluation")
     extrap_any = props.extrapolated.reshape(n, -1).any(axis=1)
@@ -454,7 +454,7 @@ def rank(
     # -- constraints -----------------------------------------------------------------
     con = criteria.constraints
     lo_t, hi_t = window.temp_range
-    eta_worst = (props.loss / props.storage).reshape(n, -1).min(axis=1)
+    eta_worst = props.loss_factor.reshape(n, -1).min(axis=1)
     results: list[GradeResult] = []
     for k, m in enumerate(mats):
         fails: list[Failure] = []
