@@ -69,7 +69,11 @@ def tidy_log_axes(fig: go.Figure) -> go.Figure:
                 minor={"ticks": "outside", "ticklen": 3, "dtick": "D1", "showgrid": False},
             )
         elif span >= 0.7:
-            axis.update(dtick="D2")
+            # 1-2-5 ticks with their full values (Plotly's "D2" labels 0.5 as "5").
+            decades = range(int(np.floor(lo)) - 1, int(np.ceil(hi)) + 1)
+            ticks = [m * 10.0**d for d in decades for m in (1, 2, 5)]
+            ticks = [v for v in ticks if lo - 1e-9 <= np.log10(v) <= hi + 1e-9]
+            axis.update(tickvals=ticks, ticktext=[f"{v:g}" for v in ticks])
     return fig
 
 
