@@ -4,6 +4,9 @@ Each grade's master curve is tabulated on a uniform log10 reduced-frequency grid
 (:meth:`engine.mastercurve.MasterCurve.table`) and its shift law is kept as parameter
 arrays, so that E' and E'' of all grades at all window points come from array
 arithmetic: shift law -> reduced frequency -> linear interpolation in log-log.
+
+Large evaluations are cut into blocks of grades shared among threads
+(:mod:`engine.blocks`).
 """
 
 from __future__ import annotations
@@ -12,12 +15,23 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from engine.blocks import in_blocks, per_block
 from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve
 from engine.shift import GAS_CONSTANT, LN10
 from engine.units import c_to_k
 
 _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
 CORRECTION_STEP = 1.0  # K
+
+
+def _padded(rows: list[np.ndarray], width: int) -> np.ndarray:
+    """Rows of different lengths (each at least one value) stacked into ``width``
+    columns, each padded with its last value."""
+    out = np.empty((len(rows), width))
+    for k, r in enumerate(rows):
+        out[k, : r.size] = r
+        out[k, r.size :] = r[-1]
+    return out
 
 
 def _gap_array(gap_lists) -> np.ndarray | None:
@@ -61,52 +75,88 @@ class CurveBank:
     @classmethod
     def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
         ids = list(curves)
-        tables = [curves[i].table() for i in ids]
-        width = max((t[2].size for t in tables), default=1)
         n = len(ids)
-        ls = np.empty((n, width))
-        ll = np.empty((n, width))
-        for k, (_, _, s, l) in enumerate(tables):
-            ls[k, : s.size], ls[k, s.size :] = s, s[-1]
-            ll[k, : l.size], ll[k, l.size :] = l, l[-1]
-        laws = [curves[i].shift.law for i in ids]
-        # Measured-minus-law shift corrections on a 1 K grid over each measured range
-        # (MasterCurve.log_shift), held at the ends.
-        t_lo = np.array([curves[i].temperature_range[0] for i in ids], dtype=float)
-        t_hi = np.array([curves[i].temperature_range[1] for i in ids], dtype=float)
-        n_corr = np.maximum(np.ceil(t_hi - t_lo).astype(int) + 1, 2) if n else np.zeros(0, int)
-        corr = np.zeros((n, int(n_corr.max()) if n else 2))
-        for k, i in enumerate(ids):
-            grid = t_lo[k] + np.arange(n_corr[k]) * CORRECTION_STEP
-            values = curves[i].shift_correction(grid)
-            corr[k, : values.size], corr[k, values.size :] = values, values[-1]
-
-        def arr(values):
-            return np.array([np.nan if v is None else v for v in values], dtype=float)
-
-        return cls(
+        rows = []  # one pass over the curves; the arrays are built column by column
+        for i in ids:
+            c = curves[i]
+            start, _, ls, ll = c.table()
+            law = c.shift.law
+            scalars = (
+                start,
+                ls.size,
+                _KIND[law.kind],
+                law.reference_C,
+                law.wlf_c1,
+                law.wlf_c2,
+                law.wlf_reference_C,
+                law.activation_J_per_mol,
+                law.split_C,
+                c.vertical_shift,
+                *c.log_fr_range,
+                *c.temperature_range,
+            )
+            rows.append((scalars, ls, ll, c.mode, c.gaps, c.shift.temperatures, c.shift.log_shift))
+        columns = zip(*rows, strict=True) if rows else ([],) * 7
+        scalars, ls, ll, modes, gaps, temps, measured = columns
+        width = max((t.size for t in ls), default=2)
+        col = dict(enumerate(np.array(scalars, dtype=float).reshape(n, 14).T))  # None: NaN
+        bank = cls(
             ids=ids,
-            modes=np.array([curves[i].mode for i in ids]),
-            start=np.array([t[0] for t in tables], dtype=float),
-            log_storage=ls,
-            log_loss=ll,
-            n_nodes=np.array([t[2].size for t in tables]),
-            kind=np.array([_KIND[law.kind] for law in laws]),
-            reference=arr([law.reference_C for law in laws]),
-            c1=arr([law.wlf_c1 for law in laws]),
-            c2=arr([law.wlf_c2 for law in laws]),
-            wlf_reference=arr([law.wlf_reference_C for law in laws]),
-            activation=arr([law.activation_J_per_mol for law in laws]),
-            split=arr([law.split_C for law in laws]),
-            vertical=np.array([curves[i].vertical_shift for i in ids]),
-            fr_lo=np.array([curves[i].log_fr_range[0] for i in ids]),
-            fr_hi=np.array([curves[i].log_fr_range[1] for i in ids]),
-            gaps=_gap_array([curves[i].gaps for i in ids]),
-            t_lo=t_lo,
-            t_hi=t_hi,
-            correction=corr,
-            n_correction=n_corr,
+            modes=np.array(modes, dtype=str),
+            start=col[0],
+            log_storage=_padded(ls, width),
+            log_loss=_padded(ll, width),
+            n_nodes=col[1].astype(np.intp),
+            kind=col[2].astype(np.intp),
+            reference=col[3],
+            c1=col[4],
+            c2=col[5],
+            wlf_reference=col[6],
+            activation=col[7],
+            split=col[8],
+            vertical=col[9].astype(bool),
+            fr_lo=col[10],
+            fr_hi=col[11],
+            gaps=_gap_array(gaps),
+            t_lo=col[12],
+            t_hi=col[13],
         )
+        bank.correction, bank.n_correction = bank._corrections(temps, measured)
+        return bank
+
+    def _corrections(self, temps, measured):
+        """Measured minus law log10 aT of every grade on a 1 K grid over its measured
+        temperatures (as :meth:`MasterCurve.shift_correction`: linear between isotherms,
+        held at the ends). ``temps`` and ``measured`` hold each grade's isotherm
+        temperatures [degC] and measured log10 aT."""
+        n = len(temps)
+        n_corr = np.maximum(np.ceil(self.t_hi - self.t_lo).astype(np.intp) + 1, 2)
+        if n == 0:
+            return np.zeros((0, 2)), np.zeros(0, dtype=np.intp)
+        m = np.array([t.size for t in temps], dtype=np.intp)
+        corr = np.zeros((n, int(n_corr.max())))
+        has = np.flatnonzero(m >= 2)  # a single isotherm has no correction
+        if has.size == 0:
+            return corr, n_corr
+        kmax = int(m[has].max())
+        x = _padded([temps[k] for k in has], kmax)  # ascending [degC]
+        y = _padded([measured[k] for k in has], kmax)
+        g = has[:, None]
+        y = y - (self._raw_law(x, g) - self._raw_law(self.reference[g], g))
+        # Isotherms at or below each grid temperature t_lo + j: count isotherm k at
+        # node j >= ceil(x_k - t_lo), then sum along the row.
+        ncol = corr.shape[1]
+        valid = np.arange(kmax)[None, :] < m[has][:, None]
+        node = np.clip(np.ceil(x - self.t_lo[g]), 0, ncol).astype(np.intp)
+        rows = np.arange(has.size)[:, None]
+        counts = np.bincount((rows * (ncol + 1) + node)[valid], minlength=has.size * (ncol + 1))
+        below = np.cumsum(counts.reshape(has.size, ncol + 1)[:, :ncol], axis=1)
+        flat = np.clip(below - 1, 0, m[has][:, None] - 2) + rows * kmax
+        x0, x1 = np.take(x, flat), np.take(x, flat + 1)
+        q = self.t_lo[g] + np.arange(ncol)[None, :] * CORRECTION_STEP
+        w = np.clip((q - x0) / (x1 - x0), 0.0, 1.0)
+        corr[has] = np.take(y, flat) * (1.0 - w) + np.take(y, flat + 1) * w
+        return corr, n_corr
 
     def __len__(self) -> int:
         return len(self.ids)
@@ -142,10 +192,9 @@ class CurveBank:
         t = np.asarray(temperature, dtype=float)
         f = np.asarray(frequency, dtype=float)
         nd = max(t.ndim, f.ndim)
-        g = np.arange(len(self)).reshape((-1,) + (1,) * nd)
         t = t.reshape((1,) * (nd - t.ndim + 1) + t.shape)
         f = f.reshape((1,) * (nd - f.ndim + 1) + f.shape)
-        return self._evaluate(g, t, f, self.shift_at(g, t), loss)
+        return self._run(t, f, None, loss)
 
     def evaluate_rows(self, temperature, frequency, loss: bool = True, shift=None):
         """Like :meth:`evaluate`, but row k of the inputs belongs to grade k.
@@ -158,12 +207,43 @@ class CurveBank:
         if t.shape[:1] != (len(self),) and f.shape[:1] != (len(self),):
             raise ValueError(f"first axis must have one row per grade ({len(self)})")
         nd = max(t.ndim, f.ndim)
-        g = np.arange(len(self)).reshape((-1,) + (1,) * (nd - 1))
         t = t.reshape(t.shape + (1,) * (nd - t.ndim))
         f = f.reshape(f.shape + (1,) * (nd - f.ndim))
-        if shift is None:
-            shift = self.shift_at(g, t)
-        return self._evaluate(g, t, f, shift, loss)
+        return self._run(t, f, shift, loss)
+
+    def _run(self, t, f, shift, want_loss: bool):
+        """Evaluate in blocks of grades into preallocated results.
+
+        ``t``, ``f`` (and ``shift``) have a leading grade axis of length 1 (shared by
+        every grade) or ``len(self)`` (row k belongs to grade k).
+        """
+        n = len(self)
+        parts = [t.shape, f.shape] + ([] if shift is None else [np.shape(shift)])
+        shape = (n,) + np.broadcast_shapes(*(s[1:] for s in parts))
+        storage = np.empty(shape)
+        loss = np.empty(shape) if want_loss else None
+        extrap = np.empty(shape, dtype=bool)
+        points = int(np.prod(shape[1:], dtype=np.int64))
+
+        def rows(a, b, x):
+            return x[a:b] if x.shape[0] == n else x  # else shared by every grade
+
+        def work(a: int, b: int) -> None:
+            g = np.arange(a, b).reshape((-1,) + (1,) * (len(shape) - 1))
+            tb, fb = rows(a, b, t), rows(a, b, f)
+            sb = self.shift_at(g, tb) if shift is None else rows(a, b, np.asarray(shift))
+            self._evaluate_into(
+                g,
+                tb,
+                fb,
+                sb,
+                storage[a:b],
+                None if loss is None else loss[a:b],
+                extrap[a:b],
+            )
+
+        in_blocks(n, work, per_block(points))
+        return storage, loss, extrap
 
     def shift_rows(self, temperature) -> np.ndarray:
         """log10 aT where row k of ``temperature`` belongs to grade k."""
@@ -184,53 +264,70 @@ class CurveBank:
         rows = np.broadcast_to(g, i0.shape)
         return self.correction[rows, i0] * (1 - w) + self.correction[rows, i0 + 1] * w
 
-    def _flat(self):
-        """Tables flattened with their node-to-node differences, for one-gather lookups."""
-        cached = getattr(self, "_flat_cache", None)
-        if cached is None:
-            width = self.log_storage.shape[1]
-            ds = np.diff(self.log_storage, axis=1, append=self.log_storage[:, -1:])
-            dl = np.diff(self.log_loss, axis=1, append=self.log_loss[:, -1:])
-            # The last valid node continues with the slope of the one before it.
-            rows = np.arange(len(self))
-            last = np.maximum(self.n_nodes - 1, 1)
-            ds[rows, last] = ds[rows, last - 1]
-            dl[rows, last] = dl[rows, last - 1]
-            # Natural-log units so that one exp() turns a node value into a modulus.
-            cached = (
-                width,
-                self.log_storage.ravel() * LN10,
-                ds.ravel() * LN10,
-                self.log_loss.ravel() * LN10,
-                dl.ravel() * LN10,
-            )
-            self._flat_cache = cached
-        return cached
+    def _nodes(self, g, log_fr):
+        """Flat table index of the node below ``log_fr`` and the fraction beyond it.
 
-    def _evaluate(self, g, t, f, shift, want_loss=True):
-        width, ls_flat, ds_flat, ll_flat, dl_flat = self._flat()
+        Linear in log-log between nodes and beyond the ends (where a Prony series tends
+        to E'' ~ omega and ~ 1/omega with E' flat): the node index is held to the
+        grade's first and last segment, the fraction runs on below 0 and above 1.
+        """
+        width = self.log_storage.shape[1]
+        pos = log_fr - self.start[g]
+        pos *= 1.0 / self.step
+        i0 = np.floor(pos)
+        np.clip(i0, 0.0, np.maximum(self.n_nodes[g] - 2, 0), out=i0)
+        pos -= i0  # the fraction w
+        flat = i0.astype(np.intp)
+        flat += g * width
+        return flat, pos
+
+    @staticmethod
+    def _interpolate(table, flat, w, out=None):
+        """table[flat] + w (table[flat + 1] - table[flat]), into ``out``."""
+        low = np.take(table, flat, out=out)
+        high = np.take(table, flat + 1)
+        high -= low
+        high *= w
+        low += high
+        return low
+
+    def log_storage_at(self, g, log_reduced_frequency) -> np.ndarray:
+        """log10 of the reference-temperature storage modulus [Pa] of grades ``g`` at
+        ``log_reduced_frequency`` [log10 Hz] (broadcast; no vertical factor)."""
+        flat, w = self._nodes(np.asarray(g), np.asarray(log_reduced_frequency, dtype=float))
+        return self._interpolate(self.log_storage.ravel(), flat, w)
+
+    def _evaluate_into(self, g, t, f, shift, out_storage, out_loss, out_extrap) -> None:
         log_fr = np.log10(f) + shift
-        pos = (log_fr - self.start[g]) / self.step
-        # Linear in log-log between nodes and beyond the ends (where a Prony series tends
-        # to E'' ~ omega and ~ 1/omega with E' flat).
-        i0 = np.clip(np.floor(pos).astype(np.intp), 0, np.maximum(self.n_nodes[g] - 2, 0))
-        w = pos - i0
-        flat = g * width + i0
-        storage = np.exp(ls_flat[flat] + w * ds_flat[flat])
-        loss = np.exp(ll_flat[flat] + w * dl_flat[flat]) if want_loss else None
-        if self.vertical.any():
-            scale = np.where(self.vertical[g], c_to_k(t) / c_to_k(self.reference[g]), 1.0)
-            storage = storage * scale
-            loss = None if loss is None else loss * scale
-        single = self.kind[g] == 0
-        extrap = (log_fr < self.fr_lo[g] - 1e-9) | (log_fr > self.fr_hi[g] + 1e-9)
+        if log_fr.shape != out_storage.shape:
+            log_fr = np.broadcast_to(log_fr, out_storage.shape).copy()
+        # Extrapolated: outside the covered reduced frequencies, in a gap, or outside
+        # the measured temperatures (a single isotherm: away from its temperature).
+        np.less(log_fr, self.fr_lo[g] - 1e-9, out=out_extrap)
+        out_extrap |= log_fr > self.fr_hi[g] + 1e-9
         if self.gaps is not None:
             for j in range(self.gaps.shape[1]):
                 g_lo, g_hi = self.gaps[g, j, 0], self.gaps[g, j, 1]
-                extrap |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN padding compares False
-        extrap |= np.where(
-            single,
+                if not np.isnan(g_lo).all():
+                    out_extrap |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN pads compare False
+        out_extrap |= np.where(
+            self.kind[g] == 0,
             np.abs(t - self.reference[g]) > TOLERANCE_C,
             (t < self.t_lo[g] - TOLERANCE_C) | (t > self.t_hi[g] + TOLERANCE_C),
         )
-        return storage, loss, extrap
+        flat, w = self._nodes(g, log_fr)
+        for table, out in ((self.log_storage, out_storage), (self.log_loss, out_loss)):
+            if out is not None:
+                self._interpolate(table.ravel(), flat, w, out=out)
+                out *= LN10
+                np.exp(out, out=out)
+        if self.vertical[g].any():
+            scale = self.vertical_factor(g, t)
+            out_storage *= scale
+            if out_loss is not None:
+                out_loss *= scale
+
+    def vertical_factor(self, g, t):
+        """Modulus factor T / T0 of grades ``g`` with a vertical shift at ``t`` [degC]
+        (1 for the others), as MasterCurve."""
+        return np.where(self.vertical[g], c_to_k(t) / c_to_k(self.reference[g]), 1.0)

@@ -649,6 +649,92 @@ def natural_frequency(
     return NaturalFrequency(frequency=frequency, converged=converged)
 
 
+def natural_frequency_reduced(
+    log_storage_fn: Callable[[NDArray[np.float64], NDArray[np.intp]], ArrayLike],
+    log_shift: ArrayLike,
+    log_stiffness_per_modulus: ArrayLike,
+    mass: ArrayLike,
+    f_low: float = 1e-3,
+    f_high: float = 1e5,
+) -> NaturalFrequency:
+    """Natural frequency of mounts whose stiffness follows a master curve.
+
+    For a thermorheologically simple material the storage stiffness of a pad at
+    temperature T is ``k'(f) = K E'(f aT)``: a constant ``K`` of the pad geometry (and
+    layout) times the master curve ``E'`` at the reduced frequency. The root is sought
+    in the reduced frequency, where the master curve is the same for every temperature.
+
+    Parameters
+    ----------
+    log_storage_fn : callable
+        ``log_storage_fn(x, index) -> log10 E'(10**x)``: the master curve [log10 Pa] at
+        reduced frequencies ``x`` [log10 Hz] for the entries ``index`` (flat indices into
+        the broadcast shape of the other arguments); elementwise.
+    log_shift : array
+        log10 aT of each entry.
+    log_stiffness_per_modulus : array
+        log10 K [log10 m]: pad stiffness per unit modulus (A/h for a shear pad).
+    mass : array [kg]
+        Supported mass per mount.
+    f_low, f_high : float [Hz]
+        Search bracket in real frequency.
+
+    Returns
+    -------
+    NaturalFrequency
+        ``frequency`` [Hz] with the broadcast shape of the inputs, NaN where no root
+        lies in the bracket, and ``converged``.
+
+    Raises
+    ------
+    ValueError
+        If a mass is not positive or the bracket is not ``0 < f_low < f_high``.
+
+    Notes
+    -----
+    With ``x = log10 fn + log10 aT``, ``fn = (1 / 2 pi) sqrt(K E'(10**x) / m)`` becomes
+    ``x - log10 E'(10**x) / 2 = log10 aT + log10(K / m) / 2 - log10(2 pi)``, solved by
+    scipy's vectorised bracketing solver (Chandrupatla's method) on the bracket
+    ``[log10 f_low + log10 aT, log10 f_high + log10 aT]``. The left side grows with x
+    while ``d log E' / d log f < 2`` (any passive viscoelastic solid), so the root is
+    unique. The same equation as :func:`natural_frequency`, with the temperature moved
+    into the right-hand side.
+
+    References
+    ----------
+    Ferry, J. D. (1980). Viscoelastic Properties of Polymers, 3rd ed., ch. 11 (reduced
+    variables). Wiley.
+    Chandrupatla, T. R. (1997). Adv. Eng. Software 28, 145-149.
+    """
+    m = _positive("mass", mass, "kg")
+    low, high = _bracket(f_low, f_high)
+    shift = np.asarray(log_shift, dtype=float)
+    log_k = np.asarray(log_stiffness_per_modulus, dtype=float)
+    shape = np.broadcast_shapes(m.shape, shift.shape, log_k.shape)
+    shift = np.broadcast_to(shift, shape).ravel()
+    log_m = np.broadcast_to(np.log10(m), shape).ravel()
+    rhs = shift + 0.5 * (np.broadcast_to(log_k, shape).ravel() - log_m) - np.log10(_TWO_PI)
+    # An entry without a finite shift or stiffness has no root; it is solved as a
+    # placeholder and reported as not converged.
+    ok = np.isfinite(rhs)
+    shift = np.where(ok, shift, 0.0)
+    rhs = np.where(ok, rhs, 0.0)
+    index = np.arange(shift.size)
+
+    def residual(x, target, idx):
+        return x - 0.5 * np.asarray(log_storage_fn(x, idx), dtype=float) - target
+
+    result = elementwise.find_root(
+        residual,
+        (np.log10(low) + shift, np.log10(high) + shift),
+        args=(rhs, index),
+        tolerances={"xatol": 1e-12, "xrtol": 0.0},
+    )
+    converged = np.asarray(result.success, dtype=bool) & ok
+    frequency = np.where(converged, 10.0 ** (np.asarray(result.x) - shift), np.nan)
+    return NaturalFrequency(frequency=frequency.reshape(shape), converged=converged.reshape(shape))
+
+
 def natural_frequency_scalar(
     storage_stiffness_fn: Callable[[float], float],
     mass: float,

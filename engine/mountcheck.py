@@ -14,6 +14,7 @@ import numpy as np
 
 from engine import mount
 from engine.bank import CurveBank
+from engine.blocks import in_blocks, per_worker
 from engine.errors import CriteriaError, reject_unknown
 from engine.window import DEFAULT_POISSON
 
@@ -258,18 +259,23 @@ def check_mounts(
     t_rows = np.broadcast_to(t[None, :], (n, t.size))
     shift_rows = bank.shift_rows(t_rows)  # log10 aT once, for every evaluation below
     extrap = np.zeros((n, t.size), dtype=bool)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_k = np.log10(per_modulus[:, None] * bank.vertical_factor(np.arange(n)[:, None], t_rows))
+    fn = np.empty((n, t.size))
+    ok = np.empty((n, t.size), dtype=bool)
 
-    def stiffness(freq):
-        # engine.mount.natural_frequency always passes the full (grades, T) shape.
-        storage, _, _ = bank.evaluate_rows(
-            t_rows, np.asarray(freq, dtype=float), loss=False, shift=shift_rows
+    def solve(a: int, b: int) -> None:
+        # One solver call per block of grades; entry (k, j) belongs to grade a + k.
+        grade_of = np.repeat(np.arange(a, b), t.size)
+        nat = mount.natural_frequency_reduced(
+            lambda x, idx: bank.log_storage_at(grade_of[idx], x),
+            shift_rows[a:b],
+            log_k[a:b],
+            m,
         )
-        return pad_stiffness(storage)
+        fn[a:b], ok[a:b] = nat
 
-    masses = np.full((n, t.size), m)
-    nat = mount.natural_frequency(stiffness, masses)
-    fn = nat.frequency
-    ok = nat.converged
+    in_blocks(n, solve, per_worker(n))
     fn_safe = np.where(ok, fn, 1.0)
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
     eta_fn = np.where(ok, ls_fn / st_fn, np.nan)

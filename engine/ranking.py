@@ -11,9 +11,12 @@ display the score is mapped to 0-100 over the passing grades.
 from __future__ import annotations
 
 import datetime as _dt
+import gc
 import json
 import math
 import tomllib
+from collections.abc import Mapping
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -21,6 +24,7 @@ import numpy as np
 
 from engine import __version__
 from engine.bank import CurveBank
+from engine.blocks import in_blocks, per_block
 from engine.errors import CriteriaError, reject_unknown
 from engine.indices import (
     AGGREGATES,
@@ -353,40 +357,230 @@ class RankResult:
         return [g for g in self.grades if not g.passed]
 
 
-def _quantities(props: WindowProps, materials: list[Material], duty: bool) -> dict:
-    """Named quantities of engine.indices at the window grid or the duty points.
+class _Quantities(Mapping):
+    """Named quantities of engine.indices for the grades ``rows`` at the window grid or
+    the duty points, each computed when an index first asks for it.
 
-    Arrays have shape (grades, points); moduli in MPa (see engine.indices).
+    Arrays have shape (grades, points), catalog columns (grades, 1); moduli in MPa (see
+    engine.indices).
     """
-    g = len(props.ids)
-    to_shear = (props.shear_storage[:, 0, 0] / props.storage[:, 0, 0])[:, None]
-    if duty:
-        storage, loss = props.duty_storage, props.duty_loss
-        temps = np.broadcast_to(props.duty_temperatures, storage.shape)
-        freqs = np.broadcast_to(props.duty_frequencies, storage.shape)
-    else:
-        storage = props.storage.reshape(g, -1)
-        loss = props.loss.reshape(g, -1)
-        tt, ff = np.meshgrid(props.temperatures, props.frequencies, indexing="ij")
-        temps = np.broadcast_to(tt.ravel(), storage.shape)
-        freqs = np.broadcast_to(ff.ravel(), storage.shape)
 
-    def column(name):
-        return np.array(
-            [np.nan if getattr(m, name) is None else float(getattr(m, name)) for m in materials]
-        )[:, None]
+    def __init__(self, props: WindowProps, catalog: dict[str, np.ndarray], duty: bool, rows):
+        if duty:
+            storage, loss = props.duty_storage[rows], props.duty_loss[rows]
+            temps, freqs = props.duty_temperatures, props.duty_frequencies
+        else:
+            storage, loss = props.storage[rows], props.loss[rows]
+            storage, loss = storage.reshape(storage.shape[0], -1), loss.reshape(loss.shape[0], -1)
+            tt, ff = np.meshgrid(props.temperatures, props.frequencies, indexing="ij")
+            temps, freqs = tt.ravel(), ff.ravel()
+        self.shape = storage.shape
+        to_shear = props.to_shear[rows, None]
+        self._make = {
+            "loss_factor": lambda: loss / storage,
+            "storage_modulus": lambda: storage * 1e-6,
+            "loss_modulus": lambda: loss * 1e-6,
+            "shear_modulus": lambda: storage * (to_shear * 1e-6),
+            "density": lambda: catalog["density"][rows, None],
+            "price": lambda: catalog["price"][rows, None],
+            "hardness": lambda: catalog["hardness"][rows, None],
+            "temperature": lambda: np.broadcast_to(temps, self.shape),
+            "frequency": lambda: np.broadcast_to(freqs, self.shape),
+        }
+        self._made: dict[str, np.ndarray] = {}
 
-    return {
-        "loss_factor": loss / storage,
-        "storage_modulus": storage / 1e6,
-        "loss_modulus": loss / 1e6,
-        "shear_modulus": storage * to_shear / 1e6,
-        "density": column("density"),
-        "price": column("price"),
-        "hardness": column("hardness"),
-        "temperature": temps,
-        "frequency": freqs,
-    }
+    def __getitem__(self, name: str) -> np.ndarray:
+        if name not in self._made:
+            self._made[name] = self._make[name]()
+        return self._made[name]
+
+    def __iter__(self):
+        return iter(self._make)
+
+    def __len__(self) -> int:
+        return len(self._make)
+
+
+def _point_indices(
+    props: WindowProps,
+    catalog: dict[str, np.ndarray],
+    choices: list[IndexChoice],
+    specs: dict[str, IndexSpec],
+) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """Aggregated point indices of every grade and its worst loss factor on the grid.
+
+    With duty points the point indices are taken at the duty points, else on the grid.
+    Worked out in blocks of grades (engine.blocks), so that no quantity is ever held for
+    the whole library at once.
+    """
+    n = len(props.ids)
+    duty = props.duty_storage is not None
+    values = {c.name: np.empty(n) for c in choices}
+    eta_worst = np.empty(n)
+
+    def work(a: int, b: int) -> None:
+        rows = slice(a, b)
+        q = _Quantities(props, catalog, duty, rows)
+        with np.errstate(all="ignore"):
+            for c in choices:
+                spec = specs[c.name]
+                v = np.broadcast_to(np.asarray(spec.point(q), dtype=float), q.shape)
+                values[c.name][rows] = aggregate(
+                    v, c.aggregate, spec.higher_is_better, props.duty_share
+                )
+            grid = q if not duty else _Quantities(props, catalog, False, rows)
+            eta_worst[rows] = grid["loss_factor"].min(axis=1)
+
+    points = props.storage[0].size if n else 1
+    in_blocks(n, work, per_block(points))
+    return values, eta_worst
+
+
+CATALOG_NUMBERS = ("density", "price", "hardness", "service_min", "service_max", "poisson_ratio")
+
+
+def _catalog_columns(materials: list[Material]) -> dict[str, np.ndarray]:
+    """The numeric catalog fields of ``materials`` as arrays (NaN where unknown)."""
+    rows = [tuple(getattr(m, name) for name in CATALOG_NUMBERS) for m in materials]
+    table = np.array(rows, dtype=float).reshape(len(materials), len(CATALOG_NUMBERS))
+    return dict(zip(CATALOG_NUMBERS, table.T, strict=True))
+
+
+def _row_max(values: np.ndarray) -> np.ndarray:
+    """Largest finite-or-infinite value of each row, NaN ignored (NaN if all are)."""
+    return np.fmax.reduce(values.reshape(values.shape[0], -1), axis=1)
+
+
+def _failures(
+    criteria: Criteria,
+    specs: dict[str, IndexSpec],
+    values: dict[str, np.ndarray],
+    catalog: dict[str, np.ndarray],
+    eta_worst: np.ndarray,
+    extrap_any: np.ndarray,
+    mres: MountResult | None,
+) -> list[list[Failure]]:
+    """Every failed constraint of every grade, in a fixed order per grade.
+
+    Each constraint is tested on all grades at once; a Failure is made only for the
+    grades that fail it.
+    """
+    n = eta_worst.size
+    out: list[list[Failure]] = [[] for _ in range(n)]
+    con = criteria.constraints
+    lo_t, hi_t = criteria.window.temp_range
+
+    def add(mask, make, topic: str = "window") -> None:
+        for k in np.flatnonzero(mask).tolist():
+            failure = make(k)
+            failure.topic = topic
+            out[k].append(failure)
+
+    if con.service_covers_window:
+        smin, smax = catalog["service_min"], catalog["service_max"]
+        unknown = np.isnan(smin) | np.isnan(smax)
+        needs = f"to cover {lo_t:g} to {hi_t:g} degC"
+        with np.errstate(invalid="ignore"):
+            short = ~unknown & ((smin > lo_t) | (smax < hi_t))
+        add(unknown, lambda k: Failure("service range", "unknown", needs), "catalog")
+        add(
+            short,
+            lambda k: Failure("service range", f"{smin[k]:g} to {smax[k]:g} degC", needs),
+            "catalog",
+        )
+    if con.hardness_range is not None:
+        a, b = con.hardness_range
+        h = catalog["hardness"]
+        limit = f"{a:g}-{b:g} Shore A"
+        add(np.isnan(h), lambda k: Failure("hardness", "unknown", limit), "catalog")
+        with np.errstate(invalid="ignore"):
+            outside = (h < a) | (h > b)
+        add(outside, lambda k: Failure("hardness", f"{h[k]:g} Shore A", limit), "catalog")
+    if con.max_price is not None:
+        price = catalog["price"]
+        limit = f"<= {con.max_price:g} per kg"
+        add(np.isnan(price), lambda k: Failure("price", "unknown", limit), "catalog")
+        with np.errstate(invalid="ignore"):
+            dear = price > con.max_price
+        add(dear, lambda k: Failure("price", f"{price[k]:g} per kg", limit), "catalog")
+    if con.min_loss_factor is not None:
+        add(
+            eta_worst < con.min_loss_factor,
+            lambda k: Failure(
+                "worst-case loss factor", _fmt(eta_worst[k]), f">= {con.min_loss_factor:g}"
+            ),
+        )
+    if not con.allow_extrapolation:
+        add(
+            extrap_any,
+            lambda k: Failure(
+                "extrapolation", "the window reaches beyond the measured data", "not allowed"
+            ),
+        )
+    for name, spec in specs.items():
+        missing = np.zeros(n, dtype=bool)
+        for field_name in spec.needs:
+            missing |= np.isnan(catalog[field_name])
+
+        def unknown_index(k, name=name, spec=spec):
+            absent = [f for f in spec.needs if np.isnan(catalog[f][k])]
+            return Failure(f"index {name}", "unknown", "needs " + (", ".join(absent) or "data"))
+
+        add(missing | ~np.isfinite(values[name]), unknown_index)
+    if mres is None:
+        return out
+    fn = mres.natural_frequency
+    found = np.isfinite(fn)
+    add(
+        ~found.all(axis=1),
+        lambda k: Failure("natural frequency", "not found", "a root in 1 mHz-100 kHz"),
+        "mount",
+    )
+    if con.fn_range_Hz is not None:
+        a, b = con.fn_range_Hz
+        fn_lo = np.where(found, fn, np.inf).min(axis=1)
+        fn_hi = np.where(found, fn, -np.inf).max(axis=1)
+        add(
+            found.any(axis=1) & ((fn_lo < a) | (fn_hi > b)),
+            lambda k: Failure(
+                "natural frequency", f"{fn_lo[k]:.3g} to {fn_hi[k]:.3g} Hz", f"{a:g} to {b:g} Hz"
+            ),
+            "mount",
+        )
+    if con.max_transmissibility is not None:
+        worst_t = _row_max(mres.transmissibility)
+        with np.errstate(invalid="ignore"):
+            high = worst_t > con.max_transmissibility
+        add(
+            high,
+            lambda k: Failure(
+                "transmissibility at the disturbance",
+                _fmt(worst_t[k]),
+                f"<= {con.max_transmissibility:g}",
+            ),
+            "mount",
+        )
+    limit = con.max_static_strain if con.max_static_strain is not None else mres.strain_limit
+    static = _row_max(mres.static_strain)
+    strain = np.where(np.isnan(static), np.nan, np.fmax(static, mres.sag_strain))
+    with np.errstate(invalid="ignore"):
+        strained = ~(strain <= limit)
+
+    def strain_failure(k):
+        needs = f"<= {limit:g}"
+        if strain[k] > 1.0:
+            needs += "; above 1 the pad cannot carry the load at all"
+        return Failure("static strain incl. long-term sag", _fmt(strain[k]), needs)
+
+    add(strained, strain_failure, "mount")
+    if not con.allow_extrapolation:
+        # Reported once: a window that already needs extrapolation says so above.
+        add(
+            mres.extrapolated.any(axis=1) & ~extrap_any,
+            lambda k: Failure("extrapolation", MOUNT_EXTRAPOLATION, "not allowed"),
+            "mount",
+        )
+    return out
 
 
 def _fmt(v: float) -> str:
@@ -396,6 +590,23 @@ def _fmt(v: float) -> str:
     if a != 0 and (a >= 1e4 or a < 1e-2):
         return f"{v:.3g}"
     return f"{v:.3g}" if a < 100 else f"{v:.0f}"
+
+
+@contextmanager
+def _collector_paused():
+    """Python's cyclic garbage collector off while the result objects are made.
+
+    A ranking makes a few objects per grade; with a large library in memory each
+    automatic collection would walk every master curve. Nothing made here holds a
+    reference cycle, so pausing the collector loses nothing.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def rank(
@@ -409,30 +620,27 @@ def rank(
 
     ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
     """
+    with _collector_paused():
+        return _rank(curves, materials, criteria, fit_errors, bank)
+
+
+def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
     ids = [i for i in curves if i in materials]
     if bank is None or bank.ids != ids:
         bank = CurveBank.from_curves({i: curves[i] for i in ids})
     mats = [materials[i] for i in ids]
     n = len(ids)
     window = criteria.window
-    poisson = np.array([np.nan if m.poisson_ratio is None else m.poisson_ratio for m in mats])
-    hardness = np.array([np.nan if m.hardness is None else m.hardness for m in mats])
-    props = evaluate_window(bank, window, poisson)
+    catalog = _catalog_columns(mats)
+    props = evaluate_window(bank, window, catalog["poisson_ratio"])
     specs = {c.name: c.spec() for c in criteria.indices}
 
     # -- index values per grade -------------------------------------------------------
-    values: dict[str, np.ndarray] = {}
     has_duty = bool(window.duty_points)
-    # With duty points the point indices are taken at the duty points, else on the grid.
-    quantities = _quantities(props, mats, duty=has_duty)
+    point = [c for c in criteria.indices if specs[c.name].kind == "point"]
+    values, eta_worst = _point_indices(props, catalog, point, specs)
     for c in criteria.indices:
-        spec = specs[c.name]
-        if spec.kind == "point":
-            q = quantities
-            with np.errstate(all="ignore"):
-                v = np.broadcast_to(np.asarray(spec.point(q), dtype=float), q["loss_factor"].shape)
-            values[c.name] = aggregate(v, c.aggregate, spec.higher_is_better, props.duty_share)
-        elif c.name in ("stiffness_drift", "frequency_drift"):
+        if c.name in ("stiffness_drift", "frequency_drift"):
             e = props.storage.reshape(n, -1)
             drift = e.max(axis=1) / e.min(axis=1)
             values[c.name] = drift if c.name == "stiffness_drift" else np.sqrt(drift)
@@ -440,7 +648,7 @@ def rank(
             values[c.name] = damping_span(
                 props.path_temperatures, props.path_loss_factor, criteria.eta_threshold
             )
-        else:  # pragma: no cover - every window index is handled above
+        elif c.name not in values:  # pragma: no cover - every window index is handled above
             raise CriteriaError(f"index '{c.name}' has no evaluation")
     extrap_any = props.extrapolated.reshape(n, -1).any(axis=1)
     if has_duty:
@@ -449,107 +657,21 @@ def rank(
     # -- mount check -----------------------------------------------------------------
     mres = None
     if criteria.mount is not None:
-        mres = check_mounts(bank, criteria.mount, window.temperatures, poisson, hardness)
+        mres = check_mounts(
+            bank,
+            criteria.mount,
+            window.temperatures,
+            catalog["poisson_ratio"],
+            catalog["hardness"],
+        )
 
     # -- constraints -----------------------------------------------------------------
-    con = criteria.constraints
-    lo_t, hi_t = window.temp_range
-    eta_worst = props.loss_factor.reshape(n, -1).min(axis=1)
+    failures = _failures(criteria, specs, values, catalog, eta_worst, extrap_any, mres)
+    index_values = {name: values[name].tolist() for name in specs}
+    eta_list = eta_worst.tolist()
+    extrap_list = extrap_any.tolist()
     results: list[GradeResult] = []
     for k, m in enumerate(mats):
-        fails: list[Failure] = []
-        if con.service_covers_window:
-            smin, smax = m.service_min, m.service_max
-            if smin is None or smax is None:
-                fails.append(
-                    Failure("service range", "unknown", f"to cover {lo_t:g} to {hi_t:g} degC")
-                )
-            elif smin > lo_t or smax < hi_t:
-                fails.append(
-                    Failure(
-                        "service range",
-                        f"{smin:g} to {smax:g} degC",
-                        f"to cover {lo_t:g} to {hi_t:g} degC",
-                    )
-                )
-        if con.hardness_range is not None:
-            a, b = con.hardness_range
-            if m.hardness is None:
-                fails.append(Failure("hardness", "unknown", f"{a:g}-{b:g} Shore A"))
-            elif not a <= m.hardness <= b:
-                fails.append(Failure("hardness", f"{m.hardness:g} Shore A", f"{a:g}-{b:g} Shore A"))
-        if con.max_price is not None:
-            if m.price is None:
-                fails.append(Failure("price", "unknown", f"<= {con.max_price:g} per kg"))
-            elif m.price > con.max_price:
-                fails.append(
-                    Failure("price", f"{m.price:g} per kg", f"<= {con.max_price:g} per kg")
-                )
-        if con.min_loss_factor is not None and eta_worst[k] < con.min_loss_factor:
-            fails.append(
-                Failure("worst-case loss factor", _fmt(eta_worst[k]), f">= {con.min_loss_factor:g}")
-            )
-        if not con.allow_extrapolation and extrap_any[k]:
-            fails.append(
-                Failure(
-                    "extrapolation",
-                    "the window reaches beyond the measured data",
-                    "not allowed",
-                )
-            )
-        for name, spec in specs.items():
-            missing = [f for f in spec.needs if getattr(m, f) is None]
-            if missing or not np.isfinite(values[name][k]):
-                fails.append(
-                    Failure(f"index {name}", "unknown", "needs " + (", ".join(missing) or "data"))
-                )
-        if mres is not None:
-            fn = mres.natural_frequency[k]
-            if not np.isfinite(fn).all():
-                fails.append(Failure("natural frequency", "not found", "a root in 1 mHz-100 kHz"))
-            if con.fn_range_Hz is not None and np.isfinite(fn).any():
-                a, b = con.fn_range_Hz
-                if np.nanmin(fn) < a or np.nanmax(fn) > b:
-                    fails.append(
-                        Failure(
-                            "natural frequency",
-                            f"{np.nanmin(fn):.3g} to {np.nanmax(fn):.3g} Hz",
-                            f"{a:g} to {b:g} Hz",
-                        )
-                    )
-            if con.max_transmissibility is not None:
-                worst_t = float(np.nanmax(mres.transmissibility[k]))
-                if worst_t > con.max_transmissibility:
-                    fails.append(
-                        Failure(
-                            "transmissibility at the disturbance",
-                            _fmt(worst_t),
-                            f"<= {con.max_transmissibility:g}",
-                        )
-                    )
-            limit = (
-                con.max_static_strain if con.max_static_strain is not None else mres.strain_limit
-            )
-            strain = max(float(np.nanmax(mres.static_strain[k])), float(mres.sag_strain[k]))
-            if not strain <= limit:
-                needs = f"<= {limit:g}"
-                if strain > 1.0:
-                    needs += "; above 1 the pad cannot carry the load at all"
-                fails.append(Failure("static strain incl. long-term sag", _fmt(strain), needs))
-            if not con.allow_extrapolation and mres.extrapolated[k].any():
-                if not any(f.constraint == "extrapolation" for f in fails):
-                    fails.append(
-                        Failure(
-                            "extrapolation",
-                            MOUNT_EXTRAPOLATION,
-                            "not allowed",
-                        )
-                    )
-        for f in fails:
-            if f.constraint in CATALOG_CONSTRAINTS:
-                f.topic = "catalog"
-            elif f.constraint in MOUNT_CONSTRAINTS or f.value == MOUNT_EXTRAPOLATION:
-                f.topic = "mount"
         notes = list(curves[m.id].notes)
         if mres is not None:
             notes += mres.notes.get(m.id, [])
@@ -561,11 +683,11 @@ def rank(
                 family=m.family,
                 price=m.price,
                 density=m.density,
-                passed=not fails,
-                failures=fails,
-                indices={name: float(values[name][k]) for name in specs},
-                extrapolated=bool(extrap_any[k]),
-                worst_loss_factor=float(eta_worst[k]),
+                passed=not failures[k],
+                failures=failures[k],
+                indices={name: index_values[name][k] for name in specs},
+                extrapolated=extrap_list[k],
+                worst_loss_factor=eta_list[k],
                 mount_result=mres,
                 mount_index=k if mres is not None else None,
                 notes=notes,
@@ -575,13 +697,17 @@ def rank(
     # -- scores, order, Pareto, reasons -------------------------------------------------
     weights = {c.name: c.weight for c in criteria.indices}
     total_w = sum(weights.values())
+    raw = sum(
+        weights[name]
+        * (1 if spec.higher_is_better else -1)
+        * np.log10(np.maximum(np.nan_to_num(values[name], nan=LOG_FLOOR), LOG_FLOOR))
+        for name, spec in specs.items()
+    )
+    raw = (np.asarray(raw, dtype=float) / total_w).tolist() if n else []
     passing = [r for r in results if r.passed]
-    for r in passing:
-        s = 0.0
-        for name, spec in specs.items():
-            v = max(r.indices[name], LOG_FLOOR)
-            s += weights[name] * (1 if spec.higher_is_better else -1) * math.log10(v)
-        r.raw_score = s / total_w
+    for k, r in enumerate(results):
+        if r.passed:
+            r.raw_score = raw[k]
     first = criteria.indices[0].name
 
     def order_key(r: GradeResult):
@@ -600,17 +726,15 @@ def rank(
         a, b = criteria.pareto
         sa = 1 if specs[a].higher_is_better else -1
         sb = 1 if specs[b].higher_is_better else -1
-        pts = np.array([[sa * r.indices[a], sb * r.indices[b]] for r in passing])
-        for i, r in enumerate(passing):
-            dominated = np.any(np.all(pts >= pts[i], axis=1) & np.any(pts > pts[i], axis=1))
-            r.pareto = not bool(dominated)
-    best_values = {}
-    for name, spec in specs.items():
-        vals = [p.indices[name] for p in passing]
-        if vals:
-            best_values[name] = max(vals) if spec.higher_is_better else min(vals)
+        flags = pareto_optimal(
+            np.array([sa * r.indices[a] for r in passing]),
+            np.array([sb * r.indices[b] for r in passing]),
+        )
+        for r, flag in zip(passing, flags.tolist(), strict=True):
+            r.pareto = flag
+    reasons = _Reasons(passing, specs, weights)
     for r in passing:
-        r.reason = _reason(r, len(passing), best_values, specs, weights)
+        r.reason = reasons.line(r)
     excluded = sorted((r for r in results if not r.passed), key=lambda r: r.id)
     for r in excluded:
         r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
@@ -625,28 +749,70 @@ def rank(
     )
 
 
-def _reason(r: GradeResult, n_passing: int, best_values: dict, specs, weights) -> str:
-    """One line: where the grade stands and which index carried it."""
-    parts = []
-    best_on = [
-        spec.label
-        for name, spec in specs.items()
-        if n_passing > 1 and r.indices[name] == best_values.get(name)
-    ]
-    if best_on:
-        parts.append("best " + " and ".join(best_on))
+def pareto_optimal(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """True where no other point is at least as good on both ``a`` and ``b`` (higher is
+    better on both) and better on one.
 
-    def figure(n):
-        unit = "" if specs[n].unit in ("-", "") else " " + specs[n].unit
-        return f"{specs[n].label} {_fmt(r.indices[n])}{unit}"
+    Notes
+    -----
+    Sort by ``a`` then ``b``, both descending; a point is dominated exactly when a point
+    before it with a larger ``a`` has a ``b`` at least as large, or a point with the same
+    ``a`` has a larger ``b`` (the 2-D maxima problem; Kung, Luccio & Preparata, J. ACM
+    22, 1975). O(n log n).
+    """
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    if a.size == 0:
+        return np.zeros(0, dtype=bool)
+    order = np.lexsort((-b, -a))
+    sa, sb = a[order], b[order]
+    new_group = np.r_[True, sa[1:] != sa[:-1]]
+    group = np.cumsum(new_group) - 1
+    starts = np.flatnonzero(new_group)
+    group_best = sb[starts]  # b descending inside a group: its first is its largest
+    # Largest b among the groups of strictly larger a.
+    before = np.r_[-np.inf, np.maximum.accumulate(group_best)[:-1]]
+    dominated = (before[group] >= sb) | (group_best[group] > sb)
+    out = np.empty(a.size, dtype=bool)
+    out[order] = ~dominated
+    return out
 
-    shown = [figure(n) for n in sorted(specs, key=lambda n: -weights[n])[:2]]
-    parts.append(", ".join(shown))
-    if r.pareto:
-        parts.append("Pareto-optimal")
-    if r.extrapolated:
-        parts.append("uses extrapolated data")
-    return f"rank {r.rank} of {n_passing}: " + "; ".join(parts) + "; meets every constraint"
+
+class _Reasons:
+    """One line per passing grade: where it stands and which index carried it."""
+
+    def __init__(self, passing: list[GradeResult], specs: dict[str, IndexSpec], weights: dict):
+        self.n = len(passing)
+        self.specs = specs
+        self.best = {}
+        for name, spec in specs.items():
+            vals = [p.indices[name] for p in passing]
+            if vals:
+                self.best[name] = max(vals) if spec.higher_is_better else min(vals)
+        self.shown = sorted(specs, key=lambda n: -weights[n])[:2]
+        self.units = {
+            n: "" if spec.unit in ("-", "") else " " + spec.unit for n, spec in specs.items()
+        }
+
+    def line(self, r: GradeResult) -> str:
+        parts = []
+        best_on = [
+            spec.label
+            for name, spec in self.specs.items()
+            if self.n > 1 and r.indices[name] == self.best.get(name)
+        ]
+        if best_on:
+            parts.append("best " + " and ".join(best_on))
+        parts.append(
+            ", ".join(
+                f"{self.specs[n].label} {_fmt(r.indices[n])}{self.units[n]}" for n in self.shown
+            )
+        )
+        if r.pareto:
+            parts.append("Pareto-optimal")
+        if r.extrapolated:
+            parts.append("uses extrapolated data")
+        return f"rank {r.rank} of {self.n}: " + "; ".join(parts) + "; meets every constraint"
 
 
 def built_in_indices() -> dict[str, IndexSpec]:

@@ -8,6 +8,7 @@ gives every grade's properties at every window point in one vectorised pass.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -156,7 +157,8 @@ class WindowProps:
 
     Arrays have shape (grades, temperatures, frequencies); ``duty_*`` arrays have shape
     (grades, duty points) when the window has duty points. Moduli are tensile-equivalent
-    E' and E'' [Pa] (shear data converted with E = 2(1+nu)G), and shear G' [Pa].
+    E' and E'' [Pa] (shear data converted with E = 2(1+nu)G); ``poisson`` holds the
+    Poisson ratio of each grade used for the conversions.
     """
 
     ids: list[str]
@@ -164,8 +166,8 @@ class WindowProps:
     frequencies: np.ndarray
     storage: np.ndarray
     loss: np.ndarray
-    shear_storage: np.ndarray
     extrapolated: np.ndarray
+    poisson: np.ndarray
     duty_storage: np.ndarray | None = None
     duty_loss: np.ndarray | None = None
     duty_extrapolated: np.ndarray | None = None
@@ -177,11 +179,21 @@ class WindowProps:
     path_loss: np.ndarray | None = None
     path_extrapolated: np.ndarray | None = None
 
-    @property
+    @cached_property
     def loss_factor(self) -> np.ndarray:
         return self.loss / self.storage
 
     @property
+    def to_shear(self) -> np.ndarray:
+        """Factor G / E = 1 / (2 (1 + nu)) of each grade."""
+        return 1.0 / (2.0 * (1.0 + self.poisson))
+
+    @cached_property
+    def shear_storage(self) -> np.ndarray:
+        """Shear storage modulus G' [Pa] over the window."""
+        return self.storage * self.to_shear[:, None, None]
+
+    @cached_property
     def path_loss_factor(self) -> np.ndarray | None:
         """Loss factor along the temperature path at the design frequency."""
         if self.path_loss is None:
@@ -205,24 +217,25 @@ def evaluate_window(
     t = window.temperatures
     f = window.frequencies
     storage, loss, extrap = bank.evaluate(t[:, None], f[None, :])
-    to_e = tensile_factor(bank.modes, poisson)[:, None, None]
-    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)[:, None, None]
-    storage_e, loss_e = storage * to_e, loss * to_e
+    to_e = tensile_factor(bank.modes, poisson)
+    if (to_e != 1.0).any():
+        storage *= to_e[:, None, None]
+        loss *= to_e[:, None, None]
     props = WindowProps(
         ids=list(bank.ids),
         temperatures=t,
         frequencies=f,
-        storage=storage_e,
-        loss=loss_e,
-        shear_storage=storage_e / (2.0 * (1.0 + nu)),
+        storage=storage,
+        loss=loss,
         extrapolated=extrap,
+        poisson=np.where(np.isnan(poisson), DEFAULT_POISSON, poisson),
     )
     if window.duty_points:
         dt = np.array([p.temperature_C for p in window.duty_points])
         df = np.array([p.frequency_Hz for p in window.duty_points])
         s, l, x = bank.evaluate(dt, df)
-        props.duty_storage = s * to_e[:, :, 0]
-        props.duty_loss = l * to_e[:, :, 0]
+        props.duty_storage = s * to_e[:, None]
+        props.duty_loss = l * to_e[:, None]
         props.duty_extrapolated = x
         share = np.array([p.share for p in window.duty_points])
         props.duty_share = share / share.sum()
@@ -231,7 +244,7 @@ def evaluate_window(
     pt = np.arange(lo, hi + path_step / 2, path_step) if hi > lo else np.array([lo])
     s, l, x = bank.evaluate(pt, window.design_frequency)
     props.path_temperatures = pt
-    props.path_storage = s * to_e[:, :, 0]
-    props.path_loss = l * to_e[:, :, 0]
+    props.path_storage = s * to_e[:, None]
+    props.path_loss = l * to_e[:, None]
     props.path_extrapolated = x
     return props

@@ -116,3 +116,41 @@ def test_evaluate_rows_broadcasts_one_frequency(bank):
 def test_evaluate_rows_needs_one_row_per_grade(bank):
     with pytest.raises(ValueError, match=r"one row per grade \(5\)"):
         bank.evaluate_rows(np.zeros((len(bank) - 1, 3)), 1.0)
+
+
+def test_blocks_on_threads_give_the_same_values(bank, monkeypatch):
+    # engine.blocks: one grade per block on two threads reproduces one block exactly.
+    from engine import blocks
+
+    whole = bank.evaluate(T_GRID, F_GRID)
+    monkeypatch.setattr(blocks, "BLOCK_POINTS", 1)
+    monkeypatch.setattr(blocks, "WORKERS", 2)
+    split = bank.evaluate(T_GRID, F_GRID)
+    for got, want in zip(split, whole, strict=True):
+        np.testing.assert_array_equal(got, want)
+
+
+def test_a_failing_block_raises_in_the_caller(monkeypatch):
+    from engine import blocks
+
+    monkeypatch.setattr(blocks, "WORKERS", 2)
+    seen = []
+
+    def work(a, b):
+        seen.append((a, b))
+        if a == 4:
+            raise ValueError("block 4 failed")
+
+    with pytest.raises(ValueError, match="block 4 failed"):
+        blocks.in_blocks(10, work, 2)
+    assert sorted(seen) == [(0, 2), (2, 4), (4, 6), (6, 8), (8, 10)]
+
+
+def test_log_storage_at_is_the_table_of_evaluate(curves, bank):
+    # At the reference temperature (log aT = 0) evaluate reads the same table.
+    f = np.logspace(-4.0, 6.0, 9)
+    for k, curve in enumerate(curves.values()):
+        storage, _, _ = bank.evaluate(curve.reference_C, f)
+        np.testing.assert_allclose(
+            bank.log_storage_at(np.full(f.size, k), np.log10(f)), np.log10(storage[k]), rtol=1e-12
+        )

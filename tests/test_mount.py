@@ -386,3 +386,90 @@ def test_natural_frequency_scalar_no_root_raises():
 def test_natural_frequency_scalar_bad_stiffness_raises():
     with pytest.raises(ValueError, match=r"storage stiffness must be positive and finite"):
         mount.natural_frequency_scalar(lambda f: -1.0, 1.0)
+
+
+# ------------------------------------------------- root in reduced frequency
+
+
+def power_law_master(k0, f0, exponent):
+    """log10 E'(x) of a power-law master curve E' = k0 (fR/f0)^a, x = log10 fR."""
+
+    def log_storage(x, index):
+        return np.log10(k0) + exponent * (x - np.log10(f0))
+
+    return log_storage
+
+
+@pytest.mark.parametrize("exponent", [-0.5, 0.0, 0.3, 1.0, 1.5])
+def test_reduced_root_power_law_closed_form(exponent):
+    # k'(f) = K E'(f aT) with E' = e0 (fR/f0)^a is the power law k0' (f/f0)^a with
+    # k0' = K e0 aT^a: closed-form root from power_law_fn (derived above).
+    e0, f0, mass = 2.0e6, 30.0, np.array([[0.5], [4.0], [60.0]])
+    log_at = np.array([-3.0, 0.0, 2.5])  # three temperatures
+    log_k = np.log10(0.02)  # K = A / h [m]
+    result = mount.natural_frequency_reduced(
+        power_law_master(e0, f0, exponent), log_at, log_k, mass
+    )
+    k0 = 0.02 * e0 * (10.0**log_at) ** exponent
+    expected = power_law_fn(k0, f0, exponent, mass)
+    inside = (expected > 1e-3) & (expected < 1e5)  # the default bracket
+    assert result.frequency.shape == (3, 3) and inside.sum() >= 3
+    assert np.array_equal(result.converged, inside)
+    np.testing.assert_allclose(result.frequency[inside], expected[inside], rtol=1e-9)
+    assert np.isnan(result.frequency[~inside]).all()
+
+
+def test_reduced_root_agrees_with_the_real_frequency_root():
+    # The same equation solved in real frequency by natural_frequency: a master curve
+    # with a transition, E'(fR) = 1e6 + 1e8 (fR/1e3)^0.6 / (1 + (fR/1e3)^0.6).
+    def master(x):
+        r = (10.0**x / 1e3) ** 0.6
+        return 1e6 + 1e8 * r / (1.0 + r)
+
+    log_at = np.linspace(-6.0, 4.0, 11)
+    mass = 25.0
+    k = 10.0**-1.5
+    reduced = mount.natural_frequency_reduced(
+        lambda x, index: np.log10(master(x)), log_at, np.log10(k), mass
+    )
+    real = mount.natural_frequency(lambda f: k * master(np.log10(f) + log_at), np.full(11, mass))
+    assert np.all(reduced.converged) and np.all(real.converged)
+    np.testing.assert_allclose(reduced.frequency, real.frequency, rtol=1e-8)
+
+
+def test_reduced_root_passes_each_entry_its_own_index():
+    # Entries solve against their own curves: E' = 10^(6 + index) Pa, constant in fR.
+    mass, log_k = 1.0, np.zeros(4)
+    result = mount.natural_frequency_reduced(
+        lambda x, index: 6.0 + index.astype(float), 0.0, log_k, mass
+    )
+    expected = np.sqrt(10.0 ** (6.0 + np.arange(4))) / (2.0 * np.pi)  # fn = sqrt(k/m)/2pi
+    np.testing.assert_allclose(result.frequency, expected, rtol=1e-9)
+
+
+def test_reduced_root_without_finite_stiffness_is_not_converged():
+    result = mount.natural_frequency_reduced(
+        power_law_master(1e6, 1.0, 0.0), np.array([0.0, np.nan, 0.0]), [0.0, 0.0, -np.inf], 1.0
+    )
+    assert result.converged.tolist() == [True, False, False]
+    assert np.isnan(result.frequency[1:]).all()
+
+
+def test_reduced_root_outside_the_bracket_is_not_converged():
+    # fn = sqrt(1e6)/(2 pi) = 159 Hz lies above a 1 Hz bracket top.
+    result = mount.natural_frequency_reduced(
+        power_law_master(1e6, 1.0, 0.0), 0.0, 0.0, 1.0, 1e-3, 1.0
+    )
+    assert not bool(result.converged) and np.isnan(result.frequency)
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "message"),
+    [
+        ({"mass": -1.0}, r"mass must be positive \[kg\]"),
+        ({"mass": 1.0, "f_low": 10.0, "f_high": 1.0}, r"0 < f_low < f_high \[Hz\]; got 10, 1"),
+    ],
+)
+def test_reduced_root_bad_arguments(kwargs, message):
+    with pytest.raises(ValueError, match=message):
+        mount.natural_frequency_reduced(power_law_master(1e6, 1.0, 0.0), 0.0, 0.0, **kwargs)

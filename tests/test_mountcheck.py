@@ -352,3 +352,40 @@ def test_mount_design_from_dict_accepts_whole_float_mounts_and_optional_none():
     design = MountDesign.from_dict({"mounts": 4.0, "k_factor": None, "target_fn_Hz": None})
     assert design.mounts == 4 and isinstance(design.mounts, int)
     assert design.k_factor is None and design.target_fn_Hz is None
+
+
+def test_fn_matches_the_root_in_real_frequency(demo):
+    # check_mounts solves in reduced frequency (mount.natural_frequency_reduced); the
+    # same equation solved in real frequency on the same stiffness must agree.
+    bank, poisson, hardness = _bank(demo, RUBBERS)
+    design = MountDesign(layout="compression", mass_kg=180.0, mounts=4, thickness_mm=25)
+    t = np.array([-20.0, 0.0, 23.0, 45.0])
+    res = check_mounts(bank, design, t, poisson, hardness)
+    rows = np.broadcast_to(t, (len(bank), t.size))
+    # Pad stiffness per unit own modulus, from fn of the result itself at 23 degC.
+    own, _, _ = bank.evaluate_rows(rows, res.natural_frequency)
+    per_modulus = (TWO_PI * res.natural_frequency) ** 2 * design.mass_per_pad / own
+
+    def stiffness(freq):
+        storage, _, _ = bank.evaluate_rows(rows, freq, loss=False)
+        return storage * per_modulus[:, 2:3]
+
+    real = mount.natural_frequency(stiffness, np.full(rows.shape, design.mass_per_pad))
+    assert real.converged.all()
+    np.testing.assert_allclose(res.natural_frequency, real.frequency, rtol=1e-7)
+
+
+def test_blocks_on_threads_give_the_same_result(demo, monkeypatch):
+    # engine.blocks cuts the work into blocks of grades on threads: tiny blocks on two
+    # workers must reproduce the single-block result exactly.
+    from engine import blocks
+
+    bank, poisson, hardness = _bank(demo, RUBBERS)
+    design = MountDesign(layout="shear", mass_kg=100.0, mounts=4, target_fn_Hz=7.0)
+    t = np.linspace(-20.0, 50.0, 8)
+    whole = check_mounts(bank, design, t, poisson, hardness)
+    monkeypatch.setattr(blocks, "BLOCK_POINTS", 3)
+    monkeypatch.setattr(blocks, "WORKERS", 2)
+    split = check_mounts(bank, design, t, poisson, hardness)
+    for name in ("natural_frequency", "transmissibility", "static_strain", "sag", "extrapolated"):
+        np.testing.assert_array_equal(getattr(split, name), getattr(whole, name), err_msg=name)

@@ -709,3 +709,31 @@ def test_index_choice_checks_its_own_types():
         IndexChoice("mine", formula="loss_factor", higher_is_better=1)
     with pytest.raises(CriteriaError, match=r"index name must be non-blank text, not ''"):
         IndexChoice("")
+
+
+# ------------------------------------------------------------------ Pareto front
+
+
+def brute_force_pareto(a, b):
+    """Definition of a Pareto-optimal point (higher is better on both), O(n^2)."""
+    out = []
+    for i in range(len(a)):
+        dominated = any(
+            a[j] >= a[i] and b[j] >= b[i] and (a[j] > a[i] or b[j] > b[i]) for j in range(len(a))
+        )
+        out.append(not dominated)
+    return out
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(
+        st.tuples(st.integers(-4, 4), st.integers(-4, 4)), min_size=0, max_size=30
+    )  # small integers: many ties and duplicates
+)
+def test_pareto_front_equals_its_definition(points):
+    from engine.ranking import pareto_optimal
+
+    a = np.array([p[0] for p in points], dtype=float)
+    b = np.array([p[1] for p in points], dtype=float)
+    assert pareto_optimal(a, b).tolist() == brute_force_pareto(a.tolist(), b.tolist())

@@ -1,0 +1,59 @@
+"""Work on many grades cut into blocks and shared among threads.
+
+numpy releases the interpreter lock inside its array loops, so blocks of array work run
+on separate cores when handed to threads. Blocks of a few hundred thousand points also
+keep each temporary array small enough to stay in the processor's cache.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+
+BLOCK_POINTS = 1 << 17  # points per block of array work: a 1 MiB float64 temporary
+WORKERS = max(1, min(os.cpu_count() or 1, 4))
+
+_pool: ThreadPoolExecutor | None = None
+
+
+def _executor() -> ThreadPoolExecutor:
+    global _pool
+    if _pool is None:
+        _pool = ThreadPoolExecutor(WORKERS, thread_name_prefix="quietgrade")
+    return _pool
+
+
+def _forget_pool() -> None:
+    # A forked child (engine.fits fits in worker processes) has none of the parent's
+    # threads: it starts a pool of its own if it needs one.
+    global _pool
+    _pool = None
+
+
+os.register_at_fork(after_in_child=_forget_pool)
+
+
+def in_blocks(n: int, work: Callable[[int, int], None], grades_per_block: int) -> None:
+    """Call ``work(a, b)`` on consecutive ranges of ``range(n)`` of at most
+    ``grades_per_block`` grades, on :data:`WORKERS` threads when there is more than one
+    block. An exception raised in a block is raised here."""
+    size = max(1, int(grades_per_block))
+    bounds = [(a, min(a + size, n)) for a in range(0, n, size)]
+    if len(bounds) <= 1 or WORKERS == 1:
+        for a, b in bounds:
+            work(a, b)
+        return
+    for future in [_executor().submit(work, a, b) for a, b in bounds]:
+        future.result()
+
+
+def per_block(points_per_grade: int) -> int:
+    """Grades per block for work of ``points_per_grade`` points per grade."""
+    return max(1, BLOCK_POINTS // max(int(points_per_grade), 1))
+
+
+def per_worker(n: int) -> int:
+    """Grades per block that give each worker one block (for work with a large fixed
+    cost per call)."""
+    return max(1, -(-n // WORKERS))
