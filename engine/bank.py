@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.blocks import in_blocks, per_block
+from engine.blocks import collector_paused, in_blocks, per_block
 from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve
 from engine.shift import GAS_CONSTANT, LN10
 from engine.units import c_to_k
@@ -74,6 +74,11 @@ class CurveBank:
 
     @classmethod
     def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
+        with collector_paused():
+            return cls._stack(curves)
+
+    @classmethod
+    def _stack(cls, curves: dict[str, MasterCurve]) -> CurveBank:
         ids = list(curves)
         n = len(ids)
         rows = []  # one pass over the curves; the arrays are built column by column

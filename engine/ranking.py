@@ -11,12 +11,10 @@ display the score is mapped to 0-100 over the passing grades.
 from __future__ import annotations
 
 import datetime as _dt
-import gc
 import json
 import math
 import tomllib
 from collections.abc import Mapping
-from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -24,7 +22,7 @@ import numpy as np
 
 from engine import __version__
 from engine.bank import CurveBank
-from engine.blocks import in_blocks, per_block
+from engine.blocks import collector_paused, in_blocks, per_block
 from engine.errors import CriteriaError, reject_unknown
 from engine.indices import (
     AGGREGATES,
@@ -592,23 +590,6 @@ def _fmt(v: float) -> str:
     return f"{v:.3g}" if a < 100 else f"{v:.0f}"
 
 
-@contextmanager
-def _collector_paused():
-    """Python's cyclic garbage collector off while the result objects are made.
-
-    A ranking makes a few objects per grade; with a large library in memory each
-    automatic collection would walk every master curve. Nothing made here holds a
-    reference cycle, so pausing the collector loses nothing.
-    """
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_enabled:
-            gc.enable()
-
-
 def rank(
     curves: dict[str, MasterCurve],
     materials: dict[str, Material],
@@ -620,7 +601,7 @@ def rank(
 
     ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
     """
-    with _collector_paused():
+    with collector_paused():
         return _rank(curves, materials, criteria, fit_errors, bank)
 
 
