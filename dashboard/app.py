@@ -90,10 +90,11 @@ def main() -> None:
     for note in st.session_state.get("_link_notes", []):
         st.warning(f"link parameter ignored: {note}")
 
-    result = None
+    result, result_key = None, None
     if criteria is not None and curves:
         try:
             result = data.ranked(library, criteria)
+            result_key = data.ranking_key(library, criteria)
         except QuietgradeError as exc:
             problem = str(exc)
     elif criteria is not None:
@@ -115,6 +116,7 @@ def main() -> None:
         fit_errors=fit_errors,
         criteria=criteria,
         result=result,
+        result_key=result_key,
         problem=problem,
         compare=compare,
         colours=grade_colours(library.existing_ids() | set(curves)),

@@ -91,40 +91,73 @@ def empty_figure(message: str) -> go.Figure:
 # -- map -----------------------------------------------------------------------------------
 
 
-CROWD_LIMIT = 40  # more grades than this on the map: the rest share two traces
+CROWD_LIMIT = 40  # more grades than this on the map: the rest share a few traces
 CROWD_TOP = 10  # passing grades always drawn on their own
+CROWD_CHOSEN = 20  # grades of the comparison set drawn on their own; more share traces
 
 
-def _add_crowd(fig, props, grades, rows, eta, storage, temps) -> None:
-    """Draw many grades as one trace per state, paths separated by gaps."""
+def _add_crowd(fig, props, grades, rows, eta, storage, temps, chosen: bool = False) -> None:
+    """Draw many grades as two traces per state: their paths, and their marks.
+
+    The paths are one SVG line trace with a gap (a NaN point) between grades; the marks,
+    which carry the hover text and which a box or lasso selects, are one WebGL trace:
+    as SVG, tens of thousands of marks take a browser seconds to draw. ``chosen`` marks
+    grades of the comparison set, drawn wider and darker like the set's grades that
+    have traces of their own. Every per-point value is handed over as a numpy array:
+    Plotly validates, copies and encodes a Python list element by element, which at a
+    few hundred grades cost more than the rest of a rerun.
+    """
+    n_t = temps.size
     for passed in (True, False):
-        ks = [k for k in rows if grades[props.ids[k]].passed == passed]
-        if not ks:
+        ks = np.array([k for k in rows if grades[props.ids[k]].passed == passed], dtype=int)
+        if not ks.size:
             continue
-        xs, ys, custom = [], [], []
+        gap = np.full((ks.size, 1), np.nan)  # a NaN point ends one path before the next
+        xs = np.hstack([eta[ks], gap]).ravel()
+        ys = np.hstack([storage[ks], gap]).ravel()
+        states = []
         for k in ks:
             g = grades[props.ids[k]]
-            state = (
+            states.append(
                 f"rank {g.rank}"
                 if passed
                 else "excluded: " + "; ".join(f.text() for f in g.failures)
             )
-            xs.extend([*eta[k], None])
-            ys.extend([*storage[k], None])
-            custom.extend([[g.id, t, state] for t in temps] + [[None, None, None]])
+        custom = np.empty((ks.size, n_t, 3), dtype=object)
+        custom[:, :, 0] = np.array([props.ids[k] for k in ks], dtype=object)[:, None]
+        custom[:, :, 1] = np.array(temps.tolist(), dtype=object)[None, :]
+        custom[:, :, 2] = np.array(states, dtype=object)[:, None]
+        state = "passing" if passed else "excluded"
+        if chosen:
+            colour = faded(INK, 0.85 if passed else 0.6)
+            width, size = 3.0, 4
+            name = f"{ks.size} more {state} grades of the set"
+        else:
+            colour = faded(INK, 0.35 if passed else 0.18)
+            width, size = 1.0, 3
+            name = f"{ks.size} other {state} grades"
+        group = f"{'set' if chosen else 'others'}, {state}"
         fig.add_trace(
             go.Scatter(
                 x=xs,
                 y=ys,
-                mode="lines+markers",  # box and lasso select marked points only
-                marker={"size": 3, "color": faded(INK, 0.35 if passed else 0.18)},
-                name=f"{len(ks)} other {'passing' if passed else 'excluded'} grades",
-                line={
-                    "color": faded(INK, 0.35 if passed else 0.18),
-                    "width": 1.0,
-                    "dash": "solid" if passed else "dot",
-                },
-                customdata=custom,
+                mode="lines",
+                name=name,
+                legendgroup=group,
+                line={"color": colour, "width": width, "dash": "solid" if passed else "dot"},
+                hoverinfo="skip",
+            )
+        )
+        fig.add_trace(
+            go.Scattergl(
+                x=eta[ks].ravel(),
+                y=storage[ks].ravel(),
+                mode="markers",  # box and lasso select marked points only
+                name=name,
+                legendgroup=group,
+                showlegend=False,
+                marker={"size": size, "color": colour},
+                customdata=custom.reshape(-1, 3),  # grade, temperature, state
                 hovertemplate=(
                     "<b>%{customdata[0]}</b><br>T = %{customdata[1]:.0f} °C<br>"
                     "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>%{customdata[2]}<extra></extra>"
@@ -218,13 +251,33 @@ def map_figure(
     labels = [""] * temps.size
     labels[0] = f"{temps[0]:g} °C"
     labels[-1] = f"{temps[-1]:g} °C"
-    # A large library: grades outside the comparison set and the top ranks are drawn as
-    # two shared traces (passing, excluded), which keeps a rerun quick.
+    # A large library: apart from the top ranks and the first grades of the comparison
+    # set, grades share a few traces (passing or excluded, in the set or not), which
+    # keeps a rerun quick.
     if len(shown) > CROWD_LIMIT:
-        top = {g.id for g in result.shortlist[:CROWD_TOP]}
-        crowd = [k for k in shown if props.ids[k] not in chosen and props.ids[k] not in top]
-        _add_crowd(fig, props, grades, crowd, eta, storage, temps)
-        shown = [k for k in shown if k not in set(crowd)]
+        own = {g.id for g in result.shortlist[:CROWD_TOP]} | set(chosen[:CROWD_CHOSEN])
+        picked = set(chosen)
+        crowd = [k for k in shown if props.ids[k] not in own]
+        _add_crowd(
+            fig,
+            props,
+            grades,
+            [k for k in crowd if props.ids[k] not in picked],
+            eta,
+            storage,
+            temps,
+        )
+        _add_crowd(
+            fig,
+            props,
+            grades,
+            [k for k in crowd if props.ids[k] in picked],
+            eta,
+            storage,
+            temps,
+            chosen=True,
+        )
+        shown = [k for k in shown if props.ids[k] in own]
     for k in shown:
         gid = props.ids[k]
         g = grades[gid]

@@ -14,6 +14,7 @@ from engine.ranking import Criteria, RankResult
 from engine.store import Library
 
 CONTEXT_KEY = "_context"
+SHOWN_LIMIT = 8  # grades of the comparison set drawn on the Curves and Mount pages
 
 
 @dataclass
@@ -26,6 +27,7 @@ class Context:
     problem: str | None
     compare: list[str]
     colours: dict[str, str]
+    result_key: str | None = None  # names the ranking for the figure caches (data.py)
     notes: list[str] = field(default_factory=list)
 
     def points(self, material_id: str) -> np.ndarray | None:

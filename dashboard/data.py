@@ -3,7 +3,8 @@
 Caches are keyed on the library location and :meth:`engine.store.Library.version`, so
 any change to the library (an import, an edit, a deletion) refits and reranks. Results
 hold numpy arrays, dataclasses and formula callables, so they are kept as resources
-(shared, never pickled) and must be treated as read-only.
+(shared, never pickled) and must be treated as read-only; so are the map figures kept
+here, which Streamlit only reads when it sends them.
 """
 
 from __future__ import annotations
@@ -11,8 +12,10 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import plotly.graph_objects as go
 import streamlit as st
 
+from dashboard import charts
 from engine.demo import DEMO_DIR
 from engine.fits import fit_library
 from engine.importer import import_files
@@ -72,11 +75,39 @@ def _ranked(location: str, version: int, criteria_json: str) -> RankResult:
     return rank(curves, materials, Criteria.from_dict(json.loads(criteria_json)), errors)
 
 
+def ranking_key(library: Library, criteria: Criteria) -> str:
+    """A name for the ranking of ``library`` as it is now under ``criteria``."""
+    return json.dumps([library.location, library.version(), criteria.to_dict()], sort_keys=True)
+
+
 def ranked(library: Library, criteria: Criteria) -> RankResult:
     """The ranking of the library's fitted grades under ``criteria`` (cached)."""
     fits(library)
     key = json.dumps(criteria.to_dict(), sort_keys=True)
     return _ranked(library.location, library.version(), key)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def map_figure(
+    result_key: str,
+    chosen: tuple[str, ...],
+    show_excluded: bool,
+    _result: RankResult,
+    _colours: dict[str, str],
+) -> go.Figure:
+    """The map of a ranking (:func:`dashboard.charts.map_figure`), kept per view.
+
+    ``result_key`` (from :func:`ranking_key`) stands for the ranking and for the grade
+    colours, which follow from the same library version; both are passed unhashed. Going
+    back to a window seen before then redraws nothing.
+    """
+    return charts.map_figure(
+        _result,
+        _colours,
+        list(chosen),
+        _result.criteria.constraints.min_loss_factor,
+        show_excluded=show_excluded,
+    )
 
 
 @st.cache_data(max_entries=256, show_spinner=False)

@@ -301,7 +301,7 @@ def check_mounts(
     sag = mount.static_deflection(m, k_life)[:, 0]
     for k in np.flatnonzero(x_l[:, 0]):
         notes.setdefault(ids[k], []).append(
-            f"long-term sag after {design.service_life_h:g} h at {t_hot:g} degC extrapolates "
+            f"long-term sag after {design.service_life_h:g} h at {t_hot:g} °C extrapolates "
             "the master curve"
         )
     if design.layout == "compression":

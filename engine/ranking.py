@@ -477,13 +477,13 @@ def _failures(
     if con.service_covers_window:
         smin, smax = catalog["service_min"], catalog["service_max"]
         unknown = np.isnan(smin) | np.isnan(smax)
-        needs = f"to cover {lo_t:g} to {hi_t:g} degC"
+        needs = f"to cover {lo_t:g} to {hi_t:g} °C"
         with np.errstate(invalid="ignore"):
             short = ~unknown & ((smin > lo_t) | (smax < hi_t))
         add(unknown, lambda k: Failure("service range", "unknown", needs), "catalog")
         add(
             short,
-            lambda k: Failure("service range", f"{smin[k]:g} to {smax[k]:g} degC", needs),
+            lambda k: Failure("service range", f"{smin[k]:g} to {smax[k]:g} °C", needs),
             "catalog",
         )
     if con.hardness_range is not None:

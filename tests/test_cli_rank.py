@@ -186,7 +186,7 @@ def test_rank_excludes_grades_whose_service_range_misses_the_window(cli):
     for gid in ("BW-FD30", "QC-PVC75"):
         fails = {f["constraint"]: f for f in by_id[gid]["failures"]}
         assert "service range" in fails
-        assert fails["service range"]["limit"] == "to cover -20 to 45 degC"
+        assert fails["service range"]["limit"] == "to cover -20 to 45 °C"
 
 
 def test_rank_inverted_range_exits_2_with_one_line(cli):

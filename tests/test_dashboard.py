@@ -5,9 +5,12 @@ agrees with the engine's own ranking, the comparison set is highlighted, a link
 reproduces the case, and a bad import shows its one-line reason and writes nothing.
 """
 
+import base64
+import csv
 import json
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from tests import synthetic
@@ -16,7 +19,8 @@ pytest.importorskip("streamlit")
 
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
-from dashboard import case, importing  # noqa: E402
+from dashboard import case, charts, importing  # noqa: E402
+from dashboard.common import SHOWN_LIMIT  # noqa: E402
 from engine.caution import CAUTION  # noqa: E402
 from engine.errors import CriteriaError, InputError  # noqa: E402
 from engine.fits import fit_library  # noqa: E402
@@ -34,6 +38,8 @@ PAGES = {
     "views/library.py": "Library",
 }
 SWEEP_HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"
+DEMO = ROOT / "demo_materials"
+CROWD_GRADES = 60  # more than the map draws one by one (charts.CROWD_LIMIT)
 
 
 @pytest.fixture(scope="module")
@@ -256,6 +262,189 @@ def test_import_edit_delete_and_restore(monkeypatch, tmp_path):
     at.button(key="restore_go").click().run()
     assert not at.exception
     assert lib.deleted_ids() == [] and "SYN-1" in lib.existing_ids()
+
+
+# -- a library too large to draw grade by grade -------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def crowd_db(tmp_path_factory):
+    """A library of CROWD_GRADES grades: the demo grades copied under new ids, each copy's
+    moduli scaled by its own factor so that no two paths coincide; fitted once."""
+    folder = tmp_path_factory.mktemp("crowd")
+    with open(DEMO / "catalog.csv", newline="") as fh:
+        reader = csv.DictReader(fh)
+        header, catalog = list(reader.fieldnames), list(reader)
+    with open(DEMO / "sweeps.csv", newline="") as fh:
+        rows = list(csv.reader(fh))[1:]
+    sweeps = {}
+    for row in rows:
+        sweeps.setdefault(row[0], []).append(row[1:])
+    bases = [c for c in catalog if c["id"] in sweeps]
+    lines, copies = [SWEEP_HEADER.strip()], []
+    for k in range(CROWD_GRADES):
+        base = bases[k % len(bases)]
+        gid = f"CROWD-{k:03d}"
+        copies.append(dict(base, id=gid, name=f"copy {k} of {base['id']}"))
+        scale = 10.0 ** (0.4 * (k / CROWD_GRADES - 0.5))
+        for t, f, e, eta in sweeps[base["id"]]:
+            lines.append(f"{gid},{t},{f},{float(e) * scale:.6g},{eta}")
+    with open(folder / "catalog.csv", "w", newline="") as fh:
+        writer = csv.DictWriter(fh, fieldnames=header)
+        writer.writeheader()
+        writer.writerows(copies)
+    (folder / "sweeps.csv").write_text("\n".join(lines) + "\n")
+    db = folder / "crowd.sqlite"
+    lib = Library(str(db))
+    import_files(lib, [folder / "catalog.csv"], [folder / "sweeps.csv"])
+    fit_library(lib, processes=1)
+    return db
+
+
+def _array(value) -> np.ndarray:
+    """A data array of a figure spec: a list, or Plotly's base64 typed array."""
+    if isinstance(value, dict):
+        return np.frombuffer(base64.b64decode(value["bdata"]), dtype=value["dtype"])
+    return np.asarray(value, dtype=float)
+
+
+def map_spec(at: AppTest) -> dict:
+    return json.loads(at.get("plotly_chart")[0].proto.spec)
+
+
+def drawn_widths(spec: dict, ids) -> dict[str, float]:
+    """Grade -> width of the line its path is drawn with, whether its own or shared."""
+    ids = set(ids)
+    widths, shared = {}, {}
+    for t in spec["data"]:
+        if t.get("legendgroup") in ids:
+            widths[t["legendgroup"]] = t["line"]["width"]
+        elif t.get("mode") == "lines" and t.get("legendgroup"):
+            shared[t["legendgroup"]] = t["line"]["width"]
+    for t in spec["data"]:
+        if t.get("type") == "scattergl":
+            for row in t["customdata"]:
+                widths[row[0]] = shared[t["legendgroup"]]
+    return widths
+
+
+def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db):
+    at = app(monkeypatch, crowd_db)
+    assert not at.exception
+    lib = Library(str(crowd_db))
+    curves, errors = fit_library(lib, processes=1)
+    own = rank(
+        curves,
+        {m.id: m for m in lib.materials()},
+        case.criteria_from_state(case.default_state()),
+        errors,
+    )
+    grades = {g.id: g for g in own.grades}
+    props = own.window_props
+    row_of = {gid: k for k, gid in enumerate(props.ids)}
+    temps = list(props.path_temperatures)
+    spec = map_spec(at)
+    alone = {t["legendgroup"] for t in spec["data"] if t.get("legendgroup") in grades}
+    assert CROWD_GRADES > charts.CROWD_LIMIT and len(alone) < charts.CROWD_LIMIT
+    marks = [t for t in spec["data"] if t.get("type") == "scattergl"]
+    assert marks, "no shared trace on the map of a large library"
+    shared = []
+    for t in marks:
+        x, y = _array(t["x"]), _array(t["y"])
+        ids = [row[0] for row in t["customdata"]]
+        shared += list(dict.fromkeys(ids))
+        for j, (gid, temp, state) in enumerate(t["customdata"]):
+            g, k = grades[gid], row_of[gid]
+            step = temps.index(temp)
+            # each mark sits on its grade's path as the engine computed it...
+            assert x[j] == pytest.approx(props.path_loss_factor[k][step], rel=1e-12)
+            assert y[j] == pytest.approx(props.path_storage[k][step] / 1e6, rel=1e-12)
+            # ...and its hover names the grade's rank or every reason it is excluded
+            if g.passed:
+                assert state == f"rank {g.rank}"
+            else:
+                assert state == "excluded: " + "; ".join(f.text() for f in g.failures)
+        lines = next(
+            u
+            for u in spec["data"]
+            if u.get("mode") == "lines" and u.get("legendgroup") == t["legendgroup"]
+        )
+        lx = _array(lines["x"])
+        assert np.isnan(lx).sum() == len(set(ids))  # one gap after each grade's path
+        assert np.array_equal(lx[~np.isnan(lx)], x)
+    assert sorted(shared) == sorted(set(shared))  # no grade drawn twice
+    assert alone.isdisjoint(shared) and alone | set(shared) == set(grades)
+    assert any(not grades[g].passed for g in shared)  # the test covers excluded grades too
+
+
+def test_a_large_comparison_set_is_highlighted_and_bounded(monkeypatch, crowd_db):
+    at = app(monkeypatch, crowd_db)
+    ids = sorted(at.session_state["_context"].result.window_props.ids)
+    chosen = ids[: charts.CROWD_CHOSEN + 10]
+    at.multiselect(key="compare_pick").set_value(chosen).run()
+    assert not at.exception
+    widths = drawn_widths(map_spec(at), ids)
+    assert set(widths) == set(ids)
+    assert min(widths[g] for g in chosen) > max(w for g, w in widths.items() if g not in chosen)
+    table = [d.value for d in at.dataframe if "worst loss factor in window" in d.value.columns]
+    assert table and table[0]["grade"].tolist() == chosen
+
+    at.switch_page("views/curves.py").run()
+    assert not at.exception
+    assert any(f"first {SHOWN_LIMIT} of the {len(chosen)}" in c.value for c in at.caption)
+    names = {
+        t["legendgroup"].rsplit("-", 1)[0]
+        for t in json.loads(at.get("plotly_chart")[0].proto.spec)["data"]
+    }
+    assert names == set(chosen[:SHOWN_LIMIT])
+
+    at.switch_page("views/mount.py").run()
+    assert not at.exception
+    assert any(f"first {SHOWN_LIMIT} of the {len(chosen)}" in c.value for c in at.caption)
+    pads = [d.value for d in at.dataframe if "pad area [mm²]" in d.value.columns]
+    assert pads and pads[0]["grade"].tolist() == chosen
+
+
+def test_returning_to_a_window_draws_its_own_map(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    first = map_spec(at)
+    at.slider(key="c_temp").set_value((0.0, 40.0)).run()
+    assert "0 to 40 °C" in map_spec(at)["layout"]["title"]["text"]
+    at.slider(key="c_temp").set_value(case.DEFAULTS["c_temp"]).run()
+    assert not at.exception
+    assert map_spec(at) == first
+
+
+def test_curves_page_draws_the_open_tab_and_keeps_the_reading(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/curves.py").run()
+    expected = {
+        "Master curve": ["Master curve of"],
+        "Shift factors": ["Shift factors of"],
+        "Nomogram": ["Reduced-frequency nomogram of"],
+        "Transitions": ["Glass transition of"],
+        "Relaxation": ["Relaxation modulus of"],
+        "Data quality": ["Fit residual per isotherm of", "tan δ against"],
+    }
+    for tab, titles in expected.items():
+        at.session_state["curves_tab"] = tab
+        at.run()
+        assert not at.exception, f"{tab}: {at.exception}"
+        drawn = [
+            json.loads(c.proto.spec)["layout"]["title"]["text"] for c in at.get("plotly_chart")
+        ]
+        assert drawn[0].startswith("Stiffness and damping against temperature")
+        assert len(drawn) == 1 + len(titles)
+        assert all(d.startswith(t) for d, t in zip(drawn[1:], titles, strict=True)), tab
+    at.session_state["curves_tab"] = "Nomogram"
+    at.run()
+    at.number_input(key="nomo_t").set_value(7.0).run()
+    at.session_state["curves_tab"] = "Relaxation"
+    at.run()
+    at.session_state["curves_tab"] = "Nomogram"
+    at.run()
+    assert not at.exception
+    assert at.number_input(key="nomo_t").value == 7.0  # not the default, 12
 
 
 # -- the case as widget values, criteria and link ------------------------------------------

@@ -25,19 +25,17 @@ from engine.cli import main
 from engine.errors import CriteriaError
 from engine.export import (
     EXTENSIONS,
-    PALETTE,
-    map_figure,
-    report_html,
     shortlist_csv,
     shortlist_rows,
-    shortlist_xlsx,
     window_properties,
     write_shortlist,
 )
 from engine.fits import fit_library
 from engine.mountcheck import MountDesign
 from engine.ranking import Constraints, Criteria, rank
+from engine.report import PALETTE, map_figure, report_html
 from engine.window import OperatingWindow, tensile_factor
+from engine.workbook import shortlist_xlsx
 
 ROOT = Path(__file__).resolve().parent.parent
 SHEETS = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]
@@ -317,6 +315,33 @@ def test_palette_is_our_own(ranked):
     assert first.line.color == PALETTE[0]
     greys = [t for t in fig.data if t.legendgroup == "excluded"]
     assert len(greys) == 2 * len(ranked.excluded)
+
+
+# -- units in text ---------------------------------------------------------------------------
+def test_text_writes_degrees_celsius_and_headings_keep_the_unit_name(ranked, demo):
+    # Sentences (failure texts, sheet notes, the report) write °C; column headings and
+    # setting names keep the import format's unit name [degC]. The files carry the sign
+    # through UTF-8 (CSV with BOM) and the workbook's shared strings.
+    limit = "to cover -20 to 45 °C"
+    service = [f for g in ranked.excluded for f in g.failures if f.constraint == "service range"]
+    assert service and all(f.limit == limit for f in service)
+    df = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), comment="#", encoding="utf-8-sig")
+    failed = df["failed constraints"].dropna()
+    assert sum(limit in s for s in failed) == len(service)
+    wb = openpyxl.load_workbook(io.BytesIO(shortlist_xlsx(ranked)))
+    assert "Window -20 to 45 °C, 10 to 100 Hz" in wb["Shortlist"]["A1"].value
+    sheets = pd.read_excel(io.BytesIO(shortlist_xlsx(ranked)), sheet_name=None, header=1)
+    assert list(sheets["Excluded"]["limit needed"]).count(limit) == len(service)
+    assert "temperature [degC]" in sheets["Window properties"].columns
+    assert "highest temperature [degC]" in set(sheets["Criteria"]["setting"])
+    text = report_html(ranked, demo[0])
+    assert "constraint over -20 to 45 °C and 10 to 100 Hz" in text
+    assert f"<small>(needs {limit})</small>" in text
+    assert "<td>highest temperature [°C]</td>" in text
+    assert "°C<br>E'" in map_figure(ranked).data[0].hovertemplate
+    # Without the master-curve table (its Tg notes are the fits' own text) the page
+    # shows no "degC" at all.
+    assert "degC" not in text
 
 
 # -- files ---------------------------------------------------------------------------------

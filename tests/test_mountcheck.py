@@ -11,6 +11,7 @@ The demo library adds real, temperature-dependent curves.
 
 from __future__ import annotations
 
+import dataclasses
 import re
 
 import numpy as np
@@ -141,6 +142,23 @@ def test_shear_layout_adds_no_k_factor_note():
     res = check_mounts(bank, MountDesign(layout="shear"), np.array([23.0]), NO, NO)
     assert res.notes.get("NOHARD", []) == []
     assert np.isnan(res.k_factor).all()
+
+
+def test_long_term_sag_on_an_extrapolated_curve_has_a_note():
+    # The sag reads the curve at f = 1/(2 pi t): 1000 h -> 4.4e-8 Hz, below a grade whose
+    # data reach down to 1e-5 Hz, so its note names the life and the hottest window
+    # temperature in degrees Celsius; the same grade with data down to 1e-25 Hz has none.
+    bank = dataclasses.replace(
+        flat_bank([1e6, 1e6], [0.1, 0.1], "shear", ids=["SHORT", "LONG"]),
+        fr_lo=np.array([-5.0, -25.0]),
+    )
+    design = MountDesign(layout="shear", service_life_h=1000.0)
+    none = np.full(2, np.nan)
+    res = check_mounts(bank, design, np.array([-10.0, 40.0]), none, none)
+    assert res.notes["SHORT"] == [
+        "long-term sag after 1000 h at 40 °C extrapolates the master curve"
+    ]
+    assert res.notes.get("LONG", []) == []
 
 
 # ------------------------------------------------------------------ static deflection

@@ -366,8 +366,8 @@ def test_excluded_grades_keep_every_failed_constraint():
     def failures(gid):
         return {f.constraint: f for f in excluded[gid].failures}
 
-    assert failures("SERV")["service range"].value == "-10 to 150 degC"
-    assert failures("SERV")["service range"].limit == "to cover -20 to 45 degC"
+    assert failures("SERV")["service range"].value == "-10 to 150 °C"
+    assert failures("SERV")["service range"].limit == "to cover -20 to 45 °C"
     assert failures("HARD")["hardness"].value == "90 Shore A"
     assert failures("PRICEY")["price"].value == "50 per kg"
     assert failures("NOPRICE")["price"].value == "unknown"

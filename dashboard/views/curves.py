@@ -4,7 +4,7 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import case, charts
-from dashboard.common import context
+from dashboard.common import SHOWN_LIMIT, context
 from dashboard.palette import GRADE_COLOURS
 from engine.errors import CriteriaError
 from engine.fits import summary
@@ -29,8 +29,17 @@ if which == "one grade" or not ctx.compare:
     one = c2.selectbox("Grade", available, key="curves_one")
     shown = [one]
 else:
-    shown = [g for g in ctx.compare if g in ctx.curves]
-    c2.caption("Grades: " + ", ".join(shown))
+    in_set = [g for g in ctx.compare if g in ctx.curves]
+    shown = in_set[:SHOWN_LIMIT]
+    c2.caption(
+        "Grades: "
+        + ", ".join(shown)
+        + (
+            f" (the first {len(shown)} of the {len(in_set)} in the comparison set)"
+            if len(in_set) > len(shown)
+            else ""
+        )
+    )
 st.session_state.setdefault("curves_freqs", f"{band[0]:g}, {design_f:.3g}, {band[1]:g}")
 text = c3.text_input(
     "Frequencies [Hz]", key="curves_freqs", help="Up to five, separated by commas."
@@ -63,10 +72,10 @@ curve = ctx.curves[focus]
 pts = points.get(focus)
 if pts is None:
     pts = ctx.points(focus)
-tabs = st.tabs(
-    ["Master curve", "Shift factors", "Nomogram", "Transitions", "Relaxation", "Data quality"]
-)
-with tabs[0]:
+
+
+def _master_tab() -> None:
+    """Master curve against reduced frequency, with the covered range."""
     if pts is not None:
         st.plotly_chart(charts.master_curve_figure(focus, curve, pts), theme=None, key="mc")
     lo, hi = curve.log_fr_range
@@ -75,7 +84,10 @@ with tabs[0]:
         f"Measured {curve.temperature_range[0]:g} to {curve.temperature_range[1]:g} °C, "
         f"{curve.frequency_range[0]:g} to {curve.frequency_range[1]:g} Hz."
     )
-with tabs[1]:
+
+
+def _shift_tab() -> None:
+    """Shift factors, the fitted shift laws and their spread."""
     st.plotly_chart(charts.shift_figure(focus, curve, window_range), theme=None, key="shift")
     s = summary(curve)
     law_rows = []
@@ -103,12 +115,19 @@ with tabs[1]:
             },
         )
     st.caption(f"rms of the data about the law: {s['shift_law_rms']:.3g} decades")
-with tabs[2]:
+
+
+def _nomogram_tab() -> None:
+    """Reduced-frequency nomogram read at one temperature and frequency."""
     c1, c2 = st.columns(2)
-    st.session_state.setdefault("nomo_t", float(round(sum(window_range) / 2)))
-    st.session_state.setdefault("nomo_f", float(f"{design_f:.3g}"))
+    # The reading point outlives the tab: Streamlit forgets a widget's value in a run
+    # that does not draw it, so it is kept under a key of its own too.
+    kept = st.session_state.get("_nomo_read", {})
+    st.session_state.setdefault("nomo_t", kept.get("t", float(round(sum(window_range) / 2))))
+    st.session_state.setdefault("nomo_f", kept.get("f", float(f"{design_f:.3g}")))
     t_read = c1.number_input("Read at temperature [°C]", format="%g", key="nomo_t")
     f_read = c2.number_input("and frequency [Hz]", min_value=1e-9, format="%g", key="nomo_f")
+    st.session_state["_nomo_read"] = {"t": t_read, "f": f_read}
     st.plotly_chart(
         charts.nomogram_figure(focus, curve, window_range, band, (t_read, f_read)),
         theme=None,
@@ -123,7 +142,10 @@ with tabs[2]:
         + ". Follow the isotherm to the frequency on the right-hand axis, then read down to "
         "the curves."
     )
-with tabs[3]:
+
+
+def _transitions_tab() -> None:
+    """Glass transition by each method, and the regions."""
     st.plotly_chart(charts.transitions_figure(focus, curve, pts), theme=None, key="tg")
     st.dataframe(
         pd.DataFrame(
@@ -154,13 +176,19 @@ with tabs[3]:
         )
     if curve.secondary_C is not None:
         st.caption(f"Secondary transition near {curve.secondary_C:.0f} °C")
-with tabs[4]:
+
+
+def _relaxation_tab() -> None:
+    """Relaxation modulus at the window's ends and middle."""
     lo_t, hi_t = window_range
     temps = sorted({float(lo_t), float(round((lo_t + hi_t) / 2)), float(hi_t)})
     st.plotly_chart(
         charts.relaxation_figure(focus, curve, temps, list(GRADE_COLOURS)), theme=None, key="relax"
     )
-with tabs[5]:
+
+
+def _quality_tab() -> None:
+    """Fit residuals and the superposition check."""
     q = curve.quality
     m1, m2, m3, m4 = st.columns(4)
     m1.metric("rms log E' [decades]", f"{q.get('rms_log_storage', float('nan')):.3f}")
@@ -173,3 +201,19 @@ with tabs[5]:
         st.plotly_chart(charts.collapse_figure(focus, curve, pts), theme=None, key="collapse")
     for note in curve.notes:
         st.caption("Note: " + note)
+
+
+# Only the open tab is drawn: the others would cost every rerun and not be seen.
+TABS = {
+    "Master curve": _master_tab,
+    "Shift factors": _shift_tab,
+    "Nomogram": _nomogram_tab,
+    "Transitions": _transitions_tab,
+    "Relaxation": _relaxation_tab,
+    "Data quality": _quality_tab,
+}
+tabs = st.tabs(list(TABS), key="curves_tab", on_change="rerun")
+for tab, draw in zip(tabs, TABS.values(), strict=True):
+    if tab.open:
+        with tab:
+            draw()

@@ -2,7 +2,7 @@
 
 import streamlit as st
 
-from dashboard import charts, tables
+from dashboard import data, tables
 from dashboard.common import context, need_result, take_map_selection
 
 ctx = context()
@@ -19,13 +19,7 @@ if result is not None:
     )
     show_excluded = c2.toggle("Show excluded grades", value=True, key="map_show_excluded")
     c2.toggle("Selection adds to the set", key="map_adds")
-    fig = charts.map_figure(
-        result,
-        ctx.colours,
-        ctx.compare,
-        result.criteria.constraints.min_loss_factor,
-        show_excluded=show_excluded,
-    )
+    fig = data.map_figure(ctx.result_key, tuple(ctx.compare), show_excluded, result, ctx.colours)
     st.plotly_chart(
         fig,
         key="map_chart",

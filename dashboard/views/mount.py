@@ -3,7 +3,7 @@
 import streamlit as st
 
 from dashboard import charts, tables
-from dashboard.common import context, need_result
+from dashboard.common import SHOWN_LIMIT, context, need_result
 
 ctx = context()
 st.header("Mount")
@@ -28,7 +28,13 @@ if result is not None:
             + ", ".join(f"{f:g}" for f in design.disturbance_Hz)
             + " Hz."
         )
-        fn_fig, tr_fig, sd_fig = charts.mount_figures(result, ids, ctx.colours)
+        drawn = ids[:SHOWN_LIMIT]
+        if len(drawn) < len(ids):
+            st.caption(
+                f"The charts show the first {len(drawn)} of the {len(ids)} grades in the "
+                "comparison set; the table below lists them all."
+            )
+        fn_fig, tr_fig, sd_fig = charts.mount_figures(result, drawn, ctx.colours)
         c1, c2 = st.columns(2)
         c1.plotly_chart(fn_fig, theme=None, key="mount_fn")
         c2.plotly_chart(tr_fig, theme=None, key="mount_tr")
@@ -37,7 +43,7 @@ if result is not None:
         with c2:
             st.markdown("**Pass or fail against the limits**")
             grades = {g.id: g for g in result.grades}
-            for gid in ids:
+            for gid in drawn:
                 g = grades[gid]
                 if g.passed:
                     st.success(f"{gid}: meets every limit ({g.reason.split(':')[0]})")

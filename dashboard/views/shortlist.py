@@ -13,7 +13,7 @@ result = need_result(ctx)
 def _exports(result, library, curves):
     """Download buttons; the files are made only when a button is pressed."""
     try:
-        from engine import export
+        from engine import export, report, workbook
     except ImportError as exc:
         st.warning(f"exports are not available in this installation ({exc})")
         return
@@ -27,14 +27,14 @@ def _exports(result, library, curves):
     )
     c2.download_button(
         "Shortlist XLSX",
-        data=lambda: export.shortlist_xlsx(result, library),
+        data=lambda: workbook.shortlist_xlsx(result, library),
         file_name="quietgrade-shortlist.xlsx",
         mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
         key="dl_xlsx",
     )
     c3.download_button(
         "Report (HTML)",
-        data=lambda: export.report_html(result, library, curves),
+        data=lambda: report.report_html(result, library, curves),
         file_name="quietgrade-report.html",
         mime="text/html",
         key="dl_html",

@@ -345,7 +345,7 @@ def test_xlsx_download_opens_with_its_sheets(app_url, page, tmp_path):
     saved = tmp_path / download.suggested_filename
     download.save_as(saved)
     book = openpyxl.load_workbook(saved, read_only=True)
-    # Sheets and layout as engine/export.shortlist_xlsx documents them.
+    # Sheets and layout as engine/workbook.py documents them.
     sheets = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]
     assert book.sheetnames == sheets
     rows = list(book["Shortlist"].iter_rows(values_only=True))

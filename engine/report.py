@@ -1,0 +1,458 @@
+"""The shortlist as one self-contained HTML report, with its charts and its palette.
+
+Built on the rows of :mod:`engine.export` (see its notes for the layers of the export);
+:func:`engine.export.write_shortlist` calls :func:`report_html` for ``.html`` files.
+The page writes temperatures as °C throughout, setting names included (the files write
+those with the import format's unit name ``[degC]``).
+"""
+
+from __future__ import annotations
+
+import html
+
+import numpy as np
+import plotly.graph_objects as go
+import plotly.io as pio
+from plotly.subplots import make_subplots
+
+from engine.caution import CAUTION
+from engine.export import criteria_rows, finite, provenance_rows, shortlist_rows
+from engine.mastercurve import MasterCurve
+from engine.ranking import RankResult
+from engine.store import Library
+
+# Twelve muted colours of this project's own, in the order shortlisted grades take them.
+PALETTE = (
+    "#3d6b8c",  # slate blue
+    "#b3603f",  # terracotta
+    "#5b8748",  # moss
+    "#875987",  # plum
+    "#bf9533",  # ochre
+    "#3f8c87",  # sea teal
+    "#9a4257",  # wine
+    "#6b6a3a",  # olive
+    "#5b6cb0",  # dusk indigo
+    "#9c7650",  # saddle tan
+    "#2f7357",  # pine
+    "#b35c85",  # heather rose
+)
+EXCLUDED_COLOUR = "#a8a8a8"
+FONT_STACK = '"Source Sans 3", "Noto Sans", "DejaVu Sans", "Segoe UI", Arial, sans-serif'
+
+
+_CSS = """
+:root { --ink: #23282b; --muted: #5d666b; --rule: #d5dad3; --head: #e8ece6;
+        --warn: #b3603f; --warn-bg: #fbf1e9; }
+body { font-family: $font; color: var(--ink); background: #ffffff; margin: 0;
+       line-height: 1.45; font-size: 15px; }
+main { max-width: 1180px; margin: 0 auto; padding: 24px 28px 48px; }
+h1 { font-size: 26px; margin: 0 0 4px; font-weight: 600; letter-spacing: 0.01em; }
+h2 { font-size: 19px; margin: 34px 0 10px; font-weight: 600;
+     border-bottom: 2px solid var(--rule); padding-bottom: 4px; }
+p.meta, p.hint { color: var(--muted); margin: 4px 0 10px; }
+.caution { border-left: 6px solid var(--warn); background: var(--warn-bg);
+           padding: 12px 16px; margin: 18px 0; border-radius: 3px; }
+.caution strong { color: var(--warn); }
+.scroll { overflow-x: auto; }
+table { border-collapse: collapse; font-size: 13.5px; margin: 6px 0 4px; }
+th, td { border-bottom: 1px solid var(--rule); padding: 5px 9px; text-align: left;
+         vertical-align: top; }
+th { background: var(--head); font-weight: 600; white-space: nowrap; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.reason { min-width: 300px; }
+td.grade { min-width: 170px; }
+td.notes { min-width: 240px; font-size: 12.5px; color: var(--muted); }
+td small, li small { color: var(--muted); }
+tr.excluded td { color: var(--muted); }
+ul.fails { margin: 0; padding-left: 18px; }
+.swatch { display: inline-block; width: 10px; height: 10px; border-radius: 2px;
+          margin-right: 6px; vertical-align: baseline; }
+.figure { border: 1px solid var(--rule); border-radius: 4px; padding: 6px; margin: 8px 0; }
+code { font-size: 12.5px; }
+""".replace("$font", FONT_STACK)
+
+
+def _e(value) -> str:
+    """Text from data, escaped for HTML (and for Plotly's HTML-like labels)."""
+    return html.escape("" if value is None else str(value), quote=True)
+
+
+def _num(value, digits: int = 3) -> str:
+    """A number for a table cell: about ``digits`` significant figures."""
+    if isinstance(value, str):
+        return _e(value)
+    if isinstance(value, int) and not isinstance(value, bool):
+        return str(value)
+    v = finite(value)
+    if v is None:
+        return "&ndash;"
+    a = abs(v)
+    if a != 0 and (a >= 1e5 or a < 1e-3):
+        return f"{v:.{digits - 1}e}"
+    if a >= 100:
+        return f"{v:.0f}"
+    return f"{v:.{digits}g}"
+
+
+def _cell(value) -> str:
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        return f'<td class="num">{_num(value)}</td>'
+    return f"<td>{'&ndash;' if value is None else _e(value)}</td>"
+
+
+def _colours(result: RankResult) -> dict[str, str]:
+    return {g.id: PALETTE[k % len(PALETTE)] for k, g in enumerate(result.shortlist)}
+
+
+def _style(fig, height: int) -> None:
+    axis = {
+        "showline": True,
+        "linecolor": "#8c958f",
+        "gridcolor": "#e6e9e3",
+        "zeroline": False,
+        "ticks": "outside",
+        "tickcolor": "#8c958f",
+    }
+    fig.update_layout(
+        template="none",
+        height=height,
+        font={"family": FONT_STACK, "size": 13, "color": "#23282b"},
+        paper_bgcolor="#ffffff",
+        plot_bgcolor="#fbfbf8",
+        margin={"l": 70, "r": 20, "t": 30, "b": 60},
+        legend={"bgcolor": "rgba(255,255,255,0.85)", "bordercolor": "#d5dad3", "borderwidth": 1},
+        hoverlabel={"font": {"family": FONT_STACK, "size": 12}},
+        hovermode="closest",
+    )
+    fig.update_xaxes(**axis)
+    fig.update_yaxes(**axis)
+
+
+def _split(y: np.ndarray, flag: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(measured, extrapolated) copies of ``y`` with NaN gaps; the dotted part keeps the
+    neighbouring points so that the two lines join."""
+    flag = np.asarray(flag, dtype=bool)
+    near = flag.copy()
+    near[1:] |= flag[:-1]
+    near[:-1] |= flag[1:]
+    return np.where(flag, np.nan, y), np.where(near, y, np.nan)
+
+
+def _label(g) -> str:
+    """Escaped "name (id)" of a grade, safe inside a Plotly hover template too."""
+    return f"{_e(g.name)} ({_e(g.id)})".replace("%", "&#37;")
+
+
+def _flags(extrap: np.ndarray) -> list[str]:
+    return ["<br>extrapolated" if x else "" for x in extrap]
+
+
+def map_figure(result: RankResult):
+    """Modulus-loss map: E' [MPa] against loss factor (log-log), each grade's path
+    across the window temperatures at the design frequency."""
+    props = result.window_props
+    colours = _colours(result)
+    where = {gid: k for k, gid in enumerate(props.ids)}
+    temps = np.asarray(props.path_temperatures, dtype=float)
+    window_t = np.asarray(props.temperatures, dtype=float)
+    at_window = np.isclose(temps[:, None], window_t[None, :], atol=1e-9, rtol=0).any(axis=1)
+    sizes = np.where(at_window, 6, 0)
+    sizes[0] = 11  # the coldest end
+    fig = go.Figure()
+    shown_excluded = False
+    for g in [*result.excluded, *result.shortlist]:
+        k = where[g.id]
+        storage = props.path_storage[k] / 1e6
+        eta = props.path_loss[k] / props.path_storage[k]
+        extrap = props.path_extrapolated[k]
+        solid, dotted = _split(storage, extrap)
+        status = f"rank {g.rank}" if g.passed else "excluded"
+        hover = (
+            f"{_label(g)}<br>{status}<br>%{{customdata:.4~g}} °C<br>E' %{{y:.4~g}} MPa, "
+            "loss factor %{x:.3~g}%{text}<extra></extra>"
+        )
+        if g.passed:
+            colour, opacity, group = colours[g.id], 1.0, g.id
+            name, show = f"{g.rank}. {_label(g)}", True
+        else:
+            colour, opacity, group = EXCLUDED_COLOUR, 0.5, "excluded"
+            name, show = "excluded grades", not shown_excluded
+            shown_excluded = True
+        for y, dash, legend in ((solid, "solid", show), (dotted, "dot", False)):
+            fig.add_trace(
+                go.Scatter(
+                    x=eta,
+                    y=y,
+                    mode="lines+markers",
+                    line={"color": colour, "width": 2.2 if g.passed else 1.4, "dash": dash},
+                    marker={"size": sizes, "color": colour},
+                    opacity=opacity,
+                    name=name,
+                    legendgroup=group,
+                    showlegend=legend,
+                    customdata=temps,
+                    text=_flags(extrap),
+                    hovertemplate=hover,
+                )
+            )
+    _style(fig, 560)
+    decades = {"type": "log", "dtick": 1, "exponentformat": "none", "minor": {"showgrid": True}}
+    fig.update_xaxes(title_text="loss factor tan δ [-]", **decades)
+    fig.update_yaxes(title_text="storage modulus E' [MPa]", **decades)
+    return fig
+
+
+def curves_figure(result: RankResult):
+    """E' and loss factor against temperature at the design frequency, shortlist only."""
+    props = result.window_props
+    colours = _colours(result)
+    where = {gid: k for k, gid in enumerate(props.ids)}
+    temps = np.asarray(props.path_temperatures, dtype=float)
+    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.07)
+    for g in result.shortlist:
+        k = where[g.id]
+        storage = props.path_storage[k] / 1e6
+        eta = props.path_loss[k] / props.path_storage[k]
+        extrap = props.path_extrapolated[k]
+        name = f"{g.rank}. {_label(g)}"
+        for row, values, shown in (
+            (1, storage, "E' %{y:.4~g} MPa"),
+            (2, eta, "loss factor %{y:.3~g}"),
+        ):
+            solid, dotted = _split(values, extrap)
+            hover = f"{_label(g)}<br>%{{x:.4~g}} °C: {shown}%{{text}}<extra></extra>"
+            for y, dash, legend in ((solid, "solid", row == 1), (dotted, "dot", False)):
+                fig.add_trace(
+                    go.Scatter(
+                        x=temps,
+                        y=y,
+                        mode="lines",
+                        line={"color": colours[g.id], "width": 2.2, "dash": dash},
+                        name=name,
+                        legendgroup=g.id,
+                        showlegend=legend,
+                        text=_flags(extrap),
+                        hovertemplate=hover,
+                    ),
+                    row=row,
+                    col=1,
+                )
+    _style(fig, 640)
+    fig.update_yaxes(type="log", title_text="storage modulus E' [MPa]", row=1, col=1)
+    fig.update_yaxes(title_text="loss factor tan δ [-]", row=2, col=1)
+    fig.update_xaxes(title_text="temperature [°C]", row=2, col=1)
+    return fig
+
+
+def _figure_html(fig, first: bool) -> str:
+    return pio.to_html(
+        fig,
+        include_plotlyjs=bool(first),
+        full_html=False,
+        default_height=f"{fig.layout.height}px",
+        config={"displaylogo": False, "responsive": True},
+    )
+
+
+def _table(header: list[str], rows: list[list[str]], row_class: str = "") -> str:
+    head = "".join(f"<th>{_e(h)}</th>" for h in header)
+    cls = f' class="{row_class}"' if row_class else ""
+    body = "".join(f"<tr{cls}>" + "".join(r) + "</tr>" for r in rows)
+    return (
+        f'<div class="scroll"><table><thead><tr>{head}</tr></thead>'
+        f"<tbody>{body}</tbody></table></div>"
+    )
+
+
+def _criteria_html(result: RankResult) -> str:
+    rows = [
+        [f"<td>{_e(s)}</td>", f"<td>{_e(_celsius(k))}</td>", _cell(v)]
+        for s, k, v in criteria_rows(result)
+    ]
+    return _table(["section", "setting", "value"], rows)
+
+
+def _celsius(setting: str) -> str:
+    """A setting name as the page shows it: ``[degC]``, the files' unit name, as ``[°C]``."""
+    return setting.replace("[degC]", "[°C]")
+
+
+def _ranked_html(result: RankResult) -> str:
+    rows = shortlist_rows(result)
+    passing = [r for r in rows if r["passed"] == "pass"]
+    if not passing:
+        return '<p class="hint">No grade meets every constraint.</p>'
+    colours = _colours(result)
+    skip = {"rank", "id", "name", "passed", "failed constraints", "reason", "notes"}
+    if result.criteria.pareto is None:
+        skip.add("pareto")
+    middle = [h for h in passing[0] if h not in skip]
+    header = ["rank", "grade", *middle, "reason", "notes"]
+    body = []
+    for r in passing:
+        swatch = f'<span class="swatch" style="background:{colours[r["id"]]}"></span>'
+        body.append(
+            [
+                f'<td class="num">{r["rank"]}</td>',
+                f'<td class="grade">{swatch}{_e(r["name"])}<br><small>{_e(r["id"])}</small></td>',
+                *[_cell(r[h]) for h in middle],
+                f'<td class="reason">{_e(r["reason"])}</td>',
+                f'<td class="notes">{_e(r["notes"] or "")}</td>',
+            ]
+        )
+    return _table(header, body)
+
+
+def _excluded_html(result: RankResult) -> str:
+    if not result.excluded:
+        return '<p class="hint">Every grade meets every constraint.</p>'
+    body = []
+    for g in result.excluded:
+        fails = "".join(
+            f"<li>{_e(f.constraint)}: {_e(f.value)} <small>(needs {_e(f.limit)})</small></li>"
+            for f in g.failures
+        )
+        body.append(
+            [
+                f'<td class="grade">{_e(g.name)}<br><small>{_e(g.id)}</small></td>',
+                _cell(g.supplier),
+                _cell(g.family),
+                _cell(finite(g.price)),
+                f'<td><ul class="fails">{fails}</ul></td>',
+            ]
+        )
+    return _table(
+        ["grade", "supplier", "family", "price [per kg]", "why excluded"], body, "excluded"
+    )
+
+
+def _curves_html(result: RankResult, curves: dict[str, MasterCurve]) -> str:
+    body = []
+    for g in result.grades:
+        c = curves.get(g.id)
+        if c is None:
+            continue
+        tg = next((t for t in c.tg if t.get("method") == "loss_factor_peak"), None)
+        if tg is None:
+            tg_text = "&ndash;"
+        elif tg.get("reached"):
+            tg_text = f"{tg['temperature_C']:.1f} °C at {tg['frequency_Hz']:g} Hz"
+        else:
+            tg_text = _e(tg.get("note", "not reached"))
+        lo, hi = c.temperature_range
+        body.append(
+            [
+                f'<td class="grade">{_e(g.name)}<br><small>{_e(g.id)}</small></td>',
+                _cell(c.mode),
+                f'<td class="num">{c.reference_C:.1f}</td>',
+                _cell(c.shift.law.kind),
+                f"<td>{tg_text}</td>",
+                f"<td>{lo:g} to {hi:g}</td>",
+                f"<td>{10 ** c.log_fr_range[0]:.3g} to {10 ** c.log_fr_range[1]:.3g}</td>",
+            ]
+        )
+    if not body:
+        return ""
+    return "<h2>Master curves behind the figures</h2>" + _table(
+        [
+            "grade",
+            "mode",
+            "reference [°C]",
+            "shift law",
+            "Tg, loss-factor peak",
+            "measured [°C]",
+            "reduced frequency covered [Hz]",
+        ],
+        body,
+    )
+
+
+def _provenance_html(result: RankResult, library: Library | None) -> str:
+    if library is None:
+        return ""
+    body = []
+    for r in provenance_rows(result, library):
+        body.append(
+            [
+                _cell(r["record"]),
+                _cell(r["grade id"]),
+                _cell(r["file name"]),
+                f"<td><code>{_e(r['sha256'] or '')}</code></td>",
+                _cell(r["size [bytes]"] if r["size [bytes]"] is None else int(r["size [bytes]"])),
+                _cell(r["points"] if r["points"] is not None else r["rows"]),
+                _cell(r["imported at"]),
+            ]
+        )
+    return "<h2>Provenance</h2>" + _table(
+        ["record", "grade", "file", "sha256", "size [bytes]", "rows / points", "imported at"],
+        body,
+    )
+
+
+def report_html(
+    result: RankResult,
+    library: Library | None = None,
+    curves: dict[str, MasterCurve] | None = None,
+) -> str:
+    """A self-contained HTML report (Plotly's script inline, so it opens offline).
+
+    Sections: caution, criteria, ranked shortlist, excluded grades with reasons, the
+    modulus-loss map, E' and loss factor against temperature for the shortlist, and,
+    when given, the master-curve summary (``curves``) and provenance (``library``).
+    Every text that comes from data is HTML-escaped, in tables and in chart labels.
+    """
+    w = result.criteria.window
+    f_design = w.design_frequency
+    lo, hi = w.temp_range
+    caution = (
+        f'<section class="caution" role="note"><strong>Caution.</strong> {_e(CAUTION)}</section>'
+    )
+    fit_errors = ""
+    if result.fit_errors:
+        items = "".join(
+            f"<li>{_e(gid)}: {_e(msg)}</li>" for gid, msg in sorted(result.fit_errors.items())
+        )
+        fit_errors = f"<h2>Not ranked</h2><p>No master curve could be built:</p><ul>{items}</ul>"
+    map_fig = _figure_html(map_figure(result), first=True)
+    if result.shortlist:
+        curves_fig = f'<div class="figure">{_figure_html(curves_figure(result), first=False)}</div>'
+    else:
+        curves_fig = '<p class="hint">No grade meets every constraint.</p>'
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        "<title>quietgrade shortlist</title>",
+        f"<style>{_CSS}</style></head><body><main>",
+        "<h1>quietgrade shortlist</h1>",
+        f'<p class="meta">{len(result.shortlist)} of {len(result.grades)} grade(s) meet every '
+        f"constraint over {lo:g} to {hi:g} °C and {w.freq_range[0]:g} to "
+        f"{w.freq_range[1]:g} Hz. Ranked {_e(result.created_at)} (UTC) with quietgrade "
+        f"{_e(result.engine_version)}.</p>",
+        caution,
+        "<h2>Ranked shortlist</h2>",
+        _ranked_html(result),
+        "<h2>Excluded grades</h2>",
+        _excluded_html(result),
+        fit_errors,
+        "<h2>Stiffness and damping across the window</h2>",
+        f'<p class="hint">Each line is one grade from {lo:g} °C (large marker) to {hi:g} '
+        f"°C at the design frequency {f_design:.4g} Hz; small markers at the window "
+        "temperatures; dotted where the master curve is extrapolated. Shortlisted grades in "
+        "colour, excluded grades in grey. Moduli are tensile-equivalent.</p>",
+        f'<div class="figure">{map_fig}</div>',
+        "<h2>Shortlisted grades against temperature</h2>",
+        f'<p class="hint">Storage modulus and loss factor at {f_design:.4g} Hz; dotted where '
+        "extrapolated.</p>",
+        curves_fig,
+        _curves_html(result, curves) if curves else "",
+        "<h2>Criteria</h2>",
+        _criteria_html(result),
+        _provenance_html(result, library),
+        caution,
+        "</main></body></html>",
+    ]
+    return "\n".join(p for p in parts if p)
+
+
+__all__ = ["EXCLUDED_COLOUR", "PALETTE", "curves_figure", "map_figure", "report_html"]
