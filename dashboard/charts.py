@@ -300,7 +300,7 @@ def map_figure(
         custom[:, 0] = gid
         custom[:, 1] = temps
         custom[:, 2] = np.where(extrap, " (extrapolated)", "")
-        name = gid if g.passed else f"{gid} (excluded)"
+        name = gid  # excluded grades are told apart by their dotted, faded line
         fig.add_trace(
             go.Scatter(
                 x=eta[k],
@@ -343,7 +343,7 @@ def map_figure(
             "range": [ya, yb],
             "title": {"text": "storage modulus E' [MPa] (tensile equivalent)"},
         },
-        legend={"title": {"text": "grade"}, "itemclick": "toggle"},
+        legend={"title": {"text": "grade<br>(dotted: excluded)"}, "itemclick": "toggle"},
         hovermode="closest",
     )
     return tidy_log_axes(fig)
@@ -374,6 +374,10 @@ def temperature_figure(
     t_lo = min([window_range[0]] + [curves[g].temperature_range[0] for g in ids])
     t_hi = max([window_range[1]] + [curves[g].temperature_range[1] for g in ids])
     grid = np.linspace(t_lo, t_hi, 241)
+    # Axis ranges follow the master curve inside the data and the measurements; an
+    # extrapolated tail (a Prony series falls steeply beyond its shortest time) may run
+    # off the chart rather than squash what is known.
+    known: dict[int, list[np.ndarray]] = {1: [], 2: [], 3: []}
     for gid in ids:
         curve = curves[gid]
         colour = colours.get(gid, INK)
@@ -389,6 +393,7 @@ def temperature_figure(
                 (3, p.loss_factor, "tan δ"),
             )
             for row, values, what in series:
+                known[row].append(np.asarray(values)[~x])
                 for part, mask in (("", ~x), (" extrapolated", x)):
                     fig.add_trace(
                         go.Scatter(
@@ -422,6 +427,7 @@ def temperature_figure(
                 (3, sel[:, 3]),
             )
             for row, values in measured:
+                known[row].append(values)
                 fig.add_trace(
                     go.Scatter(
                         x=sel[:, 0],
@@ -465,6 +471,13 @@ def temperature_figure(
         font={"size": 11, "color": "#8C6A12"},
     )
     fig.update_yaxes(type="log")
+    for row, parts in known.items():
+        v = np.concatenate(parts) if parts else np.zeros(0)
+        v = v[np.isfinite(v) & (v > 0)]
+        if v.size:
+            lo, hi = np.log10(v.min()), np.log10(v.max())
+            pad = max(0.15 * (hi - lo), 0.15)
+            fig.update_yaxes(range=[lo - pad, hi + pad], row=row, col=1)
     fig.update_yaxes(title_text="storage modulus E' or G' [MPa]", row=1, col=1)
     fig.update_yaxes(title_text="loss modulus E'' or G'' [MPa]", row=2, col=1)
     fig.update_yaxes(title_text="loss factor tan δ [-]", row=3, col=1)
@@ -473,7 +486,7 @@ def temperature_figure(
         template=TEMPLATE,
         height=860,
         title="Stiffness and damping against temperature (lines: master curve; marks: measured)",
-        legend={"font": {"size": 10}},
+        legend={"orientation": "h", "y": -0.07, "font": {"size": 10}},
         hovermode="closest",
     )
     return tidy_log_axes(fig)
@@ -490,7 +503,7 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
     lo, hi = curve.log_fr_range
     fr = np.logspace(lo - 1.0, hi + 1.0, 400)
     p = curve.evaluate(curve.reference_C, fr)
-    inside = (np.log10(fr) >= lo) & (np.log10(fr) <= hi)
+    inside = ~np.asarray(p.extrapolated, dtype=bool)  # dotted beyond the data and in its gaps
     fig = make_subplots(
         rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.05, row_heights=[0.62, 0.38]
     )

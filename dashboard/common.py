@@ -14,6 +14,7 @@ from engine.ranking import Criteria, RankResult
 from engine.store import Library
 
 CONTEXT_KEY = "_context"
+MISSING = "–"  # shown in tables where a value is unknown or not computed
 SHOWN_LIMIT = 8  # grades of the comparison set drawn on the Curves and Mount pages
 
 

@@ -4,7 +4,7 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import case, charts
-from dashboard.common import SHOWN_LIMIT, context
+from dashboard.common import MISSING, SHOWN_LIMIT, context
 from dashboard.palette import GRADE_COLOURS
 from engine.errors import CriteriaError
 from engine.fits import summary
@@ -79,9 +79,11 @@ def _master_tab() -> None:
     if pts is not None:
         st.plotly_chart(charts.master_curve_figure(focus, curve, pts), theme=None, key="mc")
     lo, hi = curve.log_fr_range
+    gaps = "; ".join(f"{10**a:.3g} to {10**b:.3g} Hz" for a, b in curve.gaps)
     st.caption(
-        f"Covered reduced frequencies: {10**lo:.3g} to {10**hi:.3g} Hz (dotted beyond). "
-        f"Measured {curve.temperature_range[0]:g} to {curve.temperature_range[1]:g} °C, "
+        f"Covered reduced frequencies: {10**lo:.3g} to {10**hi:.3g} Hz (dotted beyond"
+        + (f"; no data in {gaps}, dotted as well" if gaps else "")
+        + f"). Measured {curve.temperature_range[0]:g} to {curve.temperature_range[1]:g} °C, "
         f"{curve.frequency_range[0]:g} to {curve.frequency_range[1]:g} Hz."
     )
 
@@ -109,6 +111,7 @@ def _shift_tab() -> None:
         st.dataframe(
             pd.DataFrame(law_rows),
             hide_index=True,
+            placeholder=MISSING,
             column_config={
                 c: st.column_config.NumberColumn(format="%.4g")
                 for c in ("C1", "C2 [K]", "reference [°C]", "activation energy [kJ/mol]")
@@ -161,6 +164,7 @@ def _transitions_tab() -> None:
             ]
         ),
         hide_index=True,
+        placeholder=MISSING,
         width="stretch",
         column_config={
             "Tg [°C]": st.column_config.NumberColumn(format="%.1f"),

@@ -7,7 +7,7 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import data, importing
-from dashboard.common import context
+from dashboard.common import MISSING, context
 from engine.errors import LibraryError
 
 ctx = context()
@@ -32,13 +32,13 @@ def _show_preview(preview: importing.Preview, where: str) -> None:
     """The validation report and preview; the write button."""
     st.success("All files are valid.")
     st.markdown("**Files**")
-    st.dataframe(preview.files, hide_index=True, width="stretch")
+    st.dataframe(preview.files, hide_index=True, placeholder=MISSING, width="stretch")
     if not preview.grades.empty:
         st.markdown("**Catalog rows to write**")
-        st.dataframe(preview.grades, hide_index=True, width="stretch")
+        st.dataframe(preview.grades, hide_index=True, placeholder=MISSING, width="stretch")
     if not preview.datasets.empty:
         st.markdown("**Data sets to write**")
-        st.dataframe(preview.datasets, hide_index=True, width="stretch")
+        st.dataframe(preview.datasets, hide_index=True, placeholder=MISSING, width="stretch")
     if preview.empty:
         st.info("Nothing new: every file is already in the library.")
         return
@@ -101,7 +101,7 @@ def _import_mapped() -> None:
         st.caption("Nothing was written.")
         return
     st.markdown("**First rows of the export**")
-    st.dataframe(table.frame.head(8), hide_index=True, width="stretch")
+    st.dataframe(table.frame.head(8), hide_index=True, placeholder=MISSING, width="stretch")
     headers = list(table.headers)
     guess = importing.guess_mapping(headers)
     st.markdown("**Which column is which**")
@@ -202,6 +202,7 @@ def _catalog() -> None:
         frame,
         key=f"catalog_editor_{_rev('catalog')}",
         hide_index=True,
+        placeholder=MISSING,
         width="stretch",
         disabled=[c for c in frame.columns if c not in editable],
         column_config={
@@ -243,6 +244,7 @@ def _catalog() -> None:
                     [{"changed at": h["changed_at"], "reason": h["reason"]} for h in hist]
                 ),
                 hide_index=True,
+                placeholder=MISSING,
             )
         else:
             st.caption("No change since the grade was imported.")
@@ -267,6 +269,7 @@ def _provenance() -> None:
             ]
         ),
         hide_index=True,
+        placeholder=MISSING,
         width="stretch",
     )
     st.markdown("**Imports**")
@@ -286,6 +289,7 @@ def _provenance() -> None:
             ]
         ),
         hide_index=True,
+        placeholder=MISSING,
         width="stretch",
     )
     if ctx.fit_errors:
@@ -322,7 +326,7 @@ def _delete() -> None:
         if not gone:
             st.caption("None.")
             return
-        st.dataframe(pd.DataFrame({"grade": gone}), hide_index=True)
+        st.dataframe(pd.DataFrame({"grade": gone}), hide_index=True, placeholder=MISSING)
         gid = st.selectbox("Grade to restore", gone, key="restore_grade")
         if st.button("Restore grade", key="restore_go"):
             lib.restore_material(gid)

@@ -3,7 +3,7 @@
 import streamlit as st
 
 from dashboard import data, tables
-from dashboard.common import context, need_result, take_map_selection
+from dashboard.common import MISSING, context, need_result, take_map_selection
 
 ctx = context()
 st.header("Map")
@@ -36,6 +36,7 @@ if result is not None:
         st.dataframe(
             frame,
             hide_index=True,
+            placeholder=MISSING,
             width="stretch",
             key="compare_table",
             column_config={

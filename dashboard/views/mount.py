@@ -3,7 +3,7 @@
 import streamlit as st
 
 from dashboard import charts, tables
-from dashboard.common import SHOWN_LIMIT, context, need_result
+from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result
 
 ctx = context()
 st.header("Mount")
@@ -53,6 +53,7 @@ if result is not None:
         st.dataframe(
             tables.mount_frame(result, ids),
             hide_index=True,
+            placeholder=MISSING,
             width="stretch",
             key="mount_table",
             column_config={

@@ -3,7 +3,7 @@
 import streamlit as st
 
 from dashboard import tables
-from dashboard.common import context, need_result
+from dashboard.common import MISSING, context, need_result
 
 ctx = context()
 st.header("Shortlist")
@@ -55,6 +55,7 @@ if result is not None:
         st.dataframe(
             frame,
             hide_index=True,
+            placeholder=MISSING,
             width="stretch",
             key="shortlist_table",
             column_config={
