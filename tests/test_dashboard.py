@@ -535,3 +535,22 @@ def test_case_errors_name_the_setting():
     state["c_temp"] = (40.0, 10.0)
     with pytest.raises(CriteriaError, match="inverted"):
         case.criteria_from_state(state)
+
+
+def test_mount_page_says_what_the_limits_do_not_cover(monkeypatch, demo_db):
+    # The default design sizes 30 mm compression discs for 10 Hz: slender pads. The
+    # engine's note on each shown grade (buckling, assumed k factor...) must be on the
+    # page beside its verdict, word for word.
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/mount.py").run()
+    assert not at.exception
+    lib = Library(str(demo_db))
+    curves, errors = fit_library(lib, processes=1)
+    criteria = case.criteria_from_state(case.default_state())
+    result = rank(curves, {m.id: m for m in lib.materials()}, criteria, errors)
+    shown = [g.id for g in result.shortlist][:3]  # the seeded comparison set
+    expected = [f"{gid}: {n}" for gid in shown for n in result.mount.notes.get(gid, [])]
+    assert expected, "the default case gives the shown grades no mount note"
+    warnings = [w.value for w in at.warning]
+    assert all(e in warnings for e in expected)
+    assert any("slender" in e for e in expected)

@@ -49,6 +49,10 @@ if result is not None:
                     st.success(f"{gid}: meets every limit ({g.reason.split(':')[0]})")
                 else:
                     st.error(f"{gid}: " + "; ".join(f.text() for f in g.failures))
+                # What the limits do not cover (a slender pad, an assumed k factor, a sag
+                # read from an extrapolated curve) is said beside the verdict.
+                for note in result.mount.notes.get(gid, []):
+                    st.warning(f"{gid}: {note}")
         st.subheader("Pads")
         st.dataframe(
             tables.mount_frame(result, ids),
