@@ -134,17 +134,15 @@ def cmd_fit(args) -> int:
     data = {"id": args.id, **summary(curve)}
     law = curve.shift.law
     lines = [
-        f"{args.id}: master curve at {curve.reference_C:g} degC, shift law {law.kind}",
+        f"{args.id}: master curve at {curve.reference_C:g} °C, shift law {law.kind}",
     ]
     if "wlf" in data:
         w = data["wlf"]
-        lines.append(
-            f"  WLF C1 = {w['C1']:.3f}, C2 = {w['C2_K']:.1f} K at {w['reference_C']:g} degC"
-        )
+        lines.append(f"  WLF C1 = {w['C1']:.3f}, C2 = {w['C2_K']:.1f} K at {w['reference_C']:g} °C")
     if "arrhenius" in data:
         lines.append(f"  Arrhenius Ea = {data['arrhenius']['activation_kJ_per_mol']:.0f} kJ/mol")
     for tg in curve.tg:
-        value = f"{tg['temperature_C']:.1f} degC" if tg["reached"] else tg["note"]
+        value = f"{tg['temperature_C']:.1f} °C" if tg["reached"] else tg["note"]
         lines.append(f"  Tg ({tg['method']}, {tg['frequency_Hz']:g} Hz): {value}")
     lo, hi = data["reduced_frequency_range_Hz"]
     lines.append(f"  reduced frequency covered: {lo:.3g} to {hi:.3g} Hz")
@@ -217,9 +215,9 @@ def cmd_demo(args) -> int:
     for mid in sorted(curves):
         c = curves[mid]
         tg = next((t for t in c.tg if t["method"] == "loss_factor_peak"), None)
-        tg_text = f"{tg['temperature_C']:.0f} degC" if tg and tg["reached"] else "not in range"
+        tg_text = f"{tg['temperature_C']:.0f} °C" if tg and tg["reached"] else "not in range"
         lines.append(
-            f"  {mid:<14} {c.shift.law.kind:<14} reference {c.reference_C:6.1f} degC, "
+            f"  {mid:<14} {c.shift.law.kind:<14} reference {c.reference_C:6.1f} °C, "
             f"tan d peak at 1 Hz: {tg_text}"
         )
     lines += [f"  {mid}: fit failed: {e}" for mid, e in errors.items()]
@@ -297,7 +295,7 @@ def cmd_mount(args) -> int:
     for i, t in enumerate(figs["temperatures_C"]):
         tr = figs["transmissibility"][i]
         lines.append(
-            f"  {t:6.1f} degC: fn {figs['natural_frequency_Hz'][i]:.2f} Hz, T = "
+            f"  {t:6.1f} °C: fn {figs['natural_frequency_Hz'][i]:.2f} Hz, T = "
             + ", ".join(f"{v:.3f}" for v in tr)
             + f" at {', '.join(f'{f:g}' for f in args.disturbance_hz)} Hz, static "
             f"{figs['static_deflection_mm'][i]:.2f} mm"
@@ -409,7 +407,7 @@ def cmd_rank(args) -> int:
     lo, hi = criteria.window.temp_range
     flo, fhi = criteria.window.freq_range
     lines = [
-        f"window {lo:g} to {hi:g} degC, {flo:g} to {fhi:g} Hz; "
+        f"window {lo:g} to {hi:g} °C, {flo:g} to {fhi:g} Hz; "
         f"{len(result.shortlist)} of {len(result.grades)} grade(s) pass"
     ]
     for g in result.shortlist:

@@ -609,7 +609,7 @@ def shift_isotherms(
         return ShiftResult(temps, np.zeros(1), np.zeros(1, bool), law, [], list(law.notes))
     pairs = [pair_shift(a, b) for a, b in zip(isotherms[:-1], isotherms[1:], strict=True)]
     notes = [
-        f"isotherms {p.lower:g} and {p.upper:g} degC: {p.status}, bridged with the shift law"
+        f"isotherms {p.lower:g} and {p.upper:g} °C: {p.status}, bridged with the shift law"
         for p in pairs
         if p.status != "ok"
     ]

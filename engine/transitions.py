@@ -120,7 +120,7 @@ def _peak(method: str, quantity: str, temperature, values, frequency_hz: float) 
             None,
             False,
             f"{quantity} peak not reached: maximum at the {end} end of the sweep "
-            f"({temperature[i]:.1f} degC)",
+            f"({temperature[i]:.1f} °C)",
         )
     return TgResult(method, float(frequency_hz), _vertex(temperature, values, i), True, "")
 
@@ -234,7 +234,7 @@ def tg_storage_onset(
             None,
             False,
             "storage-modulus onset not reached: steepest descent at the warm end of the "
-            f"sweep ({temperature[i]:.1f} degC), so the inflection is not reached",
+            f"sweep ({temperature[i]:.1f} °C), so the inflection is not reached",
         )
     glassy = -slope[:i] <= GLASSY_SLOPE_FRACTION * -slope[i]
     # the run of glassy points that ends closest before the drop
@@ -249,7 +249,7 @@ def tg_storage_onset(
             None,
             False,
             "storage-modulus onset not reached: no glassy region before the drop "
-            f"(the sweep starts at {temperature[0]:.1f} degC)",
+            f"(the sweep starts at {temperature[0]:.1f} °C)",
         )
     run = slice(start, end + 1)
     glassy_slope, glassy_intercept = np.polyfit(temperature[run], log_modulus[run], 1)

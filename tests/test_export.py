@@ -334,14 +334,14 @@ def test_text_writes_degrees_celsius_and_headings_keep_the_unit_name(ranked, dem
     assert list(sheets["Excluded"]["limit needed"]).count(limit) == len(service)
     assert "temperature [degC]" in sheets["Window properties"].columns
     assert "highest temperature [degC]" in set(sheets["Criteria"]["setting"])
-    text = report_html(ranked, demo[0])
+    text = report_html(ranked, demo[0], demo[1])
     assert "constraint over -20 to 45 °C and 10 to 100 Hz" in text
     assert f"<small>(needs {limit})</small>" in text
     assert "<td>highest temperature [°C]</td>" in text
     assert "°C<br>E'" in map_figure(ranked).data[0].hovertemplate
-    # Without the master-curve table (its Tg notes are the fits' own text) the page
-    # shows no "degC" at all.
-    assert "degC" not in text
+    # The whole page, the master-curve table with the fits' own notes included, shows
+    # no "degC" at all.
+    assert "<h2>Master curves behind the figures</h2>" in text and "degC" not in text
 
 
 # -- files ---------------------------------------------------------------------------------

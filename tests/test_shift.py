@@ -92,7 +92,7 @@ def test_non_overlapping_pair_is_bridged_and_flagged():
     gap = [p for p in res.pairs if p.lower == -10.0][0]
     assert gap.status == "no overlap"
     assert res.bridged[list(temps).index(15.0)]
-    assert any("-10 and 15 degC: no overlap, bridged" in n for n in res.notes)
+    assert any("-10 and 15 °C: no overlap, bridged" in n for n in res.notes)
     truth = synthetic.TRUE_LAW.log_shift(temps) - synthetic.TRUE_LAW.log_shift(20.0)
     assert np.max(np.abs(res.log_shift - truth)) < 0.1
 

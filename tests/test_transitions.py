@@ -102,7 +102,7 @@ def test_loss_factor_peak_not_reached_at_warm_end():
         1.0,
         None,
         False,
-        "loss-factor peak not reached: maximum at the warm end of the sweep (120.0 degC)",
+        "loss-factor peak not reached: maximum at the warm end of the sweep (120.0 °C)",
     )
 
 
@@ -111,7 +111,7 @@ def test_loss_modulus_peak_not_reached_at_cold_end():
     result = tg_loss_modulus_peak(GRID_5K, storage, loss_factor, 1.0)
     assert not result.reached and result.temperature_C is None
     assert result.note == (
-        "loss-modulus peak not reached: maximum at the cold end of the sweep (-60.0 degC)"
+        "loss-modulus peak not reached: maximum at the cold end of the sweep (-60.0 °C)"
     )
 
 
@@ -140,7 +140,7 @@ def test_storage_onset_inflection_beyond_warm_end():
     temperature = np.arange(-60.0, 26.0, 5.0)  # stops before the inflection at 30 degC
     result = tg_storage_onset(temperature, onset_curve(temperature), np.full(temperature.size, 0.1))
     assert not result.reached
-    assert "steepest descent at the warm end of the sweep (25.0 degC)" in result.note
+    assert "steepest descent at the warm end of the sweep (25.0 °C)" in result.note
 
 
 def test_storage_onset_without_glassy_region():
@@ -149,7 +149,7 @@ def test_storage_onset_without_glassy_region():
     assert not result.reached
     assert result.note == (
         "storage-modulus onset not reached: no glassy region before the drop "
-        "(the sweep starts at 20.0 degC)"
+        "(the sweep starts at 20.0 °C)"
     )
 
 
