@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import gc
 import os
+import threading
 from collections.abc import Callable, Iterator
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
@@ -16,13 +17,14 @@ from contextlib import contextmanager
 BLOCK_POINTS = 1 << 17  # points per block of array work: a 1 MiB float64 temporary
 WORKERS = max(1, min(os.cpu_count() or 1, 4))
 
+_THREAD_PREFIX = "quietgrade-block"
 _pool: ThreadPoolExecutor | None = None
 
 
 def _executor() -> ThreadPoolExecutor:
     global _pool
     if _pool is None:
-        _pool = ThreadPoolExecutor(WORKERS, thread_name_prefix="quietgrade")
+        _pool = ThreadPoolExecutor(WORKERS, thread_name_prefix=_THREAD_PREFIX)
     return _pool
 
 
@@ -42,7 +44,10 @@ def in_blocks(n: int, work: Callable[[int, int], None], grades_per_block: int) -
     block. An exception raised in a block is raised here."""
     size = max(1, int(grades_per_block))
     bounds = [(a, min(a + size, n)) for a in range(0, n, size)]
-    if len(bounds) <= 1 or WORKERS == 1:
+    # Work handed out from inside a block runs in that block's thread: a worker that
+    # waited on the pool it belongs to could wait for ever.
+    nested = threading.current_thread().name.startswith(_THREAD_PREFIX)
+    if len(bounds) <= 1 or WORKERS == 1 or nested:
         for a, b in bounds:
             work(a, b)
         return

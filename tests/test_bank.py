@@ -7,6 +7,8 @@ log-log, so agreement to 0.5 % is the interpolation error of that grid (common p
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 import pytest
 
@@ -154,3 +156,26 @@ def test_log_storage_at_is_the_table_of_evaluate(curves, bank):
         np.testing.assert_allclose(
             bank.log_storage_at(np.full(f.size, k), np.log10(f)), np.log10(storage[k]), rtol=1e-12
         )
+
+
+def test_blocks_handed_out_inside_a_block_run_in_its_thread(monkeypatch):
+    # A block that cuts its own work into blocks must not wait on the pool it runs in
+    # (with every worker busy that would never finish): the inner blocks run inline.
+    from engine import blocks
+
+    monkeypatch.setattr(blocks, "WORKERS", 2)
+    done = []
+
+    def inner(a, b):
+        done.append((a, b))
+
+    def outer(a, b):
+        blocks.in_blocks(4, inner, 1)
+
+    # Six outer blocks on two workers, four inner each; run from a thread of its own so
+    # that a stuck pool fails the test instead of hanging it.
+    runner = threading.Thread(target=blocks.in_blocks, args=(6, outer, 1), daemon=True)
+    runner.start()
+    runner.join(timeout=20.0)
+    assert not runner.is_alive(), "nested blocks waited on their own pool"
+    assert len(done) == 24
