@@ -91,6 +91,7 @@ def empty_figure(message: str) -> go.Figure:
 # -- map -----------------------------------------------------------------------------------
 
 
+LABEL_DECADES = 0.9  # width of a guide label on the map's loss-factor axis [decades]
 CROWD_LIMIT = 40  # more grades than this on the map: the rest share a few traces
 CROWD_TOP = 10  # passing grades always drawn on their own
 CROWD_CHOSEN = 20  # grades of the comparison set drawn on their own; more share traces
@@ -129,13 +130,14 @@ def _add_crowd(fig, props, grades, rows, eta, storage, temps, chosen: bool = Fal
         custom[:, :, 2] = np.array(states, dtype=object)[:, None]
         state = "passing" if passed else "excluded"
         if chosen:
-            colour = faded(INK, 0.85 if passed else 0.6)
+            alpha = 0.85 if passed else 0.6
             width, size = 3.0, 4
-            name = f"{ks.size} more {state} grades of the set"
+            name = f"{ks.size} more of the set, {state}"
         else:
-            colour = faded(INK, 0.35 if passed else 0.18)
-            width, size = 1.0, 3
-            name = f"{ks.size} other {state} grades"
+            alpha = 0.35 if passed else 0.18
+            width, size = 1.0, 2
+            name = f"{ks.size} more, {state}"
+        colour = faded(INK, alpha)
         group = f"{'set' if chosen else 'others'}, {state}"
         fig.add_trace(
             go.Scatter(
@@ -156,7 +158,8 @@ def _add_crowd(fig, props, grades, rows, eta, storage, temps, chosen: bool = Fal
                 name=name,
                 legendgroup=group,
                 showlegend=False,
-                marker={"size": size, "color": colour},
+                # WebGL draws a mark's colour at full strength: the fading is an opacity.
+                marker={"size": size, "color": INK, "opacity": alpha},
                 customdata=custom.reshape(-1, 3),  # grade, temperature, state
                 hovertemplate=(
                     "<b>%{customdata[0]}</b><br>T = %{customdata[1]:.0f} °C<br>"
@@ -229,7 +232,7 @@ def map_figure(
         )
         # Label where the guide enters the plot from the top or the left.
         x_top = d - yb
-        if xa <= x_top <= xb:
+        if xa <= x_top <= xb - LABEL_DECADES:  # room for the text inside the plot
             x_lab, y_lab = x_top, yb
         elif ya <= d - xa <= yb:
             x_lab, y_lab = xa, d - xa
@@ -343,7 +346,7 @@ def map_figure(
             "range": [ya, yb],
             "title": {"text": "storage modulus E' [MPa] (tensile equivalent)"},
         },
-        legend={"title": {"text": "grade<br>(dotted: excluded)"}, "itemclick": "toggle"},
+        legend={"title": {"text": "grade"}, "itemclick": "toggle"},
         hovermode="closest",
     )
     return tidy_log_axes(fig)

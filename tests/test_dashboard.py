@@ -6,7 +6,6 @@ reproduces the case, and a bad import shows its one-line reason and writes nothi
 """
 
 import base64
-import csv
 import json
 from pathlib import Path
 
@@ -14,6 +13,7 @@ import numpy as np
 import pytest
 
 from tests import synthetic
+from tests.crowd import CROWD_GRADES, SWEEP_HEADER, write_crowd_library
 
 pytest.importorskip("streamlit")
 
@@ -37,9 +37,6 @@ PAGES = {
     "views/shortlist.py": "Shortlist",
     "views/library.py": "Library",
 }
-SWEEP_HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"
-DEMO = ROOT / "demo_materials"
-CROWD_GRADES = 60  # more than the map draws one by one (charts.CROWD_LIMIT)
 
 
 @pytest.fixture(scope="module")
@@ -269,36 +266,8 @@ def test_import_edit_delete_and_restore(monkeypatch, tmp_path):
 
 @pytest.fixture(scope="module")
 def crowd_db(tmp_path_factory):
-    """A library of CROWD_GRADES grades: the demo grades copied under new ids, each copy's
-    moduli scaled by its own factor so that no two paths coincide; fitted once."""
-    folder = tmp_path_factory.mktemp("crowd")
-    with open(DEMO / "catalog.csv", newline="") as fh:
-        reader = csv.DictReader(fh)
-        header, catalog = list(reader.fieldnames), list(reader)
-    with open(DEMO / "sweeps.csv", newline="") as fh:
-        rows = list(csv.reader(fh))[1:]
-    sweeps = {}
-    for row in rows:
-        sweeps.setdefault(row[0], []).append(row[1:])
-    bases = [c for c in catalog if c["id"] in sweeps]
-    lines, copies = [SWEEP_HEADER.strip()], []
-    for k in range(CROWD_GRADES):
-        base = bases[k % len(bases)]
-        gid = f"CROWD-{k:03d}"
-        copies.append(dict(base, id=gid, name=f"copy {k} of {base['id']}"))
-        scale = 10.0 ** (0.4 * (k / CROWD_GRADES - 0.5))
-        for t, f, e, eta in sweeps[base["id"]]:
-            lines.append(f"{gid},{t},{f},{float(e) * scale:.6g},{eta}")
-    with open(folder / "catalog.csv", "w", newline="") as fh:
-        writer = csv.DictWriter(fh, fieldnames=header)
-        writer.writeheader()
-        writer.writerows(copies)
-    (folder / "sweeps.csv").write_text("\n".join(lines) + "\n")
-    db = folder / "crowd.sqlite"
-    lib = Library(str(db))
-    import_files(lib, [folder / "catalog.csv"], [folder / "sweeps.csv"])
-    fit_library(lib, processes=1)
-    return db
+    """A library of CROWD_GRADES grades (tests/crowd.py), fitted once."""
+    return write_crowd_library(tmp_path_factory.mktemp("crowd") / "crowd.sqlite")
 
 
 def _array(value) -> np.ndarray:

@@ -1,4 +1,5 @@
-"""Real-browser fixtures: a Streamlit server on 127.0.0.1 and Debian's chromium.
+"""Real-browser fixtures: dashboard servers on 127.0.0.1 (one serving the demo library,
+one a library too large for the map to draw grade by grade) and Debian's chromium.
 
 The tests are skipped, with the reason printed, only where chromium is absent.
 """
@@ -12,9 +13,13 @@ import subprocess
 import sys
 import time
 import urllib.request
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
+
+from tests.crowd import write_crowd_library
 
 ROOT = Path(__file__).resolve().parents[2]
 CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
@@ -46,14 +51,14 @@ def pytest_collection_modifyitems(config, items):
             item.add_marker(skip)
 
 
-@pytest.fixture(scope="session")
-def app_url(tmp_path_factory):
-    """Start the dashboard on a free port with a fresh demo library; yield (URL, library).
+@contextmanager
+def dashboard(db: Path, prepare: Callable[[dict], None]) -> Iterator[str]:
+    """Start the dashboard on a free port serving the library ``db``; yield its URL.
 
-    The server boots while the demo library is loaded (it opens the library only when
-    the first browser session runs the script).
+    ``prepare(env)`` fills the library while the server boots (the dashboard opens the
+    library only when the first browser session runs the script); ``env`` is the
+    server's environment.
     """
-    db = tmp_path_factory.mktemp("browser") / "library.sqlite"
     env = {**os.environ, "QUIETGRADE_DB": str(db)}
     port = _free_port()
     proc = subprocess.Popen(
@@ -78,6 +83,29 @@ def app_url(tmp_path_factory):
         stderr=subprocess.DEVNULL,
     )
     try:
+        prepare(env)
+        url = f"http://127.0.0.1:{port}"
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            try:
+                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                time.sleep(0.3)
+        else:
+            raise RuntimeError("the dashboard did not start within 60 s")
+        yield url
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+
+
+def _load_demo(env: dict) -> None:
+    try:
         subprocess.run(
             [sys.executable, "-m", "engine", "demo"],
             cwd=ROOT,
@@ -86,26 +114,24 @@ def app_url(tmp_path_factory):
             capture_output=True,
         )
     except subprocess.CalledProcessError as exc:
-        proc.kill()
         raise RuntimeError(f"loading the demo library failed: {exc.stderr.decode()}") from None
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        try:
-            with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                if r.status == 200:
-                    break
-        except OSError:
-            time.sleep(0.3)
-    else:
-        proc.kill()
-        raise RuntimeError("the dashboard did not start within 60 s")
-    yield url, db
-    proc.terminate()
-    try:
-        proc.wait(timeout=10)
-    except subprocess.TimeoutExpired:
-        proc.kill()
+
+
+@pytest.fixture(scope="session")
+def app_url(tmp_path_factory):
+    """The dashboard serving a fresh demo library: (URL, library)."""
+    db = tmp_path_factory.mktemp("browser") / "library.sqlite"
+    with dashboard(db, _load_demo) as url:
+        yield url, db
+
+
+@pytest.fixture(scope="session")
+def crowd_url(tmp_path_factory):
+    """The dashboard serving a library of CROWD_GRADES grades (tests/crowd.py), more
+    than the map draws one by one: (URL, library)."""
+    db = tmp_path_factory.mktemp("browser-crowd") / "crowd.sqlite"
+    with dashboard(db, lambda env: write_crowd_library(db)) as url:
+        yield url, db
 
 
 @pytest.fixture(scope="session")

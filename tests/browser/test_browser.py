@@ -20,17 +20,36 @@ import csv
 import os
 import re
 import shutil
-import time
 from pathlib import Path
 
 import pytest
 
 from dashboard import case, importing
 from engine.caution import CAUTION
-from engine.fits import fit_library
-from engine.ranking import rank
 from engine.store import Library
 from tests.browser.conftest import ROOT, SHOTS
+from tests.browser.driving import (
+    MAIN,
+    MAP_POINTS_JS,
+    PLOT,
+    box_select,
+    chips,
+    clear_box,
+    engine_result,
+    grades_in,
+    main_text,
+    map_grades,
+    map_session,
+    nav,
+    no_exception,
+    open_page,
+    poll,
+    settle,
+    shot,
+    steady,
+    table_rows,
+)
+from tests.crowd import SWEEP_HEADER
 
 pytestmark = pytest.mark.browser
 
@@ -41,173 +60,12 @@ PAGES = (
     ("shortlist", "Shortlist"),
     ("library", "Library"),
 )
-CHARTED = ("Map", "Curves", "Mount")
-STATUS = '[data-testid="stStatusWidget"]'
-EXCEPTION = '[data-testid="stException"]'
-MAIN = '[data-testid="stMain"]'
-PLOT = '[data-testid="stPlotlyChart"] .js-plotly-plot'
-TRACE = f"{PLOT} .scatterlayer .trace"
-CHIPS = ".st-key-compare_pick span[data-tag]"
 REASONS = '[data-testid="stExpander"] li'
-SWEEP_HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"
-WIDTH = 1280
-
-# Every point of every grade's path on the map, in viewport pixels, and each path's width.
-MAP_POINTS_JS = """(plot) => {
-  const gd = document.querySelector(plot);
-  const L = gd._fullLayout;
-  const r = gd.querySelector('.nsewdrag').getBoundingClientRect();
-  return {
-    box: {x: r.x, y: r.y, w: r.width, h: r.height},
-    traces: gd.calcdata.filter(cd => cd[0].trace.legendgroup).map(cd => ({
-      grade: cd[0].trace.legendgroup,
-      width: cd[0].trace.line.width,
-      points: cd.map(pt => [r.x + L.xaxis.c2p(pt.x), r.y + L.yaxis.c2p(pt.y)]),
-    })),
-  };
-}"""
-
-# Rows on screen of the first data frame under ``where`` whose columns begin with ``headers``.
-TABLE_JS = """([where, headers]) => {
-  for (const frame of document.querySelectorAll(where + ' [data-testid="stDataFrame"]')) {
-    const shown = [...frame.querySelectorAll('thead th')].map(th => th.innerText);
-    if (headers.every((h, k) => shown[k] === h)) {
-      const rows = [...frame.querySelectorAll('tbody tr')]
-        .map(tr => [...tr.querySelectorAll('td')].map(td => td.innerText));
-      if (rows.length) return rows;
-    }
-  }
-  return null;
-}"""
-
-CHIPS_ARE_JS = """([chips, want]) => JSON.stringify([...document.querySelectorAll(chips)]
-  .map(e => e.getAttribute('aria-label')).sort()) === JSON.stringify(want)"""
-
-
-# -- helpers ---------------------------------------------------------------------------------
-
-
-def settle(page) -> None:
-    """Wait until Streamlit has finished the run that the last action started."""
-    page.wait_for_timeout(300)  # a rerun starts a moment after the browser event
-    page.locator(STATUS).wait_for(state="detached", timeout=60_000)
-
-
-def wait_heading(page, title: str) -> None:
-    page.locator(f'{MAIN} [data-testid="stHeading"]').filter(has_text=title).first.wait_for()
-    if title in CHARTED:
-        page.locator(TRACE).first.wait_for()
-    settle(page)
-
-
-def open_page(page, url: str, path: str, title: str) -> None:
-    """Load the dashboard at ``path`` (a new session) and wait until it is drawn."""
-    page.goto(f"{url}/{path}")
-    wait_heading(page, title)
-
-
-def nav(page, title: str) -> None:
-    """Go to a page by the top navigation (same session, no reload) unless already there."""
-    heading = page.locator(f'{MAIN} [data-testid="stHeading"]').first
-    if heading.count() and heading.inner_text().strip() == title:
-        return
-    page.get_by_role("link", name=title, exact=True).click()
-    wait_heading(page, title)
-
-
-def main_text(page) -> str:
-    return " ".join(page.locator(MAIN).inner_text().split())
-
-
-# Bottom of the page's content [px]: the main column's blocks and the sidebar's.
-CONTENT_BOTTOM_JS = """() => {
-  const parts = document.querySelectorAll(
-    '[data-testid="stMainBlockContainer"], [data-testid="stSidebarUserContent"]');
-  return Math.max(...[...parts].map(e => e.getBoundingClientRect().bottom));
-}"""
-
-
-def shot(page, path: Path) -> Path:
-    """Screenshot 1280 px wide and exactly as tall as the content (Streamlit scrolls inside).
-
-    The viewport only grows, so a later shot on the same page rarely redraws the charts;
-    the picture is clipped to the content.
-    """
-    want = int(min(max(page.evaluate(CONTENT_BOTTOM_JS) + 24, 900), 6000))
-    if want > page.viewport_size["height"]:
-        page.set_viewport_size({"width": WIDTH, "height": want})
-        page.wait_for_timeout(500)  # Plotly and the data grids redraw for the new size
-        settle(page)
-        want = int(min(max(page.evaluate(CONTENT_BOTTOM_JS) + 24, 900), want))
-    path.parent.mkdir(parents=True, exist_ok=True)
-    page.screenshot(path=str(path), clip={"x": 0, "y": 0, "width": WIDTH, "height": want})
-    return path
-
-
-def table_rows(page, *headers: str) -> list[list[str]]:
-    """Rows on screen of the first main-area data frame whose columns begin with ``headers``.
-
-    Streamlit draws data frames on a canvas; the grid keeps an accessible table of the
-    cells on screen, which is what is read here (waiting until it has rows).
-    """
-    return page.wait_for_function(TABLE_JS, arg=[MAIN, list(headers)], timeout=20_000).json_value()
-
-
-def poll(read, done, timeout: float = 20.0, every: float = 0.25):
-    """Call ``read`` until ``done`` accepts its value or ``timeout`` [s] passes; the value."""
-    deadline = time.monotonic() + timeout
-    value = read()
-    while not done(value) and time.monotonic() < deadline:
-        time.sleep(every)
-        value = read()
-    return value
-
-
-def chips(page) -> list[str]:
-    return [c.get_attribute("aria-label") for c in page.locator(CHIPS).all()]
 
 
 def engine_shortlist(db: Path, temp_range: tuple[float, float]) -> list[str]:
     """The engine's own shortlist for the default case with the given window."""
-    lib = Library(str(db))
-    state = case.default_state()
-    state["c_temp"] = temp_range
-    curves, errors = fit_library(lib, processes=1)
-    materials = {m.id: m for m in lib.materials()}
-    result = rank(curves, materials, case.criteria_from_state(state), errors)
-    return [g.id for g in result.shortlist]
-
-
-def grades_in(drawn: dict, x0: float, x1: float, y0: float, y1: float) -> list[str]:
-    """Grades with a path point inside the pixel box (x0, x1) x (y0, y1)."""
-    return sorted(
-        t["grade"]
-        for t in drawn["traces"]
-        if any(x0 < x < x1 and y0 < y < y1 for x, y in t["points"])
-    )
-
-
-def clear_box(drawn: dict, margin: float = 3.0) -> tuple[float, float, float, float]:
-    """A box in the upper left of the plot (the stiff, lightly damped corner) that catches
-    some paths and has no path point within ``margin`` [px] of its edges."""
-    box = drawn["box"]
-    for dx in range(0, 60, 6):
-        x0, x1 = box["x"] + 4 + dx, box["x"] + 0.45 * box["w"] + dx
-        y0, y1 = box["y"] + 4, box["y"] + 0.25 * box["h"]
-        small = grades_in(drawn, x0 + margin, x1 - margin, y0 + margin, y1 - margin)
-        large = grades_in(drawn, x0 - margin, x1 + margin, y0 - margin, y1 + margin)
-        if small and small == large:
-            return x0, x1, y0, y1
-    raise AssertionError("no clear box over the map's paths: the test box needs moving")
-
-
-def map_grades(page) -> list[str]:
-    return [t["grade"] for t in page.evaluate(MAP_POINTS_JS, PLOT)["traces"]]
-
-
-def no_exception(page, where: str) -> None:
-    boxes = page.locator(EXCEPTION)
-    assert boxes.count() == 0, f"{where}: " + " | ".join(boxes.all_inner_texts())
+    return [g.id for g in engine_result(db, c_temp=temp_range).shortlist]
 
 
 @pytest.fixture(scope="module")
@@ -218,11 +76,8 @@ def map_page(app_url, context):
     tests that only look share this page and move about it by the top navigation.
     """
     url, _ = app_url
-    pg = context.new_page()
-    pg.set_default_timeout(60_000)
-    open_page(pg, url, "", "Map")
-    yield pg
-    pg.close()
+    with map_session(context, url) as pg:
+        yield pg
 
 
 # -- tests -----------------------------------------------------------------------------------
@@ -262,26 +117,12 @@ def test_a_box_on_the_map_fills_the_comparison_set(map_page):
     nav(page, "Map")
     page.locator(PLOT).scroll_into_view_if_needed()
     seeded = chips(page)
-    # Read the geometry once the plot has stopped moving (layout and resizes settle).
-    last = {}
-
-    def steady(drawn):
-        same, last["v"] = drawn == last.get("v"), drawn
-        return same
-
-    drawn = poll(lambda: page.evaluate(MAP_POINTS_JS, PLOT), steady, timeout=10.0, every=0.3)
-    x0, x1, y0, y1 = clear_box(drawn)
-    inside = grades_in(drawn, x0, x1, y0, y1)
+    drawn = steady(page, MAP_POINTS_JS)
+    box = clear_box(drawn)
+    inside = grades_in(drawn, *box)
     assert inside != sorted(seeded)
 
-    page.mouse.move(x0, y0)
-    page.mouse.down()
-    page.mouse.move((x0 + x1) / 2, (y0 + y1) / 2, steps=6)
-    page.mouse.move(x1, y1, steps=6)
-    page.mouse.up()
-    page.wait_for_function(CHIPS_ARE_JS, arg=[CHIPS, inside])
-    settle(page)
-    assert sorted(chips(page)) == inside
+    assert box_select(page, box, inside) == inside
     # The table, the link and the figure follow in the same run; read them once drawn.
     table = poll(
         lambda: table_rows(page, "grade", "name", "supplier", "status"),  # "Comparison set"
