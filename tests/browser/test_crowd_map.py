@@ -103,7 +103,8 @@ def test_hovering_an_excluded_shared_mark_shows_its_reasons(crowd):
     owner = np.repeat(list(points), [len(p) for p in points.values()])
 
     def isolated(gid: str, px: float, py: float, gap: float = 12.0) -> bool:
-        """Inside the plot by ``gap`` [px] and farther than that from other grades' marks."""
+        """Inside the plot by ``gap`` [px] and farther than that from other grades' marks
+        (the nearest mark under the pointer is the one Plotly labels)."""
         inside = box["x"] + gap < px < box["x"] + box["w"] - gap
         inside &= box["y"] + gap < py < bottom - gap
         near = np.hypot(everything[:, 0] - px, everything[:, 1] - py) < gap
@@ -121,8 +122,9 @@ def test_hovering_an_excluded_shared_mark_shows_its_reasons(crowd):
     )
     assert target, "no mark of an excluded shared-trace grade stands clear of the others"
     gid, px, py = target
-    page.mouse.move(px - 30, py - 30)
-    page.mouse.move(px, py, steps=5)
+    # From off the plot straight onto the mark: no hover on the way past other grades.
+    page.mouse.move(box["x"] + box["w"] + 5, box["y"] - 20)
+    page.mouse.move(px, py, steps=1)
     lines = page.wait_for_function(HOVER_JS, arg=drive.PLOT, timeout=10_000).json_value()
     reasons = "excluded: " + "; ".join(f.text() for f in grades[gid].failures)
     assert lines[0] == gid and lines[-1] == reasons
