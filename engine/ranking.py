@@ -44,12 +44,6 @@ DEFAULT_INDICES = {
     "damping_layer": [("loss_modulus", 1.0, "worst"), ("damping_span", 1.0, "worst")],
     "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
 }
-CATALOG_CONSTRAINTS = ("service range", "hardness", "price")
-MOUNT_CONSTRAINTS = (
-    "natural frequency",
-    "transmissibility at the disturbance",
-    "static strain incl. long-term sag",
-)
 MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
 LOG_FLOOR = 1e-12  # values at or below zero are scored as this (a damping span of 0 K)
 
