@@ -16,7 +16,7 @@ from engine import mount
 from engine.bank import CurveBank
 from engine.blocks import in_blocks, per_worker
 from engine.errors import CriteriaError, reject_unknown
-from engine.window import DEFAULT_POISSON
+from engine.window import poisson_or_default
 
 LAYOUTS = ("shear", "compression")
 SHAPES = ("disc", "square")
@@ -208,7 +208,7 @@ def check_mounts(
     n = len(ids)
     t = np.asarray(temperatures, dtype=float)
     notes: dict[str, list[str]] = {}
-    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)
+    nu = poisson_or_default(poisson)
     own_is_shear = bank.modes == "shear"
     if design.layout == "shear":
         to_layout = np.where(own_is_shear, 1.0, 1.0 / (2.0 * (1.0 + nu)))

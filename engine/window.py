@@ -201,9 +201,15 @@ class WindowProps:
         return self.path_loss / self.path_storage
 
 
+def poisson_or_default(poisson) -> np.ndarray:
+    """Each grade's Poisson ratio, :data:`DEFAULT_POISSON` where the catalog has none (NaN)."""
+    poisson = np.asarray(poisson, dtype=float)
+    return np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)
+
+
 def tensile_factor(modes, poisson) -> np.ndarray:
     """Factor that turns each grade's own modulus into a tensile one: 1 or 2(1 + nu)."""
-    nu = np.where(np.isnan(poisson), DEFAULT_POISSON, poisson)
+    nu = poisson_or_default(poisson)
     return np.where(np.asarray(modes) == "shear", 2.0 * (1.0 + nu), 1.0)
 
 
@@ -228,7 +234,7 @@ def evaluate_window(
         storage=storage,
         loss=loss,
         extrapolated=extrap,
-        poisson=np.where(np.isnan(poisson), DEFAULT_POISSON, poisson),
+        poisson=poisson_or_default(poisson),
     )
     if window.duty_points:
         dt = np.array([p.temperature_C for p in window.duty_points])
