@@ -132,6 +132,11 @@ def cmd_fit(args) -> int:
     lib = _library(args)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift)
     data = {"id": args.id, **summary(curve)}
+    if args.out:
+        from engine.modelfile import write_model
+
+        write_model(curve, args.out, args.id)
+    data["model_file"] = args.out
     law = curve.shift.law
     lines = [
         f"{args.id}: master curve at {curve.reference_C:g} °C, shift law {law.kind}",
@@ -156,6 +161,8 @@ def cmd_fit(args) -> int:
         flag = " (extrapolated)" if r["extrapolated"] else ""
         lines.append(f"  relaxation modulus at {label}: {r['modulus_MPa']:.4g} MPa{flag}")
     lines += [f"  note: {n}" for n in curve.notes]
+    if args.out:
+        lines.append(f"model written to {args.out}")
     _emit(args, data, lines)
     return 0
 
@@ -448,6 +455,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("fit", parents=[common, fit_opts], help="master curve of one grade")
     p.add_argument("id")
+    p.add_argument("--out", help="write the fitted model: model.json or .csv")
     p.set_defaults(func=cmd_fit)
 
     p = sub.add_parser("props", parents=[common, fit_opts], help="properties at T and f")

@@ -14,10 +14,22 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from engine.errors import FitError
-from engine.prony import PronySeries, fit_prony
-from engine.shift import ShiftResult, shift_isotherms, split_isotherms
+from engine.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
+from engine.jointfit import LawTemplate, fit_jointly
+from engine.prony import PronySeries, fit_prony, tau_grid
+from engine.shift import (
+    WLF_UNIVERSAL_C1,
+    WLF_UNIVERSAL_C2,
+    ShiftLaw,
+    ShiftResult,
+    shift_isotherms,
+    split_isotherms,
+    wlf_change_reference,
+)
 from engine.transitions import TG_METHODS, glass_transition, regions, secondary_transition
 from engine.units import c_to_k
+
+LN10 = np.log(10.0)
 
 # Candidate glass transitions dividing the WLF and Arrhenius regions; the one whose law
 # fits the pairwise shifts best is used (the storage onset lies nearest the calorimetric
@@ -37,6 +49,14 @@ MIN_WINDOW_SPREAD = 0.05  # decades of log10 E' a window needs to be informative
 NOISE_LOG_STORAGE = 0.0043  # 1 % in E', decades
 NOISE_LOG_ETA = 0.0086  # 2 % in tan delta, decades
 ISOTHERM_RESIDUAL_LIMIT = 0.1  # rms decades per isotherm about the master curve
+# Residuals that run along the isotherms in both E' and E'' (pooled lag-1 correlation
+# above this) mean the isotherms do not superpose; white noise gives about zero, the
+# smoothing of a sparse sheet up to about 0.45 in one of the two (a project value, set on
+# the synthetic round trips of tests/synthetic.py).
+SERIAL_CORRELATION_LIMIT = 0.2
+EXTRAPOLATION_SD_PER_DECADE = 0.1  # ln units added to the interval per decade beyond data
+LOG_SHIFT_LIMIT = 30.0  # decades: a law followed far outside its range is held here
+Z95 = 1.959964  # two-sided 95 % point of the normal distribution (scipy.stats.norm.ppf)
 # (the three limits are common practice values of this project, a few times the 1-2 %
 # scatter of a good DMA measurement)
 
@@ -50,6 +70,18 @@ class Props:
     loss_factor: np.ndarray  # [-]
     reduced_frequency: np.ndarray  # [Hz]
     extrapolated: np.ndarray  # bool
+
+
+@dataclass(frozen=True)
+class PropsBand:
+    """95 % intervals of the properties at (temperature, frequency), broadcast shape."""
+
+    storage_low: np.ndarray  # [Pa]
+    storage_high: np.ndarray  # [Pa]
+    loss_low: np.ndarray  # [Pa]
+    loss_high: np.ndarray  # [Pa]
+    loss_factor_low: np.ndarray  # [-]
+    loss_factor_high: np.ndarray  # [-]
 
 
 @dataclass
@@ -70,6 +102,8 @@ class MasterCurve:
     quality: dict = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
     gaps: list = field(default_factory=list)  # uncovered log10 fR intervals inside the range
+    grouping: dict = field(default_factory=dict)  # how the points were grouped (isotherms)
+    draws: dict | None = None  # encoded posterior draws of the model (see draw_curves)
     _tables: dict = field(default_factory=dict, repr=False, compare=False)
 
     # -- evaluation -----------------------------------------------------------------
@@ -81,7 +115,12 @@ class MasterCurve:
         fitted law carries on from the nearest end isotherm, so the curve is continuous.
         """
         t = np.asarray(temperature, dtype=float)
-        return self.shift.law.log_shift(t) + self.shift_correction(t)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            raw = self.shift.law.log_shift(t) + self.shift_correction(t)
+        # WLF diverges C2 below its reference: far outside the data the law is held at
+        # a bound (such values are flagged as extrapolated anyway).
+        raw = np.where(np.isfinite(raw), raw, np.where(t < self.reference_C, 1.0, -1.0) * 1e300)
+        return np.clip(raw, -LOG_SHIFT_LIMIT, LOG_SHIFT_LIMIT)
 
     def shift_correction(self, temperature):
         """Measured minus fitted log10 aT, interpolated in temperature (held at the ends)."""
@@ -123,10 +162,13 @@ class MasterCurve:
         1e-4 of the series itself); ``extrapolated`` where fR lies outside the
         reduced-frequency range the data cover, or T outside the measured temperatures.
         """
+        return self._evaluate(temperature, frequency, FINE_TABLE_STEP)
+
+    def _evaluate(self, temperature, frequency, table_step: float) -> Props:
         t = np.asarray(temperature, dtype=float)
         f = np.asarray(frequency, dtype=float)
         log_fr = np.log10(f) + self.log_shift(t)
-        start, step, ls, ll = self.table(FINE_TABLE_STEP)
+        start, step, ls, ll = self.table(table_step)
         pos = (log_fr - start) / step
         i0 = np.clip(np.floor(pos).astype(np.intp), 0, ls.size - 2)
         w = pos - i0
@@ -134,6 +176,122 @@ class MasterCurve:
         storage = 10.0 ** (ls[i0] * (1 - w) + ls[i0 + 1] * w) * scale
         loss = 10.0 ** (ll[i0] * (1 - w) + ll[i0 + 1] * w) * scale
         return Props(storage, loss, loss / storage, 10.0**log_fr, self.extrapolated(t, log_fr))
+
+    def draw_curves(self) -> list[MasterCurve]:
+        """The fit's posterior draws, each a master curve of its own (empty without draws).
+
+        Each draw is one plausible set of shift-law constants, isotherm shifts and
+        relaxation spectrum given the data (:func:`engine.jointfit.fit_jointly`); the
+        spread of anything computed from them is the data's uncertainty in it.
+        """
+        cached = self._tables.get("draws")
+        if cached is not None:
+            return cached
+        out = []
+        if self.draws:
+            d = {k: _decode_array(v) for k, v in self.draws.items() if k != "shape"}
+            k_draws = d["equilibrium"].size
+            weights = d["weights"].reshape(k_draws, -1)
+            shifts = d["log_shift"].reshape(k_draws, -1)
+            for k in range(k_draws):
+                law = ShiftLaw(
+                    **{
+                        **self.shift.law.to_dict(),
+                        "wlf_c1": _none_if_nan(d["wlf_c1"][k]),
+                        "wlf_c2": _none_if_nan(d["wlf_c2"][k]),
+                        "activation_J_per_mol": _none_if_nan(d["activation"][k]),
+                        "notes": (),
+                    }
+                )
+                shift = ShiftResult(self.shift.temperatures, shifts[k], self.shift.bridged, law)
+                prony = PronySeries(self.prony.tau, weights[k], float(d["equilibrium"][k]))
+                out.append(
+                    MasterCurve(
+                        mode=self.mode,
+                        reference_C=self.reference_C,
+                        shift=shift,
+                        prony=prony,
+                        log_fr_range=self.log_fr_range,
+                        temperature_range=self.temperature_range,
+                        frequency_range=self.frequency_range,
+                        vertical_shift=self.vertical_shift,
+                        gaps=self.gaps,
+                    )
+                )
+        self._tables["draws"] = out
+        return out
+
+    def extrapolation_decades(self, temperature, log_reduced_frequency):
+        """How far (decades of fR, or per 10 K beyond the measured temperatures) a point
+        lies outside the data; zero inside."""
+        t = np.asarray(temperature, dtype=float)
+        lo, hi = self.log_fr_range
+        x = np.asarray(log_reduced_frequency, dtype=float)
+        out = np.maximum(lo - x, 0.0) + np.maximum(x - hi, 0.0)
+        for g_lo, g_hi in self.gaps:
+            inside = (x > g_lo) & (x < g_hi)
+            out = np.where(inside, np.maximum(out, np.minimum(x - g_lo, g_hi - x)), out)
+        t_lo, t_hi = self.temperature_range
+        beyond = np.maximum(t_lo - t, 0.0) + np.maximum(t - t_hi, 0.0)
+        return out + beyond / 10.0
+
+    def interval(self, temperature, frequency) -> PropsBand:
+        """95 % intervals of E', E'' and the loss factor at ``temperature`` [degC] and
+        ``frequency`` [Hz] (broadcast).
+
+        Notes
+        -----
+        The spread (standard deviation in log) of the posterior draws of the fit
+        (:meth:`draw_curves`) about the fitted value, times 1.96; outside the data and
+        in gaps an extra EXTRAPOLATION_SD_PER_DECADE per decade (a project choice: the
+        draws cannot know how the material behaves where it was not measured). Without
+        draws (a curve stored before intervals existed) only the extrapolation term is
+        used.
+        """
+        t = np.asarray(temperature, dtype=float)
+        f = np.asarray(frequency, dtype=float)
+        centre = self._evaluate(t, f, TABLE_STEP)
+        ln_s, ln_l = np.log(centre.storage_modulus), np.log(centre.loss_modulus)
+        var_s = np.zeros(np.broadcast(t, f).shape)
+        var_l = np.zeros_like(var_s)
+        var_e = np.zeros_like(var_s)
+        draws = self.draw_curves()
+        if draws:
+            ds = np.empty((len(draws), *var_s.shape))
+            dl = np.empty_like(ds)
+            for k, d in enumerate(draws):
+                p = d._evaluate(t, f, TABLE_STEP)
+                ds[k], dl[k] = np.log(p.storage_modulus), np.log(p.loss_modulus)
+            var_s = np.mean((ds - ln_s) ** 2, axis=0)
+            var_l = np.mean((dl - ln_l) ** 2, axis=0)
+            var_e = np.mean(((dl - ds) - (ln_l - ln_s)) ** 2, axis=0)
+        log_fr = np.log10(centre.reduced_frequency)
+        extra = (EXTRAPOLATION_SD_PER_DECADE * self.extrapolation_decades(t, log_fr)) ** 2
+        fine = self.evaluate(t, f)
+        hs = Z95 * np.sqrt(var_s + extra)
+        hl = Z95 * np.sqrt(var_l + extra)
+        he = Z95 * np.sqrt(var_e + extra)
+        return PropsBand(
+            fine.storage_modulus * np.exp(-hs),
+            fine.storage_modulus * np.exp(hs),
+            fine.loss_modulus * np.exp(-hl),
+            fine.loss_modulus * np.exp(hl),
+            fine.loss_factor * np.exp(-he),
+            fine.loss_factor * np.exp(he),
+        )
+
+    def log_shift_interval(self, temperature):
+        """95 % interval (low, high) of log10 aT at ``temperature`` [degC]."""
+        t = np.asarray(temperature, dtype=float)
+        centre = self.log_shift(t)
+        draws = self.draw_curves()
+        var = np.zeros_like(centre)
+        if draws:
+            var = np.mean([(d.log_shift(t) - centre) ** 2 for d in draws], axis=0)
+        t_lo, t_hi = self.temperature_range
+        beyond = np.maximum(t_lo - t, 0.0) + np.maximum(t - t_hi, 0.0)
+        half = Z95 * np.sqrt(var + (EXTRAPOLATION_SD_PER_DECADE * beyond / 10.0) ** 2)
+        return centre - half, centre + half
 
     def relaxation_modulus(self, time, temperature):
         """E(t) [Pa] at ``time`` [s] and ``temperature`` [degC]: E(t/aT) at the reference."""
@@ -181,6 +339,8 @@ class MasterCurve:
             "regions": self.regions,
             "quality": self.quality,
             "notes": self.notes,
+            "grouping": self.grouping,
+            "draws": self.draws,
             "table": {**_encode_table(self.table()), "series": _series_key(self)},
         }
 
@@ -210,7 +370,37 @@ class MasterCurve:
             regions=data["regions"],
             quality=data["quality"],
             notes=data["notes"],
+            grouping=data.get("grouping", {}),
+            draws=data.get("draws"),
         )
+
+
+def _none_if_nan(value) -> float | None:
+    return None if not np.isfinite(value) else float(value)
+
+
+def _encode_array(values) -> str:
+    return base64.b64encode(np.asarray(values, dtype="<f8").tobytes()).decode("ascii")
+
+
+def _decode_array(text: str) -> np.ndarray:
+    return np.frombuffer(base64.b64decode(text), dtype="<f8").copy()
+
+
+def _encode_draws(draws) -> dict:
+    """Draws of (law, log_shift per isotherm, series) as base64 float arrays."""
+
+    def num(x):
+        return np.nan if x is None else float(x)
+
+    return {
+        "wlf_c1": _encode_array([num(law.wlf_c1) for law, _, _ in draws]),
+        "wlf_c2": _encode_array([num(law.wlf_c2) for law, _, _ in draws]),
+        "activation": _encode_array([num(law.activation_J_per_mol) for law, _, _ in draws]),
+        "log_shift": _encode_array(np.concatenate([s for _, s, _ in draws])),
+        "weights": _encode_array(np.concatenate([p.weights for _, _, p in draws])),
+        "equilibrium": _encode_array([p.equilibrium for _, _, p in draws]),
+    }
 
 
 def _series_key(curve: MasterCurve) -> str:
@@ -325,39 +515,142 @@ def _eta_collapse(log_storage: np.ndarray, log_eta: np.ndarray, window: int = 9)
     return float(1.4826 * np.median(np.abs(resid[informative])))
 
 
+def _start_law(temps, reference, split, glassy) -> ShiftLaw:
+    """A shift law to start the joint fit from when the pairwise shifts cannot give one.
+
+    WLF with the universal constants at Tg (Williams, Landel & Ferry 1955) above the
+    glass transition, Arrhenius with 200 kJ/mol (common practice start for a glassy
+    polymer) below it; the joint fit then finds the grade's own constants.
+    """
+    ea = 200e3
+    if split is None:
+        if glassy:
+            return ShiftLaw("Arrhenius", reference, activation_J_per_mol=ea)
+        # No transition seen: the data lie well above Tg; universal constants moved
+        # 50 K up (C1 = 8.86, C2 = 101.6 K), referred to the reference.
+        c1, c2 = wlf_change_reference(WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2, 0.0, 50.0)
+        return ShiftLaw("WLF", reference, c1, c2, reference)
+    if np.all(temps >= split - 1e-9):
+        return ShiftLaw("WLF", reference, WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2, split)
+    if np.all(temps <= split + 1e-9):
+        return ShiftLaw("Arrhenius", reference, activation_J_per_mol=ea)
+    return ShiftLaw(
+        "WLF+Arrhenius", reference, WLF_UNIVERSAL_C1, WLF_UNIVERSAL_C2, split, ea, split
+    )
+
+
+def _template(law: ShiftLaw, temps: np.ndarray) -> LawTemplate:
+    c2_min = 0.0
+    if law.kind in ("WLF", "WLF+Arrhenius"):
+        t_min = float(temps.min())
+        if law.kind == "WLF+Arrhenius":
+            t_min = max(t_min, float(law.split_C))
+        c2_min = max(5.0, float(law.wlf_reference_C) - t_min + 1.0)
+    return LawTemplate(law.kind, law.reference_C, law.wlf_reference_C, law.split_C, c2_min)
+
+
+def residual_correlation(labels, log_frequency, residual) -> float:
+    """Lag-1 correlation of fit residuals along frequency within each isotherm, pooled.
+
+    Notes
+    -----
+    Residuals about a master curve that superposes the data are measurement noise:
+    neighbouring frequencies of one isotherm are uncorrelated, so the pooled lag-1
+    correlation is near zero (its standard error is about 1/sqrt(pairs)). Where a second
+    process changes the shape of the curves with temperature, no single curve passes
+    through all isotherms and each isotherm's residuals run in long stretches of one sign
+    (the runs idea of Wald & Wolfowitz 1940, as a serial correlation; Draper & Smith 1998,
+    ch. 7).
+
+    References
+    ----------
+    Draper, N. R. and Smith, H. (1998). Applied Regression Analysis, 3rd ed. Wiley.
+    """
+    order = np.lexsort((log_frequency, labels))
+    lab, r = labels[order], residual[order]
+    same = lab[1:] == lab[:-1]
+    if same.sum() < 10:
+        return float("nan")
+    num = np.sum((r[1:] * r[:-1])[same])
+    den = np.sum(r * r)
+    return float(num / den) if den > 0 else float("nan")
+
+
+def _model_tg(curve: MasterCurve, frequency: float) -> list[dict]:
+    """Tg by each method on the fitted curve's isochrone at ``frequency`` [Hz], with the
+    95 % interval from the draws (``low_C``, ``high_C``)."""
+    t_lo, t_hi = curve.temperature_range
+    grid = np.arange(t_lo, t_hi + 0.25, 0.5)
+    if grid.size < 3:
+        return []
+
+    def tgs(c: MasterCurve):
+        p = c._evaluate(grid, frequency, TABLE_STEP)
+        return transitions_at(grid, p.storage_modulus, p.loss_factor, frequency)
+
+    best = tgs(curve)
+    draws = [tgs(d) for d in curve.draw_curves()]
+    for k, r in enumerate(best):
+        values = [d[k]["temperature_C"] for d in draws if d[k]["reached"]]
+        if r["reached"] and len(values) >= 3:
+            sd = float(np.sqrt(np.mean((np.array(values) - r["temperature_C"]) ** 2)))
+            r["low_C"] = r["temperature_C"] - Z95 * sd
+            r["high_C"] = r["temperature_C"] + Z95 * sd
+        else:
+            r["low_C"] = r["high_C"] = None
+    return best
+
+
 def build_master_curve(
     points: np.ndarray,
     mode: str,
     reference_C: float | None = None,
     vertical_shift: bool = False,
+    temperature_tolerance_K: float = DEFAULT_TOLERANCE_K,
 ) -> MasterCurve:
     """Fit a master curve to measured points.
 
     Parameters
     ----------
     points : array (n, 4)
-        temperature [degC], frequency [Hz], storage modulus [Pa], loss factor [-].
+        temperature [degC] (set-point or logged per point), frequency [Hz], storage
+        modulus [Pa], loss factor [-].
     mode : {"tensile", "shear"}
         Which modulus the points hold.
     reference_C : float, optional [degC]
-        Reference temperature. Default: the measured isotherm nearest the loss-factor
-        peak at 1 Hz, or, when the data show no peak, the isotherm nearest 20 degC.
+        Reference temperature. Default: the isotherm nearest the loss-factor peak at
+        1 Hz, or, when the data show no peak, the isotherm nearest 20 degC.
     vertical_shift : bool
         Apply the vertical factor T0/T (kelvin) to the moduli before superposition.
+    temperature_tolerance_K : float
+        Logged temperatures closer than this belong to one isotherm
+        (:func:`engine.isotherms.group_temperatures`).
 
     Notes
     -----
-    Steps: isotherms; Tg at 1 Hz from the measured data; pairwise horizontal shifts and a
-    WLF (above Tg) / Arrhenius (below Tg) law (:mod:`engine.shift`); a Prony series
-    fitted to E' and E'' on the master curve by NNLS (:mod:`engine.prony`); residuals per
-    isotherm and the eta-against-log E' check.
+    Steps: isotherms from the logged temperatures; Tg at 1 Hz from them; pairwise
+    horizontal shifts and a WLF (above Tg) / Arrhenius (below Tg) law
+    (:mod:`engine.shift`) as the start; a non-negative Prony series by NNLS
+    (:mod:`engine.prony`) as the start spectrum; then shift law, isotherm shifts and a
+    smooth spectrum fitted together to every point, with posterior draws for the
+    intervals (:mod:`engine.jointfit`); residuals per isotherm and the superposition
+    check; Tg of the fitted curve with its interval.
     """
     points = np.asarray(points, dtype=float)
     if points.ndim != 2 or points.shape[1] != 4 or points.shape[0] < 2:
         raise FitError("a master curve needs at least two measured points")
-    isotherms = split_isotherms(points[:, 0], points[:, 1], points[:, 2], points[:, 3])
-    temps = np.array([iso.temperature for iso in isotherms])
+    if not np.all(np.isfinite(points)):
+        raise FitError("a master curve needs finite values in every point")
+    if np.any(points[:, 1] <= 0) or np.any(points[:, 2] <= 0):
+        raise FitError("frequencies and storage moduli must be positive")
+    grouping = group_temperatures(points[:, 0], temperature_tolerance_K)
+    isotherms = split_isotherms(
+        *points.T, labels=grouping.labels, temperatures=grouping.temperatures
+    )
+    temps = grouping.temperatures
     notes: list[str] = []
+    if grouping.method != "set-points":
+        notes.append(grouping.describe())
 
     f_tg = 1.0
     t_curve, e_curve, eta_curve = isochrone(isotherms, f_tg)
@@ -388,74 +681,129 @@ def build_master_curve(
     storage = points[:, 2].copy()
     if vertical_shift:
         storage *= c_to_k(reference_C) / c_to_k(points[:, 0])
-        isotherms = split_isotherms(points[:, 0], points[:, 1], storage, points[:, 3])
-    shift = shift_isotherms(isotherms, reference_C, candidates or [None], glassy)
-    split = shift.law.split_C if shift.law.split_C is not None else split
-    for note in [*shift.notes, *shift.law.notes]:
+        isotherms = split_isotherms(
+            points[:, 0],
+            points[:, 1],
+            storage,
+            points[:, 3],
+            labels=grouping.labels,
+            temperatures=temps,
+        )
+    try:
+        start = shift_isotherms(isotherms, reference_C, candidates or [None], glassy)
+    except FitError:
+        # Too few overlapping pairs (a sparse sheet): start from a universal law and let
+        # the joint fit find the grade's own.
+        law = _start_law(temps, reference_C, split, glassy)
+        start = ShiftResult(temps, law.log_shift(temps), np.ones(temps.size, bool), law)
+        notes.append(
+            "too few overlapping isotherm pairs for the pairwise shifts: the shift law was "
+            "fitted to all points together from a universal start"
+        )
+    split = start.law.split_C if start.law.split_C is not None else split
+    for note in [*start.notes, *start.law.notes]:
         single = note.startswith("single isotherm") and len(isotherms) == 1
-        if note not in notes and not single:
+        bridged = "bridged with the shift law" in note
+        if note not in notes and not single and not bridged:
             notes.append(note)
 
-    # Master curve data: each point at its isotherm's shift.
-    t_round = np.round(points[:, 0], 1)
-    idx = np.searchsorted(temps, t_round)
-    log_fr = np.log10(points[:, 1]) + shift.log_shift[idx]
-    loss = storage * points[:, 3]
-    omega = 2.0 * np.pi * 10.0**log_fr
-    prony, report = fit_prony(
-        omega,
+    # Start spectrum: NNLS at the start shifts, each point at its own temperature.
+    labels = grouping.labels
+    law_corr = start.log_shift - start.law.log_shift(temps)
+    point_shift = start.law.log_shift(points[:, 0]) + law_corr[labels]
+    eta = np.maximum(points[:, 3], 1e-6)
+    loss = storage * eta
+    log_fr0 = np.log10(points[:, 1]) + point_shift
+    omega0 = 2.0 * np.pi * 10.0 ** np.clip(log_fr0, -250, 250)
+    tau = tau_grid(float(omega0.min()), float(omega0.max()), per_decade=PRONY_PER_DECADE)
+    prony0, _ = fit_prony(omega0, storage, loss, tau=tau, smoothing=PRONY_SMOOTHING)
+    reference_group = int(np.argmin(np.abs(temps - reference_C)))
+    template = _template(start.law, temps)
+    joint = fit_jointly(
+        points[:, 0],
+        points[:, 1],
         storage,
-        np.maximum(loss, storage * 1e-6),
-        per_decade=PRONY_PER_DECADE,
-        smoothing=PRONY_SMOOTHING,
+        loss,
+        labels,
+        temps,
+        start.law,
+        template,
+        start.log_shift,
+        tau,
+        prony0,
+        reference_group,
     )
+    law = ShiftLaw(**{**joint.law.to_dict(), "rms": start.law.rms, "notes": start.law.notes})
+    shift = ShiftResult(
+        temps, joint.log_shift, joint.from_law, law, start.pairs, [], joint.log_shift_sd
+    )
+    from_law = [float(t) for t, b in zip(temps, joint.from_law, strict=True) if b]
+    if from_law and len(isotherms) > 1:
+        notes.append(
+            f"{len(from_law)} of {temps.size} isotherms take their shift mostly from the law "
+            "(the data barely determine it): values there carry a wider interval"
+        )
+    prony = joint.prony
+    log_fr = joint.log_fr
+    omega = 2.0 * np.pi * 10.0**log_fr
 
-    # Quality: residual per isotherm against the spectrum, at the data shifts.
-    model_e = prony.storage(omega)
-    model_eta = prony.loss(omega) / model_e
-    r_e = np.log10(model_e / storage)
-    r_eta = np.log10(model_eta / np.maximum(points[:, 3], 1e-6))
+    # Quality: residual per isotherm against the fitted curve.
+    r_e = joint.residual_storage / LN10
+    r_eta = (joint.residual_loss - joint.residual_storage) / LN10
     per_iso = []
     for k, t in enumerate(temps):
-        sel = idx == k
+        sel = labels == k
         per_iso.append(
             {
                 "temperature_C": float(t),
+                "points": int(sel.sum()),
                 "log_shift": float(shift.log_shift[k]),
+                "log_shift_sd": float(shift.log_shift_sd[k]),
                 "bridged": bool(shift.bridged[k]),
                 "rms_log_storage": float(np.sqrt(np.mean(r_e[sel] ** 2))),
                 "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta[sel] ** 2))),
             }
         )
-    collapse = _eta_collapse(np.log10(storage), np.log10(np.maximum(points[:, 3], 1e-6)))
+    collapse = _eta_collapse(np.log10(storage), np.log10(eta))
     worst_iso = max(
         (max(p["rms_log_storage"], p["rms_log_loss_factor"]) for p in per_iso), default=0.0
     )
-    collapse_ok = not np.isfinite(collapse) or collapse <= ETA_COLLAPSE_LIMIT
+    log_f = np.log10(points[:, 1])
+    serial = [
+        residual_correlation(labels, log_f, joint.residual_storage),
+        residual_correlation(labels, log_f, joint.residual_loss),
+    ]
+    simple = not (np.isfinite(serial).all() and min(serial) > SERIAL_CORRELATION_LIMIT)
+    model_e = prony.storage(omega)
     quality = {
         "per_isotherm": per_iso,
         "rms_log_storage": float(np.sqrt(np.mean(r_e**2))),
         "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta**2))),
-        "prony_rms_storage": report.rms_storage,
-        "prony_rms_loss": report.rms_loss,
-        "prony_terms": report.n_terms,
+        "prony_rms_storage": float(np.sqrt(np.mean((model_e / storage - 1) ** 2))),
+        "prony_rms_loss": float(np.sqrt(np.mean((prony.loss(omega) / loss - 1) ** 2))),
+        "prony_terms": int(np.count_nonzero(prony.weights > 1e-12 * prony.glassy)),
+        "scatter_storage": joint.sigma_storage,
+        "scatter_loss_modulus": joint.sigma_loss,
         "eta_vs_log_storage_scatter": collapse,
         "worst_isotherm_rms": float(worst_iso),
-        "superposition_ok": bool(collapse_ok and worst_iso <= ISOTHERM_RESIDUAL_LIMIT),
+        "residual_serial_correlation": serial,
+        "superposition_ok": bool(simple and worst_iso <= ISOTHERM_RESIDUAL_LIMIT),
     }
     if worst_iso > ISOTHERM_RESIDUAL_LIMIT:
         notes.append(
             f"an isotherm lies {worst_iso:.2f} decades (rms) off the master curve: "
             "superposition is poor there"
         )
-    if np.isfinite(collapse) and collapse > ETA_COLLAPSE_LIMIT:
+    if not simple:
         notes.append(
-            f"loss factor against log E' scatters by {collapse:.3f} decades: the grade may not "
-            "be thermorheologically simple; treat superposed values with care"
+            f"the isotherms do not collapse onto one curve (residuals run along each "
+            f"isotherm: serial correlation {serial[0]:.2f} in E', {serial[1]:.2f} in E''): "
+            "the grade may not be thermorheologically simple (a second relaxation process "
+            "on another shift law); treat superposed values with care"
         )
 
-    # Stretches of reduced frequency the shifted data leave empty (a non-overlapping
-    # pair): values there come from the spectrum alone and are flagged like extrapolation.
+    # Stretches of reduced frequency the shifted data leave empty: values there come
+    # from the spectrum alone and are flagged like extrapolation.
     ordered = np.sort(log_fr)
     jumps = np.flatnonzero(np.diff(ordered) > GAP_DECADES)
     gaps = [(float(ordered[j]), float(ordered[j + 1])) for j in jumps]
@@ -468,26 +816,32 @@ def build_master_curve(
     secondary = None
     region_list: list[dict] = []
     if t_curve.size >= 3:
-        split_or_tg = split if split is not None else None
-        if split_or_tg is not None:
-            secondary = secondary_transition(t_curve, eta_curve, split_or_tg)
+        if split is not None:
+            secondary = secondary_transition(t_curve, eta_curve, split)
         region_list = [
             {"name": n, "low_C": float(lo), "high_C": float(hi)}
             for n, lo, hi in regions(t_curve, e_curve, eta_curve)
         ]
-    return MasterCurve(
+    curve = MasterCurve(
         mode=mode,
         reference_C=float(reference_C),
         shift=shift,
         prony=prony,
         log_fr_range=(float(log_fr.min()), float(log_fr.max())),
         gaps=gaps,
-        temperature_range=(float(temps.min()), float(temps.max())),
+        temperature_range=(float(points[:, 0].min()), float(points[:, 0].max())),
         frequency_range=(float(points[:, 1].min()), float(points[:, 1].max())),
         vertical_shift=vertical_shift,
-        tg=tg,
         secondary_C=None if secondary is None else float(secondary),
         regions=region_list,
         quality=quality,
         notes=notes,
+        grouping=grouping.to_dict(),
+        draws=_encode_draws(joint.draws),
     )
+    if len(isotherms) > 1:
+        model_tg = _model_tg(curve, f_tg)
+        curve.tg = model_tg or tg
+    else:
+        curve.tg = tg
+    return curve

@@ -155,21 +155,36 @@ class Isotherm:
     log_loss_factor: np.ndarray
 
 
-def split_isotherms(temperature, frequency, storage_modulus, loss_factor, decimals: int = 1):
+def split_isotherms(
+    temperature,
+    frequency,
+    storage_modulus,
+    loss_factor,
+    decimals: int = 1,
+    labels=None,
+    temperatures=None,
+):
     """Group measured points into isotherms, ordered by temperature.
 
-    Points whose temperatures agree to ``decimals`` places form one isotherm; within an
-    isotherm points are sorted by frequency and repeated frequencies are averaged in log.
+    With ``labels`` (the isotherm of each point, see :mod:`engine.isotherms`) and
+    ``temperatures`` (each isotherm's mean temperature [degC]) the points are grouped as
+    given; otherwise points whose temperatures agree to ``decimals`` places form one
+    isotherm. Within an isotherm points are sorted by frequency and repeated frequencies
+    are averaged in log.
     """
-    t = np.round(np.asarray(temperature, dtype=float), decimals)
+    if labels is None:
+        t = np.round(np.asarray(temperature, dtype=float), decimals)
+        values, labels = np.unique(t, return_inverse=True)
+        temperatures = values
+    labels = np.asarray(labels, dtype=np.intp)
     lf = np.log10(np.asarray(frequency, dtype=float))
     ls = np.log10(np.asarray(storage_modulus, dtype=float))
     # A loss factor of exactly zero is allowed in the data; floor it for the log scale.
     eta = np.maximum(np.asarray(loss_factor, dtype=float), 1e-6)
     le = np.log10(eta)
     out = []
-    for value in np.unique(t):
-        sel = t == value
+    for k, value in enumerate(np.asarray(temperatures, dtype=float)):
+        sel = labels == k
         freqs, inverse = np.unique(np.round(lf[sel], 6), return_inverse=True)
         count = np.bincount(inverse)
         out.append(
@@ -316,9 +331,21 @@ class ShiftResult:
     law: ShiftLaw
     pairs: list[PairShift] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    log_shift_sd: np.ndarray | None = None  # posterior sd of log10 aT [decades]
+
+    @property
+    def log_shift_low(self) -> np.ndarray | None:
+        """Lower end of the 95 % interval of log10 aT of each isotherm."""
+        return None if self.log_shift_sd is None else self.log_shift - 1.96 * self.log_shift_sd
+
+    @property
+    def log_shift_high(self) -> np.ndarray | None:
+        """Upper end of the 95 % interval of log10 aT of each isotherm."""
+        return None if self.log_shift_sd is None else self.log_shift + 1.96 * self.log_shift_sd
 
     def to_dict(self) -> dict:
         return {
+            "log_shift_sd": None if self.log_shift_sd is None else self.log_shift_sd.tolist(),
             "temperatures_C": self.temperatures.tolist(),
             "log_shift": self.log_shift.tolist(),
             "bridged": self.bridged.tolist(),
@@ -358,6 +385,9 @@ class ShiftResult:
             ShiftLaw.from_dict(data["law"]),
             pairs,
             list(data["notes"]),
+            None
+            if data.get("log_shift_sd") is None
+            else np.asarray(data["log_shift_sd"], dtype=float),
         )
 
 
