@@ -16,6 +16,7 @@ import numpy as np
 
 from engine import __version__
 from engine.errors import QuietgradeError
+from engine.isotherms import DEFAULT_TOLERANCE_K
 from engine.store import Library, default_location
 
 
@@ -126,11 +127,18 @@ def cmd_list(args) -> int:
     return 0
 
 
+def _tolerance(args) -> float:
+    tol = args.temperature_tolerance
+    if not np.isfinite(tol) or tol <= 0:
+        raise QuietgradeError(f"--temperature-tolerance: {tol:g} K must be positive")
+    return tol
+
+
 def cmd_fit(args) -> int:
     from engine.fits import master_curve, summary
 
     lib = _library(args)
-    curve = master_curve(lib, args.id, args.reference, args.vertical_shift)
+    curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
     data = {"id": args.id, **summary(curve)}
     if args.out:
         from engine.modelfile import write_model
@@ -139,15 +147,35 @@ def cmd_fit(args) -> int:
     data["model_file"] = args.out
     law = curve.shift.law
     lines = [
-        f"{args.id}: master curve at {curve.reference_C:g} °C, shift law {law.kind}",
+        f"{args.id}: master curve at {curve.reference_C:.1f} °C, shift law {law.kind}",
     ]
-    if "wlf" in data:
-        w = data["wlf"]
-        lines.append(f"  WLF C1 = {w['C1']:.3f}, C2 = {w['C2_K']:.1f} K at {w['reference_C']:g} °C")
+    if curve.grouping:
+        lines.append(f"  points: {curve.grouping['description']}")
+
+    def band(d, key, fmt):
+        lo, hi = d.get(f"{key}_low"), d.get(f"{key}_high")
+        return "" if lo is None or hi is None else f" (95 %: {lo:{fmt}} to {hi:{fmt}})"
+
+    for key, label in (("wlf", "at the reference"), ("wlf_at_tg", "at Tg")):
+        if key in data:
+            w = data[key]
+            lines.append(
+                f"  WLF C1 = {w['C1']:.3g}{band(w, 'C1', '.3g')}, C2 = {w['C2_K']:.1f} K"
+                f"{band(w, 'C2_K', '.1f')} {label}, {w['reference_C']:.1f} °C"
+            )
     if "arrhenius" in data:
-        lines.append(f"  Arrhenius Ea = {data['arrhenius']['activation_kJ_per_mol']:.0f} kJ/mol")
+        a = data["arrhenius"]
+        lines.append(
+            f"  Arrhenius Ea = {a['activation_kJ_per_mol']:.0f} kJ/mol"
+            f"{band(a, 'activation_kJ_per_mol', '.0f')}"
+        )
     for tg in curve.tg:
-        value = f"{tg['temperature_C']:.1f} °C" if tg["reached"] else tg["note"]
+        if tg["reached"]:
+            value = f"{tg['temperature_C']:.1f} °C"
+            if tg.get("low_C") is not None:
+                value += f" (95 %: {tg['low_C']:.1f} to {tg['high_C']:.1f} °C)"
+        else:
+            value = tg["note"]
         lines.append(f"  Tg ({tg['method']}, {tg['frequency_Hz']:g} Hz): {value}")
     lo, hi = data["reduced_frequency_range_Hz"]
     lines.append(f"  reduced frequency covered: {lo:.3g} to {hi:.3g} Hz")
@@ -171,12 +199,13 @@ def cmd_props(args) -> int:
     from engine.fits import master_curve
 
     lib = _library(args)
-    curve = master_curve(lib, args.id, args.reference, args.vertical_shift)
+    curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
     t = np.asarray(args.temp, dtype=float)[:, None]
     f = np.asarray(args.freq, dtype=float)[None, :]
     if (f <= 0).any():
         raise QuietgradeError("--freq: frequencies must be positive")
     p = curve.evaluate(t, f)
+    b = curve.interval(t, f)
     out = []
     for i in range(t.shape[0]):
         for j in range(f.shape[1]):
@@ -189,18 +218,26 @@ def cmd_props(args) -> int:
                     "loss_factor": float(p.loss_factor[i, j]),
                     "extrapolated": bool(p.extrapolated[i, j]),
                     "mode": curve.mode,
+                    "storage_MPa_low": float(b.storage_low[i, j] / 1e6),
+                    "storage_MPa_high": float(b.storage_high[i, j] / 1e6),
+                    "loss_MPa_low": float(b.loss_low[i, j] / 1e6),
+                    "loss_MPa_high": float(b.loss_high[i, j] / 1e6),
+                    "loss_factor_low": float(b.loss_factor_low[i, j]),
+                    "loss_factor_high": float(b.loss_factor_high[i, j]),
                 }
             )
     sym = "E" if curve.mode == "tensile" else "G"
     lines = [
         f"{'T [degC]':>9} {'f [Hz]':>9} {sym + chr(39) + ' [MPa]':>12} "
-        f"{sym + chr(39) * 2 + ' [MPa]':>12} {'tan d':>8}"
+        f"{sym + chr(39) * 2 + ' [MPa]':>12} {'tan d':>8}   95 % interval of {sym}' and tan d"
     ]
     for r in out:
         flag = "  extrapolated" if r["extrapolated"] else ""
         lines.append(
             f"{r['temp_C']:9.1f} {r['freq_Hz']:9.3g} {r['storage_MPa']:12.4g} "
-            f"{r['loss_MPa']:12.4g} {r['loss_factor']:8.4f}{flag}"
+            f"{r['loss_MPa']:12.4g} {r['loss_factor']:8.4f}   "
+            f"{r['storage_MPa_low']:.4g}-{r['storage_MPa_high']:.4g} MPa, "
+            f"{r['loss_factor_low']:.3g}-{r['loss_factor_high']:.3g}{flag}"
         )
     _emit(args, out, lines)
     return 0
@@ -451,6 +488,12 @@ def build_parser() -> argparse.ArgumentParser:
     fit_opts.add_argument("--reference", type=float, help="reference temperature [degC]")
     fit_opts.add_argument(
         "--vertical-shift", action="store_true", help="apply the T0/T vertical factor"
+    )
+    fit_opts.add_argument(
+        "--temperature-tolerance",
+        type=float,
+        default=DEFAULT_TOLERANCE_K,
+        help="logged temperatures closer than this [K] form one isotherm",
     )
 
     p = sub.add_parser("fit", parents=[common, fit_opts], help="master curve of one grade")

@@ -15,28 +15,43 @@ from pathlib import Path
 import numpy as np
 
 from engine.errors import FitError
+from engine.isotherms import DEFAULT_TOLERANCE_K
 from engine.mastercurve import MasterCurve, build_master_curve
+from engine.shift import wlf_change_reference
 from engine.store import Library
 
 Progress = Callable[[int, int], None]
 
 # The fit code itself is part of the cache key, so that a change to the fitting
 # chain refits even where the version number was not raised.
-_FIT_MODULES = ("shift.py", "prony.py", "transitions.py", "mastercurve.py", "units.py")
+_FIT_MODULES = (
+    "shift.py",
+    "prony.py",
+    "transitions.py",
+    "mastercurve.py",
+    "units.py",
+    "isotherms.py",
+    "jointfit.py",
+)
 FIT_FINGERPRINT = hashlib.sha256(
     b"".join((Path(__file__).parent / name).read_bytes() for name in _FIT_MODULES)
 ).hexdigest()[:12]
 
 
-def options_key(reference_C: float | None = None, vertical_shift: bool = False) -> str:
+def options_key(
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+    tolerance_K: float = DEFAULT_TOLERANCE_K,
+) -> str:
     ref = "auto" if reference_C is None else f"{float(reference_C):.3f}"
-    return f"ref={ref};vertical={int(bool(vertical_shift))};code={FIT_FINGERPRINT}"
+    tol = "" if tolerance_K == DEFAULT_TOLERANCE_K else f";tol={float(tolerance_K):.3f}"
+    return f"ref={ref};vertical={int(bool(vertical_shift))}{tol};code={FIT_FINGERPRINT}"
 
 
 def _fit_one(args) -> tuple[str, dict | str]:
-    material_id, points, mode, reference_C, vertical = args
+    material_id, points, mode, reference_C, vertical, tolerance = args
     try:
-        curve = build_master_curve(points, mode, reference_C, vertical)
+        curve = build_master_curve(points, mode, reference_C, vertical, tolerance)
     except FitError as exc:
         return material_id, f"error: {exc}"
     return material_id, curve.to_dict()
@@ -47,15 +62,19 @@ def master_curve(
     material_id: str,
     reference_C: float | None = None,
     vertical_shift: bool = False,
+    tolerance_K: float = DEFAULT_TOLERANCE_K,
 ) -> MasterCurve:
-    """The master curve of one grade from its newest data set (cached)."""
+    """The master curve of one grade from its newest data set (cached).
+
+    ``tolerance_K``: logged temperatures closer than this form one isotherm.
+    """
     material = library.material(material_id)
     dataset, points = library.latest_points(material_id)
-    key = options_key(reference_C, vertical_shift)
+    key = options_key(reference_C, vertical_shift, tolerance_K)
     cached = library.cached_fit(dataset.data_hash, key)
     if cached is not None and "error" not in cached:
         return MasterCurve.from_dict(cached)
-    curve = build_master_curve(points, material.mode, reference_C, vertical_shift)
+    curve = build_master_curve(points, material.mode, reference_C, vertical_shift, tolerance_K)
     library.store_fits({dataset.data_hash: curve.to_dict()}, key)
     return curve
 
@@ -88,7 +107,16 @@ def fit_library(
             else:
                 curves[mid] = MasterCurve.from_dict(cached[h])
         else:
-            todo.append((mid, latest[mid][1], materials[mid].mode, reference_C, vertical_shift))
+            todo.append(
+                (
+                    mid,
+                    latest[mid][1],
+                    materials[mid].mode,
+                    reference_C,
+                    vertical_shift,
+                    DEFAULT_TOLERANCE_K,
+                )
+            )
     total = len(hashes)
     done = total - len(todo)
     if progress:
@@ -123,31 +151,50 @@ def fit_library(
     return curves, errors
 
 
+def _sig(value, digits: int = 4):
+    """``value`` rounded to ``digits`` significant figures (None stays None)."""
+    if value is None or not np.isfinite(value):
+        return None
+    return float(f"{float(value):.{digits}g}")
+
+
 def summary(curve: MasterCurve) -> dict:
-    """The JSON summary of a fit printed by ``python -m engine fit``."""
+    """The JSON summary of a fit printed by ``python -m engine fit``.
+
+    Numbers carry the digits the data support: shift factors to 0.001 decade,
+    temperatures to 0.01 K, constants to four significant figures.
+    """
     law = curve.shift.law
+    lows, highs = curve.shift.log_shift_low, curve.shift.log_shift_high
+    per_iso = curve.quality.get("per_isotherm", [])
+    factors = []
+    for k, (t, a, b) in enumerate(
+        zip(curve.shift.temperatures, curve.shift.log_shift, curve.shift.bridged, strict=True)
+    ):
+        entry = {
+            "temp_C": round(float(t), 2),
+            "log_aT": round(float(a), 3),
+            "log_aT_low": None if lows is None else round(float(lows[k]), 3),
+            "log_aT_high": None if highs is None else round(float(highs[k]), 3),
+            "bridged": bool(b),
+            "law_log_aT": round(float(law.log_shift(t)), 3),
+        }
+        if k < len(per_iso) and "points" in per_iso[k]:
+            entry["points"] = per_iso[k]["points"]
+        factors.append(entry)
     out: dict = {
         "reference_C": curve.reference_C,
         "mode": curve.mode,
+        "grouping": curve.grouping,
         "shift_law": law.kind,
-        "shift_factors": [
-            {
-                "temp_C": float(t),
-                "log_aT": float(a),
-                "bridged": bool(b),
-                "law_log_aT": float(law.log_shift(t)),
-            }
-            for t, a, b in zip(
-                curve.shift.temperatures, curve.shift.log_shift, curve.shift.bridged, strict=True
-            )
-        ],
-        "shift_law_rms": law.rms,
+        "shift_factors": factors,
+        "shift_law_rms": _sig(law.rms),
         "tg": curve.tg,
         "secondary_transition_C": curve.secondary_C,
         "regions": curve.regions,
         "reduced_frequency_range_Hz": [
-            10.0 ** curve.log_fr_range[0],
-            10.0 ** curve.log_fr_range[1],
+            _sig(10.0 ** curve.log_fr_range[0]),
+            _sig(10.0 ** curve.log_fr_range[1]),
         ],
         "log_reduced_frequency_range": list(curve.log_fr_range),
         "measured_temperature_range_C": list(curve.temperature_range),
@@ -156,19 +203,75 @@ def summary(curve: MasterCurve) -> dict:
         "relaxation_modulus": relaxation_summary(curve),
         "notes": curve.notes,
     }
-    if law.kind in ("WLF", "WLF+Arrhenius"):
-        out["wlf"] = {"C1": law.wlf_c1, "C2_K": law.wlf_c2, "reference_C": law.wlf_reference_C}
-    if law.kind in ("Arrhenius", "WLF+Arrhenius"):
-        out["arrhenius"] = {
-            "activation_kJ_per_mol": law.activation_J_per_mol / 1e3,
-            "reference_C": law.split_C if law.kind == "WLF+Arrhenius" else law.reference_C,
-            "below_C": law.split_C,
-        }
+    out.update(law_constants(curve))
     if law.kind == "WLF+Arrhenius":
         out["law_used"] = [
-            {"law": "Arrhenius", "below_C": law.split_C},
-            {"law": "WLF", "from_C": law.split_C},
+            {"law": "Arrhenius", "below_C": _sig(law.split_C)},
+            {"law": "WLF", "from_C": _sig(law.split_C)},
         ]
+    return out
+
+
+def law_constants(curve: MasterCurve) -> dict:
+    """WLF and Arrhenius constants with their 95 % intervals from the fit's draws.
+
+    WLF is given at the master curve's reference temperature (``wlf``; Ferry 1980,
+    ch. 11 reference change) and, where the law was fitted from a glass transition, at
+    that temperature too (``wlf_at_tg``). Intervals are the 2.5 and 97.5 percentiles over
+    the draws.
+    """
+    law = curve.shift.law
+    draws = [d.shift.law for d in curve.draw_curves()]
+    out: dict = {}
+
+    def spread(values):
+        v = np.array([x for x in values if x is not None and np.isfinite(x)], dtype=float)
+        if v.size < 3:
+            return None, None
+        return _sig(np.percentile(v, 2.5)), _sig(np.percentile(v, 97.5))
+
+    def at(lw, reference):
+        try:
+            return wlf_change_reference(lw.wlf_c1, lw.wlf_c2, lw.wlf_reference_C, reference)
+        except FitError:  # a reference below the divergence has no WLF constants
+            return None, None
+
+    if law.kind in ("WLF", "WLF+Arrhenius"):
+        c1, c2 = at(law, curve.reference_C)
+        pairs = [at(d, curve.reference_C) for d in draws]
+        c1_lo, c1_hi = spread(p[0] for p in pairs)
+        c2_lo, c2_hi = spread(p[1] for p in pairs)
+        out["wlf"] = {
+            "C1": _sig(c1),
+            "C2_K": _sig(c2),
+            "reference_C": curve.reference_C,
+            "C1_low": c1_lo,
+            "C1_high": c1_hi,
+            "C2_K_low": c2_lo,
+            "C2_K_high": c2_hi,
+        }
+        if law.wlf_reference_C is not None and law.wlf_reference_C != curve.reference_C:
+            lo1, hi1 = spread(d.wlf_c1 for d in draws)
+            lo2, hi2 = spread(d.wlf_c2 for d in draws)
+            out["wlf_at_tg"] = {
+                "C1": _sig(law.wlf_c1),
+                "C2_K": _sig(law.wlf_c2),
+                "reference_C": _sig(law.wlf_reference_C),
+                "C1_low": lo1,
+                "C1_high": hi1,
+                "C2_K_low": lo2,
+                "C2_K_high": hi2,
+                "label": "at the glass transition dividing the WLF and Arrhenius laws",
+            }
+    if law.kind in ("Arrhenius", "WLF+Arrhenius"):
+        lo, hi = spread((d.activation_J_per_mol or np.nan) / 1e3 for d in draws)
+        out["arrhenius"] = {
+            "activation_kJ_per_mol": _sig(law.activation_J_per_mol / 1e3),
+            "activation_kJ_per_mol_low": lo,
+            "activation_kJ_per_mol_high": hi,
+            "reference_C": _sig(law.split_C if law.kind == "WLF+Arrhenius" else law.reference_C),
+            "below_C": _sig(law.split_C),
+        }
     return out
 
 

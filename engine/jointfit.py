@@ -178,6 +178,7 @@ def fit_jointly(
     start_prony: PronySeries,
     reference_group: int,
     rng_seed: int = 20261202,
+    n_draws: int = N_DRAWS,
 ) -> JointResult:
     """Fit the shift law, isotherm corrections and log-spectrum to all points.
 
@@ -196,6 +197,8 @@ def fit_jointly(
         Relaxation times of the spectrum; ``start_prony`` its start weights.
     reference_group : int
         The isotherm whose correction is pinned at zero (fixes the origin of fR).
+    n_draws : int
+        Posterior draws to make (0: none, and no interval).
 
     Notes
     -----
@@ -352,7 +355,7 @@ def fit_jointly(
     except np.linalg.LinAlgError:
         vals, vecs = np.linalg.eigh(cov)
         chol_c = vecs * np.sqrt(np.maximum(vals, 0.0))
-    samples = p[None, :] + rng.standard_normal((N_DRAWS, p.size)) @ chol_c.T
+    samples = p[None, :] + rng.standard_normal((n_draws, p.size)) @ chol_c.T
 
     def model_of(q):
         theta, b, ueq, u = unpack(q)
@@ -369,8 +372,8 @@ def fit_jointly(
 
     law, log_shift, series = model_of(p)
     draws = [model_of(q) for q in samples]
-    shifts = np.array([d[1] for d in draws])
-    shift_sd = shifts.std(axis=0)
+    shifts = np.array([d[1] for d in draws]).reshape(len(draws), n_groups)
+    shift_sd = np.sqrt(np.mean((shifts - log_shift) ** 2, axis=0)) if draws else None
     # An isotherm whose shift its own points barely fix (their information alone leaves
     # it less certain than the prior) takes its shift from the law.
     n_data = 2 * t.size

@@ -15,7 +15,7 @@ import numpy as np
 
 from engine.errors import FitError
 from engine.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
-from engine.jointfit import LawTemplate, fit_jointly
+from engine.jointfit import N_DRAWS, LawTemplate, fit_jointly
 from engine.prony import PronySeries, fit_prony, tau_grid
 from engine.shift import (
     WLF_UNIVERSAL_C1,
@@ -54,7 +54,11 @@ ISOTHERM_RESIDUAL_LIMIT = 0.1  # rms decades per isotherm about the master curve
 # smoothing of a sparse sheet up to about 0.45 in one of the two (a project value, set on
 # the synthetic round trips of tests/synthetic.py).
 SERIAL_CORRELATION_LIMIT = 0.2
-EXTRAPOLATION_SD_PER_DECADE = 0.1  # ln units added to the interval per decade beyond data
+# Added to the interval per decade of fR beyond the data (or per 10 K beyond the
+# measured temperatures), in ln units, for (E', E'' and tan delta): where nothing was
+# measured the spectrum alone says nothing reliable, and the loss factor can change far
+# faster than the storage modulus (a project choice, set on the synthetic round trips).
+EXTRAPOLATION_SD = (0.3, 1.0)
 LOG_SHIFT_LIMIT = 30.0  # decades: a law followed far outside its range is held here
 Z95 = 1.959964  # two-sided 95 % point of the normal distribution (scipy.stats.norm.ppf)
 # (the three limits are common practice values of this project, a few times the 1-2 %
@@ -243,7 +247,7 @@ class MasterCurve:
         -----
         The spread (standard deviation in log) of the posterior draws of the fit
         (:meth:`draw_curves`) about the fitted value, times 1.96; outside the data and
-        in gaps an extra EXTRAPOLATION_SD_PER_DECADE per decade (a project choice: the
+        in gaps an extra EXTRAPOLATION_SD per decade (a project choice: the
         draws cannot know how the material behaves where it was not measured). Without
         draws (a curve stored before intervals existed) only the extrapolation term is
         used.
@@ -266,11 +270,13 @@ class MasterCurve:
             var_l = np.mean((dl - ln_l) ** 2, axis=0)
             var_e = np.mean(((dl - ds) - (ln_l - ln_s)) ** 2, axis=0)
         log_fr = np.log10(centre.reduced_frequency)
-        extra = (EXTRAPOLATION_SD_PER_DECADE * self.extrapolation_decades(t, log_fr)) ** 2
+        distance = self.extrapolation_decades(t, log_fr)
+        extra_s = (EXTRAPOLATION_SD[0] * distance) ** 2
+        extra_l = (EXTRAPOLATION_SD[1] * distance) ** 2
         fine = self.evaluate(t, f)
-        hs = Z95 * np.sqrt(var_s + extra)
-        hl = Z95 * np.sqrt(var_l + extra)
-        he = Z95 * np.sqrt(var_e + extra)
+        hs = Z95 * np.sqrt(var_s + extra_s)
+        hl = Z95 * np.sqrt(var_l + extra_l)
+        he = Z95 * np.sqrt(var_e + extra_l)
         return PropsBand(
             fine.storage_modulus * np.exp(-hs),
             fine.storage_modulus * np.exp(hs),
@@ -290,7 +296,7 @@ class MasterCurve:
             var = np.mean([(d.log_shift(t) - centre) ** 2 for d in draws], axis=0)
         t_lo, t_hi = self.temperature_range
         beyond = np.maximum(t_lo - t, 0.0) + np.maximum(t - t_hi, 0.0)
-        half = Z95 * np.sqrt(var + (EXTRAPOLATION_SD_PER_DECADE * beyond / 10.0) ** 2)
+        half = Z95 * np.sqrt(var + (EXTRAPOLATION_SD[0] * beyond / 10.0) ** 2)
         return centre - half, centre + half
 
     def relaxation_modulus(self, time, temperature):
@@ -607,6 +613,7 @@ def build_master_curve(
     reference_C: float | None = None,
     vertical_shift: bool = False,
     temperature_tolerance_K: float = DEFAULT_TOLERANCE_K,
+    intervals: bool = True,
 ) -> MasterCurve:
     """Fit a master curve to measured points.
 
@@ -625,6 +632,9 @@ def build_master_curve(
     temperature_tolerance_K : float
         Logged temperatures closer than this belong to one isotherm
         (:func:`engine.isotherms.group_temperatures`).
+    intervals : bool
+        Make the posterior draws behind every 95 % interval (False: the fitted curve
+        only, about half the time).
 
     Notes
     -----
@@ -732,12 +742,17 @@ def build_master_curve(
         tau,
         prony0,
         reference_group,
+        n_draws=N_DRAWS if intervals else 0,
     )
     law = ShiftLaw(**{**joint.law.to_dict(), "rms": start.law.rms, "notes": start.law.notes})
+    # An isotherm of a single frequency shows no shape of its own: a modulus error and a
+    # shift error look alike, so its shift is the law's as much as its own.
+    shapeless = np.array([iso.log_frequency.size < 2 for iso in isotherms])
+    from_law_mask = joint.from_law | (shapeless & (np.arange(temps.size) != reference_group))
     shift = ShiftResult(
-        temps, joint.log_shift, joint.from_law, law, start.pairs, [], joint.log_shift_sd
+        temps, joint.log_shift, from_law_mask, law, start.pairs, [], joint.log_shift_sd
     )
-    from_law = [float(t) for t, b in zip(temps, joint.from_law, strict=True) if b]
+    from_law = [float(t) for t, b in zip(temps, from_law_mask, strict=True) if b]
     if from_law and len(isotherms) > 1:
         notes.append(
             f"{len(from_law)} of {temps.size} isotherms take their shift mostly from the law "
@@ -758,7 +773,9 @@ def build_master_curve(
                 "temperature_C": float(t),
                 "points": int(sel.sum()),
                 "log_shift": float(shift.log_shift[k]),
-                "log_shift_sd": float(shift.log_shift_sd[k]),
+                "log_shift_sd": None
+                if shift.log_shift_sd is None
+                else float(shift.log_shift_sd[k]),
                 "bridged": bool(shift.bridged[k]),
                 "rms_log_storage": float(np.sqrt(np.mean(r_e[sel] ** 2))),
                 "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta[sel] ** 2))),
@@ -837,7 +854,7 @@ def build_master_curve(
         quality=quality,
         notes=notes,
         grouping=grouping.to_dict(),
-        draws=_encode_draws(joint.draws),
+        draws=_encode_draws(joint.draws) if joint.draws else None,
     )
     if len(isotherms) > 1:
         model_tg = _model_tg(curve, f_tg)

@@ -26,6 +26,12 @@ from tests import synthetic
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_materials"
 PROPS_KEYS = {
+    "storage_MPa_low",
+    "storage_MPa_high",
+    "loss_MPa_low",
+    "loss_MPa_high",
+    "loss_factor_low",
+    "loss_factor_high",
     "temp_C",
     "freq_Hz",
     "storage_MPa",
@@ -212,7 +218,13 @@ def test_fit_json(cli):
     law = synthetic.TRUE_LAW
     truth = law.log_shift(temps) - law.log_shift(data["reference_C"])
     assert np.max(np.abs(log_at - truth)) < 0.1
+    # Each shift factor carries its 95 % interval, containing the value.
+    for s in data["shift_factors"]:
+        assert s["log_aT_low"] <= s["log_aT"] <= s["log_aT_high"]
+    assert isinstance(data["residuals"]["superposition_ok"], bool)
     assert set(data["wlf"]) >= {"C1", "C2_K", "reference_C"}
+    # WLF constants are given at the master curve's own reference.
+    assert data["wlf"]["reference_C"] == data["reference_C"]
     # WLF constants moved to Tg = -20 degC (Ferry 1980, ch. 11: C2' = C2 + T1 - T0,
     # C1' = C1 C2 / C2') against the universal 17.44 and 51.6 K of the model (WLF 1955).
     w = data["wlf"]
@@ -260,6 +272,11 @@ def test_props_json(cli):
         # MPa in, MPa out: the fitted curve within 3 % of the imported 1 %-noise value.
         assert r["storage_MPa"] == pytest.approx(data[(r["temp_C"], r["freq_Hz"])], rel=0.03)
         assert r["loss_MPa"] == pytest.approx(r["loss_factor"] * r["storage_MPa"], rel=1e-9)
+        # The 95 % interval (DESIGN.md contract) brackets each value and stays narrow on
+        # dense 1 %-noise data (a few per cent).
+        for key in ("storage_MPa", "loss_MPa", "loss_factor"):
+            assert r[f"{key}_low"] <= r[key] <= r[f"{key}_high"]
+            assert r[f"{key}_high"] / r[f"{key}_low"] < 1.15
 
 
 # ---------------------------------------------------------------- failures
