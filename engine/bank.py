@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from engine.blocks import collector_paused, in_blocks, per_block
-from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve
+from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve, hold_log_shift
 from engine.shift import GAS_CONSTANT, LN10
 from engine.units import c_to_k
 
@@ -171,7 +171,7 @@ class CurveBank:
         kind = self.kind[g]
         with np.errstate(invalid="ignore", divide="ignore"):
             c1, c2, tw = self.c1[g], self.c2[g], self.wlf_reference[g]
-            wlf = -c1 * (t - tw) / (c2 + t - tw)
+            wlf = np.where(c2 + t - tw > 0, -c1 * (t - tw) / (c2 + t - tw), np.inf)
             ea = self.activation[g] / (LN10 * GAS_CONSTANT)
             split = self.split[g]
             arr_ref = np.where(kind == 3, split, self.reference[g])
@@ -258,7 +258,9 @@ class CurveBank:
 
     def shift_at(self, g, t):
         """log10 aT of grades ``g`` at temperatures ``t`` (broadcast), as MasterCurve."""
-        return self._raw_law(t, g) - self._raw_law(self.reference[g], g) + self._correction(g, t)
+        with np.errstate(invalid="ignore"):
+            raw = self._raw_law(t, g) - self._raw_law(self.reference[g], g)
+        return hold_log_shift(raw + self._correction(g, t), t, self.reference[g])
 
     def _correction(self, g, t):
         if self.correction is None:

@@ -76,6 +76,15 @@ class Props:
     extrapolated: np.ndarray  # bool
 
 
+def hold_log_shift(log_shift, temperature, reference_C):
+    """log10 aT held within +-LOG_SHIFT_LIMIT; non-finite values (below a WLF
+    divergence) are held at the bound on their side of the reference."""
+    side = np.where(np.asarray(temperature) < reference_C, 1.0, -1.0) * LOG_SHIFT_LIMIT
+    return np.clip(
+        np.where(np.isfinite(log_shift), log_shift, side), -LOG_SHIFT_LIMIT, LOG_SHIFT_LIMIT
+    )
+
+
 @dataclass(frozen=True)
 class PropsBand:
     """95 % intervals of the properties at (temperature, frequency), broadcast shape."""
@@ -123,8 +132,7 @@ class MasterCurve:
             raw = self.shift.law.log_shift(t) + self.shift_correction(t)
         # WLF diverges C2 below its reference: far outside the data the law is held at
         # a bound (such values are flagged as extrapolated anyway).
-        raw = np.where(np.isfinite(raw), raw, np.where(t < self.reference_C, 1.0, -1.0) * 1e300)
-        return np.clip(raw, -LOG_SHIFT_LIMIT, LOG_SHIFT_LIMIT)
+        return hold_log_shift(raw, t, self.reference_C)
 
     def shift_correction(self, temperature):
         """Measured minus fitted log10 aT, interpolated in temperature (held at the ends)."""

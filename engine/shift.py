@@ -113,13 +113,20 @@ class ShiftLaw:
         if self.kind == "none":
             return np.zeros_like(t)
         if self.kind == "WLF":
-            return wlf_log_shift(t, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+            return self._wlf(t)
         if self.kind == "Arrhenius":
             return arrhenius_log_shift(t, self.activation_J_per_mol, self.reference_C)
-        wlf = wlf_log_shift(t, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+        wlf = self._wlf(t)
         at_split = wlf_log_shift(self.split_C, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
         arr = at_split + arrhenius_log_shift(t, self.activation_J_per_mol, self.split_C)
         return np.where(t >= self.split_C, wlf, arr)
+
+    def _wlf(self, t):
+        """WLF, +inf at and below its divergence T0 - C2 (the law has no meaning there)."""
+        dt = t - self.wlf_reference_C
+        with np.errstate(divide="ignore", invalid="ignore"):
+            value = wlf_log_shift(t, self.wlf_c1, self.wlf_c2, self.wlf_reference_C)
+        return np.where(self.wlf_c2 + dt > 0, value, np.inf)
 
     def log_shift(self, temperature):
         """log10 aT at ``temperature`` [degC], zero at the reference temperature."""
