@@ -28,7 +28,6 @@ SMOOTHING = 0.5  # sd of the second difference of ln E_i per grid step is 1/SMOO
 RIDGE_LN = 5.0  # weak prior on each ln E_i about its start (keeps the ends bounded)
 SPLIT_PRIOR_K = 10.0  # sd of the WLF/Arrhenius split about its start (the data's Tg)
 LAW_PRIOR_LN = 1.5  # sd of ln C1, ln(C2 - C2min), ln Ea about their start values
-NOISE_START = 0.02  # start value of the relative scatter of E' and E'' (2 %)
 NOISE_FLOOR = 0.003  # the scatter estimate never goes below 0.3 %
 FLOOR_WEIGHT = 1e-6  # relative floor of a Prony weight in the start spectrum
 Z_LIMIT = 700.0  # |ln(omega tau)| beyond which the basis is flat (no overflow)
@@ -182,47 +181,48 @@ def fit_jointly(
 ) -> JointResult:
     """Fit the shift law, isotherm corrections and log-spectrum to all points.
 
-    Parameters
-    ----------
-    temperature, frequency : array [degC], [Hz]
-        Logged temperature and frequency of each point.
-    storage_modulus, loss_modulus : array [Pa]
-    labels : int array
-        Isotherm of each point; ``group_temperatures`` [degC] their mean temperatures,
-        ascending.
-    start_law, template : the law to start from and what is fixed about it.
-    start_log_shift : array
-        log10 aT of each isotherm to start from (pairwise overlap, or the law).
-    tau : array [s]
-        Relaxation times of the spectrum; ``start_prony`` its start weights.
-    reference_group : int
-        The isotherm whose correction is pinned at zero (fixes the origin of fR).
-    n_draws : int
-        Posterior draws to make (0: none, and no interval).
+        Parameters
+        ----------
+        temperature, frequency : array [degC], [Hz]
+            Logged temperature and frequency of each point.
+        storage_modulus, loss_modulus : array [Pa]
+        labels : int array
+            Isotherm of each point; ``group_temperatures`` [degC] their mean temperatures,
+            ascending.
+        start_law, template : the law to start from and what is fixed about it.
+        start_log_shift : array
+            log10 aT of each isotherm to start from (pairwise overlap, or the law).
+        tau : array [s]
+            Relaxation times of the spectrum; ``start_prony`` its start weights.
+        reference_group : int
+            The isotherm whose correction is pinned at zero (fixes the origin of fR).
+        n_draws : int
+            Posterior draws to make (0: none, and no interval).
 
-    Notes
-    -----
-    Point j sits at z_j = ln(2 pi f_j) + ln10 [L(T_j) + c(T_j) - c(T0)], with L the shift
-    law at the point's own logged temperature and c the isotherm corrections interpolated
-    linearly in temperature (so a point logged 0.3 K off its set-point is shifted by the
-    law for those 0.3 K). The model is the generalized Maxwell series with weights
-    E_i = exp(u_i). The fit minimises, by Levenberg-Marquardt (scipy.optimize.least_squares
-    with an analytic Jacobian), the squared log residuals of E' and E'' scaled by their
-    scatter, plus Gaussian priors: corrections ~ N(0, 0.1 decade), second differences of
-    u ~ N(0, 1/SMOOTHING) (a smooth spectrum relative to its local level, so noise on a
-    small loss factor is not fitted), weak priors on u and the law constants. The scatter
-    of E' and E'' is estimated from the residuals and the fit repeated once with it. The
-    posterior covariance is the inverse of J^T J at the optimum (Laplace approximation;
-    Bates & Watts 1988, ch. 2); ``N_DRAWS`` draws of all parameters from it give the
-    intervals. Every draw has non-negative weights, so every drawn curve is
-    Kramers-Kronig consistent.
+        Notes
+        -----
+        Point j sits at z_j = ln(2 pi f_j) + ln10 [L(T_j) + c(T_j) - c(T0)], with L the shift
+        law at the point's own logged temperature and c the isotherm corrections interpolated
+        linearly in temperature (so a point logged 0.3 K off its set-point is shifted by the
+        law for those 0.3 K). The model is the generalized Maxwell series with weights
+        E_i = exp(u_i). The fit minimises, by Levenberg-Marquardt (scipy.optimize.least_squares
+        with an analytic Jacobian), the squared log residuals of E' and E'' scaled by their
+        scatter, plus Gaussian priors: corrections ~ N(0, 0.1 decade), second differences of
+        u ~ N(0, 1/SMOOTHING) (a smooth spectrum relative to its local level, so noise on a
+        small loss factor is not fitted), weak priors on u and the law constants. The scatter
+        of E' and E'' is estimated from the residuals (first of the start curve, then of the
+    fit) and the fit repeated once where it changed by more than 30 %. The
+        posterior covariance is the inverse of J^T J at the optimum (Laplace approximation;
+        Bates & Watts 1988, ch. 2); ``N_DRAWS`` draws of all parameters from it give the
+        intervals. Every draw has non-negative weights, so every drawn curve is
+        Kramers-Kronig consistent.
 
-    References
-    ----------
-    Bates, D. M. and Watts, D. G. (1988). Nonlinear Regression Analysis and Its
-    Applications. Wiley.
-    Tschoegl, N. W. (1989). The Phenomenological Theory of Linear Viscoelastic
-    Behavior. Springer (ch. 4, discrete spectra and their regularisation).
+        References
+        ----------
+        Bates, D. M. and Watts, D. G. (1988). Nonlinear Regression Analysis and Its
+        Applications. Wiley.
+        Tschoegl, N. W. (1989). The Phenomenological Theory of Linear Viscoelastic
+        Behavior. Springer (ch. 4, discrete spectra and their regularisation).
     """
     t = np.asarray(temperature, dtype=float)
     ln_f = np.log(2.0 * np.pi * np.asarray(frequency, dtype=float))
@@ -265,7 +265,15 @@ def fit_jointly(
         theta, b, _, _ = unpack(p)
         return ln_f + LN10 * law_shift(theta) + dz_db @ b
 
+    memo: dict = {}
+
     def pieces(p):
+        key = p.tobytes()
+        if memo.get("key") != key:
+            memo["key"], memo["value"] = key, _pieces(p)
+        return memo["value"]
+
+    def _pieces(p):
         _, _, ueq, u = unpack(p)
         z = z_of(p)
         s, loss, ds, dl = _basis(z, ln_tau)
@@ -323,7 +331,10 @@ def fit_jointly(
         prior[r : r + n_law, :n_law] = np.eye(n_law) / LAW_PRIOR_LN
         return np.vstack([rows_s / sig_s, rows_l / sig_l, prior])
 
-    sig_s = sig_l = NOISE_START
+    # Start the scatter from the residuals of the start curve (one pass usually does).
+    *_, ms0, ml0 = pieces(p0)
+    sig_s = float(np.clip(np.sqrt(np.mean((np.log(ms0) - ln_es) ** 2)), NOISE_FLOOR, 1.0))
+    sig_l = float(np.clip(np.sqrt(np.mean((np.log(ml0) - ln_el) ** 2)), NOISE_FLOOR, 1.0))
     p = p0
     converged = True
     for _pass in range(2):

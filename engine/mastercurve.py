@@ -49,11 +49,13 @@ MIN_WINDOW_SPREAD = 0.05  # decades of log10 E' a window needs to be informative
 NOISE_LOG_STORAGE = 0.0043  # 1 % in E', decades
 NOISE_LOG_ETA = 0.0086  # 2 % in tan delta, decades
 ISOTHERM_RESIDUAL_LIMIT = 0.1  # rms decades per isotherm about the master curve
-# Residuals that run along the isotherms in both E' and E'' (pooled lag-1 correlation
-# above this) mean the isotherms do not superpose; white noise gives about zero, the
-# smoothing of a sparse sheet up to about 0.45 in one of the two (a project value, set on
-# the synthetic round trips of tests/synthetic.py).
-SERIAL_CORRELATION_LIMIT = 0.2
+# Residuals of E'' that run along the isotherms (pooled lag-1 correlation above this)
+# mean the isotherms do not superpose. The loss modulus shows the shape of the spectrum
+# most directly, which a second process changes; white noise gives about zero, the
+# smoothing of sparse 5-frequency sheets up to about 0.3, the two-process grade of
+# tests/synthetic.py 0.43-0.53 (a project value, set on those round trips). E' runs
+# longer on sparse sheets from the smoothing alone, so it is reported, not judged.
+SERIAL_CORRELATION_LIMIT = 0.35
 # Added to the interval per decade of fR beyond the data (or per 10 K beyond the
 # measured temperatures), in ln units, for (E', E'' and tan delta): where nothing was
 # measured the spectrum alone says nothing reliable, and the loss factor can change far
@@ -798,7 +800,7 @@ def build_master_curve(
         residual_correlation(labels, log_f, joint.residual_storage),
         residual_correlation(labels, log_f, joint.residual_loss),
     ]
-    simple = not (np.isfinite(serial).all() and min(serial) > SERIAL_CORRELATION_LIMIT)
+    simple = not (np.isfinite(serial[1]) and serial[1] > SERIAL_CORRELATION_LIMIT)
     model_e = prony.storage(omega)
     quality = {
         "per_isotherm": per_iso,
@@ -821,8 +823,8 @@ def build_master_curve(
         )
     if not simple:
         notes.append(
-            f"the isotherms do not collapse onto one curve (residuals run along each "
-            f"isotherm: serial correlation {serial[0]:.2f} in E', {serial[1]:.2f} in E''): "
+            f"the isotherms do not collapse onto one curve (the residuals of E'' run along "
+            f"each isotherm: serial correlation {serial[1]:.2f}): "
             "the grade may not be thermorheologically simple (a second relaxation process "
             "on another shift law); treat superposed values with care"
         )
