@@ -3,4 +3,4 @@
 Nothing in this package imports Streamlit; the dashboard calls it.
 """
 
-__version__ = "0.2.0"
+__version__ = "0.3.0"
