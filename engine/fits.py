@@ -21,6 +21,7 @@ from engine.shift import wlf_change_reference
 from engine.store import Library
 
 Progress = Callable[[int, int], None]
+NUMERIC_FAILURES = (ValueError, ArithmeticError, np.linalg.LinAlgError, StopIteration)
 
 # The fit code itself is part of the cache key, so that a change to the fitting
 # chain refits even where the version number was not raised.
@@ -54,6 +55,9 @@ def _fit_one(args) -> tuple[str, dict | str]:
         curve = build_master_curve(points, mode, reference_C, vertical, tolerance)
     except FitError as exc:
         return material_id, f"error: {exc}"
+    except NUMERIC_FAILURES as exc:
+        # One grade whose numbers defeat the fit must not take the library down with it.
+        return material_id, f"error: the fit failed on these data ({type(exc).__name__}: {exc})"
     return material_id, curve.to_dict()
 
 
@@ -74,7 +78,12 @@ def master_curve(
     cached = library.cached_fit(dataset.data_hash, key)
     if cached is not None and "error" not in cached:
         return MasterCurve.from_dict(cached)
-    curve = build_master_curve(points, material.mode, reference_C, vertical_shift, tolerance_K)
+    try:
+        curve = build_master_curve(points, material.mode, reference_C, vertical_shift, tolerance_K)
+    except NUMERIC_FAILURES as exc:
+        raise FitError(
+            f"grade {material_id!r}: the fit failed on these data ({type(exc).__name__}: {exc})"
+        ) from exc
     library.store_fits({dataset.data_hash: curve.to_dict()}, key)
     return curve
 

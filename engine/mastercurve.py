@@ -61,6 +61,7 @@ SERIAL_CORRELATION_LIMIT = 0.35
 # measured the spectrum alone says nothing reliable, and the loss factor can change far
 # faster than the storage modulus (a project choice, set on the synthetic round trips).
 EXTRAPOLATION_SD = (0.3, 1.0)
+MAX_FREQUENCY_DECADES = 12  # wider than any DMA or resonance instrument covers
 LOG_SHIFT_LIMIT = 30.0  # decades: a law followed far outside its range is held here
 Z95 = 1.959964  # two-sided 95 % point of the normal distribution (scipy.stats.norm.ppf)
 # (the three limits are common practice values of this project, a few times the 1-2 %
@@ -663,6 +664,13 @@ def build_master_curve(
         raise FitError("a master curve needs finite values in every point")
     if np.any(points[:, 1] <= 0) or np.any(points[:, 2] <= 0):
         raise FitError("frequencies and storage moduli must be positive")
+    span = np.log10(points[:, 1].max() / points[:, 1].min())
+    if span > MAX_FREQUENCY_DECADES:
+        raise FitError(
+            f"the frequencies span {span:.0f} decades ({points[:, 1].min():.3g} to "
+            f"{points[:, 1].max():.3g} Hz); a dynamic mechanical sweep spans at most "
+            f"{MAX_FREQUENCY_DECADES} — check the frequency column and its unit"
+        )
     grouping = group_temperatures(points[:, 0], temperature_tolerance_K)
     isotherms = split_isotherms(
         *points.T, labels=grouping.labels, temperatures=grouping.temperatures

@@ -17,6 +17,7 @@ import warnings
 import numpy as np
 import pytest
 
+from engine.errors import FitError
 from engine.isotherms import group_temperatures
 from engine.mastercurve import build_master_curve
 from tests import synthetic as S
@@ -250,3 +251,22 @@ def test_small_loss_factor_is_not_rippled_between_measured_frequencies():
     assert e.size > 100
     assert np.quantile(e, 0.9) < 0.10
     assert e.max() < 0.30
+
+
+def test_frequencies_spanning_too_many_decades_are_refused():
+    pts = S.sweep(temperatures=[0.0, 10.0], noise=0.01)
+    pts[0, 1] = 1e-300  # a subnormal-size frequency: a unit or parsing error
+    with pytest.raises(FitError, match="frequencies span .* decades"):
+        build_master_curve(pts, "tensile")
+
+
+def test_a_grade_whose_numbers_defeat_the_fit_does_not_stop_the_library(monkeypatch):
+    # fits._fit_one turns any numeric failure into that grade's fit error.
+    from engine import fits
+
+    def broken(*args, **kwargs):
+        raise np.linalg.LinAlgError("Singular matrix")
+
+    monkeypatch.setattr(fits, "build_master_curve", broken)
+    mid, result = fits._fit_one(("G-1", S.sweep(), "tensile", None, False, 1.0))
+    assert mid == "G-1" and result.startswith("error: the fit failed on these data")
