@@ -40,9 +40,32 @@ Shift factor of the main relaxation (thermorheologically simple, continuous at T
 The secondary (beta) relaxation and the flow element each follow their own Arrhenius
 law, with tau = 1/(2 pi 1 Hz) at beta_temp and at flow_temp respectively.
 
+How each grade is measured (the plans in ``GRIDS``)
+---------------------------------------------------
+- Set-point sweeps: a frequency sweep at each isotherm; every point is written with the
+  set-point of its isotherm (whole degrees).
+- Logged temperatures (``SweepGrid.log``): the same sweeps, but every point carries the
+  specimen temperature the instrument logged for it::
+
+      T = T_set + clip(offset + lag (T_set - 23 degC) + drift u (k/(n-1) - 1/2)
+                       + jitter N(0, 1), -0.4 K, +0.4 K)
+
+  with u uniform in [-1, 1] once per isotherm (a slow drift across its sweep), k the
+  place of the point in the sweep of n frequencies and the reading noise drawn per
+  point; T is rounded to the instrument's 1 or 2 decimals.
+- Temperature ramp (``TemperatureRamp``): the instrument heats at a fixed rate and
+  takes its few frequencies in turn, a fixed time on each point; a point's temperature
+  is the ramp temperature half-way through it plus reading noise, so no two points
+  share a temperature.
+- Sparse sheet: a set-point grid with three frequencies at 10 K steps.
+
+The model is evaluated at the temperature as written, so every row is consistent.
+
 Measurement noise: storage modulus and loss factor are each multiplied by
-exp(sigma N(0, 1)) with a per-lab sigma, drawn from ``numpy.random.default_rng(SEED)``
-in catalog order; values are written with 5 significant digits.
+exp(sigma N(0, 1)) with a per-lab sigma (1-2 % on the modulus, 2-3 % on the loss
+factor). Each grade draws from its own generator ``numpy.random.default_rng([SEED,
+k])``, k its position in the catalog, in this order: logged-temperature noise (if any),
+modulus noise, loss-factor noise. Values are written with 5 significant digits.
 
 References
 ----------
@@ -110,23 +133,90 @@ SWEEP_COLUMNS = (
 
 
 @dataclass(frozen=True)
+class TemperatureLog:
+    """How the logged specimen temperature strays from the set-point of each isotherm.
+
+    Parameters
+    ----------
+    offset : float [K]
+        Steady offset of the specimen sensor from the set-point.
+    lag : float [K/K]
+        Offset of the specimen from the set-point per kelvin away from ``ROOM``; negative
+        means the specimen falls a little short of the set-point, more so at the ends of
+        the range.
+    drift : float [K]
+        Largest change of the specimen temperature across one isotherm's frequency sweep;
+        each isotherm drifts by ``drift`` times a uniform number in [-1, 1].
+    jitter : float [K]
+        Standard deviation of the reading noise of each point.
+    decimals : int
+        Decimals the instrument writes.
+    """
+
+    offset: float
+    lag: float
+    drift: float
+    jitter: float
+    decimals: int
+
+
+@dataclass(frozen=True)
 class SweepGrid:
-    """Temperature and frequency grid of one laboratory's DMA sweeps.
+    """Isotherms of one laboratory's DMA sweeps: a frequency sweep at each set-point.
 
     Parameters
     ----------
     temperatures : tuple of int [degC]
-        Isotherm temperatures, ascending.
+        Set-points of the isotherms, ascending.
     frequencies : tuple of str [Hz]
-        Frequencies as they are written to the file, ascending.
+        Frequencies as they are written to the file, ascending (the order of each sweep).
     modulus_noise : float
         Standard deviation of the natural log of the storage-modulus noise factor.
     loss_noise : float
         Standard deviation of the natural log of the loss-factor noise factor.
+    log : TemperatureLog or None
+        None: the file gives each point the set-point of its isotherm. Otherwise each
+        point carries its logged specimen temperature, made as ``log`` says.
     """
 
     temperatures: tuple[int, ...]
     frequencies: tuple[str, ...]
+    modulus_noise: float
+    loss_noise: float
+    log: TemperatureLog | None = None
+
+
+@dataclass(frozen=True)
+class TemperatureRamp:
+    """A temperature ramp measured at a few fixed frequencies taken in turn.
+
+    Parameters
+    ----------
+    start, stop : float [degC]
+        First and last temperature of the ramp.
+    rate : float [K/min]
+        Heating rate.
+    frequencies : tuple of str [Hz]
+        Frequencies as they are written to the file, in the order the instrument cycles
+        through them.
+    seconds : tuple of float [s]
+        Time the instrument spends on one point at each frequency; the logged temperature
+        of a point is the ramp temperature half-way through it.
+    jitter : float [K]
+        Standard deviation of the reading noise of each point.
+    decimals : int
+        Decimals the instrument writes.
+    modulus_noise, loss_noise : float
+        As in :class:`SweepGrid`.
+    """
+
+    start: float
+    stop: float
+    rate: float
+    frequencies: tuple[str, ...]
+    seconds: tuple[float, ...]
+    jitter: float
+    decimals: int
     modulus_noise: float
     loss_noise: float
 
@@ -136,21 +226,45 @@ def _steps(start: int, stop: int, step: int) -> tuple[int, ...]:
 
 
 DECADE_1_3 = ("0.1", "0.3", "1", "3", "10", "30", "100")
+IN_HOUSE_FREQUENCIES = ("0.3", "1", "3", "10", "30")
 
-GRIDS = {
-    # Brackwater Elastics: -60..+120 degC in 5 K steps, 0.1..100 Hz.
+ROOM = 23.0
+"""Temperature [degC] at which the lag term of a logged isotherm vanishes."""
+
+LOG_LIMIT = 0.4
+"""Largest deviation [K] of a logged point from its set-point (the controller's band)."""
+
+# In-house lab: the sensor by the specimen is logged with 2 decimals.
+IN_HOUSE_LOG = TemperatureLog(offset=-0.05, lag=-0.0018, drift=0.40, jitter=0.05, decimals=2)
+# Fendrel Polymer Works: logged with 1 decimal by their shear-sandwich fixture.
+FENDREL_LOG = TemperatureLog(offset=0.10, lag=-0.0015, drift=0.40, jitter=0.07, decimals=1)
+
+# fmt: off
+GRIDS: dict[str, SweepGrid | TemperatureRamp] = {
+    # Brackwater Elastics: -60..+120 degC in 5 K steps, 0.1..100 Hz, set-points written.
     "brackwater": SweepGrid(_steps(-60, 120, 5), DECADE_1_3, 0.010, 0.020),
     # Brackwater, narrower run for the stiff compound (clamp limit of their fixture).
     "brackwater_narrow": SweepGrid(_steps(-20, 90, 5), DECADE_1_3, 0.010, 0.020),
     # Quillmoor Compounds: coarser grid, 10 K steps at 1, 3, 10 and 30 Hz.
     "quillmoor": SweepGrid(_steps(-60, 120, 10), ("1", "3", "10", "30"), 0.015, 0.025),
-    # Fendrel Polymer Works: shear sandwich, same grid as Brackwater, slightly noisier.
-    "fendrel": SweepGrid(_steps(-60, 120, 5), DECADE_1_3, 0.012, 0.020),
-    # In-house lab: colder start, 0.3..30 Hz, somewhat noisier.
-    "in_house": SweepGrid(_steps(-70, 80, 5), ("0.3", "1", "3", "10", "30"), 0.018, 0.030),
+    # Quillmoor, newer instrument: a 2 K/min ramp cycling through 1, 3, 10 and 30 Hz;
+    # 22 s per cycle, so each frequency comes back every 0.73 K.
+    "quillmoor_ramp": TemperatureRamp(
+        start=-60.0, stop=120.0, rate=2.0, frequencies=("1", "3", "10", "30"),
+        seconds=(9.0, 5.0, 4.0, 4.0), jitter=0.02, decimals=2,
+        modulus_noise=0.015, loss_noise=0.025),
+    # Quillmoor, one-page data sheet: three frequencies at 10 K steps.
+    "quillmoor_sheet": SweepGrid(_steps(-40, 80, 10), ("1", "10", "100"), 0.015, 0.025),
+    # Fendrel Polymer Works: shear sandwich, same grid as Brackwater, slightly noisier,
+    # logged specimen temperatures.
+    "fendrel": SweepGrid(_steps(-60, 120, 5), DECADE_1_3, 0.012, 0.020, FENDREL_LOG),
+    # In-house lab: colder start, 0.3..30 Hz, somewhat noisier, logged temperatures.
+    "in_house": SweepGrid(_steps(-70, 80, 5), IN_HOUSE_FREQUENCIES, 0.018, 0.030, IN_HOUSE_LOG),
     # In-house lab, run on the glassy reference sheet up to +150 degC.
-    "in_house_hot": SweepGrid(_steps(-40, 150, 5), ("0.3", "1", "3", "10", "30"), 0.018, 0.030),
+    "in_house_hot": SweepGrid(
+        _steps(-40, 150, 5), IN_HOUSE_FREQUENCIES, 0.018, 0.030, IN_HOUSE_LOG),
 }
+# fmt: on
 
 
 @dataclass(frozen=True)
@@ -239,7 +353,7 @@ GRADE_MODELS = {
     "QC-IIR55": GradeModel(
         glassy_modulus=1900.0, rubbery_modulus=2.9, alpha=0.40, beta=0.40,
         tail_strength=1.00, tail_alpha=0.28, tail_offset=6.0,
-        t_glass=-31.0, c1=13.0, c2=100.0, activation=200.0, grid="quillmoor"),
+        t_glass=-31.0, c1=13.0, c2=100.0, activation=200.0, grid="quillmoor_ramp"),
     # chloroprene
     "BW-CR60": GradeModel(
         glassy_modulus=2400.0, rubbery_modulus=4.0, alpha=0.55, beta=0.32,
@@ -280,7 +394,7 @@ GRADE_MODELS = {
     "QC-PVC75": GradeModel(
         glassy_modulus=2600.0, rubbery_modulus=5.5, alpha=0.45, beta=0.38,
         tail_strength=1.00, tail_alpha=0.30, tail_offset=6.0,
-        t_glass=5.0, c1=14.5, c2=65.0, activation=280.0, grid="quillmoor",
+        t_glass=5.0, c1=14.5, c2=65.0, activation=280.0, grid="quillmoor_sheet",
         beta_strength=400.0, beta_alpha=0.40, beta_temp=-45.0, beta_activation=60.0),
     # stiff mineral-filled damping compound: Tg above room temperature, high modulus
     "BW-FD30": GradeModel(
@@ -491,23 +605,125 @@ def catalog_text() -> str:
     return _csv_text(CATALOG_COLUMNS, rows)
 
 
+def _isotherm_points(grid: SweepGrid, rng: np.random.Generator) -> tuple[np.ndarray, ...]:
+    """Points of an isotherm grid, in the order the instrument takes them.
+
+    Parameters
+    ----------
+    grid : SweepGrid
+    rng : numpy.random.Generator
+        Draws the logged-temperature noise (nothing is drawn without a log).
+
+    Returns
+    -------
+    temperature : array [degC]
+        Temperature of each point as written (rounded to the written decimals).
+    text : array of str
+        The same temperatures as they are written to the file.
+    labels : array of str [Hz]
+        Frequency of each point as it is written to the file.
+
+    Notes
+    -----
+    Without a temperature log every point carries its set-point. With one, a point's
+    temperature is the set-point plus ``offset + lag (set-point - ROOM)``, plus the
+    isotherm's drift times the point's place in its sweep (-1/2 first, +1/2 last),
+    plus reading noise; the deviation is held within ``LOG_LIMIT`` and the sum rounded
+    to the logged decimals.
+    """
+    count = len(grid.frequencies)
+    set_point = np.repeat(np.array(grid.temperatures, dtype=float), count)
+    labels = np.tile(np.array(grid.frequencies), len(grid.temperatures))
+    log = grid.log
+    if log is None:
+        return set_point, np.array([f"{t:g}" for t in set_point]), labels
+    place = np.tile(np.linspace(-0.5, 0.5, count), len(grid.temperatures))
+    drift = np.repeat(log.drift * rng.uniform(-1.0, 1.0, len(grid.temperatures)), count)
+    deviation = (
+        log.offset
+        + log.lag * (set_point - ROOM)
+        + drift * place
+        + log.jitter * rng.standard_normal(set_point.size)
+    )
+    deviation = np.clip(deviation, -LOG_LIMIT, LOG_LIMIT)
+    temperature = np.round(set_point + deviation, log.decimals) + 0.0  # no "-0.00"
+    text = np.array([f"{t:.{log.decimals}f}" for t in temperature])
+    return temperature, text, labels
+
+
+def _ramp_points(ramp: TemperatureRamp, rng: np.random.Generator) -> tuple[np.ndarray, ...]:
+    """Points of a temperature ramp, in the order the instrument takes them.
+
+    Parameters
+    ----------
+    ramp : TemperatureRamp
+    rng : numpy.random.Generator
+        Draws the reading noise of the temperatures.
+
+    Returns
+    -------
+    temperature, text, labels
+        As for :func:`_isotherm_points`.
+
+    Raises
+    ------
+    ValueError
+        If two points would share a temperature (reading noise too large for the
+        spacing of the points).
+
+    Notes
+    -----
+    The instrument takes the frequencies in turn, ``seconds`` on each point, for as many
+    whole cycles as fit between ``start`` and ``stop``; a point's temperature is the
+    ramp temperature half-way through it plus reading noise, rounded to the logged
+    decimals.
+    """
+    seconds = np.array(ramp.seconds, dtype=float)
+    per_second = ramp.rate / 60.0
+    cycles = int((ramp.stop - ramp.start) / (per_second * seconds.sum()))
+    durations = np.tile(seconds, cycles)
+    middle = np.cumsum(durations) - 0.5 * durations
+    temperature = ramp.start + per_second * middle
+    temperature = temperature + ramp.jitter * rng.standard_normal(temperature.size)
+    temperature = np.round(temperature, ramp.decimals) + 0.0
+    if np.any(np.diff(temperature) <= 0.0):
+        raise ValueError("ramp points must have strictly rising temperatures")
+    text = np.array([f"{t:.{ramp.decimals}f}" for t in temperature])
+    return temperature, text, np.tile(np.array(ramp.frequencies), cycles)
+
+
+def grade_rng(index: int, seed: int = SEED) -> np.random.Generator:
+    """Noise generator of the grade at catalog position ``index`` (0 for the first).
+
+    Each grade has its own stream, so changing how one grade is measured leaves the
+    numbers of every other grade as they are.
+    """
+    return np.random.default_rng([seed, index])
+
+
 def sweeps_text(seed: int = SEED) -> str:
-    """Text of ``sweeps.csv``: every grade's grid, model values times seeded noise."""
-    rng = np.random.default_rng(seed)
+    """Text of ``sweeps.csv``: every grade's points, model values times seeded noise.
+
+    Per grade, in this order from its own generator: the logged temperature noise (if
+    any), the storage-modulus noise, the loss-factor noise.
+    """
     rows = []
-    for row in CATALOG:
+    for index, row in enumerate(CATALOG):
         grade = row[0]
         model = GRADE_MODELS[grade]
-        grid = GRIDS[model.grid]
-        temperature = np.repeat(np.array(grid.temperatures, dtype=float), len(grid.frequencies))
-        frequency = np.tile(np.array(grid.frequencies, dtype=float), len(grid.temperatures))
+        plan = GRIDS[model.grid]
+        rng = grade_rng(index, seed)
+        if isinstance(plan, TemperatureRamp):
+            temperature, text, labels = _ramp_points(plan, rng)
+        else:
+            temperature, text, labels = _isotherm_points(plan, rng)
+        frequency = labels.astype(float)
         modulus = complex_modulus(temperature, frequency, model)
-        storage = modulus.real * np.exp(grid.modulus_noise * rng.standard_normal(modulus.size))
+        storage = modulus.real * np.exp(plan.modulus_noise * rng.standard_normal(modulus.size))
         loss = modulus.imag / modulus.real
-        loss = loss * np.exp(grid.loss_noise * rng.standard_normal(modulus.size))
-        labels = np.tile(np.array(grid.frequencies), len(grid.temperatures))
-        for t, f, e, eta in zip(temperature, labels, storage, loss, strict=True):
-            rows.append((grade, f"{t:g}", str(f), _format(e), _format(eta)))
+        loss = loss * np.exp(plan.loss_noise * rng.standard_normal(modulus.size))
+        for t, f, e, eta in zip(text, labels, storage, loss, strict=True):
+            rows.append((grade, str(t), str(f), _format(e), _format(eta)))
     return _csv_text(SWEEP_COLUMNS, rows)
 
 
