@@ -20,9 +20,7 @@ def sweep_30x7() -> np.ndarray:
 
 def main(quick: bool = True) -> list[Figure]:
     points = sweep_30x7()
-    fit = median_time(
-        lambda: build_master_curve(points, "tensile", intervals=False), repeats=20
-    )
+    fit = median_time(lambda: build_master_curve(points, "tensile", intervals=False), repeats=20)
     with_interval = median_time(lambda: build_master_curve(points, "tensile"), repeats=20)
     curve = build_master_curve(points, "tensile")
     rng = np.random.default_rng(1)

@@ -14,12 +14,20 @@
     temperature by ``scipy.optimize.brentq`` on scalar evaluations; scalar
     transmissibility. Timed on 200 grades (50 in quick mode) and scaled linearly to the
     full size.
+(c) The rank intervals (:func:`engine.spread.rank_spread`: the whole chain rerun on the
+    posterior draws of the fits of the leading grades) after the ranking, as their own
+    figures: for the demo library and for 1,000 of the cloned grades, the first call in
+    the process (decoding and tabulating the draws of the leading grades) and the median
+    of the calls after it; and, for scale, intervals for every one of 200 grades. The
+    clones' draws are scaled with their curves, so the intervals stay those of a fit.
 
 Run: ``python -m bench.bench_rank [--full]`` or through ``python -m bench.run_all``.
 """
 
 from __future__ import annotations
 
+import base64
+import functools
 import json
 import math
 import resource
@@ -42,6 +50,7 @@ from engine.importer import import_files
 from engine.mastercurve import MasterCurve
 from engine.mountcheck import FALLBACK_K_FACTOR, STATIC_LOAD_TIME_S, MountDesign
 from engine.ranking import Constraints, Criteria, IndexChoice, rank
+from engine.spread import LEADING_GRADES, rank_spread
 from engine.store import Library, Material
 from engine.window import DEFAULT_POISSON, OperatingWindow
 
@@ -49,6 +58,8 @@ FULL_GRADES = 10_000
 FULL_BASELINE = 200
 QUICK_BASELINE = 50
 RANK_TARGET_S = 1.0  # CurveBank.from_curves + rank of 10,000 grades
+SPREAD_GRADES = 1_000
+SPREAD_ALL = 200  # intervals for every grade of a library this size, for scale
 MEMORY_TARGET_MIB = 2048.0
 SPEEDUP_TARGET = 30.0  # loop time / vectorised time, at least
 REPEATS = 3
@@ -84,8 +95,10 @@ def criteria() -> Criteria:
 # ------------------------------------------------------------------ synthetic library
 
 
+@functools.cache
 def base_grades() -> list[tuple[dict, Material]]:
-    """The demo grades, imported and fitted in a temporary library (curve dicts, rows)."""
+    """The demo grades, imported and fitted in a temporary library (curve dicts, rows;
+    fitted once per process, to be read and never changed)."""
     with tempfile.TemporaryDirectory(prefix="quietgrade-bench-") as tmp:
         lib = Library(str(Path(tmp) / "demo.sqlite"))
         import_files(lib, [DEMO / "catalog.csv"], [DEMO / "sweeps.csv"])
@@ -93,9 +106,24 @@ def base_grades() -> list[tuple[dict, Material]]:
         return [(curves[m.id].to_dict(), m) for m in lib.materials() if m.id in curves]
 
 
+def _scaled(encoded: str, scale: float) -> str:
+    """A base64 float array of the fit's draws (MasterCurve.draws), times ``scale``."""
+    values = np.frombuffer(base64.b64decode(encoded), dtype="<f8") * scale
+    return base64.b64encode(values.astype("<f8").tobytes()).decode("ascii")
+
+
 def clone(base: dict, scale: float, dt: float) -> MasterCurve:
     """``base`` with moduli x ``scale`` and its shift law moved by ``dt`` [K] (not yet
-    tabulated: :meth:`MasterCurve.to_dict` tabulates it as a fit does)."""
+    tabulated: :meth:`MasterCurve.to_dict` tabulates it as a fit does). The draws of the
+    fit follow: their spectra are scaled alike, and their shift laws take the clone's
+    reference temperatures."""
+    draws = base.get("draws")
+    if draws:
+        draws = {
+            **draws,
+            "weights": _scaled(draws["weights"], scale),
+            "equilibrium": _scaled(draws["equilibrium"], scale),
+        }
     prony = base["prony"]
     shift = base["shift"]
     law = dict(shift["law"])
@@ -117,6 +145,7 @@ def clone(base: dict, scale: float, dt: float) -> MasterCurve:
             },
             "reference_C": base["reference_C"] + dt,
             "temperature_range": [t + dt for t in base["temperature_range"]],
+            "draws": draws,
         }
     )
 
@@ -280,6 +309,62 @@ def agreement(result, loop_out) -> float:
     return worst
 
 
+# ------------------------------------------------------------------ rank intervals
+
+
+def spread_times(curves, materials, crit, leading: int = LEADING_GRADES):
+    """rank once, then time rank_spread: (first call [s], median of the next [s], result).
+
+    ``curves`` must come fresh from the fit cache (no draws decoded yet), so that the
+    first call pays for decoding and tabulating the draws as the dashboard's first view
+    of a ranking does.
+    """
+    result = rank(curves, materials, crit)
+    start = time.perf_counter()
+    spread = rank_spread(result, curves, materials, leading)
+    first = time.perf_counter() - start
+    times = []
+    for _ in range(REPEATS):
+        start = time.perf_counter()
+        rank_spread(result, curves, materials, leading)
+        times.append(time.perf_counter() - start)
+    return first, statistics.median(times), spread
+
+
+def spread_figures(texts: dict[str, str], materials: dict[str, Material], crit) -> list[Figure]:
+    """Figures (c) of the module notes, from the fit-cache JSON of the cloned grades."""
+    bases = base_grades()
+    demo = {m.id: MasterCurve.from_dict(curve) for curve, m in bases}
+    demo_mats = {m.id: m for _, m in bases}
+    figures = []
+    cases = [
+        (f"demo library ({len(demo)} grades)", demo, demo_mats, LEADING_GRADES),
+        (f"{SPREAD_GRADES:,} grades", None, None, LEADING_GRADES),
+        (f"{SPREAD_ALL} grades, every passing grade", None, None, SPREAD_ALL),
+    ]
+    for label, curves, mats, leading in cases:
+        if curves is None:
+            n = SPREAD_GRADES if leading == LEADING_GRADES else SPREAD_ALL
+            ids = list(texts)[:n]
+            curves = from_cache({gid: texts[gid] for gid in ids})
+            mats = {gid: materials[gid] for gid in ids}
+        sys.stderr.write(f"  rank intervals, {label}\n")
+        first, again, spread = spread_times(curves, mats, crit, leading)
+        k = spread.spread.draws
+        lead = len(spread.spread.leading)
+        figures.append(
+            Figure(
+                f"rank intervals, {label}",
+                again,
+                "s",
+                None,
+                f"median of {REPEATS} after the first call ({first:.2f} s, draws decoded "
+                f"and tabulated); {lead} leading grade(s) x {k} draws",
+            )
+        )
+    return figures
+
+
 # ------------------------------------------------------------------ figures
 
 
@@ -317,6 +402,7 @@ def main(quick: bool = True) -> list[Figure]:
     speedup = loop_full / vec_full
     cpu_speedup = (cpu_loop * FULL_GRADES / n_loop) / cpu
     diff = agreement(result, loop_out)
+    spread = spread_figures(texts, materials, crit)
     return [
         Figure(
             f"decode {n:,} cached fits (JSON -> MasterCurve)",
@@ -363,6 +449,7 @@ def main(quick: bool = True) -> list[Figure]:
             f"speed-up {speedup:.0f} x wall, {cpu_speedup:.0f} x CPU (target >= "
             f"{SPEEDUP_TARGET:g} x); results agree to {diff:.1e} relative",
         ),
+        *spread,
     ]
 
 

@@ -15,13 +15,18 @@ from dashboard.palette import (
     FREQUENCY_SYMBOLS,
     GUIDE,
     INK,
+    INTERVAL_WASH,
+    LOSS_FACTOR_COLOUR,
+    LOSS_MODULUS_COLOUR,
     TEMPERATURE_SCALE,
     WARN,
     WINDOW_BAND,
+    band_colours,
     faded,
 )
 from engine.mastercurve import MasterCurve
 from engine.ranking import RankResult
+from engine.window import tensile_factor
 
 TEMPLATE = "quietgrade"
 HOUR_S = 3600.0
@@ -49,7 +54,10 @@ def tidy_log_axes(fig: go.Figure) -> go.Figure:
             values = getattr(trace, letter, None)
             if values is None:
                 continue
-            v = np.asarray(values, dtype=float).ravel()
+            try:
+                v = np.asarray(values, dtype=float).ravel()
+            except ValueError:  # a category axis
+                continue
             v = v[np.isfinite(v) & (v > 0)]
             if v.size:
                 lo, hi = spans.get(ref, [np.inf, -np.inf])
@@ -79,6 +87,78 @@ def tidy_log_axes(fig: go.Figure) -> go.Figure:
 
 def _mode_symbol(curve: MasterCurve) -> str:
     return "G" if curve.mode == "shear" else "E"
+
+
+BAND_SUFFIX = "95 % interval"  # ends the name of every band trace
+INTERVAL_NOTE = (
+    "95 % interval from the fit's own uncertainty; wider where shifts come from the law, "
+    "across gaps and outside the data"
+)
+
+
+def band_trace(
+    x, low, high, colour: str, of: str, where=None, strength: float = 1.0, **kwargs
+) -> go.Scatter:
+    """A shaded band between ``low`` and ``high`` over ``x``.
+
+    ``of`` names the curve the band surrounds; it is the trace's ``meta`` and, unless
+    ``name`` is given, starts its name. The band is drawn where ``where`` holds (all
+    points by default; a run is widened by one point each side so that bands drawn for
+    the complementary masks meet) and both edges are finite and positive, one closed
+    outline per run of such points, outlines separated by a gap (NaN): each outline runs
+    along the upper edge in the order of ``x`` and back along the lower edge, so its
+    first half is the upper edge and its second half, reversed, the lower one.
+    ``strength`` scales the opacity (fainter beyond the data).
+    """
+    x, low, high = (np.asarray(v, dtype=float).ravel() for v in (x, low, high))
+    keep = np.isfinite(x) & np.isfinite(low) & np.isfinite(high) & (low > 0) & (high > 0)
+    if where is not None:
+        w = np.asarray(where, dtype=bool).ravel()
+        wide = w.copy()
+        wide[1:] |= w[:-1]
+        wide[:-1] |= w[1:]
+        keep &= wide
+    idx = np.flatnonzero(keep)
+    runs = np.split(idx, np.flatnonzero(np.diff(idx) > 1) + 1) if idx.size else []
+    xs, ys = [], []
+    for run in (r for r in runs if r.size >= 2):
+        xs += [x[run], x[run][::-1], [np.nan]]
+        ys += [high[run], low[run][::-1], [np.nan]]
+    fill, edge = band_colours(colour, strength)
+    return go.Scatter(
+        x=np.concatenate(xs[:-1]) if xs else np.zeros(0),
+        y=np.concatenate(ys[:-1]) if ys else np.zeros(0),
+        mode="lines",
+        fill="toself",
+        fillcolor=fill,
+        line={"color": edge, "width": 0.6 if strength >= 1.0 else 0.0},
+        hoverinfo="skip",
+        **{"name": f"{of} {BAND_SUFFIX}", "meta": of, **kwargs},
+    )
+
+
+BEYOND_STRENGTH = 0.45  # opacity of a band beyond the data, relative to one inside
+
+
+def band_traces(x, low, high, beyond, colour: str, of: str, **kwargs) -> list[go.Scatter]:
+    """The band of :func:`band_trace` inside the data and, fainter, ``beyond`` it."""
+    beyond = np.asarray(beyond, dtype=bool).ravel()
+    out = [band_trace(x, low, high, colour, of, where=~beyond, **kwargs)]
+    if beyond.any():
+        extra = {**kwargs, "showlegend": False}
+        if "name" in kwargs:
+            extra["name"] = f"{kwargs['name']} (beyond the data)"
+        else:
+            extra["name"] = f"{of} {BAND_SUFFIX} (beyond the data)"
+        out.append(
+            band_trace(x, low, high, colour, of, where=beyond, strength=BEYOND_STRENGTH, **extra)
+        )
+    return out
+
+
+def _with_interval(what: str) -> str:
+    """Hover line of a value with its 95 % interval held in customdata[0] and [1]."""
+    return f"{what}%{{y:.3g}} (95 %: %{{customdata[0]:.3g}} to %{{customdata[1]:.3g}})"
 
 
 def empty_figure(message: str) -> go.Figure:
@@ -175,8 +255,14 @@ def map_figure(
     chosen: list[str],
     min_loss_factor: float | None,
     show_excluded: bool = True,
+    bands: dict[str, MasterCurve] | None = None,
 ) -> go.Figure:
-    """E' against loss factor, each grade a path through the window's temperatures."""
+    """E' against loss factor, each grade a path through the window's temperatures.
+
+    The grades of ``bands`` (id -> the master curve the ranking used) that are drawn on
+    their own get their 95 % intervals as a shaded tube along the path
+    (:func:`path_band_trace`).
+    """
     props = result.window_props
     grades = {g.id: g for g in result.grades}
     temps = np.asarray(props.path_temperatures, dtype=float)
@@ -304,6 +390,18 @@ def map_figure(
         custom[:, 1] = temps
         custom[:, 2] = np.where(extrap, " (extrapolated)", "")
         name = gid  # excluded grades are told apart by their dotted, faded line
+        if bands and gid in bands:
+            factor = float(tensile_factor([bands[gid].mode], props.poisson[k : k + 1])[0])
+            fig.add_trace(
+                path_band_trace(
+                    gid,
+                    bands[gid],
+                    temps,
+                    result.criteria.window.design_frequency,
+                    factor,
+                    colour,
+                )
+            )
         fig.add_trace(
             go.Scatter(
                 x=eta[k],
@@ -352,6 +450,48 @@ def map_figure(
     return tidy_log_axes(fig)
 
 
+def path_band_trace(
+    gid: str,
+    curve: MasterCurve,
+    temperatures: np.ndarray,
+    frequency: float,
+    tensile: float,
+    colour: str,
+) -> go.Scatter:
+    """The 95 % intervals of a grade's map path as one shaded tube.
+
+    At every temperature of the path the interval of E' (times ``tensile``, which makes
+    it tensile-equivalent like the path) and the interval of the loss factor span a box
+    on the map; the tube is the union of the boxes, drawn as one outline per box in a
+    single filled trace (boxes of one orientation overlap without darkening): box k is
+    points 6k to 6k + 4 of the trace, (eta low, E' low), (eta high, E' low), (eta high,
+    E' high), (eta low, E' high) and back, E' in MPa, followed by a gap.
+    """
+    t = np.asarray(temperatures, dtype=float)
+    band = curve.interval(t, frequency)
+    e_lo = np.asarray(band.storage_low, dtype=float) * tensile / 1e6
+    e_hi = np.asarray(band.storage_high, dtype=float) * tensile / 1e6
+    n_lo = np.asarray(band.loss_factor_low, dtype=float)
+    n_hi = np.asarray(band.loss_factor_high, dtype=float)
+    gap = np.full_like(t, np.nan)
+    # Counter-clockwise boxes (in log-log as well), a NaN corner between two boxes.
+    xs = np.column_stack([n_lo, n_hi, n_hi, n_lo, n_lo, gap]).ravel()
+    ys = np.column_stack([e_lo, e_lo, e_hi, e_hi, e_lo, gap]).ravel()
+    fill, edge = band_colours(colour)
+    return go.Scatter(
+        x=xs,
+        y=ys,
+        mode="lines",
+        fill="toself",
+        fillcolor=fill,
+        line={"color": edge, "width": 0},
+        name=f"{gid} {BAND_SUFFIX}",
+        meta=gid,  # no legend group: a trace with one stands for a grade's path on the map
+        showlegend=False,
+        hoverinfo="skip",
+    )
+
+
 # -- curves --------------------------------------------------------------------------------
 
 
@@ -386,17 +526,31 @@ def temperature_figure(
         colour = colours.get(gid, INK)
         m = _mode_symbol(curve)
         pts = points.get(gid)
+        # One pass of the posterior draws for every temperature and frequency of the grade.
+        band = curve.interval(grid[:, None], np.asarray(frequencies, dtype=float)[None, :])
         for j, f in enumerate(frequencies):
             p = curve.evaluate(grid, f)
             x = np.asarray(p.extrapolated, dtype=bool)
             dash = FREQUENCY_DASHES[j % len(FREQUENCY_DASHES)]
             series = (
-                (1, p.storage_modulus / 1e6, f"{m}'"),
-                (2, p.loss_modulus / 1e6, f"{m}''"),
-                (3, p.loss_factor, "tan δ"),
+                (1, p.storage_modulus / 1e6, f"{m}'", band.storage_low, band.storage_high, 1e6),
+                (2, p.loss_modulus / 1e6, f"{m}''", band.loss_low, band.loss_high, 1e6),
+                (3, p.loss_factor, "tan δ", band.loss_factor_low, band.loss_factor_high, 1.0),
             )
-            for row, values, what in series:
-                known[row].append(np.asarray(values)[~x])
+            for row, values, what, low, high, unit in series:
+                low, high = low[:, j] / unit, high[:, j] / unit
+                known[row] += [np.asarray(values)[~x], low[~x], high[~x]]
+                for trace in band_traces(
+                    grid,
+                    low,
+                    high,
+                    x,
+                    colour,
+                    f"{gid} {what} {f:g} Hz",
+                    legendgroup=f"{gid}-{j}",
+                    showlegend=False,
+                ):
+                    fig.add_trace(trace, row=row, col=1)
                 for part, mask in (("", ~x), (" extrapolated", x)):
                     fig.add_trace(
                         go.Scatter(
@@ -411,9 +565,11 @@ def temperature_figure(
                                 "dash": dash,
                                 "width": 2 if not part else 1.5,
                             },
+                            customdata=np.column_stack([low, high]),
                             hovertemplate=(
                                 f"{gid} {what}{part}<br>T = %{{x:.1f}} °C, f = {f:g} Hz<br>"
-                                "%{y:.3g}<extra></extra>"
+                                + _with_interval("")
+                                + "<extra></extra>"
                             ),
                         ),
                         row=row,
@@ -488,7 +644,10 @@ def temperature_figure(
     fig.update_layout(
         template=TEMPLATE,
         height=860,
-        title="Stiffness and damping against temperature (lines: master curve; marks: measured)",
+        title=(
+            "Stiffness and damping against temperature (lines: master curve, shaded: its 95 % "
+            "interval; marks: measured)"
+        ),
         legend={"orientation": "h", "y": -0.07, "font": {"size": 10}},
         hovermode="closest",
     )
@@ -506,10 +665,32 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
     lo, hi = curve.log_fr_range
     fr = np.logspace(lo - 1.0, hi + 1.0, 400)
     p = curve.evaluate(curve.reference_C, fr)
+    band = curve.interval(curve.reference_C, fr)
     inside = ~np.asarray(p.extrapolated, dtype=bool)  # dotted beyond the data and in its gaps
     fig = make_subplots(
         rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.05, row_heights=[0.62, 0.38]
     )
+    loss_colour = LOSS_MODULUS_COLOUR
+    lines = (
+        (1, p.storage_modulus / 1e6, f"{m}'", INK, band.storage_low, band.storage_high, 1e6),
+        (1, p.loss_modulus / 1e6, f"{m}''", loss_colour, band.loss_low, band.loss_high, 1e6),
+        (2, p.loss_factor, "tan δ", INK, band.loss_factor_low, band.loss_factor_high, 1.0),
+    )
+    # Bands under everything else; one legend entry shows or hides all three.
+    for k, (row, _, what, colour, low, high, unit) in enumerate(lines):
+        for trace in band_traces(
+            fr,
+            low / unit,
+            high / unit,
+            ~inside,
+            ACCENT if colour == INK else colour,
+            f"{what} master curve",
+            name=BAND_SUFFIX,
+            legendgroup="interval",
+            showlegend=k == 0,
+            legendrank=2000,
+        ):
+            fig.add_trace(trace, row=row, col=1)
     idx = _isotherm_index(points, curve)
     shifted = points[:, 1] * 10.0 ** np.asarray(curve.shift.log_shift, dtype=float)[idx]
     t_range = (float(points[:, 0].min()), float(points[:, 0].max()))
@@ -543,11 +724,8 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
             row=row,
             col=1,
         )
-    for row, values, label, colour in (
-        (1, p.storage_modulus / 1e6, f"{m}' master curve", INK),
-        (1, p.loss_modulus / 1e6, f"{m}'' master curve", "#8C6239"),
-        (2, p.loss_factor, "tan δ master curve", INK),
-    ):
+    for row, values, what, colour, low, high, unit in lines:
+        label = f"{what} master curve"
         for part, mask in (("", inside), (" (beyond the data)", ~inside)):
             fig.add_trace(
                 go.Scatter(
@@ -557,8 +735,11 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
                     name=label + part,
                     showlegend=not part,
                     line={"color": colour, "width": 2, "dash": "solid" if not part else "dot"},
+                    customdata=np.column_stack([low / unit, high / unit]),
                     hovertemplate=(
-                        f"{label}{part}<br>fR = %{{x:.3g}} Hz<br>%{{y:.3g}}<extra></extra>"
+                        f"{label}{part}<br>fR = %{{x:.3g}} Hz<br>"
+                        + _with_interval("")
+                        + "<extra></extra>"
                     ),
                 ),
                 row=row,
@@ -572,7 +753,7 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
     fig.update_layout(
         template=TEMPLATE,
         height=640,
-        title=f"Master curve of {gid} at the reference temperature {curve.reference_C:g} °C",
+        title=f"Master curve of {gid} at the reference temperature {curve.reference_C:.1f} °C",
         legend={"orientation": "h", "y": -0.14, "font": {"size": 10}},
     )
     return tidy_log_axes(fig)
@@ -588,9 +769,25 @@ def shift_figure(gid: str, curve: MasterCurve, window_range: tuple[float, float]
     t_hi = max(temps.max(), window_range[1])
     grid = np.linspace(t_lo, t_hi, 301)
     law = np.asarray(curve.log_shift(grid), dtype=float)
+    law_lo, law_hi = (np.asarray(v, dtype=float) for v in curve.log_shift_interval(grid))
     inside = (grid >= curve.temperature_range[0]) & (grid <= curve.temperature_range[1])
     fig = go.Figure()
     fig.add_vrect(x0=window_range[0], x1=window_range[1], fillcolor=WINDOW_BAND, line_width=0)
+    # The shift is a log already: the band is drawn on a linear axis, so its edges may
+    # be of any sign (band_trace keeps positive values only, for log axes).
+    fig.add_trace(
+        go.Scatter(
+            x=np.concatenate([grid, grid[::-1]]),
+            y=np.concatenate([law_hi, law_lo[::-1]]),
+            mode="lines",
+            fill="toself",
+            fillcolor=INTERVAL_WASH,
+            line={"color": faded(ACCENT, 0.3), "width": 0.6},
+            name=BAND_SUFFIX,
+            meta="shift",
+            hoverinfo="skip",
+        )
+    )
     for part, mask in (("", inside), (" (beyond the data)", ~inside)):
         fig.add_trace(
             go.Scatter(
@@ -600,28 +797,50 @@ def shift_figure(gid: str, curve: MasterCurve, window_range: tuple[float, float]
                 name=f"fitted law: {shift.law.kind}{part}",
                 showlegend=not part or bool((~inside).any()),
                 line={"color": ACCENT, "width": 2, "dash": "solid" if not part else "dot"},
-                hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>law</extra>",
+                customdata=np.column_stack([law_lo, law_hi]),
+                hovertemplate=(
+                    "T = %{x:.1f} °C<br>log aT = %{y:.3f} "
+                    "(95 %: %{customdata[0]:.3f} to %{customdata[1]:.3f})<extra>law</extra>"
+                ),
             )
         )
-    fig.add_trace(
-        go.Scatter(
-            x=temps[~bridged],
-            y=logs[~bridged],
-            mode="markers",
-            name="from overlapping isotherms",
-            marker={"color": INK, "size": 8},
-            hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>data</extra>",
-        )
-    )
-    if bridged.any():
+    low, high = shift.log_shift_low, shift.log_shift_high
+    known = low is not None and high is not None
+    for name, rows, marker, extra in (
+        ("from overlapping isotherms", ~bridged, {"color": INK, "size": 8}, "data"),
+        (
+            "bridged (no overlap: taken from the law)",
+            bridged,
+            {"color": WARN, "size": 10, "symbol": "x-thin-open", "line": {"width": 2}},
+            "bridged",
+        ),
+    ):
+        if not rows.any():
+            continue
+        hover = "T = %{x:.1f} °C<br>log aT = %{y:.3f}"
+        bars = None
+        if known:
+            lo, hi = np.asarray(low, dtype=float)[rows], np.asarray(high, dtype=float)[rows]
+            bars = {
+                "type": "data",
+                "symmetric": False,
+                "array": hi - logs[rows],
+                "arrayminus": logs[rows] - lo,
+                "color": marker["color"],
+                "thickness": 1.3,
+                "width": 5,
+            }
+            hover += " (95 %: %{customdata[0]:.3f} to %{customdata[1]:.3f})"
         fig.add_trace(
             go.Scatter(
-                x=temps[bridged],
-                y=logs[bridged],
+                x=temps[rows],
+                y=logs[rows],
                 mode="markers",
-                name="bridged (no overlap: taken from the law)",
-                marker={"color": WARN, "size": 10, "symbol": "x-thin-open", "line": {"width": 2}},
-                hovertemplate="T = %{x:.1f} °C<br>log aT = %{y:.3f}<extra>bridged</extra>",
+                name=name,
+                marker=marker,
+                error_y=bars,
+                customdata=np.column_stack([lo, hi]) if known else None,
+                hovertemplate=hover + f"<extra>{extra}</extra>",
             )
         )
     if shift.law.kind == "WLF+Arrhenius" and shift.law.split_C is not None:
@@ -635,7 +854,10 @@ def shift_figure(gid: str, curve: MasterCurve, window_range: tuple[float, float]
     fig.update_layout(
         template=TEMPLATE,
         height=440,
-        title=f"Shift factors of {gid} (reference {curve.reference_C:g} °C)",
+        title=(
+            f"Shift factors of {gid} (reference {curve.reference_C:.1f} °C; bars and shading: "
+            "95 % interval)"
+        ),
         xaxis_title="temperature [°C]",
         yaxis_title="log10 aT [-]",
         legend={"font": {"size": 10}},
@@ -681,7 +903,7 @@ def nomogram_figure(
             mode="lines",
             name="loss factor η",
             yaxis="y3",
-            line={"color": "#B8562F", "width": 2.5, "dash": "dash"},
+            line={"color": LOSS_FACTOR_COLOUR, "width": 2.5, "dash": "dash"},
             hovertemplate="fR = %{x:.3g} Hz<br>η = %{y:.3g}<extra></extra>",
         )
     )
@@ -792,7 +1014,7 @@ def nomogram_figure(
             "position": 0.0,
             "title": {"text": "loss factor η [-]"},
             "showgrid": False,
-            "tickfont": {"color": "#B8562F"},
+            "tickfont": {"color": LOSS_FACTOR_COLOUR},
         },
         yaxis2={
             "type": "log",
@@ -809,12 +1031,17 @@ def nomogram_figure(
 
 
 def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
-    """E' and tan delta at the Tg frequency, with Tg by each method and the regions."""
+    """E' and tan delta at the Tg frequency, with Tg by each method and the regions.
+
+    Each Tg found stands as a vertical line on the curves and, on a strip above them, as
+    a mark with its 95 % interval as a bar (where the fit gives one), one row per method.
+    """
     m = _mode_symbol(curve)
     f_tg = float(curve.tg[0]["frequency_Hz"]) if curve.tg else 1.0
     t_lo, t_hi = curve.temperature_range
     grid = np.linspace(t_lo, t_hi, 301)
     p = curve.evaluate(grid, f_tg)
+    band = curve.interval(grid, f_tg)
     fig = go.Figure()
     shades = ("rgba(53, 89, 143, 0.07)", "rgba(196, 154, 42, 0.09)", "rgba(91, 127, 46, 0.08)")
     for k, region in enumerate(curve.regions):
@@ -827,6 +1054,19 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.F
             annotation_position="bottom left",
             annotation_font_size=11,
         )
+    fig.add_trace(
+        band_trace(grid, band.storage_low / 1e6, band.storage_high / 1e6, ACCENT, f"{m}'")
+    )
+    fig.add_trace(
+        band_trace(
+            grid,
+            band.loss_factor_low,
+            band.loss_factor_high,
+            LOSS_FACTOR_COLOUR,
+            "tan δ",
+            yaxis="y2",
+        )
+    )
     fig.add_trace(
         go.Scatter(
             x=grid,
@@ -843,7 +1083,7 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.F
             mode="lines",
             name="tan δ",
             yaxis="y2",
-            line={"color": "#B8562F", "width": 2.2, "dash": "dash"},
+            line={"color": LOSS_FACTOR_COLOUR, "width": 2.2, "dash": "dash"},
         )
     )
     if points is not None and points.size:
@@ -865,30 +1105,61 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.F
                 mode="markers",
                 yaxis="y2",
                 name=f"tan δ measured {fm:.3g} Hz",
-                marker={"color": "#B8562F", "size": 6, "symbol": "diamond-open"},
+                marker={"color": LOSS_FACTOR_COLOUR, "size": 6, "symbol": "diamond-open"},
             )
         )
     dashes = ("dash", "dot", "dashdot")
+    rows_shown = []
     for k, tg in enumerate(curve.tg):
         if not tg.get("reached") or tg.get("temperature_C") is None:
             continue
-        fig.add_vline(
-            x=tg["temperature_C"],
-            line={"color": ACCENT, "dash": dashes[k % len(dashes)], "width": 1.5},
-            annotation_text=(
-                f"Tg {tg['method'].replace('_', ' ')} at {tg['frequency_Hz']:g} Hz: "
-                f"{tg['temperature_C']:.0f} °C"
-            ),
-            annotation_position="top right" if k % 2 == 0 else "top left",
-            annotation_font_size=11,
-            annotation_yshift=-14 * k,
+        t, low, high = tg["temperature_C"], tg.get("low_C"), tg.get("high_C")
+        known = low is not None and high is not None
+        method = tg["method"].replace("_", " ")
+        rows_shown.append(method)
+        dash = dashes[k % len(dashes)]
+        fig.add_vline(x=t, line={"color": ACCENT, "dash": dash, "width": 1.5})
+        spread = f" (95 %: {low:.1f} to {high:.1f})" if known else ""
+        fig.add_trace(
+            go.Scatter(
+                x=[t],
+                y=[method],
+                yaxis="y3",
+                mode="markers+text",
+                name=f"Tg {method}",
+                showlegend=False,
+                marker={"color": ACCENT, "size": 8, "symbol": "diamond"},
+                error_x=(
+                    {
+                        "type": "data",
+                        "symmetric": False,
+                        "array": [high - t],
+                        "arrayminus": [t - low],
+                        "color": ACCENT,
+                        "thickness": 2,
+                        "width": 5,
+                    }
+                    if known
+                    else None
+                ),
+                text=[f"{method}: {t:.1f} °C{spread}"],
+                textposition="middle right" if t < 0.5 * (t_lo + t_hi) else "middle left",
+                textfont={"size": 11, "color": INK},
+                hovertemplate=f"Tg by the {method} at {tg['frequency_Hz']:g} Hz: "
+                f"{t:.1f} °C{spread}<extra></extra>",
+            )
         )
+    strip = bool(rows_shown)
     fig.update_layout(
         template=TEMPLATE,
-        height=460,
+        height=500 if strip else 460,
         title=f"Glass transition of {gid} at {f_tg:g} Hz",
-        xaxis_title="temperature [°C]",
-        yaxis={"type": "log", "title": {"text": f"{m}' [MPa]"}},
+        xaxis={"title": {"text": "temperature [°C]"}, "range": [t_lo - 2.0, t_hi + 2.0]},
+        yaxis={
+            "type": "log",
+            "title": {"text": f"{m}' [MPa]"},
+            "domain": [0.0, 0.74 if strip else 1.0],
+        },
         yaxis2={
             "type": "log",
             "overlaying": "y",
@@ -897,7 +1168,23 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.F
             "title": {"text": "loss factor tan δ [-]"},
         },
         legend={"orientation": "h", "y": -0.2, "font": {"size": 10}},
+        margin={"r": 80},
     )
+    if strip:
+        fig.update_layout(
+            yaxis3={
+                "domain": [0.8, 1.0],
+                "anchor": "x",
+                "type": "category",
+                "categoryorder": "array",
+                "categoryarray": rows_shown[::-1],
+                "range": [-0.6, len(rows_shown) - 0.4],
+                "showgrid": False,
+                "showticklabels": False,
+                "ticks": "",
+                "title": {"text": "Tg", "font": {"size": 12}},
+            }
+        )
     return tidy_log_axes(fig)
 
 

@@ -10,6 +10,7 @@ here, which Streamlit only reads when it sends them.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 
 import numpy as np
 import plotly.graph_objects as go
@@ -17,7 +18,7 @@ import streamlit as st
 
 from dashboard import charts
 from engine.demo import DEMO_DIR
-from engine.fits import fit_library
+from engine.fits import fit_library, master_curve
 from engine.importer import import_files
 from engine.mastercurve import MasterCurve
 from engine.ranking import Criteria, RankResult, rank
@@ -94,20 +95,45 @@ def map_figure(
     show_excluded: bool,
     _result: RankResult,
     _colours: dict[str, str],
+    banded: tuple[str, ...] = (),
+    _curves: dict[str, MasterCurve] | None = None,
 ) -> go.Figure:
     """The map of a ranking (:func:`dashboard.charts.map_figure`), kept per view.
 
     ``result_key`` (from :func:`ranking_key`) stands for the ranking and for the grade
-    colours, which follow from the same library version; both are passed unhashed. Going
-    back to a window seen before then redraws nothing.
+    colours, which follow from the same library version; both are passed unhashed, and
+    so are the master curves (of the same version) whose 95 % intervals are drawn for
+    the grades ``banded``. Going back to a window seen before then redraws nothing.
     """
+    curves = _curves or {}
     return charts.map_figure(
         _result,
         _colours,
         list(chosen),
         _result.criteria.constraints.min_loss_factor,
         show_excluded=show_excluded,
+        bands={g: curves[g] for g in banded if g in curves},
     )
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def curve_at_reference(location: str, version: int, material_id: str, reference_C: float):
+    """The master curve of a grade refitted at ``reference_C`` [degC] (kept per version).
+
+    The fit is cached in the library as well (:func:`engine.fits.master_curve`), so a
+    reference chosen before costs one read after a restart.
+    """
+    return master_curve(library_at(location), material_id, reference_C)
+
+
+@st.cache_resource(max_entries=48, show_spinner=False)
+def kept_figure(view: str, _draw: Callable[[], go.Figure]) -> go.Figure:
+    """A figure drawn once per ``view``, a name for everything it is drawn from.
+
+    For the Curves page, whose figures evaluate the 95 % intervals (a pass over every
+    posterior draw of each grade): a rerun that changes nothing they show reuses them.
+    """
+    return _draw()
 
 
 @st.cache_data(max_entries=256, show_spinner=False)

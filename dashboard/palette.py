@@ -19,6 +19,13 @@ FEASIBLE = "rgba(46, 111, 115, 0.08)"
 WINDOW_BAND = "rgba(196, 154, 42, 0.10)"
 GUIDE = "#B9B4A8"
 WARN = "#9E3B4D"
+LOSS_MODULUS_COLOUR = "#8C6239"  # walnut: E'' beside E' on one chart
+LOSS_FACTOR_COLOUR = "#B8562F"  # rust: tan delta beside E' on one chart
+# 95 % intervals: a faint wash of the curve's own colour, with a hairline edge a little
+# stronger so that overlapping bands stay told apart.
+BAND_ALPHA = 0.14
+BAND_EDGE_ALPHA = 0.30
+INTERVAL_WASH = "rgba(46, 111, 115, 0.12)"  # teal wash behind an interval on a line chart
 
 GRADE_COLOURS = (
     "#2E6F73",  # deep teal
@@ -61,6 +68,12 @@ def faded(colour: str, alpha: float) -> str:
     """``colour`` (#rrggbb) as an rgba string with opacity ``alpha``."""
     r, g, b = (int(colour[i : i + 2], 16) for i in (1, 3, 5))
     return f"rgba({r}, {g}, {b}, {alpha:.2f})"
+
+
+def band_colours(colour: str, strength: float = 1.0) -> tuple[str, str]:
+    """Fill and edge colour of the 95 % band around a curve of ``colour``; ``strength``
+    scales their opacity."""
+    return faded(colour, BAND_ALPHA * strength), faded(colour, BAND_EDGE_ALPHA * strength)
 
 
 def _axis() -> dict:

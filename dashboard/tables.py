@@ -64,13 +64,19 @@ def comparison_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
 
 
 def shortlist_frame(result: RankResult) -> pd.DataFrame:
-    """The ranked grades with score, index values and the one-line reason."""
+    """The ranked grades with score, index values and the one-line reason.
+
+    ``rank interval`` is best–worst rank over the draws of the fits (engine.spread),
+    None where it was not computed.
+    """
     titles = index_columns(result)
     rows = []
     for g in result.shortlist:
+        interval = g.rank_interval
         row = {
             "rank": g.rank,
             "grade": g.id,
+            "rank interval": None if interval is None else "{}–{}".format(*interval),
             "name": g.name,
             "supplier": g.supplier,
             "family": g.family,

@@ -406,6 +406,7 @@ def _criteria_from_args(args):
 def cmd_rank(args) -> int:
     from engine.fits import fit_library
     from engine.ranking import rank
+    from engine.spread import MOUNT_SERIES, rank_spread
 
     lib = _library(args)
     criteria = _criteria_from_args(args)
@@ -413,16 +414,21 @@ def cmd_rank(args) -> int:
     if not curves:
         raise QuietgradeError(f"no fitted grades in the library {lib.location}")
     materials = {m.id: m for m in lib.materials()}
-    result = rank(curves, materials, criteria, errors)
+    result = rank_spread(rank(curves, materials, criteria, errors), curves, materials)
     if args.out:
         from engine.export import write_shortlist
 
         write_shortlist(result, args.out, lib, curves)
     rows = []
     for g in result.grades:
+        mount = g.mount
+        if mount is not None:  # null companions where no interval was computed
+            for key in (f"{name}_{end}" for name in MOUNT_SERIES for end in ("low", "high")):
+                mount.setdefault(key, None)
         rows.append(
             {
                 "rank": g.rank,
+                "rank_interval": g.rank_interval,
                 "id": g.id,
                 "name": g.name,
                 "supplier": g.supplier,
@@ -431,13 +437,15 @@ def cmd_rank(args) -> int:
                 "score": g.score,
                 "pareto": g.pareto,
                 "indices": g.indices,
+                "indices_low": {n: g.index_interval(n)[0] for n in g.indices},
+                "indices_high": {n: g.index_interval(n)[1] for n in g.indices},
                 "failures": [
                     {"constraint": f.constraint, "value": f.value, "limit": f.limit}
                     for f in g.failures
                 ],
                 "reason": g.reason,
                 "extrapolated": g.extrapolated,
-                "mount": g.mount,
+                "mount": mount,
             }
         )
     data = {
@@ -446,6 +454,11 @@ def cmd_rank(args) -> int:
         "shortlist": [r for r in rows if r["passed"]],
         "excluded": [r for r in rows if not r["passed"]],
         "fit_errors": errors,
+        "intervals": {
+            "draws": result.spread.draws,
+            "leading": list(result.spread.leading),
+            "note": result.spread.describe(),
+        },
         "out": args.out,
     }
     lo, hi = criteria.window.temp_range
@@ -455,7 +468,8 @@ def cmd_rank(args) -> int:
         f"{len(result.shortlist)} of {len(result.grades)} grade(s) pass"
     ]
     for g in result.shortlist:
-        lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f}  {g.reason}")
+        span = "" if g.rank_interval is None else "ranks {}-{}".format(*g.rank_interval)
+        lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f} {span:>10}  {g.reason}")
     for g in result.excluded:
         lines.append(f"    - {g.id:<14} {g.reason}")
     if args.out:

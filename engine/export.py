@@ -20,7 +20,8 @@ in mm.
 CSV layout: UTF-8 with a byte-order mark (spreadsheets then read the text correctly), one
 header row, one row per grade (passing grades in rank order, then the excluded ones),
 text cells always quoted, and after the data a few lines that start with ``#``: the
-quietgrade version and date, grades that could not be ranked, and last the caution.
+quietgrade version and date, how the intervals were made (or that they were not),
+grades that could not be ranked, and last the caution.
 ``pandas.read_csv(path, comment="#")`` reads the file back to exactly the grade rows; a
 spreadsheet shows the ``#`` lines below the table. Text cells that begin with ``=``,
 ``+``, ``-``, ``@``, a tab or a carriage return get a leading ``'`` so that no
@@ -37,7 +38,7 @@ import numpy as np
 from scipy.interpolate import make_interp_spline
 
 from engine.caution import CAUTION
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, InputError
 from engine.mastercurve import MasterCurve
 from engine.ranking import RankResult
 from engine.store import Library
@@ -92,36 +93,87 @@ MOUNT_COLUMNS = (
     "fn min [Hz]",
     "fn max [Hz]",
     "worst transmissibility [-]",
+    "max static deflection [mm]",
     "max static strain [-]",
     "long-term sag [mm]",
 )
+# Mount columns with a 95 % interval, and the engine.spread summary figure behind each.
+_MOUNT_SPREAD = {
+    "fn min [Hz]": "fn_min_Hz",
+    "fn max [Hz]": "fn_max_Hz",
+    "worst transmissibility [-]": "worst_transmissibility",
+    "max static deflection [mm]": "max_static_deflection_mm",
+}
+RANK_INTERVAL_COLUMNS = ("rank interval best", "rank interval worst")
 
 
-def _mount_figures(figs: dict | None) -> dict:
-    """Key mount figures of one grade from :meth:`MountResult.grade`.
+def interval_heading(heading: str, end: str) -> str:
+    """Heading of the ``end`` ("low" or "high") companion of a column, before its unit:
+    ``"fn min [Hz]"`` -> ``"fn min low [Hz]"``."""
+    name, bracket, unit = heading.rpartition(" [")
+    if bracket and heading.endswith("]"):
+        return f"{name} {end} [{unit}"
+    return f"{heading} {end}"
+
+
+def interval_columns(result: RankResult) -> dict[str, tuple[str, str]]:
+    """Every column that carries a 95 % interval -> the headings of its low and high."""
+    headings = list(index_columns(result).values())
+    if result.mount is not None:
+        headings += list(_MOUNT_SPREAD)
+    return {h: (interval_heading(h, "low"), interval_heading(h, "high")) for h in headings}
+
+
+def _mount_figures(figs: dict | None, spread=None) -> dict:
+    """Key mount figures of one grade from :meth:`MountResult.grade`, with the intervals
+    of ``spread`` (an :class:`engine.spread.GradeSpread`) where it has them.
 
     The natural-frequency range is over the window temperatures; the worst
-    transmissibility is the largest over the window temperatures and the disturbances.
+    transmissibility is the largest over the window temperatures and the disturbances;
+    the static deflection the largest over the window temperatures.
     """
+    out = {}
+    for heading in MOUNT_COLUMNS:  # in the order of the header
+        out[heading] = None
+        if heading in _MOUNT_SPREAD:
+            out.update(dict.fromkeys(interval_heading(heading, e) for e in ("low", "high")))
     if figs is None:
-        return dict.fromkeys(MOUNT_COLUMNS)
-    return {
-        "pad area [mm2]": finite(figs["area_mm2"]),
-        "fn min [Hz]": _finite_min(figs["natural_frequency_Hz"]),
-        "fn max [Hz]": _finite_max(figs["natural_frequency_Hz"]),
-        "worst transmissibility [-]": _finite_max(figs["transmissibility"]),
-        "max static strain [-]": _finite_max(figs["static_strain"]),
-        "long-term sag [mm]": finite(figs["sag_mm"]),
-    }
+        return out
+    out.update(
+        {
+            "pad area [mm2]": finite(figs["area_mm2"]),
+            "fn min [Hz]": _finite_min(figs["natural_frequency_Hz"]),
+            "fn max [Hz]": _finite_max(figs["natural_frequency_Hz"]),
+            "worst transmissibility [-]": _finite_max(figs["transmissibility"]),
+            "max static deflection [mm]": _finite_max(figs["static_deflection_mm"]),
+            "max static strain [-]": _finite_max(figs["static_strain"]),
+            "long-term sag [mm]": finite(figs["sag_mm"]),
+        }
+    )
+    summary = None if spread is None else spread.mount_summary
+    if summary:
+        for heading, key in _MOUNT_SPREAD.items():
+            low, high = summary[key]
+            out[interval_heading(heading, "low")] = finite(low)
+            out[interval_heading(heading, "high")] = finite(high)
+    return out
 
 
 def shortlist_header(result: RankResult) -> list[str]:
-    """The column headings of :func:`shortlist_rows`, in order (also without any grade)."""
-    head = ["rank", "id", "name", "supplier", "family", "price [per kg]", "density [kg/m3]"]
-    head += list(index_columns(result).values())
+    """The column headings of :func:`shortlist_rows`, in order (also without any grade).
+
+    Each column with a 95 % interval (:func:`interval_columns`) is followed by its low
+    and high; they are empty where no interval was computed (:mod:`engine.spread`).
+    """
+    spread = interval_columns(result)
+    head = ["rank", *RANK_INTERVAL_COLUMNS, "id", "name", "supplier", "family"]
+    head += ["price [per kg]", "density [kg/m3]"]
+    for heading in index_columns(result).values():
+        head += [heading, *spread[heading]]
     head += ["score", "pareto", "passed", "reason", "failed constraints", "extrapolated"]
     if result.mount is not None:
-        head += list(MOUNT_COLUMNS)
+        for heading in MOUNT_COLUMNS:
+            head += [heading, *spread.get(heading, ())]
     return [*head, "notes"]
 
 
@@ -133,11 +185,15 @@ def shortlist_rows(result: RankResult) -> list[dict]:
     ranking checked a mount.
     """
     columns = index_columns(result)
+    spread = interval_columns(result)
     pareto_on = result.criteria.pareto is not None
     rows = []
     for g in result.grades:
+        best, worst = g.rank_interval or (None, None)
         row = {
             "rank": g.rank,
+            RANK_INTERVAL_COLUMNS[0]: best,
+            RANK_INTERVAL_COLUMNS[1]: worst,
             "id": g.id,
             "name": g.name,
             "supplier": g.supplier,
@@ -147,6 +203,9 @@ def shortlist_rows(result: RankResult) -> list[dict]:
         }
         for name, heading in columns.items():
             row[heading] = finite(g.indices.get(name))
+            low, high = g.index_interval(name)
+            row[spread[heading][0]] = finite(low)
+            row[spread[heading][1]] = finite(high)
         row["score"] = finite(g.score)
         row["pareto"] = yes_no(g.pareto) if pareto_on and g.passed else None
         row["passed"] = "pass" if g.passed else "fail"
@@ -154,7 +213,7 @@ def shortlist_rows(result: RankResult) -> list[dict]:
         row["failed constraints"] = "; ".join(f.text() for f in g.failures) or None
         row["extrapolated"] = yes_no(g.extrapolated)
         if result.mount is not None:
-            row.update(_mount_figures(g.mount))
+            row.update(_mount_figures(g.mount, g.spread))
         row["notes"] = "; ".join(g.notes) or None
         rows.append(row)
     return rows
@@ -164,9 +223,18 @@ def _one_line(text: str) -> str:
     return " ".join(str(text).split())
 
 
+def intervals_note(result: RankResult) -> str:
+    """How the rank intervals and the low/high columns were made, in one sentence."""
+    if result.spread is None:
+        return "Rank intervals and low/high values were not computed for this ranking."
+    return result.spread.describe()
+
+
 def _trailer_lines(result: RankResult) -> list[str]:
-    """Lines after the table: version and date, grades not ranked, the caution last."""
+    """Lines after the table: version and date, the intervals, grades not ranked, the
+    caution last."""
     lines = [f"quietgrade {result.engine_version}, ranked {result.created_at} (UTC)"]
+    lines.append(intervals_note(result))
     for gid, msg in sorted(result.fit_errors.items()):
         lines.append(f"not ranked, master curve failed: {_one_line(gid)}: {_one_line(msg)}")
     lines.append(f"caution: {CAUTION}")
@@ -223,6 +291,7 @@ def criteria_rows(result: RankResult) -> list[tuple[str, str, object]]:
         ("report", "grades ranked", len(result.grades)),
         ("report", "grades passing", len(result.shortlist)),
         ("report", "grades excluded", len(result.excluded)),
+        ("report", "intervals", intervals_note(result)),
     ]
     for gid, msg in sorted(result.fit_errors.items()):
         rows.append(("report", f"not ranked: {gid}", f"master curve failed: {msg}"))
@@ -488,7 +557,9 @@ def write_shortlist(
 ) -> Path:
     """Write the shortlist to ``path``; the extension (.csv, .xlsx, .html) picks the format.
 
-    The parent folder is created when missing. Returns the path written.
+    The parent folder is created when missing. Returns the path written. A path that
+    cannot be written (no permission, a folder in the way, a full disk) raises
+    InputError naming the file and the reason.
     """
     p = Path(path)
     suffix = p.suffix.lower()
@@ -508,8 +579,13 @@ def write_shortlist(
         from engine.report import report_html
 
         data = report_html(result, library, curves).encode("utf-8")
-    p.parent.mkdir(parents=True, exist_ok=True)
-    p.write_bytes(data)
+    try:
+        p.parent.mkdir(parents=True, exist_ok=True)
+        p.write_bytes(data)
+    except OSError as exc:
+        raise InputError(
+            f"cannot write the shortlist here: {exc.strerror or exc}", file=str(p)
+        ) from None
     return p
 
 
@@ -518,9 +594,13 @@ __all__ = [
     "MOUNT_COLUMNS",
     "PROVENANCE_COLUMNS",
     "WINDOW_COLUMNS",
+    "RANK_INTERVAL_COLUMNS",
     "criteria_rows",
     "finite",
     "index_columns",
+    "interval_columns",
+    "interval_heading",
+    "intervals_note",
     "provenance_rows",
     "shortlist_csv",
     "shortlist_header",

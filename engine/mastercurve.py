@@ -15,7 +15,7 @@ import numpy as np
 
 from engine.errors import FitError
 from engine.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
-from engine.jointfit import N_DRAWS, LawTemplate, fit_jointly
+from engine.jointfit import N_DRAWS, LawTemplate, fit_jointly, robust_variance
 from engine.prony import PronySeries, fit_prony, tau_grid
 from engine.shift import (
     WLF_UNIVERSAL_C1,
@@ -256,8 +256,9 @@ class MasterCurve:
 
         Notes
         -----
-        The spread (standard deviation in log) of the posterior draws of the fit
-        (:meth:`draw_curves`) about the fitted value, times 1.96; outside the data and
+        The spread (robust standard deviation in log, :func:`robust_variance`) of the
+        posterior draws of the fit (:meth:`draw_curves`) about the fitted value, times
+        1.96; outside the data and
         in gaps an extra EXTRAPOLATION_SD per decade (a project choice: the
         draws cannot know how the material behaves where it was not measured). Without
         draws (a curve stored before intervals existed) only the extrapolation term is
@@ -277,9 +278,9 @@ class MasterCurve:
             for k, d in enumerate(draws):
                 p = d._evaluate(t, f, TABLE_STEP)
                 ds[k], dl[k] = np.log(p.storage_modulus), np.log(p.loss_modulus)
-            var_s = np.mean((ds - ln_s) ** 2, axis=0)
-            var_l = np.mean((dl - ln_l) ** 2, axis=0)
-            var_e = np.mean(((dl - ds) - (ln_l - ln_s)) ** 2, axis=0)
+            var_s = robust_variance(ds - ln_s)
+            var_l = robust_variance(dl - ln_l)
+            var_e = robust_variance((dl - ds) - (ln_l - ln_s))
         log_fr = np.log10(centre.reduced_frequency)
         distance = self.extrapolation_decades(t, log_fr)
         extra_s = (EXTRAPOLATION_SD[0] * distance) ** 2
@@ -304,7 +305,7 @@ class MasterCurve:
         draws = self.draw_curves()
         var = np.zeros_like(centre)
         if draws:
-            var = np.mean([(d.log_shift(t) - centre) ** 2 for d in draws], axis=0)
+            var = robust_variance([d.log_shift(t) - centre for d in draws])
         t_lo, t_hi = self.temperature_range
         beyond = np.maximum(t_lo - t, 0.0) + np.maximum(t - t_hi, 0.0)
         half = Z95 * np.sqrt(var + (EXTRAPOLATION_SD[0] * beyond / 10.0) ** 2)
@@ -610,7 +611,7 @@ def _model_tg(curve: MasterCurve, frequency: float) -> list[dict]:
     for k, r in enumerate(best):
         values = [d[k]["temperature_C"] for d in draws if d[k]["reached"]]
         if r["reached"] and len(values) >= 3:
-            sd = float(np.sqrt(np.mean((np.array(values) - r["temperature_C"]) ** 2)))
+            sd = float(np.sqrt(robust_variance(np.array(values) - r["temperature_C"])))
             r["low_C"] = r["temperature_C"] - Z95 * sd
             r["high_C"] = r["temperature_C"] + Z95 * sd
         else:
@@ -761,6 +762,9 @@ def build_master_curve(
         prony0,
         reference_group,
         n_draws=N_DRAWS if intervals else 0,
+        # Each data set draws from a stream of its own (the same on every run), so the
+        # draws of two grades are independent.
+        rng_seed=int.from_bytes(hashlib.sha256(points.tobytes()).digest()[:8], "little"),
     )
     law = ShiftLaw(**{**joint.law.to_dict(), "rms": start.law.rms, "notes": start.law.notes})
     # An isotherm of a single frequency shows no shape of its own: a modulus error and a

@@ -17,6 +17,7 @@ import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -38,6 +39,9 @@ from engine.mountcheck import MountDesign, MountResult, check_mounts
 from engine.store import Material
 from engine.window import OperatingWindow, WindowProps, evaluate_window
 
+if TYPE_CHECKING:  # engine.spread builds on this module
+    from engine.spread import GradeSpread, RankSpread
+
 DESIGN_TYPES = ("isolation_mount", "damping_layer", "general")
 DEFAULT_INDICES = {
     "isolation_mount": [("loss_factor", 1.0, "worst"), ("frequency_drift", 1.0, "worst")],
@@ -45,6 +49,7 @@ DEFAULT_INDICES = {
     "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
 }
 MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
+UNCERTAIN = "within the data's uncertainty"  # of neighbours the draws cannot order (spread)
 LOG_FLOOR = 1e-12  # values at or below zero are scored as this (a damping span of 0 K)
 
 
@@ -320,13 +325,30 @@ class GradeResult:
     mount_result: MountResult | None = field(default=None, repr=False)
     mount_index: int | None = None
     notes: list[str] = field(default_factory=list)
+    spread: GradeSpread | None = field(default=None, repr=False)  # see engine.spread
 
     @property
     def mount(self) -> dict | None:
-        """JSON-ready mount figures of this grade (MountResult.grade), made on demand."""
+        """JSON-ready mount figures of this grade (MountResult.grade), made on demand;
+        with the ``_low``/``_high`` companions of :mod:`engine.spread` when it has them."""
         if self.mount_result is None:
             return None
-        return self.mount_result.grade(self.mount_index)
+        figures = self.mount_result.grade(self.mount_index)
+        if self.spread is not None:
+            figures.update(self.spread.mount_companions())
+        return figures
+
+    def index_interval(self, name: str) -> tuple[float | None, float | None]:
+        """(low, high) 95 % interval of index ``name`` over the draws of the fits
+        (engine.spread), or (None, None) where none was computed."""
+        if self.spread is None or name not in self.spread.indices:
+            return None, None
+        return self.spread.indices[name]
+
+    @property
+    def rank_interval(self) -> list[int] | None:
+        """[best, worst] rank over the draws of the fits (engine.spread), else None."""
+        return None if self.spread is None else list(self.spread.rank_interval)
 
 
 @dataclass
@@ -339,6 +361,7 @@ class RankResult:
     created_at: str
     engine_version: str = __version__
     fit_errors: dict[str, str] = field(default_factory=dict)
+    spread: RankSpread | None = None  # how the intervals were made (engine.spread)
 
     @property
     def shortlist(self) -> list[GradeResult]:
@@ -594,24 +617,43 @@ def rank(
     """Evaluate, constrain, score and order every grade with a master curve.
 
     ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
+    The rank intervals from the draws of the fits are a further step,
+    :func:`engine.spread.rank_spread`.
     """
     with collector_paused():
         return _rank(curves, materials, criteria, fit_errors, bank)
 
 
-def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
-    ids = [i for i in curves if i in materials]
-    if bank is None or bank.ids != ids:
-        bank = CurveBank.from_curves({i: curves[i] for i in ids})
-    mats = [materials[i] for i in ids]
-    n = len(ids)
+@dataclass
+class Evaluation:
+    """What a ranking computes for each grade before its constraints and scores.
+
+    Arrays have one row per grade of ``ids``; index values in display units (see
+    :class:`engine.indices.IndexSpec`).
+    """
+
+    ids: list[str]
+    catalog: dict[str, np.ndarray]  # numeric catalog fields, NaN where unknown
+    props: WindowProps
+    specs: dict[str, IndexSpec]
+    values: dict[str, np.ndarray]  # aggregated index values
+    eta_worst: np.ndarray  # worst loss factor over the window grid
+    extrapolated: np.ndarray  # any window point (or duty point) leaves the data
+    mount: MountResult | None
+
+
+def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criteria) -> Evaluation:
+    """Window properties, index values and the mount check of every grade in ``bank``.
+
+    ``materials`` are the catalog rows of the bank's grades, in its order (an id may
+    appear more than once: only the catalog fields are read). Every figure of a grade
+    depends on that grade alone.
+    """
+    n = len(bank.ids)
     window = criteria.window
-    catalog = _catalog_columns(mats)
+    catalog = _catalog_columns(materials)
     props = evaluate_window(bank, window, catalog["poisson_ratio"])
     specs = {c.name: c.spec() for c in criteria.indices}
-
-    # -- index values per grade -------------------------------------------------------
-    has_duty = bool(window.duty_points)
     point = [c for c in criteria.indices if specs[c.name].kind == "point"]
     values, eta_worst = _point_indices(props, catalog, point, specs)
     for c in criteria.indices:
@@ -626,10 +668,8 @@ def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
         elif c.name not in values:  # pragma: no cover - every window index is handled above
             raise CriteriaError(f"index '{c.name}' has no evaluation")
     extrap_any = props.extrapolated.reshape(n, -1).any(axis=1)
-    if has_duty:
+    if window.duty_points:
         extrap_any |= props.duty_extrapolated.any(axis=1)
-
-    # -- mount check -----------------------------------------------------------------
     mres = None
     if criteria.mount is not None:
         mres = check_mounts(
@@ -639,12 +679,51 @@ def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
             catalog["poisson_ratio"],
             catalog["hardness"],
         )
+    return Evaluation(list(bank.ids), catalog, props, specs, values, eta_worst, extrap_any, mres)
+
+
+def raw_scores(values: dict[str, np.ndarray], criteria: Criteria) -> np.ndarray:
+    """Score before the 0-100 mapping: sum_i w_i s_i log10(v_i) / sum_i w_i (module notes).
+
+    ``values`` maps each chosen index to its values (any shape, the same for all); a
+    missing value or one at or below zero counts as LOG_FLOOR.
+    """
+    specs = {c.name: c.spec() for c in criteria.indices}
+    total_w = sum(c.weight for c in criteria.indices)
+    raw = sum(
+        c.weight
+        * (1 if specs[c.name].higher_is_better else -1)
+        * np.log10(np.maximum(np.nan_to_num(values[c.name], nan=LOG_FLOOR), LOG_FLOOR))
+        for c in criteria.indices
+    )
+    return np.asarray(raw, dtype=float) / total_w
+
+
+def write_reasons(result: RankResult) -> None:
+    """Set the one-line reason of every grade of ``result`` (passing ones in rank order)."""
+    passing = result.shortlist
+    weights = {c.name: c.weight for c in result.criteria.indices}
+    reasons = _Reasons(passing, result.specs, weights)
+    for r in passing:
+        r.reason = reasons.line(r)
+    for r in result.excluded:
+        r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
+
+
+def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
+    ids = [i for i in curves if i in materials]
+    if bank is None or bank.ids != ids:
+        bank = CurveBank.from_curves({i: curves[i] for i in ids})
+    mats = [materials[i] for i in ids]
+    n = len(ids)
+    ev = evaluate_grades(bank, mats, criteria)
+    specs, values, mres = ev.specs, ev.values, ev.mount
 
     # -- constraints -----------------------------------------------------------------
-    failures = _failures(criteria, specs, values, catalog, eta_worst, extrap_any, mres)
+    failures = _failures(criteria, specs, values, ev.catalog, ev.eta_worst, ev.extrapolated, mres)
     index_values = {name: values[name].tolist() for name in specs}
-    eta_list = eta_worst.tolist()
-    extrap_list = extrap_any.tolist()
+    eta_list = ev.eta_worst.tolist()
+    extrap_list = ev.extrapolated.tolist()
     results: list[GradeResult] = []
     for k, m in enumerate(mats):
         notes = list(curves[m.id].notes)
@@ -670,15 +749,7 @@ def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
         )
 
     # -- scores, order, Pareto, reasons -------------------------------------------------
-    weights = {c.name: c.weight for c in criteria.indices}
-    total_w = sum(weights.values())
-    raw = sum(
-        weights[name]
-        * (1 if spec.higher_is_better else -1)
-        * np.log10(np.maximum(np.nan_to_num(values[name], nan=LOG_FLOOR), LOG_FLOOR))
-        for name, spec in specs.items()
-    )
-    raw = (np.asarray(raw, dtype=float) / total_w).tolist() if n else []
+    raw = raw_scores(values, criteria).tolist() if n else []
     passing = [r for r in results if r.passed]
     for k, r in enumerate(results):
         if r.passed:
@@ -707,21 +778,18 @@ def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
         )
         for r, flag in zip(passing, flags.tolist(), strict=True):
             r.pareto = flag
-    reasons = _Reasons(passing, specs, weights)
-    for r in passing:
-        r.reason = reasons.line(r)
     excluded = sorted((r for r in results if not r.passed), key=lambda r: r.id)
-    for r in excluded:
-        r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
-    return RankResult(
+    result = RankResult(
         criteria=criteria,
         grades=passing + excluded,
         specs=specs,
-        window_props=props,
+        window_props=ev.props,
         mount=mres,
         created_at=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         fit_errors=dict(fit_errors or {}),
     )
+    write_reasons(result)
+    return result
 
 
 def pareto_optimal(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -783,6 +851,8 @@ class _Reasons:
                 f"{self.specs[n].label} {_fmt(r.indices[n])}{self.units[n]}" for n in self.shown
             )
         )
+        if r.spread is not None and r.spread.alongside:
+            parts.append(f"{UNCERTAIN} of {' and '.join(r.spread.alongside)}")
         if r.pareto:
             parts.append("Pareto-optimal")
         if r.extrapolated:

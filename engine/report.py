@@ -16,7 +16,15 @@ import plotly.io as pio
 from plotly.subplots import make_subplots
 
 from engine.caution import CAUTION
-from engine.export import criteria_rows, finite, provenance_rows, shortlist_rows
+from engine.export import (
+    RANK_INTERVAL_COLUMNS,
+    criteria_rows,
+    finite,
+    interval_columns,
+    intervals_note,
+    provenance_rows,
+    shortlist_rows,
+)
 from engine.mastercurve import MasterCurve
 from engine.ranking import RankResult
 from engine.store import Library
@@ -98,6 +106,13 @@ def _cell(value) -> str:
     if isinstance(value, int | float) and not isinstance(value, bool):
         return f'<td class="num">{_num(value)}</td>'
     return f"<td>{'&ndash;' if value is None else _e(value)}</td>"
+
+
+def _cell_interval(value, low, high) -> str:
+    """A number with its 95 % interval under it (the number alone without one)."""
+    if low is None or high is None:
+        return _cell(value)
+    return f'<td class="num">{_num(value)}<br><small>{_num(low)} to {_num(high)}</small></td>'
 
 
 def _colours(result: RankResult) -> dict[str, str]:
@@ -283,24 +298,36 @@ def _ranked_html(result: RankResult) -> str:
     if not passing:
         return '<p class="hint">No grade meets every constraint.</p>'
     colours = _colours(result)
+    spread = interval_columns(result)
     skip = {"rank", "id", "name", "passed", "failed constraints", "reason", "notes"}
+    skip |= set(RANK_INTERVAL_COLUMNS) | {h for pair in spread.values() for h in pair}
     if result.criteria.pareto is None:
         skip.add("pareto")
     middle = [h for h in passing[0] if h not in skip]
     header = ["rank", "grade", *middle, "reason", "notes"]
+    best, worst = RANK_INTERVAL_COLUMNS
     body = []
     for r in passing:
         swatch = f'<span class="swatch" style="background:{colours[r["id"]]}"></span>'
         body.append(
             [
-                f'<td class="num">{r["rank"]}</td>',
+                _cell_interval(r["rank"], r[best], r[worst]),
                 f'<td class="grade">{swatch}{_e(r["name"])}<br><small>{_e(r["id"])}</small></td>',
-                *[_cell(r[h]) for h in middle],
+                *[
+                    _cell_interval(r[h], r[spread[h][0]], r[spread[h][1]])
+                    if h in spread
+                    else _cell(r[h])
+                    for h in middle
+                ],
                 f'<td class="reason">{_e(r["reason"])}</td>',
                 f'<td class="notes">{_e(r["notes"] or "")}</td>',
             ]
         )
-    return _table(header, body)
+    hint = (
+        '<p class="hint">Under a rank or a figure: its 95 % interval on the data. '
+        f"{_e(intervals_note(result))}</p>"
+    )
+    return hint + _table(header, body)
 
 
 def _excluded_html(result: RankResult) -> str:

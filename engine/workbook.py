@@ -25,6 +25,7 @@ from engine.export import (
     WINDOW_COLUMNS,
     criteria_rows,
     finite,
+    intervals_note,
     provenance_rows,
     shortlist_header,
     shortlist_rows,
@@ -126,7 +127,7 @@ def shortlist_xlsx(result: RankResult, library: Library | None = None) -> bytes:
         f"Grades that meet every constraint, best first. Window {w.temp_range[0]:g} to "
         f"{w.temp_range[1]:g} °C, {w.freq_range[0]:g} to {w.freq_range[1]:g} Hz; ranked "
         f"{result.created_at} (UTC) "
-        f"with quietgrade {result.engine_version}.",
+        f"with quietgrade {result.engine_version}. {intervals_note(result)}",
     )
     excluded = []
     for g in result.excluded:

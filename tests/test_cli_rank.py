@@ -78,9 +78,12 @@ def cli(tmp_path_factory):
         timeout=300,
     )
     assert demo.returncode == 0, demo.stderr
+    design = tmp / "mount.json"
+    design.write_text(json.dumps({"thickness_mm": 25, "target_fn_Hz": 10.0}))
     cases = {
         "mount": MOUNT,
         "rank": ["rank", *WINDOW, "--json"],
+        "rank_mount": ["rank", *WINDOW, "--allow-extrapolation", "--mount", str(design), "--json"],
         "inverted": ["rank", "--temp-range", "45", "-20", "--freq-range", "10", "100"],
     }
     before = _digest(db)
@@ -177,6 +180,65 @@ def test_rank_json_shortlist_and_excluded(cli):
     assert [r["id"] for r in excluded] == sorted(r["id"] for r in excluded)
     assert data["criteria"]["window"]["temp_range"] == [-20.0, 45.0]
     assert data["criteria"]["window"]["freq_range"] == [10.0, 100.0]
+
+
+def test_rank_json_carries_rank_intervals_and_companions(cli):
+    # The CLI contract: every grade entry has rank_interval [best, worst] (null where
+    # none was computed), and index values and mount figures their _low/_high.
+    for case in ("rank", "rank_mount"):
+        data = _ok_json(cli, case)
+        intervals = data["intervals"]
+        assert intervals["draws"] == 32
+        assert intervals["leading"] == [r["id"] for r in data["shortlist"]][:20]
+        assert "posterior draws" in intervals["note"]
+        for r in data["shortlist"]:
+            best, worst = r["rank_interval"]
+            assert isinstance(best, int) and isinstance(worst, int)
+            assert 1 <= best <= r["rank"] <= worst <= len(data["shortlist"])
+            assert set(r["indices_low"]) == set(r["indices"]) == set(r["indices_high"])
+            for name, v in r["indices"].items():
+                assert r["indices_low"][name] <= v <= r["indices_high"][name]
+        for r in data["excluded"]:
+            assert "rank_interval" in r and r["rank_interval"] is None
+            assert set(r["indices_low"]) == set(r["indices"])
+            assert all(v is None for v in r["indices_low"].values())
+        texts = [r["reason"] for r in data["shortlist"]]
+        for r, text in zip(data["shortlist"], texts, strict=True):
+            # The note names a neighbour in the shortlist, and only a neighbour.
+            if "within the data's uncertainty of " in text:
+                named = text.split("within the data's uncertainty of ")[1].split(";")[0]
+                ids = [x["id"] for x in data["shortlist"]]
+                k = ids.index(r["id"])
+                assert set(named.split(" and ")) <= set(ids[max(k - 1, 0) : k + 2]) - {r["id"]}
+    data = _ok_json(cli, "rank_mount")
+    assert data["shortlist"], "the demo library has grades that pass with the sized pad"
+    for r in data["shortlist"]:
+        m = r["mount"]
+        for name in ("natural_frequency_Hz", "transmissibility", "static_deflection_mm"):
+            assert len(m[f"{name}_low"]) == len(m[name]) == len(m[f"{name}_high"])
+        for lo, v, hi in zip(
+            m["natural_frequency_Hz_low"],
+            m["natural_frequency_Hz"],
+            m["natural_frequency_Hz_high"],
+            strict=True,
+        ):
+            assert lo <= v <= hi
+    for r in data["excluded"]:
+        assert r["mount"]["natural_frequency_Hz_low"] is None
+        assert r["mount"]["transmissibility_high"] is None
+
+
+def test_rank_out_to_a_path_that_cannot_be_written_exits_2(cli, tmp_path, capsys):
+    blocker = tmp_path / "taken"
+    blocker.write_text("a file where the folder should be")
+    out = blocker / "shortlist.csv"
+    assert main(["rank", "--db", str(cli["db"]), *WINDOW, "--out", str(out)]) == 2
+    captured = capsys.readouterr()
+    assert captured.out == ""
+    lines = captured.err.strip().splitlines()
+    assert len(lines) == 1, captured.err
+    assert lines[0].startswith(f"error: {out}: cannot write the shortlist here: ")
+    assert _digest(cli["db"]) == cli["before"]
 
 
 def test_rank_excludes_grades_whose_service_range_misses_the_window(cli):

@@ -19,14 +19,15 @@ pytest.importorskip("streamlit")
 
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
-from dashboard import case, charts, importing  # noqa: E402
+from dashboard import case, charts, data, importing  # noqa: E402
 from dashboard.common import SHOWN_LIMIT  # noqa: E402
 from engine.caution import CAUTION  # noqa: E402
-from engine.errors import CriteriaError, InputError  # noqa: E402
-from engine.fits import fit_library  # noqa: E402
+from engine.errors import CriteriaError, FitError, InputError  # noqa: E402
+from engine.fits import fit_library, master_curve  # noqa: E402
 from engine.importer import import_files  # noqa: E402
 from engine.ranking import Criteria, rank  # noqa: E402
 from engine.store import Library  # noqa: E402
+from engine.window import tensile_factor  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
@@ -101,7 +102,11 @@ def test_comparison_set_is_listed_and_highlighted(monkeypatch, demo_db):
     table = [d.value for d in at.dataframe if "worst loss factor in window" in d.value.columns]
     assert table and table[0]["grade"].tolist() == chosen
     spec = json.loads(at.get("plotly_chart")[0].proto.spec)
-    widths = {t["legendgroup"]: t["line"]["width"] for t in spec["data"] if t.get("legendgroup")}
+    widths = {
+        t["legendgroup"]: t["line"]["width"]
+        for t in spec["data"]
+        if t.get("legendgroup") and not t.get("fill")  # not the grade's shaded interval
+    }
     others = [w for g, w in widths.items() if g not in chosen]
     assert all(widths[g] > max(others) for g in chosen)
     assert at.query_params["g"] == "BW-FD30,QC-IIR55"
@@ -273,7 +278,11 @@ def crowd_db(tmp_path_factory):
 def _array(value) -> np.ndarray:
     """A data array of a figure spec: a list, or Plotly's base64 typed array."""
     if isinstance(value, dict):
-        return np.frombuffer(base64.b64decode(value["bdata"]), dtype=value["dtype"])
+        flat = np.frombuffer(base64.b64decode(value["bdata"]), dtype=value["dtype"])
+        shape = value.get("shape")
+        if isinstance(shape, str):
+            shape = [int(n) for n in shape.split(",")]
+        return flat.reshape(shape) if shape else flat
     return np.asarray(value, dtype=float)
 
 
@@ -286,6 +295,8 @@ def drawn_widths(spec: dict, ids) -> dict[str, float]:
     ids = set(ids)
     widths, shared = {}, {}
     for t in spec["data"]:
+        if t.get("fill"):  # a grade's shaded interval
+            continue
         if t.get("legendgroup") in ids:
             widths[t["legendgroup"]] = t["line"]["width"]
         elif t.get("mode") == "lines" and t.get("legendgroup"):
@@ -414,6 +425,205 @@ def test_curves_page_draws_the_open_tab_and_keeps_the_reading(monkeypatch, demo_
     at.run()
     assert not at.exception
     assert at.number_input(key="nomo_t").value == 7.0  # not the default, 12
+
+
+# -- 95 % intervals and the reference temperature ------------------------------------------
+
+
+def chart_spec(at: AppTest, title: str) -> dict:
+    """The figure spec of the chart whose title starts with ``title``."""
+    for c in at.get("plotly_chart"):
+        spec = json.loads(c.proto.spec)
+        if spec["layout"]["title"]["text"].startswith(title):
+            return spec
+    raise AssertionError(f"no chart titled {title!r} on the page")
+
+
+def band_points(trace: dict) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """x, upper and lower edge of every outline of a band trace (charts.band_trace)."""
+    x, y = _array(trace["x"]), _array(trace["y"])
+    cuts = np.flatnonzero(np.isnan(x))
+    xs, highs, lows = [], [], []
+    for sx, sy in zip(np.split(x, cuts), np.split(y, cuts), strict=True):
+        sx, sy = sx[~np.isnan(sx)], sy[~np.isnan(sx)]
+        n = sx.size // 2
+        assert sx.size == 2 * n and np.array_equal(sx[n:][::-1], sx[:n]), "not a closed band"
+        xs.append(sx[:n])
+        highs.append(sy[:n])
+        lows.append(sy[n:][::-1])
+    return np.concatenate(xs), np.concatenate(highs), np.concatenate(lows)
+
+
+def bands_of(spec: dict, meta: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """All band points drawn around the curve ``meta`` (inside and beyond the data)."""
+    parts = [band_points(t) for t in spec["data"] if t.get("fill") and t.get("meta") == meta]
+    assert parts, f"no band around {meta!r}"
+    return tuple(np.concatenate(p) for p in zip(*parts, strict=True))
+
+
+def line_values(spec: dict, name: str, x: np.ndarray) -> np.ndarray:
+    """The line ``name`` (its parts inside and beyond the data joined) read at ``x``."""
+    parts = [t for t in spec["data"] if t.get("name", "").startswith(name) and not t.get("fill")]
+    grid = _array(parts[0]["x"])
+    y = np.full(grid.size, np.nan)
+    for t in parts:
+        v = _array(t["y"])
+        y = np.where(np.isnan(y), v, y)
+    idx = np.searchsorted(grid, x)
+    assert np.allclose(grid[idx], x, rtol=1e-12)
+    return y[idx]
+
+
+def test_band_trace_draws_one_outline_per_run():
+    x = np.arange(6.0)
+    low, high = np.full(6, 1.0), np.full(6, 2.0)
+    high[3] = np.nan  # an edge that cannot be drawn on a log axis
+    where = np.array([True, True, False, False, False, True])
+    trace = charts.band_trace(x, low, high, "#2E6F73", "E'", where=where).to_plotly_json()
+    bx, bhigh, blow = band_points(trace)
+    # the runs widen by one point (0..2 and 4..5); point 3 has no upper edge
+    assert bx.tolist() == [0.0, 1.0, 2.0, 4.0, 5.0]
+    assert np.all(bhigh == 2.0) and np.all(blow == 1.0)
+    assert trace["meta"] == "E'" and trace["name"] == f"E' {charts.BAND_SUFFIX}"
+
+
+def test_curves_page_draws_the_fits_95_percent_intervals(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/curves.py").run()
+    assert not at.exception
+    ctx = at.session_state["_context"]
+    focus = at.selectbox(key="curves_focus").value
+    curve = ctx.curves[focus]
+    assert any(charts.INTERVAL_NOTE in c.value for c in at.caption)
+
+    # Master curve: a band around E', E'' and tan delta, equal to the engine's interval.
+    spec = chart_spec(at, "Master curve of")
+    m = "G" if curve.mode == "shear" else "E"
+    for what, low_of, high_of, unit in (
+        (f"{m}'", "storage_low", "storage_high", 1e6),
+        (f"{m}''", "loss_low", "loss_high", 1e6),
+        ("tan δ", "loss_factor_low", "loss_factor_high", 1.0),
+    ):
+        x, high, low = bands_of(spec, f"{what} master curve")
+        fitted = line_values(spec, f"{what} master curve", x)
+        assert np.all(low < fitted) and np.all(fitted < high), what
+        band = curve.interval(curve.reference_C, x)
+        assert low == pytest.approx(getattr(band, low_of) / unit, rel=1e-6)
+        assert high == pytest.approx(getattr(band, high_of) / unit, rel=1e-6)
+
+    # Temperature charts: a band around every curve of every grade shown.
+    spec = chart_spec(at, "Stiffness and damping against temperature")
+    frequencies = case.parse_numbers(at.text_input(key="curves_freqs").value, "f")
+    for gid in at.session_state["_context"].compare[:SHOWN_LIMIT]:
+        for f in frequencies:
+            x, high, low = bands_of(spec, f"{gid} tan δ {f:g} Hz")
+            band = ctx.curves[gid].interval(x, f)
+            assert low == pytest.approx(band.loss_factor_low, rel=1e-6)
+            assert high == pytest.approx(band.loss_factor_high, rel=1e-6)
+            assert np.all(low < ctx.curves[gid].evaluate(x, f).loss_factor)
+
+    # Tg: the interval on the chart's strip and in the table.
+    at.session_state["curves_tab"] = "Transitions"
+    at.run()
+    spec = chart_spec(at, "Glass transition of")
+    table = next(d.value for d in at.dataframe if "95 % low [°C]" in d.value.columns)
+    known = [t for t in curve.tg if t["reached"] and t.get("low_C") is not None]
+    assert known, "the demo grade shows no Tg with an interval"
+    for tg in known:
+        method = tg["method"].replace("_", " ")
+        mark = next(t for t in spec["data"] if t.get("name") == f"Tg {method}")
+        bars = mark["error_x"]
+        assert mark["x"][0] + _array(bars["array"])[0] == pytest.approx(tg["high_C"])
+        assert mark["x"][0] - _array(bars["arrayminus"])[0] == pytest.approx(tg["low_C"])
+        row = table[table["method"] == method].iloc[0]
+        assert (row["95 % low [°C]"], row["95 % high [°C]"]) == (tg["low_C"], tg["high_C"])
+
+
+def test_map_shades_the_intervals_of_the_comparison_set(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    ctx = at.session_state["_context"]
+    props = ctx.result.window_props
+    spec = map_spec(at)
+    tubes = {t["meta"]: t for t in spec["data"] if t.get("fill") and t.get("meta") in props.ids}
+    assert set(tubes) == set(ctx.compare) and ctx.compare
+    design_f = ctx.result.criteria.window.design_frequency
+    for gid in ctx.compare:
+        k = props.ids.index(gid)
+        curve = ctx.curves[gid]
+        # box k: points 6k..6k+4 (eta low, E' low), (eta high, E' low), (eta high, E' high)...
+        bx, by = _array(tubes[gid]["x"]).reshape(-1, 6), _array(tubes[gid]["y"]).reshape(-1, 6)
+        eta_lo, eta_hi = bx[:, 0], bx[:, 1]
+        e_lo, e_hi = by[:, 0], by[:, 2]
+        band = curve.interval(props.path_temperatures, design_f)
+        to_e = tensile_factor([curve.mode], props.poisson[k : k + 1])[0]
+        assert eta_lo == pytest.approx(band.loss_factor_low, rel=1e-6)
+        assert eta_hi == pytest.approx(band.loss_factor_high, rel=1e-6)
+        assert e_lo == pytest.approx(band.storage_low * to_e / 1e6, rel=1e-6)
+        assert e_hi == pytest.approx(band.storage_high * to_e / 1e6, rel=1e-6)
+        # each point of the grade's path lies in its own box
+        eta, storage = props.path_loss_factor[k], props.path_storage[k] / 1e6
+        assert np.all((eta_lo < eta) & (eta < eta_hi))
+        assert np.all((e_lo < storage) & (storage < e_hi))
+
+
+def test_a_chosen_reference_temperature_refits_the_curves_page(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/curves.py").run()
+    focus = at.selectbox(key="curves_focus").value
+    automatic = at.session_state["_context"].curves[focus]
+    assert at.number_input(key="curves_reference").value is None  # blank: automatic
+    reference = next(t for t in (20.0, 25.0) if abs(t - automatic.reference_C) > 1)
+    captions = " ".join(c.value for c in at.caption)
+    assert f"Reference temperature {automatic.reference_C:.1f} °C (automatic)" in captions
+    assert automatic.grouping["description"] in captions
+    at.session_state["curves_tab"] = "Shift factors"
+    at.run()
+    before = chart_spec(at, "Shift factors of")
+
+    at.number_input(key="curves_reference").set_value(reference).run()
+    assert not at.exception
+    captions = " ".join(c.value for c in at.caption)
+    assert f"Reference temperature {reference:.1f} °C (chosen" in captions
+    spec = chart_spec(at, f"Shift factors of {focus} (reference {reference:.1f} °C")
+    marks = next(t for t in spec["data"] if t.get("name") == "from overlapping isotherms")
+    old = next(t for t in before["data"] if t.get("name") == "from overlapping isotherms")
+    refit = master_curve(Library(str(demo_db)), focus, reference)
+    shift = refit.shift
+    rows = ~np.asarray(shift.bridged, dtype=bool)
+    temps, logs = _array(marks["x"]), _array(marks["y"])
+    assert temps == pytest.approx(shift.temperatures[rows])
+    assert logs == pytest.approx(shift.log_shift[rows], abs=1e-9)
+    # referred to the chosen temperature: slower below it, faster above
+    assert np.all(logs[temps < reference - 1] > 0) and np.all(logs[temps > reference + 1] < 0)
+    assert not np.allclose(logs, _array(old["y"]))
+    # each isotherm's 95 % interval as an error bar
+    assert logs + _array(marks["error_y"]["array"]) == pytest.approx(shift.log_shift_high[rows])
+    assert logs - _array(marks["error_y"]["arrayminus"]) == pytest.approx(shift.log_shift_low[rows])
+    table = next(d.value for d in at.dataframe if "log10 aT" in d.value.columns)
+    assert table["log10 aT"].to_numpy() == pytest.approx(shift.log_shift)
+    # the ranking keeps the automatic reference
+    ranked = at.session_state["_context"].curves[focus]
+    assert ranked.reference_C == automatic.reference_C
+
+    at.number_input(key="curves_reference").set_value(None).run()
+    assert not at.exception
+    assert chart_spec(at, f"Shift factors of {focus} (reference {automatic.reference_C:.1f} °C")
+
+
+def test_a_reference_the_fit_refuses_is_reported(monkeypatch, demo_db):
+    def refuse(library, material_id, reference_C=None, vertical_shift=False):
+        raise FitError(f"cannot refer {material_id} to {reference_C:g} °C")
+
+    monkeypatch.setattr(data, "master_curve", refuse)
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/curves.py").run()
+    at.number_input(key="curves_reference").set_value(-77.7).run()
+    assert not at.exception
+    focus = at.selectbox(key="curves_focus").value
+    errors = [e.value for e in at.error]
+    assert any(e.startswith(f"{focus}: no master curve at -77.7 °C (cannot refer") for e in errors)
+    automatic = at.session_state["_context"].curves[focus].reference_C
+    assert chart_spec(at, f"Master curve of {focus} at the reference temperature {automatic:.1f}")
 
 
 # -- the case as widget values, criteria and link ------------------------------------------

@@ -22,9 +22,11 @@ import pytest
 
 from engine.caution import CAUTION
 from engine.cli import main
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, InputError
 from engine.export import (
     EXTENSIONS,
+    RANK_INTERVAL_COLUMNS,
+    interval_columns,
     shortlist_csv,
     shortlist_rows,
     window_properties,
@@ -34,6 +36,7 @@ from engine.fits import fit_library
 from engine.mountcheck import MountDesign
 from engine.ranking import Constraints, Criteria, rank
 from engine.report import PALETTE, map_figure, report_html
+from engine.spread import rank_spread
 from engine.window import OperatingWindow, tensile_factor
 from engine.workbook import shortlist_xlsx
 
@@ -62,7 +65,7 @@ def _criteria(**window):
 @pytest.fixture(scope="module")
 def ranked(demo):
     lib, curves, materials = demo
-    result = rank(curves, materials, _criteria())
+    result = rank_spread(rank(curves, materials, _criteria()), curves, materials)
     # The criteria are chosen so that both tables of the export have rows.
     assert len(result.shortlist) >= 2 and len(result.excluded) >= 2
     return result
@@ -133,7 +136,8 @@ def test_csv_reads_back_with_pandas(ranked):
     np.testing.assert_allclose(df["score"][:n], [g.score for g in ranked.shortlist], rtol=5e-6)
     lines = data.decode("utf-8-sig").strip().splitlines()
     assert lines[-1] == f"# caution: {CAUTION}"
-    assert lines[-2].startswith(f"# quietgrade {ranked.engine_version}, ranked ")
+    assert lines[-2] == f"# {ranked.spread.describe()}"
+    assert lines[-3].startswith(f"# quietgrade {ranked.engine_version}, ranked ")
 
 
 def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):
@@ -365,6 +369,54 @@ def test_write_shortlist_rejects_other_extensions(ranked, tmp_path, name, shown)
     ):
         write_shortlist(ranked, tmp_path / "sub" / name)
     assert not (tmp_path / "sub").exists()
+
+
+@pytest.mark.parametrize("blocked", ["file in the folder's place", "folder in the file's place"])
+def test_write_shortlist_to_a_path_that_cannot_be_written(ranked, tmp_path, blocked):
+    if blocked.startswith("file"):
+        (tmp_path / "taken").write_text("not a folder")
+        target, reason = tmp_path / "taken" / "list.csv", "File exists|Not a directory"
+    else:
+        (tmp_path / "list.csv").mkdir()
+        target, reason = tmp_path / "list.csv", "Is a directory"
+    match = rf"list\.csv: cannot write the shortlist here: ({reason})$"
+    with pytest.raises(InputError, match=match) as caught:
+        write_shortlist(ranked, target)
+    assert "\n" not in str(caught.value)  # one line
+    assert caught.value.file == str(target)
+
+
+# -- rank intervals ------------------------------------------------------------------------
+def test_rank_intervals_read_back_from_csv_and_xlsx(ranked):
+    best, worst = RANK_INTERVAL_COLUMNS
+    n = len(ranked.shortlist)
+    csv = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), comment="#", encoding="utf-8-sig")
+    xlsx = pd.read_excel(io.BytesIO(shortlist_xlsx(ranked)), sheet_name="Shortlist", header=1)
+    for table in (csv[:n], xlsx):
+        assert list(table[best]) == [g.rank_interval[0] for g in ranked.shortlist]
+        assert list(table[worst]) == [g.rank_interval[1] for g in ranked.shortlist]
+        assert (table[best] <= table["rank"]).all() and (table["rank"] <= table[worst]).all()
+    assert csv[best][n:].isna().all() and csv[worst][n:].isna().all()
+    # Each column with an interval is followed by its low and high.
+    header = list(csv.columns)
+    for heading, (low, high) in interval_columns(ranked).items():
+        k = header.index(heading)
+        assert header[k + 1 : k + 3] == [low, high]
+        inside = csv[:n].dropna(subset=[heading, low, high])
+        # Rounding to 6 figures keeps the order of low, value and high.
+        assert ((inside[low] <= inside[heading]) & (inside[heading] <= inside[high])).all()
+    assert header.index(best) == header.index("rank") + 1
+
+
+def test_export_without_intervals_keeps_its_columns_and_says_so(demo):
+    lib, curves, materials = demo
+    plain = rank(curves, materials, _criteria())
+    text = shortlist_csv(plain).decode("utf-8-sig")
+    assert "# Rank intervals and low/high values were not computed for this ranking." in text
+    df = pd.read_csv(io.StringIO(text), comment="#")
+    assert df[RANK_INTERVAL_COLUMNS[0]].isna().all()
+    assert df["fn min low [Hz]"].isna().all()
+    assert "not computed" in report_html(plain)
 
 
 # -- command line --------------------------------------------------------------------------

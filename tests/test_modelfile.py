@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from engine import __version__
 from engine.caution import CAUTION
 from engine.cli import main
 from engine.errors import InputError
@@ -100,7 +101,7 @@ def test_json_and_csv_read_back_to_the_same_record(curve, tmp_path):
     _, from_json = written(curve, tmp_path, ".json")
     _, from_csv = written(curve, tmp_path, ".csv")
     assert from_json == from_csv
-    assert from_json["format"] == {"name": FORMAT_NAME, "version": 1, "engine_version": "0.2.0"}
+    assert from_json["format"] == {"name": FORMAT_NAME, "version": 1, "engine_version": __version__}
 
 
 def test_record_holds_the_law_range_and_measured_shifts(curve):
@@ -178,10 +179,13 @@ def test_wlf_constants_moved_to_the_curve_reference(curve):
     assert s["curve_wlf_c1"] == pytest.approx(8.86, rel=1e-3)
     assert s["curve_wlf_c2_K"] == pytest.approx(101.6, rel=1e-12)
     assert s["arrhenius_anchor_C"] is None and s["split_C"] is None
-    # The moved constants describe the same law, zero at the new reference (Ferry 1980).
-    dt = TEMPS - (tg + 50.0)
+    # The moved constants describe the same law, zero at the new reference (Ferry 1980),
+    # wherever WLF is defined (above its divergence T0 - C2; below it the law holds inf).
+    temps = TEMPS[TEMPS > tg - 51.6]
+    dt = temps - (tg + 50.0)
     by_moved = -s["curve_wlf_c1"] * dt / (s["curve_wlf_c2_K"] + dt)
-    np.testing.assert_allclose(by_moved, law.log_shift(TEMPS), rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(by_moved, law.log_shift(temps), rtol=1e-12, atol=1e-12)
+    assert np.all(np.isinf(law.log_shift(TEMPS[TEMPS <= tg - 51.6])))
 
 
 def test_normalised_prony_moduli_sum_to_one_minus_the_equilibrium_share(curve):

@@ -1,12 +1,19 @@
-"""Curves page: measured data and master curves of the comparison set or one grade."""
+"""Curves page: measured data and master curves of the comparison set or one grade.
+
+The page may show the master curves at a reference temperature of the user's choice
+(refitted per grade, as ``fit --reference`` does); the ranking keeps the automatic one.
+"""
+
+import json
+import math
 
 import pandas as pd
 import streamlit as st
 
-from dashboard import case, charts
+from dashboard import case, charts, data
 from dashboard.common import MISSING, SHOWN_LIMIT, context
 from dashboard.palette import GRADE_COLOURS
-from engine.errors import CriteriaError
+from engine.errors import CriteriaError, QuietgradeError
 from engine.fits import summary
 
 ctx = context()
@@ -20,7 +27,7 @@ window_range = tuple(criteria.window.temp_range) if criteria else (-20.0, 60.0)
 band = tuple(criteria.window.freq_range) if criteria else (1.0, 100.0)
 design_f = criteria.window.design_frequency if criteria else 10.0
 
-c1, c2, c3 = st.columns([1.2, 1.6, 1.6])
+c1, c2, c3, c4 = st.columns([1.2, 1.5, 1.4, 1.1])
 which = c1.radio("Show", ("comparison set", "one grade"), key="curves_which", horizontal=True)
 if which == "one grade" or not ctx.compare:
     default = ctx.compare[0] if ctx.compare else available[0]
@@ -52,72 +59,212 @@ except CriteriaError as exc:
     st.error(str(exc))
     frequencies = [design_f]
 
+# The reference outlives the page: Streamlit forgets a widget's value in a run that does
+# not draw it, so it is kept under a key of its own too.
+if "curves_reference" not in st.session_state:
+    st.session_state["curves_reference"] = st.session_state.get("_curves_reference")
+reference = c4.number_input(
+    "Reference temperature [°C]",
+    value=None,
+    min_value=-150.0,
+    max_value=300.0,
+    step=1.0,
+    format="%.1f",
+    placeholder="automatic",
+    key="curves_reference",
+    help=(
+        "The temperature the master curves of this page are referred to. Blank: each "
+        "grade's automatic reference (the isotherm nearest its loss-factor peak at 1 Hz), "
+        "which the ranking always uses."
+    ),
+)
+st.session_state["_curves_reference"] = reference
+version = ctx.library.version()
+
+
+def _page_curves(ids: list[str]) -> dict:
+    """The master curves this page draws: the ranking's, or refitted at the reference."""
+    if reference is None:
+        return {gid: ctx.curves[gid] for gid in ids}
+    out = {}
+    with st.spinner(f"Fitting the master curves at {reference:.1f} °C"):
+        for gid in ids:
+            try:
+                out[gid] = data.curve_at_reference(
+                    ctx.library.location, version, gid, float(reference)
+                )
+            except QuietgradeError as exc:
+                st.error(
+                    f"{gid}: no master curve at {reference:.1f} °C ({exc}); the automatic "
+                    "reference is shown"
+                )
+                out[gid] = ctx.curves[gid]
+    return out
+
+
+def _view(*parts) -> str:
+    """A name for a figure of this page: what it shows and the data it is drawn from."""
+    ref = "auto" if reference is None else f"{reference:.3f}"
+    return json.dumps([ctx.library.location, version, ref, *parts])
+
+
+curves = _page_curves(shown)
 points = {gid: ctx.points(gid) for gid in shown}
 st.plotly_chart(
-    charts.temperature_figure(shown, ctx.curves, points, frequencies, window_range, ctx.colours),
+    data.kept_figure(
+        _view("temperature", shown, frequencies, list(window_range)),
+        lambda: charts.temperature_figure(
+            shown, curves, points, frequencies, window_range, ctx.colours
+        ),
+    ),
     theme=None,
     key="curves_temperature",
 )
 st.caption(
     "Moduli in each grade's own mode: E' for tensile data, G' for shear data. Faint "
     "line parts are extrapolated; marks are the measurements at the measured frequency "
-    "nearest each chosen one."
+    "nearest each chosen one. Shaded: " + charts.INTERVAL_NOTE + "."
 )
 
 st.subheader("One grade in detail")
 if st.session_state.get("curves_focus") not in shown:
     st.session_state["curves_focus"] = shown[0]
 focus = st.selectbox("Grade", shown, key="curves_focus")
-curve = ctx.curves[focus]
+curve = curves[focus]
 pts = points.get(focus)
 if pts is None:
     pts = ctx.points(focus)
 
 
+def _reference_caption() -> str:
+    """Which reference the focus grade is shown at, and how its points were grouped."""
+    t_lo, t_hi = curve.temperature_range
+    if reference is None:
+        text = f"Reference temperature {curve.reference_C:.1f} °C (automatic)"
+    else:
+        text = (
+            f"Reference temperature {curve.reference_C:.1f} °C (chosen; the ranking keeps "
+            f"each grade's automatic reference, {ctx.curves[focus].reference_C:.1f} °C here)"
+        )
+        if not t_lo - 0.5 <= curve.reference_C <= t_hi + 0.5:
+            text += (
+                f", outside the measured {t_lo:.1f} to {t_hi:.1f} °C: the curve there rests "
+                "on the shift law"
+            )
+    description = (curve.grouping or {}).get("description")
+    if description:
+        text += f". Points: {description}"
+    return text + "."
+
+
+st.caption(_reference_caption())
+
+
+def _fmt(value, spec: str) -> str:
+    """``value`` in format ``spec``, or the mark of a missing value; a ``g`` format keeps
+    its trailing zeros (3 significant figures of 8.0 are 8.00)."""
+    if value is None or not math.isfinite(float(value)):
+        return MISSING
+    if spec.endswith("g"):
+        return format(float(value), "#" + spec).rstrip(".")
+    return format(float(value), spec)
+
+
+def _with_range(values: dict, key: str, spec: str) -> str:
+    """A value of the fit summary with its 95 % interval where the summary gives one."""
+    text = _fmt(values.get(key), spec)
+    low, high = values.get(f"{key}_low"), values.get(f"{key}_high")
+    if text != MISSING and low is not None and high is not None:
+        text += f" (95 %: {_fmt(low, spec)} to {_fmt(high, spec)})"
+    return text
+
+
 def _master_tab() -> None:
     """Master curve against reduced frequency, with the covered range."""
     if pts is not None:
-        st.plotly_chart(charts.master_curve_figure(focus, curve, pts), theme=None, key="mc")
+        st.plotly_chart(
+            data.kept_figure(
+                _view("master", focus), lambda: charts.master_curve_figure(focus, curve, pts)
+            ),
+            theme=None,
+            key="mc",
+        )
     lo, hi = curve.log_fr_range
     gaps = "; ".join(f"{10**a:.3g} to {10**b:.3g} Hz" for a, b in curve.gaps)
     st.caption(
         f"Covered reduced frequencies: {10**lo:.3g} to {10**hi:.3g} Hz (dotted beyond"
         + (f"; no data in {gaps}, dotted as well" if gaps else "")
-        + f"). Measured {curve.temperature_range[0]:g} to {curve.temperature_range[1]:g} °C, "
-        f"{curve.frequency_range[0]:g} to {curve.frequency_range[1]:g} Hz."
+        + f"). Measured {curve.temperature_range[0]:.1f} to {curve.temperature_range[1]:.1f} "
+        f"°C, {curve.frequency_range[0]:.3g} to {curve.frequency_range[1]:.3g} Hz. Shaded: "
+        + charts.INTERVAL_NOTE
+        + "."
     )
 
 
 def _shift_tab() -> None:
     """Shift factors, the fitted shift laws and their spread."""
-    st.plotly_chart(charts.shift_figure(focus, curve, window_range), theme=None, key="shift")
+    st.plotly_chart(
+        data.kept_figure(
+            _view("shift", focus, list(window_range)),
+            lambda: charts.shift_figure(focus, curve, window_range),
+        ),
+        theme=None,
+        key="shift",
+    )
     s = summary(curve)
     law_rows = []
     if "wlf" in s:
         w = s["wlf"]
         law_rows.append(
-            {"law": "WLF", "C1": w["C1"], "C2 [K]": w["C2_K"], "reference [°C]": w["reference_C"]}
+            {
+                "law": "WLF",
+                "C1": _with_range(w, "C1", ".3g"),
+                "C2 [K]": _with_range(w, "C2_K", ".1f"),
+                "referred to [°C]": _fmt(w.get("reference_C"), ".1f"),
+            }
         )
     if "arrhenius" in s:
         a = s["arrhenius"]
         law_rows.append(
             {
                 "law": "Arrhenius",
-                "activation energy [kJ/mol]": a["activation_kJ_per_mol"],
-                "reference [°C]": a["reference_C"],
+                "activation energy [kJ/mol]": _with_range(a, "activation_kJ_per_mol", ".0f"),
+                "referred to [°C]": _fmt(a.get("reference_C"), ".1f"),
             }
         )
     if law_rows:
-        st.dataframe(
-            pd.DataFrame(law_rows),
-            hide_index=True,
-            placeholder=MISSING,
-            column_config={
-                c: st.column_config.NumberColumn(format="%.4g")
-                for c in ("C1", "C2 [K]", "reference [°C]", "activation energy [kJ/mol]")
-            },
-        )
-    st.caption(f"rms of the data about the law: {s['shift_law_rms']:.3g} decades")
+        st.dataframe(pd.DataFrame(law_rows), hide_index=True, placeholder=MISSING)
+    shift = curve.shift
+    low, high = shift.log_shift_low, shift.log_shift_high
+    st.dataframe(
+        pd.DataFrame(
+            {
+                "isotherm [°C]": shift.temperatures,
+                "log10 aT": shift.log_shift,
+                "95 % low": low if low is not None else [None] * len(shift.temperatures),
+                "95 % high": high if high is not None else [None] * len(shift.temperatures),
+                "bridged by the law": shift.bridged,
+            }
+        ),
+        hide_index=True,
+        placeholder=MISSING,
+        height=min(36 * (len(shift.temperatures) + 1) + 2, 300),
+        key="shift_table",
+        column_config={
+            "isotherm [°C]": st.column_config.NumberColumn(format="%.1f"),
+            "log10 aT": st.column_config.NumberColumn(format="%.3f"),
+            "95 % low": st.column_config.NumberColumn(format="%.3f"),
+            "95 % high": st.column_config.NumberColumn(format="%.3f"),
+        },
+    )
+    rms = s.get("shift_law_rms")
+    st.caption(
+        f"Shift factors referred to {curve.reference_C:.1f} °C"
+        + (f"; rms of the data about the law: {rms:.3g} decades" if rms is not None else "")
+        + ". Bars and shading: "
+        + charts.INTERVAL_NOTE
+        + "."
+    )
 
 
 def _nomogram_tab() -> None:
@@ -137,10 +284,14 @@ def _nomogram_tab() -> None:
         key="nomogram",
     )
     p = curve.evaluate(t_read, f_read)
+    b = curve.interval(t_read, f_read)
     sym = "G" if curve.mode == "shear" else "E"
     st.caption(
         f"At {t_read:g} °C and {f_read:g} Hz: fR = {float(p.reduced_frequency):.3g} Hz, "
-        f"{sym}' = {float(p.storage_modulus) / 1e6:.3g} MPa, η = {float(p.loss_factor):.3g}"
+        f"{sym}' = {float(p.storage_modulus) / 1e6:.3g} MPa (95 %: "
+        f"{float(b.storage_low) / 1e6:.3g} to {float(b.storage_high) / 1e6:.3g}), "
+        f"η = {float(p.loss_factor):.3g} (95 %: {float(b.loss_factor_low):.3g} to "
+        f"{float(b.loss_factor_high):.3g})"
         + (" (extrapolated)" if bool(p.extrapolated) else "")
         + ". Follow the isotherm to the frequency on the right-hand axis, then read down to "
         "the curves."
@@ -157,6 +308,8 @@ def _transitions_tab() -> None:
                     "method": t["method"].replace("_", " "),
                     "frequency [Hz]": t["frequency_Hz"],
                     "Tg [°C]": t["temperature_C"],
+                    "95 % low [°C]": t.get("low_C"),
+                    "95 % high [°C]": t.get("high_C"),
                     "found": t["reached"],
                     "note": t["note"],
                 }
@@ -168,18 +321,24 @@ def _transitions_tab() -> None:
         width="stretch",
         column_config={
             "Tg [°C]": st.column_config.NumberColumn(format="%.1f"),
+            "95 % low [°C]": st.column_config.NumberColumn(format="%.1f"),
+            "95 % high [°C]": st.column_config.NumberColumn(format="%.1f"),
             "frequency [Hz]": st.column_config.NumberColumn(format="%g"),
         },
+    )
+    st.caption(
+        "Tg of the fitted curve by each method; shaded on the chart and given in the table: "
+        "its 95 % interval from the fit's own uncertainty, where the fit gives one."
     )
     if curve.regions:
         st.caption(
             "Regions: "
             + "; ".join(
-                f"{r['name']} {r['low_C']:.0f} to {r['high_C']:.0f} °C" for r in curve.regions
+                f"{r['name']} {r['low_C']:.1f} to {r['high_C']:.1f} °C" for r in curve.regions
             )
         )
     if curve.secondary_C is not None:
-        st.caption(f"Secondary transition near {curve.secondary_C:.0f} °C")
+        st.caption(f"Secondary transition near {curve.secondary_C:.1f} °C")
 
 
 def _relaxation_tab() -> None:

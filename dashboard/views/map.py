@@ -2,8 +2,8 @@
 
 import streamlit as st
 
-from dashboard import data, tables
-from dashboard.common import MISSING, context, need_result, take_map_selection
+from dashboard import charts, data, tables
+from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result, take_map_selection
 
 ctx = context()
 st.header("Map")
@@ -15,11 +15,22 @@ if result is not None:
         "frequency; small marks every 10 K, open marks where the master curve is "
         "extrapolated. Dotted, faded lines are excluded grades (hover for the reason). "
         "Grey dotted diagonals are lines of constant loss modulus E'' = η E'. Draw a box or "
-        "a lasso to put grades in the comparison set."
+        "a lasso to put grades in the comparison set. Shaded tubes around the grades of the "
+        "comparison set"
+        + (f" (the first {SHOWN_LIMIT})" if len(ctx.compare) > SHOWN_LIMIT else "")
+        + f": at each temperature of the path, E' and η within their {charts.INTERVAL_NOTE}."
     )
     show_excluded = c2.toggle("Show excluded grades", value=True, key="map_show_excluded")
     c2.toggle("Selection adds to the set", key="map_adds")
-    fig = data.map_figure(ctx.result_key, tuple(ctx.compare), show_excluded, result, ctx.colours)
+    fig = data.map_figure(
+        ctx.result_key,
+        tuple(ctx.compare),
+        show_excluded,
+        result,
+        ctx.colours,
+        banded=tuple(ctx.compare[:SHOWN_LIMIT]),
+        _curves=ctx.curves,
+    )
     st.plotly_chart(
         fig,
         key="map_chart",

@@ -1,13 +1,28 @@
-"""Shortlist page: ranked grades with reasons, excluded grades with theirs, downloads."""
+"""Shortlist page: ranked grades with reasons, excluded grades with theirs, downloads.
+
+The leading grades carry their rank intervals from the draws of the fits
+(:func:`engine.spread.rank_spread`, kept per ranking); the table, the reasons and the
+downloads all show them.
+"""
 
 import streamlit as st
 
 from dashboard import tables
 from dashboard.common import MISSING, context, need_result
+from engine.errors import QuietgradeError
+from engine.export import intervals_note
+from engine.spread import rank_spread
 
 ctx = context()
 st.header("Shortlist")
 result = need_result(ctx)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _with_intervals(result_key: str, _result, _curves, _library):
+    """The ranking with the intervals of engine.spread, kept per ranking (read-only)."""
+    materials = {m.id: m for m in _library.materials()}
+    return rank_spread(_result, _curves, materials)
 
 
 def _exports(result, library, curves):
@@ -42,10 +57,15 @@ def _exports(result, library, curves):
 
 
 if result is not None:
+    try:
+        if result.spread is None:  # not yet made by whoever ranked
+            result = _with_intervals(ctx.result_key, result, ctx.curves, ctx.library)
+    except QuietgradeError as exc:
+        st.warning(f"rank intervals are not available: {exc}")
     n = len(result.grades)
     st.caption(
         f"{len(result.shortlist)} of {n} grade(s) meet every limit. Score: weighted log10 "
-        "index values, 100 for the best passing grade and 0 for the last."
+        "index values, 100 for the best passing grade and 0 for the last. " + intervals_note(result)
     )
     _exports(result, ctx.library, ctx.curves)
     frame = tables.shortlist_frame(result)
@@ -61,6 +81,9 @@ if result is not None:
             column_config={
                 "score": st.column_config.ProgressColumn(
                     "score", min_value=0.0, max_value=100.0, format="%.0f"
+                ),
+                "rank interval": st.column_config.TextColumn(
+                    help="best–worst rank over the draws of the master-curve fits"
                 ),
                 "reason": st.column_config.TextColumn(width="large"),
             },

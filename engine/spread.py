@@ -1,0 +1,329 @@
+"""Rank intervals: how far the data's uncertainty moves the leading grades of a ranking.
+
+Every fitted master curve carries posterior draws of its model
+(:meth:`engine.mastercurve.MasterCurve.draw_curves`: plausible shift laws, isotherm
+shifts and spectra given the measured points). For the leading grades of a ranking the
+whole chain of :mod:`engine.ranking` (window, merit indices, mount check, score) is run
+again with the k-th draw of every leading grade, for each draw k; the spread of the
+results over the draws is the data's uncertainty in them.
+
+- Index values and mount figures (natural frequency, transmissibility, static
+  deflection, and the summary figures the shortlist files show): the 95 % interval is
+  the 2.5 and 97.5 percentiles over the draws (linear between order statistics), widened
+  where needed to hold the fitted value.
+- ``rank_interval`` [best, worst]: the 2.5 and 97.5 percentiles of the grade's rank among
+  the leading grades over the draws, rounded to whole ranks and widened to hold the
+  fitted rank. Ranks are counted among the leading grades only (a grade beyond them
+  never enters a draw's order); in a draw, equal scores keep the fitted order.
+- Neighbours that cannot be told apart: two grades next to each other in the shortlist
+  whose score difference changes sign in more than ``SWAP_SHARE`` of the draws. Each then
+  says "within the data's uncertainty of <the other's id>" in its reason. (With 32
+  draws: two draws or more. The same share decides the rank interval: a rank seen in a
+  single draw of 32 rounds away.)
+- Constraints are tested in every draw as well; a leading grade that meets all of them
+  in fewer than ``1 - SWAP_SHARE`` of the draws gets a note saying in how many it does.
+  Its place in the draws is by score alone.
+
+Leading grades are the first ``LEADING_GRADES`` of the shortlist (all of it when it is
+shorter). Grades beyond them and excluded grades get no intervals (None; null in JSON,
+empty cells in the files): the choice is made among the leading grades, and the cost
+grows with grades x draws. A curve without draws (fitted before draws were stored) is
+taken as its fitted curve in every draw, so its own figures get no spread; a note says
+so. When no leading curve carries draws, nothing is computed and
+:meth:`RankSpread.describe` says so.
+
+All draws of all leading grades are stacked in one bank and evaluated in one vectorised
+pass. Every figure of a grade depends on that grade alone
+(:func:`engine.ranking.evaluate_grades`), so this is the same as one bank per draw.
+
+The fits of different grades are independent, but their draws are made from the same
+sequence of random numbers (one seed for every fit), so the k-th draws of two similar
+grades lean the same way. Each grade therefore takes its draws in an order of its own, a
+permutation fixed by its id (:func:`draw_order`); without it, two fits of nearly the
+same data would keep their order in every draw and never be reported as
+indistinguishable.
+
+References
+----------
+Hyndman, R. J. and Fan, Y. (1996). Sample quantiles in statistical packages. The
+American Statistician 50(4), 361-365 (definition 7, numpy's "linear" percentiles).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import warnings
+import zlib
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from engine.bank import CurveBank
+from engine.errors import LibraryError
+from engine.mastercurve import MasterCurve
+from engine.ranking import (
+    UNCERTAIN,
+    RankResult,
+    _failures,
+    evaluate_grades,
+    raw_scores,
+    write_reasons,
+)
+from engine.store import Material
+
+LEADING_GRADES = 20  # grades of the shortlist that get intervals
+PERCENTILES = (2.5, 97.5)  # of the 95 % intervals
+SWAP_SHARE = 0.05  # neighbours whose order flips in more draws than this are not told apart
+MOUNT_SERIES = ("natural_frequency_Hz", "transmissibility", "static_deflection_mm")
+MOUNT_SUMMARY = ("fn_min_Hz", "fn_max_Hz", "worst_transmissibility", "max_static_deflection_mm")
+NO_DRAWS_NOTE = "its fit carries no posterior draws: its own figures get no interval"
+
+
+@dataclass(frozen=True)
+class GradeSpread:
+    """Intervals of one leading grade over the draws of the fits (units as the JSON).
+
+    ``indices`` maps each chosen index to its (low, high); ``mount`` maps each name of
+    ``MOUNT_SERIES`` to (low, high) arrays shaped as the grade's mount figures (per window
+    temperature; transmissibility per temperature and disturbance); ``mount_summary``
+    maps each name of ``MOUNT_SUMMARY`` to (low, high). ``alongside`` lists the
+    neighbours it cannot be told apart from; ``flips`` the share of draws in which its
+    order with each neighbour is reversed.
+    """
+
+    rank_interval: tuple[int, int]
+    indices: dict[str, tuple[float, float]]
+    draws: int
+    pass_share: float  # share of the draws in which it meets every constraint
+    alongside: tuple[str, ...] = ()
+    flips: dict[str, float] = field(default_factory=dict)
+    mount: dict[str, tuple[np.ndarray, np.ndarray]] | None = None
+    mount_summary: dict[str, tuple[float, float]] | None = None
+    exact: bool = False  # the fit has no draws: its fitted curve stood for all of them
+
+    def mount_companions(self) -> dict:
+        """``<figure>_low`` and ``<figure>_high`` of each mount series, JSON-ready."""
+        if self.mount is None:
+            return {}
+        out = {}
+        for name, (low, high) in self.mount.items():
+            out[f"{name}_low"] = low.tolist()
+            out[f"{name}_high"] = high.tolist()
+        return out
+
+
+@dataclass(frozen=True)
+class RankSpread:
+    """How the intervals of a ranking were made."""
+
+    draws: int  # draws per fit (0: none of the leading fits carries draws)
+    leading: tuple[str, ...]  # ids of the grades with intervals, in rank order
+    without_draws: tuple[str, ...] = ()
+
+    def describe(self) -> str:
+        """One sentence for the files and the dashboard."""
+        if not self.leading:
+            return "No grade meets every constraint: no rank intervals."
+        if self.draws == 0:
+            return (
+                "No master curve of the leading grades carries posterior draws: intervals "
+                "are not computed."
+            )
+        low, high = PERCENTILES
+        text = (
+            f"Intervals: {low:g} to {high:g} percentiles over {self.draws} posterior draws "
+            f"of each master-curve fit, for the leading {len(self.leading)} grade(s); rank "
+            "intervals count ranks among those grades. Neighbours whose order changes in "
+            f"more than {SWAP_SHARE * 100:g} % of the draws are marked "
+            f'"{UNCERTAIN}".'
+        )
+        if self.without_draws:
+            text += " Without draws (taken as exact): " + ", ".join(self.without_draws) + "."
+        return text
+
+
+def draw_order(grade_id: str, n_draws: int) -> np.ndarray:
+    """The order in which grade ``grade_id`` takes its ``n_draws`` draws: a permutation
+    seeded by the CRC-32 of its id, the same in every run (module notes)."""
+    seed = zlib.crc32(grade_id.encode("utf-8"))
+    return np.random.default_rng(seed).permutation(n_draws)
+
+
+def _interval(samples: np.ndarray, fitted) -> tuple[np.ndarray, np.ndarray]:
+    """Percentile interval over axis 0 of ``samples``, widened to hold ``fitted``; NaN
+    where every draw is NaN."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns stay NaN
+        low, high = np.nanpercentile(samples, PERCENTILES, axis=0)
+    fitted = np.asarray(fitted, dtype=float)
+    return np.fmin(low, fitted), np.fmax(high, fitted)
+
+
+def _draw_ranks(raw: np.ndarray) -> np.ndarray:
+    """Rank (1 = best) of each column among the columns of each row of ``raw`` (draws x
+    grades in fitted rank order); equal scores keep the fitted order."""
+    k, n = raw.shape
+    fitted = np.broadcast_to(np.arange(n), (k, n))
+    order = np.lexsort((fitted, -raw), axis=-1)
+    ranks = np.empty((k, n), dtype=np.intp)
+    np.put_along_axis(ranks, order, np.broadcast_to(np.arange(1, n + 1), (k, n)), axis=-1)
+    return ranks
+
+
+def _summary(natural, transmissibility, deflection_mm) -> dict[str, np.ndarray]:
+    """The mount figures the shortlist files show, from arrays with the window
+    temperatures on the axis after the grade axis (NaN ignored)."""
+    t_axis = natural.ndim - 1
+    worst_t = transmissibility.reshape(*transmissibility.shape[:t_axis], -1)
+    return {
+        "fn_min_Hz": np.fmin.reduce(natural, axis=t_axis),
+        "fn_max_Hz": np.fmax.reduce(natural, axis=t_axis),
+        "worst_transmissibility": np.fmax.reduce(worst_t, axis=t_axis),
+        "max_static_deflection_mm": np.fmax.reduce(deflection_mm, axis=t_axis),
+    }
+
+
+def rank_spread(
+    result: RankResult,
+    curves: dict[str, MasterCurve],
+    materials: dict[str, Material],
+    leading: int = LEADING_GRADES,
+) -> RankResult:
+    """``result`` with intervals from the draws of the fits for its leading grades.
+
+    Parameters
+    ----------
+    result : RankResult
+        A ranking of ``curves`` (:func:`engine.ranking.rank`); it is not changed.
+    curves : dict
+        The fitted master curves the ranking used, by grade id.
+    materials : dict
+        Catalog rows by grade id.
+    leading : int
+        How many grades of the shortlist get intervals (all when it is shorter).
+
+    Returns
+    -------
+    RankResult
+        A copy with ``spread`` set (:class:`RankSpread`), a :class:`GradeSpread` on each
+        leading grade and its reason saying which neighbours the data cannot order.
+
+    Raises
+    ------
+    LibraryError
+        A leading grade has no curve in ``curves`` or no row in ``materials``.
+
+    Notes
+    -----
+    See the module notes: 2.5 and 97.5 percentiles over the draws, rank intervals among
+    the leading grades, order flips in more than SWAP_SHARE of the draws.
+    """
+    grades = [dataclasses.replace(g, notes=list(g.notes)) for g in result.grades]
+    out = dataclasses.replace(result, grades=grades)
+    lead = out.shortlist[:leading]
+    ids = tuple(g.id for g in lead)
+    missing = [gid for gid in ids if gid not in curves or gid not in materials]
+    if missing:
+        raise LibraryError(
+            f"no master curve or catalog row for {', '.join(missing)}: the intervals need "
+            "the curves and catalog the ranking was made from"
+        )
+    draw_lists = [curves[gid].draw_curves() for gid in ids]
+    k_draws = max((len(d) for d in draw_lists), default=0)
+    bare = tuple(gid for gid, d in zip(ids, draw_lists, strict=True) if not d)
+    out.spread = RankSpread(k_draws, ids, bare if k_draws else ())
+    if not lead or k_draws == 0:
+        return out
+    n = len(lead)
+    orders = [draw_order(gid, len(d)) for gid, d in zip(ids, draw_lists, strict=True)]
+    stacked, rows = {}, []
+    for k in range(k_draws):
+        for gid, draws, order in zip(ids, draw_lists, orders, strict=True):
+            stacked[f"{k}:{gid}"] = draws[order[k % len(draws)]] if draws else curves[gid]
+            rows.append(materials[gid])
+    criteria = out.criteria
+    ev = evaluate_grades(CurveBank.from_curves(stacked), rows, criteria)
+    raw = raw_scores(ev.values, criteria).reshape(k_draws, n)
+    failures = _failures(
+        criteria, ev.specs, ev.values, ev.catalog, ev.eta_worst, ev.extrapolated, ev.mount
+    )
+    passes = np.array([not f for f in failures]).reshape(k_draws, n)
+
+    fitted_rank = np.array([g.rank for g in lead])
+    ranks = _draw_ranks(raw)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        best, worst = np.percentile(ranks, PERCENTILES, axis=0)
+    best = np.minimum(np.rint(best).astype(int), fitted_rank)
+    worst = np.maximum(np.rint(worst).astype(int), fitted_rank)
+    fitted_raw = np.array([g.raw_score for g in lead])
+    flips = np.mean(
+        np.sign(raw[:, :-1] - raw[:, 1:]) != np.sign(fitted_raw[:-1] - fitted_raw[1:]), axis=0
+    )
+    indices = {
+        name: _interval(ev.values[name].reshape(k_draws, n), [g.indices[name] for g in lead])
+        for name in ev.specs
+    }
+    mount = summary = None
+    if ev.mount is not None and out.mount is not None:
+        m, rows_m = ev.mount, [g.mount_index for g in lead]
+        t = m.temperatures.size
+        draws_m = {
+            "natural_frequency_Hz": m.natural_frequency.reshape(k_draws, n, t),
+            "transmissibility": m.transmissibility.reshape(k_draws, n, t, -1),
+            "static_deflection_mm": m.static_deflection.reshape(k_draws, n, t) * 1e3,
+        }
+        fitted_m = {
+            "natural_frequency_Hz": out.mount.natural_frequency[rows_m],
+            "transmissibility": out.mount.transmissibility[rows_m],
+            "static_deflection_mm": out.mount.static_deflection[rows_m] * 1e3,
+        }
+        mount = {name: _interval(draws_m[name], fitted_m[name]) for name in MOUNT_SERIES}
+        in_draws = _summary(*(draws_m[name] for name in MOUNT_SERIES))
+        at_fit = _summary(*(fitted_m[name] for name in MOUNT_SERIES))
+        summary = {name: _interval(in_draws[name], at_fit[name]) for name in MOUNT_SUMMARY}
+
+    for j, g in enumerate(lead):
+        neighbours = {}
+        if j > 0:
+            neighbours[lead[j - 1].id] = float(flips[j - 1])
+        if j < n - 1:
+            neighbours[lead[j + 1].id] = float(flips[j])
+        g.spread = GradeSpread(
+            rank_interval=(int(best[j]), int(worst[j])),
+            indices={name: (float(lo[j]), float(hi[j])) for name, (lo, hi) in indices.items()},
+            draws=k_draws,
+            pass_share=float(passes[:, j].mean()),
+            alongside=tuple(other for other, share in neighbours.items() if share > SWAP_SHARE),
+            flips=neighbours,
+            mount=None
+            if mount is None
+            else {name: (lo[j], hi[j]) for name, (lo, hi) in mount.items()},
+            mount_summary=None
+            if summary is None
+            else {name: (float(lo[j]), float(hi[j])) for name, (lo, hi) in summary.items()},
+            exact=g.id in bare,
+        )
+        passing = int(passes[:, j].sum())
+        notes = [NO_DRAWS_NOTE] if g.id in bare else []
+        if passing < (1.0 - SWAP_SHARE) * k_draws:
+            notes.append(
+                f"meets every constraint in {passing} of {k_draws} draws of the fits: "
+                f"near a limit, {UNCERTAIN}"
+            )
+        g.notes += [note for note in notes if note not in g.notes]  # once, if run again
+    write_reasons(out)
+    return out
+
+
+__all__ = [
+    "LEADING_GRADES",
+    "MOUNT_SERIES",
+    "MOUNT_SUMMARY",
+    "PERCENTILES",
+    "SWAP_SHARE",
+    "GradeSpread",
+    "RankSpread",
+    "draw_order",
+    "rank_spread",
+]
