@@ -60,7 +60,7 @@ SERIAL_CORRELATION_LIMIT = 0.35
 # measured temperatures), in ln units, for (E', E'' and tan delta): where nothing was
 # measured the spectrum alone says nothing reliable, and the loss factor can change far
 # faster than the storage modulus (a project choice, set on the synthetic round trips).
-EXTRAPOLATION_SD = (0.3, 1.0)
+EXTRAPOLATION_SD = (0.3, 1.5)
 MAX_FREQUENCY_DECADES = 12  # wider than any DMA or resonance instrument covers
 LOG_SHIFT_LIMIT = 30.0  # decades: a law followed far outside its range is held here
 Z95 = 1.959964  # two-sided 95 % point of the normal distribution (scipy.stats.norm.ppf)

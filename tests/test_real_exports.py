@@ -212,14 +212,19 @@ def test_a_family_of_generated_grades_fits_without_failures_or_warnings():
     with warnings.catch_warnings():
         warnings.simplefilter("error", RuntimeWarning)
         curves = [(build_master_curve(p, "tensile"), g) for p, g in S.family(40, noise=0.02)]
-    cover = []
+    cover, cover_gaps = [], []
     for curve, grade in curves:
         tt, ff = np.meshgrid(curve.shift.temperatures[:-1] + 5.0, [0.5, 5.0], indexing="ij")
-        es, _ = grade(tt, ff)
+        es, eta = grade(tt, ff)
         b = curve.interval(tt, ff)
         ok = ~curve.evaluate(tt, ff).extrapolated
         cover.append(((es >= b.storage_low) & (es <= b.storage_high))[ok])
+        # Where reduced frequency falls in a gap between isotherms, the loss factor is
+        # flagged extrapolated and its interval must still hold the truth.
+        cover_gaps.append(((eta >= b.loss_factor_low) & (eta <= b.loss_factor_high))[~ok])
     assert np.concatenate(cover).mean() >= 0.9
+    gaps = np.concatenate(cover_gaps)
+    assert gaps.size > 20 and gaps.mean() >= 0.9
 
 
 def test_jitter_does_not_move_the_answer():
