@@ -36,12 +36,10 @@ All draws of all leading grades are stacked in one bank and evaluated in one vec
 pass. Every figure of a grade depends on that grade alone
 (:func:`engine.ranking.evaluate_grades`), so this is the same as one bank per draw.
 
-The fits of different grades are independent, but their draws are made from the same
-sequence of random numbers (one seed for every fit), so the k-th draws of two similar
-grades lean the same way. Each grade therefore takes its draws in an order of its own, a
-permutation fixed by its id (:func:`draw_order`); without it, two fits of nearly the
-same data would keep their order in every draw and never be reported as
-indistinguishable.
+The fits of different grades are independent and so are their draws: each data set
+draws from a random stream of its own (seeded by a hash of its points in
+:func:`engine.mastercurve.build_master_curve`), so the k-th draws of two grades do not
+lean the same way.
 
 References
 ----------
@@ -53,7 +51,6 @@ from __future__ import annotations
 
 import dataclasses
 import warnings
-import zlib
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -142,13 +139,6 @@ class RankSpread:
         return text
 
 
-def draw_order(grade_id: str, n_draws: int) -> np.ndarray:
-    """The order in which grade ``grade_id`` takes its ``n_draws`` draws: a permutation
-    seeded by the CRC-32 of its id, the same in every run (module notes)."""
-    seed = zlib.crc32(grade_id.encode("utf-8"))
-    return np.random.default_rng(seed).permutation(n_draws)
-
-
 def _interval(samples: np.ndarray, fitted) -> tuple[np.ndarray, np.ndarray]:
     """Percentile interval over axis 0 of ``samples``, widened to hold ``fitted``; NaN
     where every draw is NaN."""
@@ -235,11 +225,10 @@ def rank_spread(
     if not lead or k_draws == 0:
         return out
     n = len(lead)
-    orders = [draw_order(gid, len(d)) for gid, d in zip(ids, draw_lists, strict=True)]
     stacked, rows = {}, []
     for k in range(k_draws):
-        for gid, draws, order in zip(ids, draw_lists, orders, strict=True):
-            stacked[f"{k}:{gid}"] = draws[order[k % len(draws)]] if draws else curves[gid]
+        for gid, draws in zip(ids, draw_lists, strict=True):
+            stacked[f"{k}:{gid}"] = draws[k % len(draws)] if draws else curves[gid]
             rows.append(materials[gid])
     criteria = out.criteria
     ev = evaluate_grades(CurveBank.from_curves(stacked), rows, criteria)
@@ -324,6 +313,5 @@ __all__ = [
     "SWAP_SHARE",
     "GradeSpread",
     "RankSpread",
-    "draw_order",
     "rank_spread",
 ]

@@ -35,7 +35,6 @@ from engine.spread import (
     NO_DRAWS_NOTE,
     PERCENTILES,
     SWAP_SHARE,
-    draw_order,
     rank_spread,
 )
 from engine.window import OperatingWindow
@@ -100,7 +99,7 @@ def test_intervals_follow_their_definition_over_one_ranking_per_draw():
     assert result.spread.draws == n_draws == 32
     ranks, values, fn, worst_t = [], [], [], []
     for k in range(n_draws):
-        drawn = {g: curves[g].draw_curves()[draw_order(g, n_draws)[k]] for g in lead}
+        drawn = {g: curves[g].draw_curves()[k] for g in lead}
         one = rank(drawn, mats, MOUNT)
         by_id = {g.id: g for g in one.grades}
         order = sorted(lead, key=lambda g: -by_id[g].raw_score)
@@ -186,14 +185,6 @@ def test_near_twins_cannot_be_told_apart_and_a_different_grade_can():
     # The phrase stands in the reason between the figures and the closing words.
     assert a.reason.startswith(f"rank {a.rank} of 3: ")
     assert a.reason.endswith("meets every constraint")
-
-
-def test_each_grade_takes_its_draws_in_an_order_of_its_own():
-    k = len(TWIN_A.draw_curves())
-    order = draw_order("TWIN-A", k)
-    assert sorted(order) == list(range(k))  # a permutation: every draw used once
-    np.testing.assert_array_equal(order, draw_order("TWIN-A", k))  # the same every run
-    assert not np.array_equal(order, draw_order("TWIN-B", k))
 
 
 def test_only_the_leading_grades_get_intervals_and_excluded_grades_none():
