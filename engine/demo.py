@@ -1,13 +1,30 @@
-"""The invented demo grades of demo_materials/, loaded into a library."""
+"""The invented demo grades of demo_materials/, loaded into a library.
+
+In a source checkout the files are read from ``demo_materials/`` beside the package; an
+installed package carries copies of the two files in ``engine/demo_data/`` (setup.py
+copies them when the wheel is built, so ``demo_materials/`` stays their one source).
+"""
 
 from __future__ import annotations
 
+from importlib.resources import files
 from pathlib import Path
 
 from engine.importer import import_files
 from engine.store import ImportSummary, Library
 
-DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_materials"
+DEMO_FILES = ("catalog.csv", "sweeps.csv")
+
+
+def _demo_dir() -> Path:
+    """The folder holding the demo catalog and sweeps: the checkout's, else the package's."""
+    checkout = Path(__file__).resolve().parent.parent / "demo_materials"
+    if all((checkout / name).is_file() for name in DEMO_FILES):
+        return checkout
+    return Path(str(files("engine") / "demo_data"))
+
+
+DEMO_DIR = _demo_dir()
 
 
 def load_demo(library: Library) -> ImportSummary:
