@@ -434,20 +434,17 @@ def _encode_table(table) -> dict:
     return {
         "start": start,
         "step": step,
-        "log_storage": base64.b64encode(ls.astype("<f8").tobytes()).decode("ascii"),
-        "log_loss": base64.b64encode(ll.astype("<f8").tobytes()).decode("ascii"),
+        "log_storage": _encode_array(ls),
+        "log_loss": _encode_array(ll),
     }
 
 
 def _decode_table(data: dict):
-    def arr(text):
-        return np.frombuffer(base64.b64decode(text), dtype="<f8").copy()
-
     return (
         float(data["start"]),
         float(data["step"]),
-        arr(data["log_storage"]),
-        arr(data["log_loss"]),
+        _decode_array(data["log_storage"]),
+        _decode_array(data["log_loss"]),
     )
 
 
