@@ -1,7 +1,7 @@
 """Build step that pyproject.toml cannot express: ship the demo data inside the wheel.
 
 ``demo_materials/catalog.csv`` and ``sweeps.csv`` stay the one source; the wheel gets
-copies in ``engine/demo_data/``, where ``engine.demo`` looks when no checkout is beside it.
+copies in ``engine/demo_data/``, where ``engine.library.demo`` looks when no checkout is beside it.
 Everything else about the package is in pyproject.toml.
 """
 

@@ -18,7 +18,7 @@ the map for it (the figure's title names the range). Medians and maxima are repo
     scattered catalog fields, imported from CSV files and fitted first (the fitting
     time is printed as its own figure), target 1 s per rerun.
 
-For reference, the engine-only part, :func:`engine.ranking.rank` on the same curves
+For reference, the engine-only part, :func:`engine.selection.ranking.rank` on the same curves
 with the same new windows, is timed too: the rest of a rerun is the dashboard.
 
 Run: ``python -m bench.bench_dashboard [--full]`` or through ``python -m bench.run_all``.
@@ -43,10 +43,10 @@ import numpy as np
 from bench import Figure, progress_line
 from dashboard import case
 from engine import cli
-from engine.fits import fit_library
-from engine.importer import import_files
-from engine.ranking import rank
-from engine.store import Library
+from engine.library.fits import fit_library
+from engine.library.importer import import_files
+from engine.library.store import Library
+from engine.selection.ranking import rank
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")

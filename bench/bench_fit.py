@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from bench import Figure, median_time
-from engine.mastercurve import build_master_curve
+from engine.curves.mastercurve import build_master_curve
 from tests import synthetic
 
 FIT_TARGET_S = 0.050  # 30 isotherms x 7 frequencies, median of 20 fits

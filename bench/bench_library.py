@@ -9,10 +9,10 @@ from pathlib import Path
 import numpy as np
 
 from bench import Figure, progress_line
-from engine.fits import fit_library
-from engine.importer import data_hash, import_files
-from engine.shift import ShiftLaw
-from engine.store import Library, Material
+from engine.library.fits import fit_library
+from engine.library.importer import data_hash, import_files
+from engine.library.store import Library, Material
+from engine.physics.shift import ShiftLaw
 from tests import synthetic
 
 QUICK_GRADES = 500

@@ -4,8 +4,9 @@
     fits of the invented demo grades (rubbers, damping polymers, a glassy reference),
     cloned with perturbed modulus scales, shifted temperature axes and scattered
     catalog fields, each passed through the JSON form the library's fit cache stores
-    (the decoding is timed as its own figure). Timed: :meth:`engine.bank.CurveBank.from_curves`
-    and :func:`engine.ranking.rank` over a 41-temperature x 13-frequency window with
+    (the decoding is timed as its own figure). Timed:
+    :meth:`engine.curves.bank.CurveBank.from_curves`
+    and :func:`engine.selection.ranking.rank` over a 41-temperature x 13-frequency window with
     three merit indices and a compression mount sized for a target fn: the first run in
     the process and the median of the runs after it. Peak memory of the same work is
     measured in a further pass under tracemalloc.
@@ -14,7 +15,7 @@
     temperature by ``scipy.optimize.brentq`` on scalar evaluations; scalar
     transmissibility. Timed on 200 grades (50 in quick mode) and scaled linearly to the
     full size.
-(c) The rank intervals (:func:`engine.spread.rank_spread`: the whole chain rerun on the
+(c) The rank intervals (:func:`engine.selection.spread.rank_spread`: the whole chain rerun on the
     posterior draws of the fits of the leading grades) after the ranking, as their own
     figures: for the demo library and for 1,000 of the cloned grades, the first call in
     the process (decoding and tabulating the draws of the leading grades) and the median
@@ -43,16 +44,16 @@ import numpy as np
 from scipy.optimize import brentq
 
 from bench import Figure
-from engine import mount
-from engine.bank import CurveBank
-from engine.fits import fit_library
-from engine.importer import import_files
-from engine.mastercurve import MasterCurve
-from engine.mountcheck import FALLBACK_K_FACTOR, STATIC_LOAD_TIME_S, MountDesign
-from engine.ranking import Constraints, Criteria, IndexChoice, rank
-from engine.spread import LEADING_GRADES, rank_spread
-from engine.store import Library, Material
-from engine.window import DEFAULT_POISSON, OperatingWindow
+from engine.curves.bank import CurveBank
+from engine.curves.mastercurve import MasterCurve
+from engine.curves.mountcheck import FALLBACK_K_FACTOR, STATIC_LOAD_TIME_S, MountDesign
+from engine.curves.window import DEFAULT_POISSON, OperatingWindow
+from engine.library.fits import fit_library
+from engine.library.importer import import_files
+from engine.library.store import Library, Material
+from engine.physics import mount
+from engine.selection.ranking import Constraints, Criteria, IndexChoice, rank
+from engine.selection.spread import LEADING_GRADES, rank_spread
 
 FULL_GRADES = 10_000
 FULL_BASELINE = 200
@@ -156,7 +157,7 @@ def cached_fits(curves: dict[str, MasterCurve]) -> dict[str, str]:
 
 
 def from_cache(texts: dict[str, str]) -> dict[str, MasterCurve]:
-    """Master curves decoded from fit-cache JSON, as engine.fits.fit_library does."""
+    """Master curves decoded from fit-cache JSON, as engine.library.fits.fit_library does."""
     return {gid: MasterCurve.from_dict(json.loads(t)) for gid, t in texts.items()}
 
 
@@ -409,7 +410,7 @@ def main(quick: bool = True) -> list[Figure]:
             t_decode,
             "s",
             None,
-            "as engine.fits.fit_library reads the fit cache",
+            "as engine.library.fits.fit_library reads the fit cache",
         ),
         Figure(
             f"CurveBank.from_curves, {n:,} grades",

@@ -4,7 +4,7 @@
 Each case samples a known grade (:mod:`tests.synthetic`) the way an instrument exports it
 (tidy grid, logged temperatures with jitter, ramps, a short sheet, a sweep with a gap, a
 grade with a secondary relaxation, a generated family), fits it with
-:func:`engine.mastercurve.build_master_curve` in tensile mode, and compares the fit with
+:func:`engine.curves.mastercurve.build_master_curve` in tensile mode, and compares the fit with
 the truth at conditions that were NOT measured but lie inside the measured range:
 temperatures midway between set-points (a 5 K grid offset by 2.5 K for ramps) and
 frequencies at the geometric middle of neighbouring measured ones.
@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.mastercurve import build_master_curve
+from engine.curves.mastercurve import build_master_curve
 from tests import synthetic
 
 MODE = "tensile"

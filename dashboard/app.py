@@ -19,9 +19,9 @@ import streamlit as st  # noqa: E402
 from dashboard import case, data, sidebar  # noqa: E402
 from dashboard.common import CONTEXT_KEY, Context  # noqa: E402
 from dashboard.palette import grade_colours  # noqa: E402
-from engine.caution import CAUTION  # noqa: E402
-from engine.errors import LibraryError, QuietgradeError  # noqa: E402
-from engine.store import default_location  # noqa: E402
+from engine.base.caution import CAUTION  # noqa: E402
+from engine.base.errors import LibraryError, QuietgradeError  # noqa: E402
+from engine.library.store import default_location  # noqa: E402
 
 VIEWS = Path(__file__).resolve().parent / "views"
 PAGES = (

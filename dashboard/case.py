@@ -1,7 +1,7 @@
 """The design case as the dashboard holds it: widget values, the page link, the criteria.
 
 The sidebar widgets keep their values in Streamlit's session state under the keys of
-:data:`DEFAULTS`. This module turns those values into :class:`engine.ranking.Criteria`
+:data:`DEFAULTS`. This module turns those values into :class:`engine.selection.ranking.Criteria`
 (the engine checks them), back again from a loaded criteria file, and into the short
 query string that makes a link reproduce the view. It imports no Streamlit, so it is
 tested as plain functions.
@@ -32,10 +32,10 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 
-from engine.errors import CriteriaError
-from engine.indices import AGGREGATES, BUILT_IN
-from engine.mountcheck import DEFAULT_SERVICE_LIFE_H, DEFAULT_SIZING_TEMP_C, SHAPES
-from engine.ranking import DEFAULT_INDICES, Criteria
+from engine.base.errors import CriteriaError
+from engine.curves.mountcheck import DEFAULT_SERVICE_LIFE_H, DEFAULT_SIZING_TEMP_C, SHAPES
+from engine.physics.indices import AGGREGATES, BUILT_IN
+from engine.selection.ranking import DEFAULT_INDICES, Criteria
 
 DESIGN_CODES = {"isolation_mount": "mount", "damping_layer": "layer", "general": "general"}
 DESIGN_LABELS = {

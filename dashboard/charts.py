@@ -24,9 +24,9 @@ from dashboard.palette import (
     band_colours,
     faded,
 )
-from engine.mastercurve import MasterCurve
-from engine.ranking import RankResult
-from engine.window import tensile_factor
+from engine.curves.mastercurve import MasterCurve
+from engine.curves.window import tensile_factor
+from engine.selection.ranking import RankResult
 
 TEMPLATE = "quietgrade"
 HOUR_S = 3600.0

@@ -8,10 +8,10 @@ import numpy as np
 import streamlit as st
 
 from dashboard import data
-from engine.errors import LibraryError
-from engine.mastercurve import MasterCurve
-from engine.ranking import Criteria, RankResult
-from engine.store import Library
+from engine.base.errors import LibraryError
+from engine.curves.mastercurve import MasterCurve
+from engine.library.store import Library
+from engine.selection.ranking import Criteria, RankResult
 
 CONTEXT_KEY = "_context"
 MISSING = "–"  # shown in tables where a value is unknown or not computed

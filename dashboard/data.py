@@ -1,6 +1,6 @@
 """The library, its master curves and the ranking, cached for the dashboard.
 
-Caches are keyed on the library location and :meth:`engine.store.Library.version`, so
+Caches are keyed on the library location and :meth:`engine.library.store.Library.version`, so
 any change to the library (an import, an edit, a deletion) refits and reranks. Results
 hold numpy arrays, dataclasses and formula callables, so they are kept as resources
 (shared, never pickled) and must be treated as read-only; so are the map figures kept
@@ -17,12 +17,12 @@ import plotly.graph_objects as go
 import streamlit as st
 
 from dashboard import charts
-from engine.demo import DEMO_DIR
-from engine.fits import fit_library, master_curve
-from engine.importer import import_files
-from engine.mastercurve import MasterCurve
-from engine.ranking import Criteria, RankResult, rank
-from engine.store import Library
+from engine.curves.mastercurve import MasterCurve
+from engine.library.demo import DEMO_DIR
+from engine.library.fits import fit_library, master_curve
+from engine.library.importer import import_files
+from engine.library.store import Library
+from engine.selection.ranking import Criteria, RankResult, rank
 
 
 @st.cache_resource(show_spinner=False)
@@ -120,7 +120,7 @@ def map_figure(
 def curve_at_reference(location: str, version: int, material_id: str, reference_C: float):
     """The master curve of a grade refitted at ``reference_C`` [degC] (kept per version).
 
-    The fit is cached in the library as well (:func:`engine.fits.master_curve`), so a
+    The fit is cached in the library as well (:func:`engine.library.fits.master_curve`), so a
     reference chosen before costs one read after a restart.
     """
     return master_curve(library_at(location), material_id, reference_C)

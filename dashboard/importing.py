@@ -1,7 +1,7 @@
 """Uploaded files -> a validated, previewed import; the library is written only on request.
 
 Plain functions over bytes (no Streamlit), so the Library page and the tests share them.
-Every problem is an :class:`engine.errors.InputError` whose one-line text names file, row
+Every problem is an :class:`engine.base.errors.InputError` whose one-line text names file, row
 and column; nothing here writes unless :func:`write` is called.
 """
 
@@ -13,8 +13,15 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from engine.errors import InputError
-from engine.importer import (
+from engine.base.errors import InputError
+from engine.base.units import (
+    FREQUENCY_UNITS,
+    MODULUS_UNITS,
+    TEMPERATURE_UNITS,
+    canonical_unit,
+    split_header,
+)
+from engine.library.importer import (
     ImportPlan,
     RawTable,
     looks_like_catalog,
@@ -22,14 +29,7 @@ from engine.importer import (
     plan_import,
     read_table,
 )
-from engine.store import ImportSummary, Library
-from engine.units import (
-    FREQUENCY_UNITS,
-    MODULUS_UNITS,
-    TEMPERATURE_UNITS,
-    canonical_unit,
-    split_header,
-)
+from engine.library.store import ImportSummary, Library
 
 # Targets of the column-mapping step, with the units each accepts.
 MAPPING_TARGETS = {

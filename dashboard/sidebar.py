@@ -8,10 +8,10 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import case
-from engine.errors import CriteriaError
-from engine.indices import AGGREGATES, BUILT_IN
-from engine.mountcheck import LAYOUTS, SHAPES
-from engine.ranking import DEFAULT_INDICES, DESIGN_TYPES, Criteria
+from engine.base.errors import CriteriaError
+from engine.curves.mountcheck import LAYOUTS, SHAPES
+from engine.physics.indices import AGGREGATES, BUILT_IN
+from engine.selection.ranking import DEFAULT_INDICES, DESIGN_TYPES, Criteria
 
 DUTY_COLUMNS = ["temp_C", "freq_Hz", "share"]
 

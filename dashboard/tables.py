@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from engine.ranking import GradeResult, RankResult
+from engine.selection.ranking import GradeResult, RankResult
 
 
 def _span(values) -> str:
@@ -66,7 +66,7 @@ def comparison_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
 def shortlist_frame(result: RankResult) -> pd.DataFrame:
     """The ranked grades with score, index values and the one-line reason.
 
-    ``rank interval`` is best–worst rank over the draws of the fits (engine.spread),
+    ``rank interval`` is best–worst rank over the draws of the fits (engine.selection.spread),
     None where it was not computed.
     """
     titles = index_columns(result)

@@ -15,9 +15,9 @@ from pathlib import Path
 import numpy as np
 
 from engine import __version__
-from engine.errors import QuietgradeError
-from engine.isotherms import DEFAULT_TOLERANCE_K
-from engine.store import Library, default_location
+from engine.base.errors import QuietgradeError
+from engine.library.store import Library, default_location
+from engine.physics.isotherms import DEFAULT_TOLERANCE_K
 
 
 class _Parser(argparse.ArgumentParser):
@@ -61,7 +61,7 @@ def _library(args) -> Library:
 
 
 def cmd_load(args) -> int:
-    from engine.importer import import_files, looks_like_catalog, read_table
+    from engine.library.importer import import_files, looks_like_catalog, read_table
 
     lib = _library(args)
     tables = [read_table(p) for p in [args.catalog, *args.sweeps]]
@@ -135,13 +135,13 @@ def _tolerance(args) -> float:
 
 
 def cmd_fit(args) -> int:
-    from engine.fits import master_curve, summary
+    from engine.library.fits import master_curve, summary
 
     lib = _library(args)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
     data = {"id": args.id, **summary(curve)}
     if args.out:
-        from engine.modelfile import write_model
+        from engine.output.modelfile import write_model
 
         write_model(curve, args.out, args.id)
     data["model_file"] = args.out
@@ -196,7 +196,7 @@ def cmd_fit(args) -> int:
 
 
 def cmd_props(args) -> int:
-    from engine.fits import master_curve
+    from engine.library.fits import master_curve
 
     lib = _library(args)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
@@ -244,8 +244,8 @@ def cmd_props(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    from engine.demo import load_demo
-    from engine.fits import fit_library
+    from engine.library.demo import load_demo
+    from engine.library.fits import fit_library
 
     lib = _library(args)
     summary = load_demo(lib)
@@ -270,9 +270,9 @@ def cmd_demo(args) -> int:
 
 
 def cmd_mount(args) -> int:
-    from engine.bank import CurveBank
-    from engine.fits import master_curve
-    from engine.mountcheck import MountDesign, check_mounts
+    from engine.curves.bank import CurveBank
+    from engine.curves.mountcheck import MountDesign, check_mounts
+    from engine.library.fits import master_curve
 
     lib = _library(args)
     material = lib.material(args.id)
@@ -352,9 +352,9 @@ def cmd_mount(args) -> int:
 
 
 def _criteria_from_args(args):
-    from engine.mountcheck import MountDesign
-    from engine.ranking import Constraints, Criteria
-    from engine.window import OperatingWindow
+    from engine.curves.mountcheck import MountDesign
+    from engine.curves.window import OperatingWindow
+    from engine.selection.ranking import Constraints, Criteria
 
     if args.criteria:
         base = Criteria.load(args.criteria).to_dict()
@@ -404,9 +404,9 @@ def _criteria_from_args(args):
 
 
 def cmd_rank(args) -> int:
-    from engine.fits import fit_library
-    from engine.ranking import rank
-    from engine.spread import MOUNT_SERIES, rank_spread
+    from engine.library.fits import fit_library
+    from engine.selection.ranking import rank
+    from engine.selection.spread import MOUNT_SERIES, rank_spread
 
     lib = _library(args)
     criteria = _criteria_from_args(args)
@@ -416,7 +416,7 @@ def cmd_rank(args) -> int:
     materials = {m.id: m for m in lib.materials()}
     result = rank_spread(rank(curves, materials, criteria, errors), curves, materials)
     if args.out:
-        from engine.export import write_shortlist
+        from engine.output.export import write_shortlist
 
         write_shortlist(result, args.out, lib, curves)
     rows = []

@@ -7,7 +7,7 @@ ROOT = Path(__file__).resolve().parent.parent
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from engine.store import Library  # noqa: E402
+from engine.library.store import Library  # noqa: E402
 
 
 @pytest.fixture
@@ -18,8 +18,8 @@ def library(tmp_path):
 @pytest.fixture(scope="session")
 def demo_library(tmp_path_factory):
     """A library with the demo grades loaded and fitted (shared, read-only use)."""
-    from engine.fits import fit_library
-    from engine.importer import import_files
+    from engine.library.fits import fit_library
+    from engine.library.importer import import_files
 
     path = tmp_path_factory.mktemp("demo") / "demo.sqlite"
     lib = Library(str(path))

@@ -9,9 +9,9 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
-from engine.fits import fit_library
-from engine.importer import import_files
-from engine.store import Library
+from engine.library.fits import fit_library
+from engine.library.importer import import_files
+from engine.library.store import Library
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_materials"
 SWEEP_HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"

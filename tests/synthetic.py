@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.shift import ShiftLaw, arrhenius_log_shift
+from engine.physics.shift import ShiftLaw, arrhenius_log_shift
 
 TG_C = -20.0
 TRUE_LAW = ShiftLaw("WLF+Arrhenius", 0.0, 17.44, 51.6, TG_C, 200e3, TG_C)

@@ -1,6 +1,6 @@
 """The stacked curve bank against the master curves it was built from.
 
-The reference is :meth:`engine.mastercurve.MasterCurve.evaluate` (the Prony series at the
+The reference is :meth:`engine.curves.mastercurve.MasterCurve.evaluate` (the Prony series at the
 shifted frequency); the bank tabulates it every 0.05 decade and interpolates linearly in
 log-log, so agreement to 0.5 % is the interpolation error of that grid (common practice).
 """
@@ -12,8 +12,8 @@ import threading
 import numpy as np
 import pytest
 
-from engine.bank import CurveBank
-from engine.mastercurve import TABLE_MARGIN, build_master_curve
+from engine.curves.bank import CurveBank
+from engine.curves.mastercurve import TABLE_MARGIN, build_master_curve
 from tests import synthetic
 
 T_GRID = np.linspace(-80.0, 150.0, 47)[:, None]  # [degC]
@@ -121,8 +121,8 @@ def test_evaluate_rows_needs_one_row_per_grade(bank):
 
 
 def test_blocks_on_threads_give_the_same_values(bank, monkeypatch):
-    # engine.blocks: one grade per block on two threads reproduces one block exactly.
-    from engine import blocks
+    # engine.base.blocks: one grade per block on two threads reproduces one block exactly.
+    from engine.base import blocks
 
     whole = bank.evaluate(T_GRID, F_GRID)
     monkeypatch.setattr(blocks, "BLOCK_POINTS", 1)
@@ -133,7 +133,7 @@ def test_blocks_on_threads_give_the_same_values(bank, monkeypatch):
 
 
 def test_a_failing_block_raises_in_the_caller(monkeypatch):
-    from engine import blocks
+    from engine.base import blocks
 
     monkeypatch.setattr(blocks, "WORKERS", 2)
     seen = []
@@ -161,7 +161,7 @@ def test_log_storage_at_is_the_table_of_evaluate(curves, bank):
 def test_blocks_handed_out_inside_a_block_run_in_its_thread(monkeypatch):
     # A block that cuts its own work into blocks must not wait on the pool it runs in
     # (with every worker busy that would never finish): the inner blocks run inline.
-    from engine import blocks
+    from engine.base import blocks
 
     monkeypatch.setattr(blocks, "WORKERS", 2)
     done = []

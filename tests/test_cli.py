@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from engine.shift import wlf_change_reference
+from engine.physics.shift import wlf_change_reference
 from tests import synthetic
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -21,13 +21,13 @@ from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from dashboard import case, charts, data, importing  # noqa: E402
 from dashboard.common import SHOWN_LIMIT  # noqa: E402
-from engine.caution import CAUTION  # noqa: E402
-from engine.errors import CriteriaError, FitError, InputError  # noqa: E402
-from engine.fits import fit_library, master_curve  # noqa: E402
-from engine.importer import import_files  # noqa: E402
-from engine.ranking import Criteria, rank  # noqa: E402
-from engine.store import Library  # noqa: E402
-from engine.window import tensile_factor  # noqa: E402
+from engine.base.caution import CAUTION  # noqa: E402
+from engine.base.errors import CriteriaError, FitError, InputError  # noqa: E402
+from engine.curves.window import tensile_factor  # noqa: E402
+from engine.library.fits import fit_library, master_curve  # noqa: E402
+from engine.library.importer import import_files  # noqa: E402
+from engine.library.store import Library  # noqa: E402
+from engine.selection.ranking import Criteria, rank  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")

@@ -2,7 +2,7 @@
 
 from pathlib import Path
 
-from engine.caution import CAUTION
+from engine.base.caution import CAUTION
 
 ROOT = Path(__file__).resolve().parent.parent
 

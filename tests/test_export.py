@@ -20,10 +20,13 @@ import pandas as pd
 import plotly.colors
 import pytest
 
-from engine.caution import CAUTION
+from engine.base.caution import CAUTION
+from engine.base.errors import CriteriaError, InputError
 from engine.cli import main
-from engine.errors import CriteriaError, InputError
-from engine.export import (
+from engine.curves.mountcheck import MountDesign
+from engine.curves.window import OperatingWindow, tensile_factor
+from engine.library.fits import fit_library
+from engine.output.export import (
     EXTENSIONS,
     RANK_INTERVAL_COLUMNS,
     interval_columns,
@@ -32,13 +35,10 @@ from engine.export import (
     window_properties,
     write_shortlist,
 )
-from engine.fits import fit_library
-from engine.mountcheck import MountDesign
-from engine.ranking import Constraints, Criteria, rank
-from engine.report import PALETTE, map_figure, report_html
-from engine.spread import rank_spread
-from engine.window import OperatingWindow, tensile_factor
-from engine.workbook import shortlist_xlsx
+from engine.output.report import PALETTE, map_figure, report_html
+from engine.output.workbook import shortlist_xlsx
+from engine.selection.ranking import Constraints, Criteria, rank
+from engine.selection.spread import rank_spread
 
 ROOT = Path(__file__).resolve().parent.parent
 SHEETS = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]

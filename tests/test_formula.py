@@ -1,4 +1,4 @@
-"""Tests of engine.formula: the checked merit-index formula language.
+"""Tests of engine.physics.formula: the checked merit-index formula language.
 
 Valid formulas are checked against the same expression written directly in numpy
 (numpy is the reference); every rejected construct has its own error test.
@@ -15,8 +15,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from engine.errors import CriteriaError
-from engine.formula import MAX_LENGTH, MAX_NODES, Formula, parse_formula
+from engine.base.errors import CriteriaError
+from engine.physics.formula import MAX_LENGTH, MAX_NODES, Formula, parse_formula
 
 NAMES = ("loss_factor", "storage_modulus", "density", "x", "y")
 

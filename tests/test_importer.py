@@ -4,9 +4,9 @@ library stays as it was. Unit factors: NIST SP 811 (psi) and the SI definitions.
 import numpy as np
 import pytest
 
-from engine.errors import InputError
-from engine.importer import import_files, read_table
-from engine.units import PSI_IN_PA
+from engine.base.errors import InputError
+from engine.base.units import PSI_IN_PA
+from engine.library.importer import import_files, read_table
 
 CATALOG = "id,name,mode,supplier,density [kg/m3]\nG1,Grade one,tensile,Acme-free,1100\n"
 HEADER = "material,temperature [degC],frequency [Hz],storage_modulus [MPa],loss_factor\n"

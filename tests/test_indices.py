@@ -1,4 +1,4 @@
-"""Tests of engine.indices: built-in merit indices, custom formulas and aggregation.
+"""Tests of engine.physics.indices: built-in merit indices, custom formulas and aggregation.
 
 Expected values are computed with numpy from the formulas as derived in the index
 docstrings: the damping indices follow the scaling of Ashby's stiffness indices (Ashby,
@@ -12,8 +12,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from engine.errors import CriteriaError
-from engine.indices import (
+from engine.base.errors import CriteriaError
+from engine.physics.indices import (
     AGGREGATES,
     BUILT_IN,
     QUANTITIES,

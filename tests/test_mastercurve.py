@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
-from engine.errors import FitError
-from engine.mastercurve import MasterCurve, build_master_curve
-from engine.shift import arrhenius_log_shift
-from engine.transitions import energy_ratio, tg_loss_factor_peak, tg_loss_modulus_peak
+from engine.base.errors import FitError
+from engine.curves.mastercurve import MasterCurve, build_master_curve
+from engine.physics.shift import arrhenius_log_shift
+from engine.physics.transitions import energy_ratio, tg_loss_factor_peak, tg_loss_modulus_peak
 from tests import synthetic
 from tests.test_prony import _kk_storage_minus_equilibrium
 

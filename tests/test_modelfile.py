@@ -22,13 +22,14 @@ import pandas as pd
 import pytest
 
 from engine import __version__
-from engine.caution import CAUTION
+from engine.base.caution import CAUTION
+from engine.base.errors import InputError
 from engine.cli import main
-from engine.errors import InputError
-from engine.fits import master_curve
-from engine.importer import import_files
-from engine.mastercurve import build_master_curve
-from engine.modelfile import (
+from engine.curves.mastercurve import build_master_curve
+from engine.library.fits import master_curve
+from engine.library.importer import import_files
+from engine.library.store import Library
+from engine.output.modelfile import (
     CSV_COLUMNS,
     FORMAT_NAME,
     model_record,
@@ -37,8 +38,7 @@ from engine.modelfile import (
     shift_law_from_record,
     write_model,
 )
-from engine.shift import ShiftLaw
-from engine.store import Library
+from engine.physics.shift import ShiftLaw
 from tests import synthetic
 
 TEMPS = np.array([-80.0, -60.0, -37.5, -18.0, 0.0, 12.3, 25.0, 61.0, 85.0, 110.0])  # [degC]

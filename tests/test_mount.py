@@ -1,4 +1,4 @@
-"""Tests of engine.mount: shape factor, compression modulus, transmissibility, fn.
+"""Tests of engine.physics.mount: shape factor, compression modulus, transmissibility, fn.
 
 Checks are against the single-degree-of-freedom isolator with hysteretic damping
 (Snowdon 1968), Gent & Lindley (1959) for bonded blocks, Gent (1958) for hardness and
@@ -13,7 +13,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from engine import mount
+from engine.physics import mount
 
 # ------------------------------------------------------------ hysteretic isolator
 

@@ -1,4 +1,4 @@
-"""Tests of engine.mountcheck: the vectorised mount check of many grades.
+"""Tests of engine.curves.mountcheck: the vectorised mount check of many grades.
 
 With a frequency-independent grade (:func:`tests.test_window.flat_bank`) the closed
 forms of the single-degree-of-freedom isolator apply exactly:
@@ -17,11 +17,11 @@ import re
 import numpy as np
 import pytest
 
-from engine import mount
-from engine.bank import CurveBank
-from engine.errors import CriteriaError
-from engine.fits import fit_library
-from engine.mountcheck import FALLBACK_K_FACTOR, MountDesign, check_mounts
+from engine.base.errors import CriteriaError
+from engine.curves.bank import CurveBank
+from engine.curves.mountcheck import FALLBACK_K_FACTOR, MountDesign, check_mounts
+from engine.library.fits import fit_library
+from engine.physics import mount
 from tests.test_window import flat_bank
 
 G0 = 9.80665  # standard gravity [m/s2], CGPM 1901
@@ -394,9 +394,9 @@ def test_fn_matches_the_root_in_real_frequency(demo):
 
 
 def test_blocks_on_threads_give_the_same_result(demo, monkeypatch):
-    # engine.blocks cuts the work into blocks of grades on threads: tiny blocks on two
+    # engine.base.blocks cuts the work into blocks of grades on threads: tiny blocks on two
     # workers must reproduce the single-block result exactly.
-    from engine import blocks
+    from engine.base import blocks
 
     bank, poisson, hardness = _bank(demo, RUBBERS)
     design = MountDesign(layout="shear", mass_kg=100.0, mounts=4, target_fn_Hz=7.0)

@@ -1,4 +1,4 @@
-"""Tests of engine.prony: the generalized Maxwell (Prony) series and its NNLS fit.
+"""Tests of engine.physics.prony: the generalized Maxwell (Prony) series and its NNLS fit.
 
 Checks are against closed forms of the Maxwell model (Ferry 1980; Tschoegl 1989), the
 Kramers-Kronig relations and the step-response transform integrated numerically with
@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from engine.errors import FitError
-from engine.prony import PronyFitReport, PronySeries, fit_prony, tau_grid
+from engine.base.errors import FitError
+from engine.physics.prony import PronyFitReport, PronySeries, fit_prony, tau_grid
 
 OMEGA = np.logspace(-2.0, 6.0, 200)  # [rad/s], eight decades, 25 points per decade
 

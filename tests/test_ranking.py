@@ -1,4 +1,4 @@
-"""Tests of engine.ranking: criteria files, constraints, scores, order and Pareto flags.
+"""Tests of engine.selection.ranking: criteria files, constraints, scores, order and Pareto flags.
 
 The grades are cheap variants of one master curve fitted once to the known model of
 :mod:`tests.synthetic`: the Prony weights are scaled (a stiffer or softer compound) and
@@ -25,12 +25,12 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from engine.errors import CriteriaError
-from engine.mastercurve import MasterCurve, build_master_curve
-from engine.mountcheck import MountDesign
-from engine.ranking import Constraints, Criteria, IndexChoice, rank
-from engine.store import Material
-from engine.window import DutyPoint, OperatingWindow
+from engine.base.errors import CriteriaError
+from engine.curves.mastercurve import MasterCurve, build_master_curve
+from engine.curves.mountcheck import MountDesign
+from engine.curves.window import DutyPoint, OperatingWindow
+from engine.library.store import Material
+from engine.selection.ranking import Constraints, Criteria, IndexChoice, rank
 from tests import synthetic
 from tests.test_window import flat_bank
 
@@ -732,7 +732,7 @@ def brute_force_pareto(a, b):
     )  # small integers: many ties and duplicates
 )
 def test_pareto_front_equals_its_definition(points):
-    from engine.ranking import pareto_optimal
+    from engine.selection.ranking import pareto_optimal
 
     a = np.array([p[0] for p in points], dtype=float)
     b = np.array([p[1] for p in points], dtype=float)

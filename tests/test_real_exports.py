@@ -17,9 +17,9 @@ import warnings
 import numpy as np
 import pytest
 
-from engine.errors import FitError
-from engine.isotherms import group_temperatures
-from engine.mastercurve import build_master_curve
+from engine.base.errors import FitError
+from engine.curves.mastercurve import build_master_curve
+from engine.physics.isotherms import group_temperatures
 from tests import synthetic as S
 
 
@@ -267,7 +267,7 @@ def test_frequencies_spanning_too_many_decades_are_refused():
 
 def test_a_grade_whose_numbers_defeat_the_fit_does_not_stop_the_library(monkeypatch):
     # fits._fit_one turns any numeric failure into that grade's fit error.
-    from engine import fits
+    from engine.library import fits
 
     def broken(*args, **kwargs):
         raise np.linalg.LinAlgError("Singular matrix")

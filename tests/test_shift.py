@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 from scipy import constants
 
-from engine.errors import FitError
-from engine.shift import (
+from engine.base.errors import FitError
+from engine.physics.shift import (
     WLF_UNIVERSAL_C1,
     WLF_UNIVERSAL_C2,
     ShiftLaw,

@@ -1,11 +1,11 @@
-"""Rank intervals and the data's uncertainty in the ranking (engine.spread).
+"""Rank intervals and the data's uncertainty in the ranking (engine.selection.spread).
 
 The grades are master curves fitted to sweeps of the known model of
 :mod:`tests.synthetic`: a noisy sweep, the same sweep with a tiny extra scatter (a near
 twin, which the data cannot tell apart), and the same sweep moved 30 K up the
 temperature axis (a clearly different grade). The intervals are checked against their
 definition written out with numpy (numpy.percentile, linear between order statistics,
-over one ranking per draw with :func:`engine.ranking.rank`); the exports are read back
+over one ranking per draw with :func:`engine.selection.ranking.rank`); the exports are read back
 with pandas and openpyxl.
 """
 
@@ -23,22 +23,22 @@ import pandas as pd
 import pytest
 
 from dashboard import tables
-from engine.errors import LibraryError
-from engine.export import RANK_INTERVAL_COLUMNS, interval_heading, shortlist_csv
-from engine.fits import fit_library
-from engine.mastercurve import build_master_curve
-from engine.mountcheck import MountDesign
-from engine.ranking import UNCERTAIN, Constraints, Criteria, rank
-from engine.report import report_html
-from engine.spread import (
+from engine.base.errors import LibraryError
+from engine.curves.mastercurve import build_master_curve
+from engine.curves.mountcheck import MountDesign
+from engine.curves.window import OperatingWindow
+from engine.library.fits import fit_library
+from engine.output.export import RANK_INTERVAL_COLUMNS, interval_heading, shortlist_csv
+from engine.output.report import report_html
+from engine.output.workbook import shortlist_xlsx
+from engine.selection.ranking import UNCERTAIN, Constraints, Criteria, rank
+from engine.selection.spread import (
     MOUNT_SERIES,
     NO_DRAWS_NOTE,
     PERCENTILES,
     SWAP_SHARE,
     rank_spread,
 )
-from engine.window import OperatingWindow
-from engine.workbook import shortlist_xlsx
 from tests import synthetic
 from tests.test_ranking import material
 
@@ -90,7 +90,7 @@ def _ranked(curves, criteria=OPEN, **spread):
 
 def test_intervals_follow_their_definition_over_one_ranking_per_draw():
     # The definition, written out: for each draw k a ranking of the k-th draws (in each
-    # grade's own order) by engine.ranking.rank; then numpy.percentile over the draws.
+    # grade's own order) by engine.selection.ranking.rank; then numpy.percentile over the draws.
     curves = {"TWIN-A": TWIN_A, "TWIN-B": TWIN_B, "HOT": HOT}
     fitted, result, mats = _ranked(curves, MOUNT)
     lead = [g.id for g in fitted.shortlist]

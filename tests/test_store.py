@@ -1,5 +1,5 @@
 """The material library: opening, versions, edits with history, soft delete and the fit
-cache (engine/store.py and engine/fits.py)."""
+cache (engine/library/store.py and engine/library/fits.py)."""
 
 from __future__ import annotations
 
@@ -9,11 +9,11 @@ import sqlite3
 import numpy as np
 import pytest
 
-from engine import fits
-from engine.errors import FitError, LibraryError
-from engine.fits import fit_library, master_curve, options_key
-from engine.importer import import_files
-from engine.store import SCHEMA_VERSION, Library, default_location
+from engine.base.errors import FitError, LibraryError
+from engine.library import fits
+from engine.library.fits import fit_library, master_curve, options_key
+from engine.library.importer import import_files
+from engine.library.store import SCHEMA_VERSION, Library, default_location
 from tests import synthetic
 
 

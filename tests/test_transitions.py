@@ -1,4 +1,4 @@
-"""Tests of engine.transitions: Tg methods, secondary transition, regions, energy ratio.
+"""Tests of engine.physics.transitions: Tg methods, secondary transition, regions, energy ratio.
 
 Check values are analytic: peak locations of closed-form curves, the tangent
 intersection of ASTM E1640 on a curve built so that it has a closed form, the loss
@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from engine.errors import InputError
-from engine.transitions import (
+from engine.base.errors import InputError
+from engine.physics.transitions import (
     TG_METHODS,
     TgResult,
     applicable_methods,

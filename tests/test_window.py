@@ -1,4 +1,4 @@
-"""Tests of engine.window: the operating window and the one-pass window evaluation.
+"""Tests of engine.curves.window: the operating window and the one-pass window evaluation.
 
 Checks are against numpy as the reference library (inclusive grids, log spacing), the
 definition of the geometric mean of a band, and the isotropic-elasticity relation
@@ -14,10 +14,10 @@ import re
 import numpy as np
 import pytest
 
-from engine.bank import CurveBank
-from engine.errors import CriteriaError
-from engine.mastercurve import build_master_curve
-from engine.window import (
+from engine.base.errors import CriteriaError
+from engine.curves.bank import CurveBank
+from engine.curves.mastercurve import build_master_curve
+from engine.curves.window import (
     DutyPoint,
     OperatingWindow,
     evaluate_window,

@@ -13,8 +13,8 @@ import streamlit as st
 from dashboard import case, charts, data
 from dashboard.common import MISSING, SHOWN_LIMIT, context
 from dashboard.palette import GRADE_COLOURS
-from engine.errors import CriteriaError, QuietgradeError
-from engine.fits import summary
+from engine.base.errors import CriteriaError, QuietgradeError
+from engine.library.fits import summary
 
 ctx = context()
 st.header("Curves")

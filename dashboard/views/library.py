@@ -8,7 +8,7 @@ import streamlit as st
 
 from dashboard import data, importing
 from dashboard.common import MISSING, context
-from engine.errors import LibraryError
+from engine.base.errors import LibraryError
 
 ctx = context()
 lib = ctx.library

@@ -1,7 +1,7 @@
 """Shortlist page: ranked grades with reasons, excluded grades with theirs, downloads.
 
 The leading grades carry their rank intervals from the draws of the fits
-(:func:`engine.spread.rank_spread`, kept per ranking); the table, the reasons and the
+(:func:`engine.selection.spread.rank_spread`, kept per ranking); the table, the reasons and the
 downloads all show them.
 """
 
@@ -9,9 +9,9 @@ import streamlit as st
 
 from dashboard import tables
 from dashboard.common import MISSING, context, need_result
-from engine.errors import QuietgradeError
-from engine.export import intervals_note
-from engine.spread import rank_spread
+from engine.base.errors import QuietgradeError
+from engine.output.export import intervals_note
+from engine.selection.spread import rank_spread
 
 ctx = context()
 st.header("Shortlist")
@@ -20,7 +20,7 @@ result = need_result(ctx)
 
 @st.cache_resource(max_entries=16, show_spinner=False)
 def _with_intervals(result_key: str, _result, _curves, _library):
-    """The ranking with the intervals of engine.spread, kept per ranking (read-only)."""
+    """The ranking with the intervals of engine.selection.spread, kept per ranking (read-only)."""
     materials = {m.id: m for m in _library.materials()}
     return rank_spread(_result, _curves, materials)
 

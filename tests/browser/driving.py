@@ -13,9 +13,9 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from dashboard import case
-from engine.fits import fit_library
-from engine.ranking import RankResult, rank
-from engine.store import Library
+from engine.library.fits import fit_library
+from engine.library.store import Library
+from engine.selection.ranking import RankResult, rank
 
 CHARTED = ("Map", "Curves", "Mount")
 STATUS = '[data-testid="stStatusWidget"]'

@@ -25,8 +25,8 @@ from pathlib import Path
 import pytest
 
 from dashboard import case, importing
-from engine.caution import CAUTION
-from engine.store import Library
+from engine.base.caution import CAUTION
+from engine.library.store import Library
 from tests.browser.conftest import ROOT, SHOTS
 from tests.browser.driving import (
     MAIN,
@@ -186,7 +186,7 @@ def test_xlsx_download_opens_with_its_sheets(app_url, page, tmp_path):
     saved = tmp_path / download.suggested_filename
     download.save_as(saved)
     book = openpyxl.load_workbook(saved, read_only=True)
-    # Sheets and layout as engine/workbook.py documents them.
+    # Sheets and layout as engine/output/workbook.py documents them.
     sheets = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]
     assert book.sheetnames == sheets
     rows = list(book["Shortlist"].iter_rows(values_only=True))

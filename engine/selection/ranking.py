@@ -22,10 +22,14 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from engine import __version__
-from engine.bank import CurveBank
-from engine.blocks import collector_paused, in_blocks, per_block
-from engine.errors import CriteriaError, reject_unknown
-from engine.indices import (
+from engine.base.blocks import collector_paused, in_blocks, per_block
+from engine.base.errors import CriteriaError, reject_unknown
+from engine.curves.bank import CurveBank
+from engine.curves.mastercurve import MasterCurve
+from engine.curves.mountcheck import MountDesign, MountResult, check_mounts
+from engine.curves.window import OperatingWindow, WindowProps, evaluate_window
+from engine.library.store import Material
+from engine.physics.indices import (
     AGGREGATES,
     BUILT_IN,
     IndexSpec,
@@ -34,13 +38,9 @@ from engine.indices import (
     damping_span,
     resolve,
 )
-from engine.mastercurve import MasterCurve
-from engine.mountcheck import MountDesign, MountResult, check_mounts
-from engine.store import Material
-from engine.window import OperatingWindow, WindowProps, evaluate_window
 
-if TYPE_CHECKING:  # engine.spread builds on this module
-    from engine.spread import GradeSpread, RankSpread
+if TYPE_CHECKING:  # engine.selection.spread builds on this module
+    from engine.selection.spread import GradeSpread, RankSpread
 
 DESIGN_TYPES = ("isolation_mount", "damping_layer", "general")
 DEFAULT_INDICES = {
@@ -325,12 +325,13 @@ class GradeResult:
     mount_result: MountResult | None = field(default=None, repr=False)
     mount_index: int | None = None
     notes: list[str] = field(default_factory=list)
-    spread: GradeSpread | None = field(default=None, repr=False)  # see engine.spread
+    spread: GradeSpread | None = field(default=None, repr=False)  # see engine.selection.spread
 
     @property
     def mount(self) -> dict | None:
         """JSON-ready mount figures of this grade (MountResult.grade), made on demand;
-        with the ``_low``/``_high`` companions of :mod:`engine.spread` when it has them."""
+        with the ``_low``/``_high`` companions of :mod:`engine.selection.spread` when it has
+        them."""
         if self.mount_result is None:
             return None
         figures = self.mount_result.grade(self.mount_index)
@@ -340,14 +341,14 @@ class GradeResult:
 
     def index_interval(self, name: str) -> tuple[float | None, float | None]:
         """(low, high) 95 % interval of index ``name`` over the draws of the fits
-        (engine.spread), or (None, None) where none was computed."""
+        (engine.selection.spread), or (None, None) where none was computed."""
         if self.spread is None or name not in self.spread.indices:
             return None, None
         return self.spread.indices[name]
 
     @property
     def rank_interval(self) -> list[int] | None:
-        """[best, worst] rank over the draws of the fits (engine.spread), else None."""
+        """[best, worst] rank over the draws of the fits (engine.selection.spread), else None."""
         return None if self.spread is None else list(self.spread.rank_interval)
 
 
@@ -361,7 +362,7 @@ class RankResult:
     created_at: str
     engine_version: str = __version__
     fit_errors: dict[str, str] = field(default_factory=dict)
-    spread: RankSpread | None = None  # how the intervals were made (engine.spread)
+    spread: RankSpread | None = None  # how the intervals were made (engine.selection.spread)
 
     @property
     def shortlist(self) -> list[GradeResult]:
@@ -373,11 +374,11 @@ class RankResult:
 
 
 class _Quantities(Mapping):
-    """Named quantities of engine.indices for the grades ``rows`` at the window grid or
+    """Named quantities of engine.physics.indices for the grades ``rows`` at the window grid or
     the duty points, each computed when an index first asks for it.
 
     Arrays have shape (grades, points), catalog columns (grades, 1); moduli in MPa (see
-    engine.indices).
+    engine.physics.indices).
     """
 
     def __init__(self, props: WindowProps, catalog: dict[str, np.ndarray], duty: bool, rows):
@@ -425,7 +426,7 @@ def _point_indices(
     """Aggregated point indices of every grade and its worst loss factor on the grid.
 
     With duty points the point indices are taken at the duty points, else on the grid.
-    Worked out in blocks of grades (engine.blocks), so that no quantity is ever held for
+    Worked out in blocks of grades (engine.base.blocks), so that no quantity is ever held for
     the whole library at once.
     """
     n = len(props.ids)
@@ -618,7 +619,7 @@ def rank(
 
     ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
     The rank intervals from the draws of the fits are a further step,
-    :func:`engine.spread.rank_spread`.
+    :func:`engine.selection.spread.rank_spread`.
     """
     with collector_paused():
         return _rank(curves, materials, criteria, fit_errors, bank)
@@ -629,7 +630,7 @@ class Evaluation:
     """What a ranking computes for each grade before its constraints and scores.
 
     Arrays have one row per grade of ``ids``; index values in display units (see
-    :class:`engine.indices.IndexSpec`).
+    :class:`engine.physics.indices.IndexSpec`).
     """
 
     ids: list[str]

@@ -1,9 +1,9 @@
 """Reading and validating catalog and sweep files (the import format of DESIGN.md).
 
-Every problem is an :class:`~engine.errors.InputError` naming file, row and column.
+Every problem is an :class:`~engine.base.errors.InputError` naming file, row and column.
 Rows are counted as a spreadsheet shows them: the header is row 1, the first data row
 is row 2. Nothing here writes to the library; :func:`import_files` validates everything
-first and then hands one transaction to :class:`~engine.store.Library`.
+first and then hands one transaction to :class:`~engine.library.store.Library`.
 """
 
 from __future__ import annotations
@@ -18,9 +18,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from engine.errors import InputError
-from engine.store import Library, Material
-from engine.units import (
+from engine.base.errors import InputError
+from engine.base.units import (
     ABSOLUTE_ZERO_C,
     FREQUENCY_UNITS,
     MODULUS_UNITS,
@@ -31,6 +30,7 @@ from engine.units import (
     split_header,
     temperature_to_c,
 )
+from engine.library.store import Library, Material
 
 MODES = ("tensile", "shear")
 CATALOG_REQUIRED = ("id", "name", "mode")

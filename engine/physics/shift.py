@@ -11,8 +11,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.errors import FitError
-from engine.units import c_to_k
+from engine.base.errors import FitError
+from engine.base.units import c_to_k
 
 GAS_CONSTANT = 8.314462618  # J/(mol K), CODATA 2018 exact value
 LN10 = np.log(10.0)
@@ -173,7 +173,7 @@ def split_isotherms(
 ):
     """Group measured points into isotherms, ordered by temperature.
 
-    With ``labels`` (the isotherm of each point, see :mod:`engine.isotherms`) and
+    With ``labels`` (the isotherm of each point, see :mod:`engine.physics.isotherms`) and
     ``temperatures`` (each isotherm's mean temperature [degC]) the points are grouped as
     given; otherwise points whose temperatures agree to ``decimals`` places form one
     isotherm. Within an isotherm points are sorted by frequency and repeated frequencies

@@ -98,12 +98,12 @@ from pathlib import Path
 import numpy as np
 
 from engine import __version__
-from engine.caution import CAUTION
-from engine.errors import FitError, InputError
-from engine.export import _FORMULA_START, _csv_cell, finite, yes_no
-from engine.mastercurve import MasterCurve
-from engine.prony import PronySeries
-from engine.shift import ShiftLaw, wlf_change_reference
+from engine.base.caution import CAUTION
+from engine.base.errors import FitError, InputError
+from engine.curves.mastercurve import MasterCurve
+from engine.output.export import _FORMULA_START, _csv_cell, finite, yes_no
+from engine.physics.prony import PronySeries
+from engine.physics.shift import ShiftLaw, wlf_change_reference
 
 __all__ = [
     "CSV_COLUMNS",

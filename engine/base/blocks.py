@@ -29,7 +29,7 @@ def _executor() -> ThreadPoolExecutor:
 
 
 def _forget_pool() -> None:
-    # A forked child (engine.fits fits in worker processes) has none of the parent's
+    # A forked child (engine.library.fits fits in worker processes) has none of the parent's
     # threads: it starts a pool of its own if it needs one.
     global _pool
     _pool = None

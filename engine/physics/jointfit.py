@@ -1,6 +1,6 @@
 """Shift law, isotherm shifts and relaxation spectrum fitted together to every point.
 
-The pairwise overlap of :mod:`engine.shift` gives a start; this module then fits, to all
+The pairwise overlap of :mod:`engine.physics.shift` gives a start; this module then fits, to all
 measured points at once, the constants of the shift law, a small correction of the shift
 of each isotherm, and a smooth non-negative relaxation spectrum, and turns the fit's own
 uncertainty into draws of the whole model. Sparse sheets, logged temperatures and ramps
@@ -17,9 +17,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import expit
 
-from engine.errors import FitError
-from engine.prony import PronySeries
-from engine.shift import LN10, ShiftLaw
+from engine.base.errors import FitError
+from engine.physics.prony import PronySeries
+from engine.physics.shift import LN10, ShiftLaw
 
 N_DRAWS = 32
 DRAW_ALLOWANCE = 10.0  # rise beyond |z|^2 allowed, in sd of chi-square(n), see consistent_draws

@@ -19,8 +19,8 @@ import numpy as np
 import sqlalchemy as sa
 
 from engine import __version__
-from engine.errors import LibraryError
-from engine.units import ABSOLUTE_ZERO_C
+from engine.base.errors import LibraryError
+from engine.base.units import ABSOLUTE_ZERO_C
 
 SCHEMA_VERSION = 1
 

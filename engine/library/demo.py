@@ -10,15 +10,15 @@ from __future__ import annotations
 from importlib.resources import files
 from pathlib import Path
 
-from engine.importer import import_files
-from engine.store import ImportSummary, Library
+from engine.library.importer import import_files
+from engine.library.store import ImportSummary, Library
 
 DEMO_FILES = ("catalog.csv", "sweeps.csv")
 
 
 def _demo_dir() -> Path:
     """The folder holding the demo catalog and sweeps: the checkout's, else the package's."""
-    checkout = Path(__file__).resolve().parent.parent / "demo_materials"
+    checkout = Path(__file__).resolve().parents[2] / "demo_materials"
     if all((checkout / name).is_file() for name in DEMO_FILES):
         return checkout
     return Path(str(files("engine") / "demo_data"))

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import find_peaks
 
-from engine.errors import InputError
+from engine.base.errors import InputError
 
 __all__ = [
     "TgResult",

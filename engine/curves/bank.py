@@ -1,12 +1,12 @@
 """Many master curves stacked into arrays, evaluated in one vectorised pass.
 
 Each grade's master curve is tabulated on a uniform log10 reduced-frequency grid
-(:meth:`engine.mastercurve.MasterCurve.table`) and its shift law is kept as parameter
+(:meth:`engine.curves.mastercurve.MasterCurve.table`) and its shift law is kept as parameter
 arrays, so that E' and E'' of all grades at all window points come from array
 arithmetic: shift law -> reduced frequency -> linear interpolation in log-log.
 
 Large evaluations are cut into blocks of grades shared among threads
-(:mod:`engine.blocks`).
+(:mod:`engine.base.blocks`).
 """
 
 from __future__ import annotations
@@ -15,10 +15,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.blocks import collector_paused, in_blocks, per_block
-from engine.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve, hold_log_shift
-from engine.shift import GAS_CONSTANT, LN10
-from engine.units import c_to_k
+from engine.base.blocks import collector_paused, in_blocks, per_block
+from engine.base.units import c_to_k
+from engine.curves.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve, hold_log_shift
+from engine.physics.shift import GAS_CONSTANT, LN10
 
 _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
 CORRECTION_STEP = 1.0  # K

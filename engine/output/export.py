@@ -2,17 +2,17 @@
 
 The export has three modules, in layers:
 
-- ``engine.export`` (this one): the rows every format writes (the shortlist, the
+- ``engine.output.export`` (this one): the rows every format writes (the shortlist, the
   criteria, the window properties, the provenance), the CSV file, and
   :func:`write_shortlist`, which picks the format from the file extension.
-- :mod:`engine.workbook` (the XLSX shortlist) and :mod:`engine.report` (the
+- :mod:`engine.output.workbook` (the XLSX shortlist) and :mod:`engine.output.report` (the
   self-contained HTML report) build on the rows of this module and import it.
 
 This module imports neither of the two when it loads (so a CSV needs neither openpyxl
 nor Plotly, and no module waits on another that is still loading): :func:`write_shortlist`
 imports the one it needs when it is called.
 
-Every file carries the caution of :mod:`engine.caution`. Units at this edge: moduli in
+Every file carries the caution of :mod:`engine.base.caution`. Units at this edge: moduli in
 MPa, temperatures in °C (``degC`` inside the unit brackets of column headings and setting
 names, as in the import format; °C in sentences), frequencies in Hz, pad area in mm2, sag
 in mm.
@@ -37,11 +37,11 @@ from pathlib import Path
 import numpy as np
 from scipy.interpolate import make_interp_spline
 
-from engine.caution import CAUTION
-from engine.errors import CriteriaError, InputError
-from engine.mastercurve import MasterCurve
-from engine.ranking import RankResult
-from engine.store import Library
+from engine.base.caution import CAUTION
+from engine.base.errors import CriteriaError, InputError
+from engine.curves.mastercurve import MasterCurve
+from engine.library.store import Library
+from engine.selection.ranking import RankResult
 
 EXTENSIONS = (".csv", ".xlsx", ".html")
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -97,7 +97,7 @@ MOUNT_COLUMNS = (
     "max static strain [-]",
     "long-term sag [mm]",
 )
-# Mount columns with a 95 % interval, and the engine.spread summary figure behind each.
+# Mount columns with a 95 % interval, and the engine.selection.spread summary figure behind each.
 _MOUNT_SPREAD = {
     "fn min [Hz]": "fn_min_Hz",
     "fn max [Hz]": "fn_max_Hz",
@@ -126,7 +126,7 @@ def interval_columns(result: RankResult) -> dict[str, tuple[str, str]]:
 
 def _mount_figures(figs: dict | None, spread=None) -> dict:
     """Key mount figures of one grade from :meth:`MountResult.grade`, with the intervals
-    of ``spread`` (an :class:`engine.spread.GradeSpread`) where it has them.
+    of ``spread`` (an :class:`engine.selection.spread.GradeSpread`) where it has them.
 
     The natural-frequency range is over the window temperatures; the worst
     transmissibility is the largest over the window temperatures and the disturbances;
@@ -163,7 +163,7 @@ def shortlist_header(result: RankResult) -> list[str]:
     """The column headings of :func:`shortlist_rows`, in order (also without any grade).
 
     Each column with a 95 % interval (:func:`interval_columns`) is followed by its low
-    and high; they are empty where no interval was computed (:mod:`engine.spread`).
+    and high; they are empty where no interval was computed (:mod:`engine.selection.spread`).
     """
     spread = interval_columns(result)
     head = ["rank", *RANK_INTERVAL_COLUMNS, "id", "name", "supplier", "family"]
@@ -476,7 +476,7 @@ PROVENANCE_COLUMNS = (
 def provenance_rows(result: RankResult, library: Library | None) -> list[dict]:
     """Library imports, then the data set each ranked grade's master curve was fitted to.
 
-    The data set used is the newest one of the grade (as :func:`engine.fits.fit_library`
+    The data set used is the newest one of the grade (as :func:`engine.library.fits.fit_library`
     takes it).
     """
     if library is None:
@@ -572,11 +572,11 @@ def write_shortlist(
     if suffix == ".csv":
         data = shortlist_csv(result)
     elif suffix == ".xlsx":
-        from engine.workbook import shortlist_xlsx
+        from engine.output.workbook import shortlist_xlsx
 
         data = shortlist_xlsx(result, library)
     else:
-        from engine.report import report_html
+        from engine.output.report import report_html
 
         data = report_html(result, library, curves).encode("utf-8")
     try:

@@ -31,7 +31,7 @@ from typing import NoReturn
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from engine.errors import CriteriaError
+from engine.base.errors import CriteriaError
 
 MAX_LENGTH = 500
 """Longest formula text accepted [characters]."""

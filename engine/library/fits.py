@@ -14,28 +14,23 @@ from pathlib import Path
 
 import numpy as np
 
-from engine.errors import FitError
-from engine.isotherms import DEFAULT_TOLERANCE_K
-from engine.mastercurve import MasterCurve, build_master_curve
-from engine.shift import wlf_change_reference
-from engine.store import Library
+from engine.base import units
+from engine.base.errors import FitError
+from engine.curves import mastercurve
+from engine.curves.mastercurve import MasterCurve, build_master_curve
+from engine.library.store import Library
+from engine.physics import isotherms, jointfit, prony, shift, transitions
+from engine.physics.isotherms import DEFAULT_TOLERANCE_K
+from engine.physics.shift import wlf_change_reference
 
 Progress = Callable[[int, int], None]
 NUMERIC_FAILURES = (ValueError, ArithmeticError, np.linalg.LinAlgError, StopIteration)
 
 # The fit code itself is part of the cache key, so that a change to the fitting
 # chain refits even where the version number was not raised.
-_FIT_MODULES = (
-    "shift.py",
-    "prony.py",
-    "transitions.py",
-    "mastercurve.py",
-    "units.py",
-    "isotherms.py",
-    "jointfit.py",
-)
+_FIT_MODULES = (shift, prony, transitions, mastercurve, units, isotherms, jointfit)
 FIT_FINGERPRINT = hashlib.sha256(
-    b"".join((Path(__file__).parent / name).read_bytes() for name in _FIT_MODULES)
+    b"".join(Path(module.__file__).read_bytes() for module in _FIT_MODULES)
 ).hexdigest()[:12]
 
 

@@ -1,7 +1,7 @@
 """The shortlist as an XLSX workbook, one table a sheet.
 
-Built on the rows of :mod:`engine.export` (see its notes for the layers of the export);
-:func:`engine.export.write_shortlist` calls :func:`shortlist_xlsx` for ``.xlsx`` files.
+Built on the rows of :mod:`engine.output.export` (see its notes for the layers of the export);
+:func:`engine.output.export.write_shortlist` calls :func:`shortlist_xlsx` for ``.xlsx`` files.
 
 Layout: on every sheet row 1 holds the sheet note and the caution, row 2 the bold frozen
 headers and the data start in row 3 (``pandas.read_excel(path, sheet, header=1)``).
@@ -19,8 +19,9 @@ from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
-from engine.caution import CAUTION
-from engine.export import (
+from engine.base.caution import CAUTION
+from engine.library.store import Library
+from engine.output.export import (
     PROVENANCE_COLUMNS,
     WINDOW_COLUMNS,
     criteria_rows,
@@ -32,8 +33,7 @@ from engine.export import (
     window_rows,
     yes_no,
 )
-from engine.ranking import RankResult
-from engine.store import Library
+from engine.selection.ranking import RankResult
 
 _HEAD_FONT = Font(bold=True)
 _HEAD_FILL = PatternFill("solid", fgColor="E4E9E4")

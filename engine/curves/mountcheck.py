@@ -1,7 +1,7 @@
 """Mount check of every grade over the window's temperatures, in one vectorised pass.
 
-Composes the pad mechanics of :mod:`engine.mount` with the stacked master curves of
-:mod:`engine.bank`: N identical pads share the supported mass; each pad is a shear pad
+Composes the pad mechanics of :mod:`engine.physics.mount` with the stacked master curves of
+:mod:`engine.curves.bank`: N identical pads share the supported mass; each pad is a shear pad
 (k' = G'A/h) or a compression pad (k' = Ec A/h, Ec = E'(1 + 2kS^2)); stiffness and loss
 factor follow the master curve in frequency and temperature.
 """
@@ -12,11 +12,11 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
-from engine import mount
-from engine.bank import CurveBank
-from engine.blocks import in_blocks, per_worker
-from engine.errors import CriteriaError, reject_unknown
-from engine.window import poisson_or_default
+from engine.base.blocks import in_blocks, per_worker
+from engine.base.errors import CriteriaError, reject_unknown
+from engine.curves.bank import CurveBank
+from engine.curves.window import poisson_or_default
+from engine.physics import mount
 
 LAYOUTS = ("shear", "compression")
 SHAPES = ("disc", "square")
@@ -169,7 +169,7 @@ class MountResult:
 def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes: dict):
     if given is not None:
         return np.full(hardness.shape, float(given))
-    lo, hi = 30.0, 75.0  # range of the Gent & Lindley table in engine.mount
+    lo, hi = 30.0, 75.0  # range of the Gent & Lindley table in engine.physics.mount
     unknown = np.isnan(hardness)
     out = np.full(hardness.shape, FALLBACK_K_FACTOR)
     known = ~unknown
@@ -198,7 +198,7 @@ def check_mounts(
     Notes
     -----
     Natural frequency: the root of fn = (1/2 pi) sqrt(k'(fn)/m) by
-    scipy.optimize.elementwise.find_root (via :func:`engine.mount.natural_frequency`).
+    scipy.optimize.elementwise.find_root (via :func:`engine.physics.mount.natural_frequency`).
     Transmissibility: T = |k*| / |k* - m (2 pi f)^2|, k* = k'(f)(1 + i eta(f)).
     Static and long-term deflection use the relaxation modulus approximated by the
     storage modulus at omega = 1/t (Schwarzl & Staverman; Ferry 1980, ch. 4) at

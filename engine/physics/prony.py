@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import nnls
 
-from engine.errors import FitError
+from engine.base.errors import FitError
 
 __all__ = ["PronySeries", "PronyFitReport", "tau_grid", "fit_prony"]
 

@@ -1,9 +1,9 @@
 """Rank intervals: how far the data's uncertainty moves the leading grades of a ranking.
 
 Every fitted master curve carries posterior draws of its model
-(:meth:`engine.mastercurve.MasterCurve.draw_curves`: plausible shift laws, isotherm
+(:meth:`engine.curves.mastercurve.MasterCurve.draw_curves`: plausible shift laws, isotherm
 shifts and spectra given the measured points). For the leading grades of a ranking the
-whole chain of :mod:`engine.ranking` (window, merit indices, mount check, score) is run
+whole chain of :mod:`engine.selection.ranking` (window, merit indices, mount check, score) is run
 again with the k-th draw of every leading grade, for each draw k; the spread of the
 results over the draws is the data's uncertainty in them.
 
@@ -34,11 +34,11 @@ so. When no leading curve carries draws, nothing is computed and
 
 All draws of all leading grades are stacked in one bank and evaluated in one vectorised
 pass. Every figure of a grade depends on that grade alone
-(:func:`engine.ranking.evaluate_grades`), so this is the same as one bank per draw.
+(:func:`engine.selection.ranking.evaluate_grades`), so this is the same as one bank per draw.
 
 The fits of different grades are independent and so are their draws: each data set
 draws from a random stream of its own (seeded by a hash of its points in
-:func:`engine.mastercurve.build_master_curve`), so the k-th draws of two grades do not
+:func:`engine.curves.mastercurve.build_master_curve`), so the k-th draws of two grades do not
 lean the same way.
 
 References
@@ -55,10 +55,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.bank import CurveBank
-from engine.errors import LibraryError
-from engine.mastercurve import MasterCurve
-from engine.ranking import (
+from engine.base.errors import LibraryError
+from engine.curves.bank import CurveBank
+from engine.curves.mastercurve import MasterCurve
+from engine.library.store import Material
+from engine.selection.ranking import (
     UNCERTAIN,
     RankResult,
     _failures,
@@ -66,7 +67,6 @@ from engine.ranking import (
     raw_scores,
     write_reasons,
 )
-from engine.store import Material
 
 LEADING_GRADES = 20  # grades of the shortlist that get intervals
 PERCENTILES = (2.5, 97.5)  # of the 95 % intervals
@@ -184,7 +184,7 @@ def rank_spread(
     Parameters
     ----------
     result : RankResult
-        A ranking of ``curves`` (:func:`engine.ranking.rank`); it is not changed.
+        A ranking of ``curves`` (:func:`engine.selection.ranking.rank`); it is not changed.
     curves : dict
         The fitted master curves the ranking used, by grade id.
     materials : dict

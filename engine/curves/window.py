@@ -12,9 +12,9 @@ from functools import cached_property
 
 import numpy as np
 
-from engine.bank import CurveBank
-from engine.errors import CriteriaError, reject_unknown
-from engine.units import ABSOLUTE_ZERO_C
+from engine.base.errors import CriteriaError, reject_unknown
+from engine.base.units import ABSOLUTE_ZERO_C
+from engine.curves.bank import CurveBank
 
 DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
 

@@ -1,7 +1,7 @@
 """Master curve of one grade: shifting, shift law, relaxation spectrum and quality.
 
-:func:`build_master_curve` composes :mod:`engine.shift`, :mod:`engine.prony` and
-:mod:`engine.transitions` on one data set; :class:`MasterCurve` evaluates the stiffness
+:func:`build_master_curve` composes :mod:`engine.physics.shift`, :mod:`engine.physics.prony` and
+:mod:`engine.physics.transitions` on one data set; :class:`MasterCurve` evaluates the stiffness
 and damping of the grade at any temperature and frequency, flagging extrapolation.
 """
 
@@ -13,11 +13,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.errors import FitError
-from engine.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
-from engine.jointfit import N_DRAWS, LawTemplate, fit_jointly, robust_variance
-from engine.prony import PronySeries, fit_prony, tau_grid
-from engine.shift import (
+from engine.base.errors import FitError
+from engine.base.units import c_to_k
+from engine.physics.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
+from engine.physics.jointfit import N_DRAWS, LawTemplate, fit_jointly, robust_variance
+from engine.physics.prony import PronySeries, fit_prony, tau_grid
+from engine.physics.shift import (
     WLF_UNIVERSAL_C1,
     WLF_UNIVERSAL_C2,
     ShiftLaw,
@@ -26,8 +27,7 @@ from engine.shift import (
     split_isotherms,
     wlf_change_reference,
 )
-from engine.transitions import TG_METHODS, glass_transition, regions, secondary_transition
-from engine.units import c_to_k
+from engine.physics.transitions import TG_METHODS, glass_transition, regions, secondary_transition
 
 LN10 = np.log(10.0)
 
@@ -196,7 +196,7 @@ class MasterCurve:
         """The fit's posterior draws, each a master curve of its own (empty without draws).
 
         Each draw is one plausible set of shift-law constants, isotherm shifts and
-        relaxation spectrum given the data (:func:`engine.jointfit.fit_jointly`); the
+        relaxation spectrum given the data (:func:`engine.physics.jointfit.fit_jointly`); the
         spread of anything computed from them is the data's uncertainty in it.
         """
         cached = self._tables.get("draws")
@@ -471,7 +471,7 @@ def _nearest_measured_frequency(isotherms, frequency: float) -> float:
 
 
 def transitions_at(temperature, storage, eta, frequency: float) -> list[dict]:
-    """Tg by every method of :data:`engine.transitions.TG_METHODS` at one frequency."""
+    """Tg by every method of :data:`engine.physics.transitions.TG_METHODS` at one frequency."""
     out = []
     for method in TG_METHODS:
         if temperature.size < 3:
@@ -640,7 +640,7 @@ def build_master_curve(
         Apply the vertical factor T0/T (kelvin) to the moduli before superposition.
     temperature_tolerance_K : float
         Logged temperatures closer than this belong to one isotherm
-        (:func:`engine.isotherms.group_temperatures`).
+        (:func:`engine.physics.isotherms.group_temperatures`).
     intervals : bool
         Make the posterior draws behind every 95 % interval (False: the fitted curve
         only, about half the time).
@@ -649,10 +649,10 @@ def build_master_curve(
     -----
     Steps: isotherms from the logged temperatures; Tg at 1 Hz from them; pairwise
     horizontal shifts and a WLF (above Tg) / Arrhenius (below Tg) law
-    (:mod:`engine.shift`) as the start; a non-negative Prony series by NNLS
-    (:mod:`engine.prony`) as the start spectrum; then shift law, isotherm shifts and a
+    (:mod:`engine.physics.shift`) as the start; a non-negative Prony series by NNLS
+    (:mod:`engine.physics.prony`) as the start spectrum; then shift law, isotherm shifts and a
     smooth spectrum fitted together to every point, with posterior draws for the
-    intervals (:mod:`engine.jointfit`); residuals per isotherm and the superposition
+    intervals (:mod:`engine.physics.jointfit`); residuals per isotherm and the superposition
     check; Tg of the fitted curve with its interval.
     """
     points = np.asarray(points, dtype=float)

@@ -25,8 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.errors import CriteriaError
-from engine.formula import Formula, parse_formula
+from engine.base.errors import CriteriaError
+from engine.physics.formula import Formula, parse_formula
 
 QUANTITIES = (
     "loss_factor",
@@ -200,7 +200,7 @@ _register(
 def custom_index(
     name: str, formula_text: str, higher_is_better: bool = True, label: str | None = None
 ) -> IndexSpec:
-    """A point index from a formula over :data:`QUANTITIES` (see :mod:`engine.formula`)."""
+    """A point index from a formula over :data:`QUANTITIES` (see :mod:`engine.physics.formula`)."""
     if not name or not name.replace("_", "").isalnum():
         raise CriteriaError(f"custom index name '{name}' must be letters, digits and '_'")
     if name in BUILT_IN:

@@ -1,7 +1,7 @@
 """The shortlist as one self-contained HTML report, with its charts and its palette.
 
-Built on the rows of :mod:`engine.export` (see its notes for the layers of the export);
-:func:`engine.export.write_shortlist` calls :func:`report_html` for ``.html`` files.
+Built on the rows of :mod:`engine.output.export` (see its notes for the layers of the export);
+:func:`engine.output.export.write_shortlist` calls :func:`report_html` for ``.html`` files.
 The page writes temperatures as °C throughout, setting names included (the files write
 those with the import format's unit name ``[degC]``).
 """
@@ -15,8 +15,10 @@ import plotly.graph_objects as go
 import plotly.io as pio
 from plotly.subplots import make_subplots
 
-from engine.caution import CAUTION
-from engine.export import (
+from engine.base.caution import CAUTION
+from engine.curves.mastercurve import MasterCurve
+from engine.library.store import Library
+from engine.output.export import (
     RANK_INTERVAL_COLUMNS,
     criteria_rows,
     finite,
@@ -25,9 +27,7 @@ from engine.export import (
     provenance_rows,
     shortlist_rows,
 )
-from engine.mastercurve import MasterCurve
-from engine.ranking import RankResult
-from engine.store import Library
+from engine.selection.ranking import RankResult
 
 # Twelve muted colours of this project's own, in the order shortlisted grades take them.
 PALETTE = (
