@@ -3,15 +3,18 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: run test bench lint format demo clean
+.PHONY: run test bench lint typecheck check format demo clean
 
-$(STAMP): requirements.txt
+# The pinned runtime and development tools, then this checkout itself as an editable
+# package (so `engine` and `quietgrade` work from any folder).
+$(STAMP): requirements.txt requirements-dev.txt pyproject.toml setup.py
 	test -d $(VENV) || $(PY) -m venv $(VENV)
-	$(BIN)/pip install -q --disable-pip-version-check -r requirements.txt
+	$(BIN)/pip install -q --disable-pip-version-check -r requirements-dev.txt
+	$(BIN)/pip install -q --disable-pip-version-check --no-deps -e .
 	touch $(STAMP)
 
 run: $(STAMP)
-	$(BIN)/python -m engine demo
+	$(BIN)/quietgrade demo
 	$(BIN)/streamlit run dashboard/app.py --server.address 127.0.0.1 --server.port 8501 \
 		--server.headless true --browser.gatherUsageStats false
 
@@ -21,13 +24,21 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python -m bench.run_all
 
+SOURCES := engine dashboard tests demo_materials bench setup.py
+
 lint: $(STAMP)
-	$(BIN)/ruff check engine dashboard tests demo_materials bench
-	$(BIN)/ruff format --check engine dashboard tests demo_materials bench
+	$(BIN)/ruff check $(SOURCES)
+	$(BIN)/ruff format --check $(SOURCES)
+
+typecheck: $(STAMP)
+	$(BIN)/mypy
+
+# What CI runs before the tests.
+check: lint typecheck
 
 format: $(STAMP)
-	$(BIN)/ruff format engine dashboard tests demo_materials bench
-	$(BIN)/ruff check --fix engine dashboard tests demo_materials bench
+	$(BIN)/ruff format $(SOURCES)
+	$(BIN)/ruff check --fix $(SOURCES)
 
 clean:
 	rm -rf $(VENV) .pytest_cache .ruff_cache

@@ -7,21 +7,16 @@ caution, the comparison set), ranks the library and then runs the chosen page fr
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
-ROOT = Path(__file__).resolve().parent.parent
-if str(ROOT) not in sys.path:
-    sys.path.insert(0, str(ROOT))
+import streamlit as st
 
-import streamlit as st  # noqa: E402
-
-from dashboard import case, data, sidebar  # noqa: E402
-from dashboard.common import CONTEXT_KEY, Context  # noqa: E402
-from dashboard.palette import grade_colours  # noqa: E402
-from engine.base.caution import CAUTION  # noqa: E402
-from engine.base.errors import LibraryError, QuietgradeError  # noqa: E402
-from engine.library.store import default_location  # noqa: E402
+from dashboard import case, data, sidebar
+from dashboard.common import CONTEXT_KEY, Context
+from engine.base.caution import CAUTION
+from engine.base.errors import LibraryError, QuietgradeError
+from engine.library.store import default_location
+from engine.output.palette import grade_colours
 
 VIEWS = Path(__file__).resolve().parent / "views"
 PAGES = (
@@ -119,7 +114,8 @@ def main() -> None:
         result_key=result_key,
         problem=problem,
         compare=compare,
-        colours=grade_colours(library.existing_ids() | set(curves)),
+        # The ranked grades' colours, as the HTML report gives them (engine.output.palette).
+        colours=grade_colours(curves),
     )
     try:
         query = case.to_query({**st.session_state.to_dict(), "compare": compare})

@@ -2,9 +2,9 @@
 
 The sidebar widgets keep their values in Streamlit's session state under the keys of
 :data:`DEFAULTS`. This module turns those values into :class:`engine.selection.ranking.Criteria`
-(the engine checks them), back again from a loaded criteria file, and into the short
-query string that makes a link reproduce the view. It imports no Streamlit, so it is
-tested as plain functions.
+(built directly from its frozen dataclasses, which check them), back again from a
+loaded criteria file, and into the short query string that makes a link reproduce the
+view. It imports no Streamlit, so it is tested as plain functions.
 
 Link keys (values with ``,`` between numbers)::
 
@@ -31,11 +31,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from typing import Any
 
 from engine.base.errors import CriteriaError
-from engine.curves.mountcheck import DEFAULT_SERVICE_LIFE_H, DEFAULT_SIZING_TEMP_C, SHAPES
+from engine.curves.mountcheck import SHAPES, MountDesign
+from engine.curves.window import DutyPoint, OperatingWindow
 from engine.physics.indices import AGGREGATES, BUILT_IN
-from engine.selection.ranking import DEFAULT_INDICES, Criteria
+from engine.selection.ranking import DEFAULT_INDICES, Constraints, Criteria, IndexChoice
 
 DESIGN_CODES = {"isolation_mount": "mount", "damping_layer": "layer", "general": "general"}
 DESIGN_LABELS = {
@@ -45,52 +47,78 @@ DESIGN_LABELS = {
 }
 LAYOUT_CODES = {"compression": "c", "shear": "s"}
 
-# The demo scenario (demo_materials/README.md): a pump skid of about 180 kg on four pads,
-# motor at 24.7 Hz, plant rooms from -20 to +45 degC.
-DEFAULTS: dict = {
-    "c_temp": (-20.0, 45.0),
-    "c_tstep": 5.0,
-    "c_flo": 10.0,
-    "c_fhi": 100.0,
-    "c_fpoints": 13,
-    "c_fdesign": None,
-    "c_duty": [],
-    "c_design": "isolation_mount",
-    "c_indices": [n for n, _, _ in DEFAULT_INDICES["isolation_mount"]],
-    "c_cx_on": False,
-    "c_cx_name": "own_index",
-    "c_cx_formula": "",
-    "c_cx_hi": True,
-    "c_cx_w": 1.0,
-    "c_cx_a": "worst",
-    "c_pareto": [],
-    "c_eta_thr": 0.2,
-    "c_eta_min": None,
-    "c_price_max": None,
-    "c_hard_on": False,
-    "c_hard": (30.0, 80.0),
-    "c_trans_max": None,
-    "c_extrap": True,
-    "c_service": True,
-    "c_strain_max": None,
-    "c_fn_lo": None,
-    "c_fn_hi": None,
-    "c_mount_on": True,
-    "c_layout": "compression",
-    "c_mass": 180.0,
-    "c_mounts": 4,
-    "c_area": 2000.0,
-    "c_thick": 30.0,
-    "c_shape": "disc",
-    "c_sf": None,
-    "c_kf": None,
-    "c_size_on": True,
-    "c_fn_target": 10.0,
-    "c_dist": "24.7",
-    "c_size_temp": DEFAULT_SIZING_TEMP_C,
-    "c_life": DEFAULT_SERVICE_LIFE_H,
-    "compare": [],
-}
+
+def mount_checked_by_default(design: str) -> bool:
+    """Whether a design type starts with the mount check on (the dashboard's choice: the
+    engine checks a mount whenever its criteria hold a mount design)."""
+    return design == "isolation_mount"
+
+
+# Widget values that no engine default gives: the numbers a box shows once its switch is
+# turned on (sizing a pad, limiting hardness), and the name of a new custom index.
+SIZING_TARGET_HZ = 10.0
+HARDNESS_SHOWN = (30.0, 80.0)  # Shore A
+CUSTOM_NAME = "own_index"
+
+
+def _defaults() -> dict:
+    """The widget values of the engine's default criteria (its dataclasses' defaults)."""
+    criteria = Criteria()
+    window, con, mount = criteria.window, criteria.constraints, MountDesign()
+    custom = IndexChoice(CUSTOM_NAME)
+    return {
+        "c_temp": tuple(float(v) for v in window.temp_range),
+        "c_tstep": float(window.temp_step),
+        "c_flo": float(window.freq_range[0]),
+        "c_fhi": float(window.freq_range[1]),
+        "c_fpoints": int(window.freq_points),
+        "c_fdesign": window.design_frequency_Hz,
+        "c_duty": [
+            {"temp_C": p.temperature_C, "freq_Hz": p.frequency_Hz, "share": p.share}
+            for p in window.duty_points
+        ],
+        "c_design": criteria.design,
+        "c_indices": [c.name for c in criteria.indices],
+        "c_cx_on": False,
+        "c_cx_name": custom.name,
+        "c_cx_formula": "",
+        "c_cx_hi": custom.higher_is_better,
+        "c_cx_w": float(custom.weight),
+        "c_cx_a": custom.aggregate,
+        "c_pareto": list(criteria.pareto or []),
+        "c_eta_thr": float(criteria.eta_threshold),
+        "c_eta_min": con.min_loss_factor,
+        "c_price_max": con.max_price,
+        "c_hard_on": con.hardness_range is not None,
+        "c_hard": tuple(con.hardness_range or HARDNESS_SHOWN),
+        "c_trans_max": con.max_transmissibility,
+        "c_extrap": con.allow_extrapolation,
+        "c_service": con.service_covers_window,
+        "c_strain_max": con.max_static_strain,
+        "c_fn_lo": con.fn_range_Hz[0] if con.fn_range_Hz else None,
+        "c_fn_hi": con.fn_range_Hz[1] if con.fn_range_Hz else None,
+        "c_mount_on": mount_checked_by_default(criteria.design),
+        "c_layout": mount.layout,
+        "c_mass": float(mount.mass_kg),
+        "c_mounts": int(mount.mounts),
+        "c_area": float(mount.area_mm2),
+        "c_thick": float(mount.thickness_mm),
+        "c_shape": mount.shape,
+        "c_sf": mount.shape_factor,
+        "c_kf": mount.k_factor,
+        "c_size_on": mount.target_fn_Hz is not None,
+        "c_fn_target": float(mount.target_fn_Hz or SIZING_TARGET_HZ),
+        "c_dist": ", ".join(f"{f:g}" for f in mount.disturbance_Hz),
+        "c_size_temp": float(mount.sizing_temp_C),
+        "c_life": float(mount.service_life_h),
+        "compare": [],
+    }
+
+
+# Every value with an engine counterpart is the engine's default (engine.curves.window,
+# engine.curves.mountcheck, engine.selection.ranking): the dashboard opens on the case
+# that `rank` with no options ranks, with the mount check of an isolation mount.
+DEFAULTS: dict = _defaults()
 
 
 # Lowest (and highest) values the sidebar widgets accept; loaded values outside are refused.
@@ -151,7 +179,9 @@ def aggregate_key(name: str) -> str:
 
 def default_state() -> dict:
     """A fresh copy of the defaults with the weights of the default indices."""
-    state = {k: (list(v) if isinstance(v, list) else v) for k, v in DEFAULTS.items()}
+    state: dict[str, Any] = {
+        k: (list(v) if isinstance(v, list) else v) for k, v in DEFAULTS.items()
+    }
     for name, weight, agg in DEFAULT_INDICES[state["c_design"]]:
         state[weight_key(name)] = weight
         state[aggregate_key(name)] = agg
@@ -195,23 +225,28 @@ def duty_points(rows) -> list[dict]:
     return out
 
 
-def criteria_dict(state: Mapping) -> dict:
-    """The criteria file content (the engine's layout) of the case in ``state``."""
-    lo, hi = (float(v) for v in state["c_temp"])
-    window = {
-        "temp_range": [lo, hi],
-        "temp_step": float(state["c_tstep"]),
-        "freq_range": [float(state["c_flo"]), float(state["c_fhi"])],
-        "freq_points": int(state["c_fpoints"]),
-        "duty_points": duty_points(state.get("c_duty_now", state.get("c_duty"))),
-        "design_frequency_Hz": _optional(state.get("c_fdesign")),
-    }
+def _window(state: Mapping) -> OperatingWindow:
+    lo, hi = state["c_temp"]
+    return OperatingWindow(
+        temp_range=(float(lo), float(hi)),
+        temp_step=float(state["c_tstep"]),
+        freq_range=(float(state["c_flo"]), float(state["c_fhi"])),
+        freq_points=int(state["c_fpoints"]),
+        duty_points=tuple(
+            DutyPoint(p["temp_C"], p["freq_Hz"], p["share"])
+            for p in duty_points(state.get("c_duty_now", state.get("c_duty")))
+        ),
+        design_frequency_Hz=_optional(state.get("c_fdesign")),
+    )
+
+
+def _indices(state: Mapping) -> tuple[IndexChoice, ...]:
     indices = [
-        {
-            "name": name,
-            "weight": float(state.get(weight_key(name), 1.0)),
-            "aggregate": str(state.get(aggregate_key(name), "worst")),
-        }
+        IndexChoice(
+            name,
+            weight=float(state.get(weight_key(name), 1.0)),
+            aggregate=str(state.get(aggregate_key(name), "worst")),
+        )
         for name in state["c_indices"]
     ]
     if state.get("c_cx_on"):
@@ -219,64 +254,72 @@ def criteria_dict(state: Mapping) -> dict:
         if not formula:
             raise CriteriaError("the custom index has no formula")
         indices.append(
-            {
-                "name": str(state["c_cx_name"]).strip(),
-                "weight": float(state["c_cx_w"]),
-                "aggregate": str(state["c_cx_a"]),
-                "formula": formula,
-                "higher_is_better": bool(state["c_cx_hi"]),
-            }
+            IndexChoice(
+                str(state["c_cx_name"]).strip(),
+                weight=float(state["c_cx_w"]),
+                aggregate=str(state["c_cx_a"]),
+                formula=formula,
+                higher_is_better=bool(state["c_cx_hi"]),
+            )
         )
     if not indices:
         raise CriteriaError("choose at least one merit index")
+    return tuple(indices)
+
+
+def _constraints(state: Mapping, mount_on: bool) -> Constraints:
     fn_lo, fn_hi = _optional(state.get("c_fn_lo")), _optional(state.get("c_fn_hi"))
     if (fn_lo is None) != (fn_hi is None):
         raise CriteriaError("give both ends of the natural-frequency range, or neither")
-    mount_on = bool(state.get("c_mount_on"))
-    constraints = {
-        "service_covers_window": bool(state["c_service"]),
-        "hardness_range": list(state["c_hard"]) if state.get("c_hard_on") else None,
-        "max_price": _optional(state.get("c_price_max")),
-        "min_loss_factor": _optional(state.get("c_eta_min")),
-        "max_transmissibility": _optional(state.get("c_trans_max")) if mount_on else None,
-        "fn_range_Hz": [fn_lo, fn_hi] if (mount_on and fn_lo is not None) else None,
-        "max_static_strain": _optional(state.get("c_strain_max")),
-        "allow_extrapolation": bool(state["c_extrap"]),
-    }
-    mount = None
-    if mount_on:
-        mount = {
-            "layout": state["c_layout"],
-            "mass_kg": float(state["c_mass"]),
-            "mounts": int(state["c_mounts"]),
-            "area_mm2": float(state["c_area"]),
-            "thickness_mm": float(state["c_thick"]),
-            "shape": state["c_shape"],
-            "shape_factor": _optional(state.get("c_sf")),
-            "k_factor": _optional(state.get("c_kf")),
-            "disturbance_Hz": parse_numbers(state["c_dist"], "disturbance frequencies"),
-            "target_fn_Hz": _optional(state["c_fn_target"]) if state.get("c_size_on") else None,
-            "sizing_temp_C": float(state["c_size_temp"]),
-            "service_life_h": float(state["c_life"]),
-        }
-    pareto = list(state.get("c_pareto") or [])
-    if len(pareto) not in (0, 2):
-        raise CriteriaError("a Pareto pair needs exactly two indices")
-    return {
-        "window": window,
-        "design": state["c_design"],
-        "indices": indices,
-        "constraints": constraints,
-        "mount": mount,
-        "pareto": pareto or None,
-        "eta_threshold": float(state["c_eta_thr"]),
-    }
+    return Constraints(
+        service_covers_window=bool(state["c_service"]),
+        hardness_range=tuple(state["c_hard"]) if state.get("c_hard_on") else None,
+        max_price=_optional(state.get("c_price_max")),
+        min_loss_factor=_optional(state.get("c_eta_min")),
+        max_transmissibility=_optional(state.get("c_trans_max")) if mount_on else None,
+        fn_range_Hz=(fn_lo, fn_hi) if (mount_on and fn_lo is not None) else None,
+        max_static_strain=_optional(state.get("c_strain_max")),
+        allow_extrapolation=bool(state["c_extrap"]),
+    )
+
+
+def _mount(state: Mapping) -> MountDesign:
+    return MountDesign(
+        layout=state["c_layout"],
+        mass_kg=float(state["c_mass"]),
+        mounts=int(state["c_mounts"]),
+        area_mm2=float(state["c_area"]),
+        thickness_mm=float(state["c_thick"]),
+        shape=state["c_shape"],
+        shape_factor=_optional(state.get("c_sf")),
+        k_factor=_optional(state.get("c_kf")),
+        disturbance_Hz=tuple(parse_numbers(state["c_dist"], "disturbance frequencies")),
+        target_fn_Hz=_optional(state["c_fn_target"]) if state.get("c_size_on") else None,
+        sizing_temp_C=float(state["c_size_temp"]),
+        service_life_h=float(state["c_life"]),
+    )
 
 
 def criteria_from_state(state: Mapping) -> Criteria:
-    """The engine's criteria for the case in ``state``; :class:`CriteriaError` if bad."""
+    """The engine's criteria for the case in ``state``; :class:`CriteriaError` if bad.
+
+    The criteria are built from the engine's dataclasses directly, which check every
+    setting (the window's temperatures in :class:`OperatingWindow`, the pads in
+    :class:`MountDesign`, ...); the dashboard checks only what its widgets hold apart
+    (both ends of a range given, a custom formula, at least one index).
+    """
+    mount_on = bool(state.get("c_mount_on"))
+    pareto = tuple(state.get("c_pareto") or ())
     try:
-        return Criteria.from_dict(criteria_dict(state))
+        return Criteria(
+            window=_window(state),
+            design=state["c_design"],
+            indices=_indices(state),
+            constraints=_constraints(state, mount_on),
+            mount=_mount(state) if mount_on else None,
+            pareto=pareto or None,
+            eta_threshold=float(state["c_eta_thr"]),
+        )
     except (TypeError, ValueError) as exc:
         raise CriteriaError(f"bad setting: {exc}") from None
 
@@ -342,7 +385,7 @@ def state_from_criteria(criteria: Criteria) -> dict:
             c_sf=m.shape_factor,
             c_kf=m.k_factor,
             c_size_on=m.target_fn_Hz is not None,
-            c_fn_target=float(m.target_fn_Hz) if m.target_fn_Hz is not None else 10.0,
+            c_fn_target=float(m.target_fn_Hz or DEFAULTS["c_fn_target"]),
             c_dist=", ".join(f"{f:g}" for f in m.disturbance_Hz),
             c_size_temp=float(m.sizing_temp_C),
             c_life=float(m.service_life_h),
@@ -413,7 +456,7 @@ def to_query(state: Mapping) -> dict[str, str]:
     put("sm", "c_strain_max")
     if state.get("c_fn_lo") is not None and state.get("c_fn_hi") is not None:
         q["fr"] = f"{_g(state['c_fn_lo'])},{_g(state['c_fn_hi'])}"
-    mount_default = state["c_design"] == "isolation_mount"
+    mount_default = mount_checked_by_default(state["c_design"])
     if not state.get("c_mount_on"):
         if mount_default:
             q["m"] = "0"
@@ -428,9 +471,12 @@ def to_query(state: Mapping) -> dict[str, str]:
         put("msf", "c_sf")
         put("mk", "c_kf")
         if not state.get("c_size_on"):
-            q["mt"] = "0"
-        else:
+            if d["c_size_on"]:
+                q["mt"] = "0"
+        elif d["c_size_on"]:
             put("mt", "c_fn_target")
+        else:
+            q["mt"] = _g(state["c_fn_target"])
         if str(state["c_dist"]).strip() != d["c_dist"]:
             q["md"] = ",".join(_g(v) for v in parse_numbers(state["c_dist"], "disturbances"))
         put("mst", "c_size_temp")
@@ -481,7 +527,7 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
         state["c_indices"] = [n for n, _, _ in DEFAULT_INDICES[state["c_design"]]]
         for n, w, a in DEFAULT_INDICES[state["c_design"]]:
             state[weight_key(n)], state[aggregate_key(n)] = w, a
-        state["c_mount_on"] = state["c_design"] == "isolation_mount"
+        state["c_mount_on"] = mount_checked_by_default(state["c_design"])
 
     simple = {
         "t": ("c_temp", pair),

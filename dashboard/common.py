@@ -31,6 +31,12 @@ class Context:
     result_key: str | None = None  # names the ranking for the figure caches (data.py)
     notes: list[str] = field(default_factory=list)
 
+    def ranking_name(self) -> str:
+        """``result_key``, set whenever ``result`` is (the entry script names each ranking)."""
+        if self.result_key is None:
+            raise RuntimeError("the ranking has no name for the figure caches")
+        return self.result_key
+
     def points(self, material_id: str) -> np.ndarray | None:
         """Measured points of a grade (degC, Hz, Pa, loss factor), or None."""
         try:

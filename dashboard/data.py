@@ -16,7 +16,7 @@ import numpy as np
 import plotly.graph_objects as go
 import streamlit as st
 
-from dashboard import charts
+from dashboard.charts.map import map_figure as draw_map
 from engine.curves.mastercurve import MasterCurve
 from engine.library.demo import DEMO_DIR
 from engine.library.fits import fit_library, master_curve
@@ -68,12 +68,13 @@ def fits(library: Library) -> tuple[dict[str, MasterCurve], dict[str, str]]:
 
 
 @st.cache_resource(max_entries=32, show_spinner=False)
-def _ranked(location: str, version: int, criteria_json: str) -> RankResult:
+def _ranked(location: str, version: int, criteria_key: str, _criteria: Criteria) -> RankResult:
+    """The ranking under ``_criteria``, kept per ``criteria_key`` (their file form)."""
     library = library_at(location)
     found = _fit_store().get((location, version))
     curves, errors = found if found is not None else fit_library(library)
     materials = {m.id: m for m in library.materials()}
-    return rank(curves, materials, Criteria.from_dict(json.loads(criteria_json)), errors)
+    return rank(curves, materials, _criteria, errors)
 
 
 def ranking_key(library: Library, criteria: Criteria) -> str:
@@ -85,7 +86,7 @@ def ranked(library: Library, criteria: Criteria) -> RankResult:
     """The ranking of the library's fitted grades under ``criteria`` (cached)."""
     fits(library)
     key = json.dumps(criteria.to_dict(), sort_keys=True)
-    return _ranked(library.location, library.version(), key)
+    return _ranked(library.location, library.version(), key, criteria)
 
 
 @st.cache_resource(max_entries=16, show_spinner=False)
@@ -98,7 +99,7 @@ def map_figure(
     banded: tuple[str, ...] = (),
     _curves: dict[str, MasterCurve] | None = None,
 ) -> go.Figure:
-    """The map of a ranking (:func:`dashboard.charts.map_figure`), kept per view.
+    """The map of a ranking (:func:`dashboard.charts.map.map_figure`), kept per view.
 
     ``result_key`` (from :func:`ranking_key`) stands for the ranking and for the grade
     colours, which follow from the same library version; both are passed unhashed, and
@@ -106,11 +107,10 @@ def map_figure(
     the grades ``banded``. Going back to a window seen before then redraws nothing.
     """
     curves = _curves or {}
-    return charts.map_figure(
+    return draw_map(
         _result,
         _colours,
         list(chosen),
-        _result.criteria.constraints.min_loss_factor,
         show_excluded=show_excluded,
         bands={g: curves[g] for g in banded if g in curves},
     )

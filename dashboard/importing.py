@@ -8,7 +8,9 @@ and column; nothing here writes unless :func:`write` is called.
 from __future__ import annotations
 
 import re
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import ParamSpec, TypeVar
 
 import numpy as np
 import pandas as pd
@@ -30,6 +32,9 @@ from engine.library.importer import (
     read_table,
 )
 from engine.library.store import ImportSummary, Library
+
+P = ParamSpec("P")  # the arguments of a function run by try_plan
+T = TypeVar("T")  # what it returns
 
 # Targets of the column-mapping step, with the units each accepts.
 MAPPING_TARGETS = {
@@ -67,7 +72,8 @@ def read_uploads(files: list[tuple[str, bytes]]) -> tuple[list[RawTable], list[R
     """Read uploaded (name, bytes) pairs and sort them into catalogs and sweeps."""
     if not files:
         raise InputError("no file uploaded")
-    catalogs, sweeps = [], []
+    catalogs: list[RawTable] = []
+    sweeps: list[RawTable] = []
     for name, data in files:
         table = read_table(bytes(data), name)
         (catalogs if looks_like_catalog(table) else sweeps).append(table)
@@ -181,7 +187,7 @@ def plan_mapped(
     mapping: dict[str, str],
     units: dict[str, str],
     material_id: str | None = None,
-    catalogs: list[tuple[str, bytes]] = (),
+    catalogs: Sequence[tuple[str, bytes]] = (),
 ) -> Preview:
     """Map an instrument export onto the import format and validate it; write nothing.
 
@@ -204,8 +210,8 @@ def write(library: Library, preview: Preview) -> ImportSummary:
     return summary
 
 
-def try_plan(fn, *args, **kwargs) -> tuple[Preview | None, str | None]:
-    """Run a planning function; (preview, None) or (None, the one-line reason)."""
+def try_plan(fn: Callable[P, T], *args: P.args, **kwargs: P.kwargs) -> tuple[T | None, str | None]:
+    """Run a planning function; (its result, None) or (None, the one-line reason)."""
     try:
         return fn(*args, **kwargs), None
     except InputError as exc:

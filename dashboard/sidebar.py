@@ -43,7 +43,7 @@ def _on_design() -> None:
         st.session_state[case.weight_key(n)] = w
         st.session_state[case.aggregate_key(n)] = a
     st.session_state["c_pareto"] = []
-    st.session_state["c_mount_on"] = design == "isolation_mount"
+    st.session_state["c_mount_on"] = case.mount_checked_by_default(design)
 
 
 def _on_case_file() -> None:
@@ -323,7 +323,7 @@ def render() -> tuple[Criteria | None, str | None]:
         st.selectbox(
             "Design type",
             DESIGN_TYPES,
-            format_func=case.DESIGN_LABELS.get,
+            format_func=lambda design: case.DESIGN_LABELS[design],
             key="c_design",
             on_change=_on_design,
         )

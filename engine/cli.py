@@ -8,14 +8,18 @@ from __future__ import annotations
 
 import argparse
 import json
+import logging
 import math
 import sys
+from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
-from engine import __version__
 from engine.base.errors import QuietgradeError
+from engine.base.fields import CATALOG
+from engine.base.version import __version__
 from engine.library.store import Library, default_location
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K
 
@@ -66,7 +70,7 @@ def cmd_load(args) -> int:
     lib = _library(args)
     tables = [read_table(p) for p in [args.catalog, *args.sweeps]]
     catalogs = [tables[0]]
-    sweeps = []
+    sweeps: list = []
     for t in tables[1:]:
         (catalogs if looks_like_catalog(t) else sweeps).append(t)
     summary = import_files(lib, catalogs, sweeps)
@@ -82,24 +86,14 @@ def cmd_load(args) -> int:
 
 def cmd_list(args) -> int:
     lib = _library(args)
-    sets = {}
+    sets: dict[str, list] = {}
     for ds in lib.datasets():
         sets.setdefault(ds.material_id, []).append(ds)
     rows = []
     for m in lib.materials():
-        entry = {
+        entry: dict[str, Any] = {
             "id": m.id,
-            "name": m.name,
-            "mode": m.mode,
-            "supplier": m.supplier,
-            "family": m.family,
-            "density_kg_m3": m.density,
-            "price_per_kg": m.price,
-            "hardness_shore_a": m.hardness,
-            "service_min_C": m.service_min,
-            "service_max_C": m.service_max,
-            "poisson_ratio": m.poisson_ratio,
-            "notes": m.notes,
+            **{f.json_name: getattr(m, f.name) for f in CATALOG},
             "extra": m.extra,
             "datasets": [
                 {
@@ -277,18 +271,17 @@ def cmd_mount(args) -> int:
     lib = _library(args)
     material = lib.material(args.id)
     curve = master_curve(lib, args.id)
+    optional = {"mounts": args.mounts, "shape": args.shape, "service_life_h": args.service_life_h}
     design = MountDesign(
         layout=args.layout,
         mass_kg=args.mass,
-        mounts=args.mounts,
         area_mm2=args.area_mm2,
         thickness_mm=args.thickness_mm,
-        shape=args.shape,
         shape_factor=args.shape_factor,
         k_factor=args.k_factor,
         disturbance_Hz=tuple(args.disturbance_hz),
         target_fn_Hz=args.target_fn,
-        service_life_h=args.service_life_h,
+        **{k: v for k, v in optional.items() if v is not None},  # else the design's defaults
     )
     bank = CurveBank.from_curves({args.id: curve})
 
@@ -352,43 +345,35 @@ def cmd_mount(args) -> int:
 
 
 def _criteria_from_args(args):
+    """The criteria of ``rank``: the criteria file (or the defaults, with the design's
+    default indices) changed by the options given, each change one ``replace``."""
     from engine.curves.mountcheck import MountDesign
-    from engine.curves.window import OperatingWindow
-    from engine.selection.ranking import Constraints, Criteria
+    from engine.selection.criteria import Criteria, IndexChoice
 
-    if args.criteria:
-        base = Criteria.load(args.criteria).to_dict()
-    else:
-        base = Criteria().to_dict()
-        base["indices"] = []
-    window = dict(base["window"])
-    if args.temp_range:
-        window["temp_range"] = args.temp_range
-    if args.temp_step is not None:
-        window["temp_step"] = args.temp_step
-    if args.freq_range:
-        window["freq_range"] = args.freq_range
-    if args.freq_points is not None:
-        window["freq_points"] = args.freq_points
-    base["window"] = OperatingWindow.from_dict(window).to_dict()
-    if args.design:
-        base["design"] = args.design
-        if not args.criteria:
-            base["indices"] = []
-    if args.index:
-        base["indices"] = [
-            {"name": n, "weight": 1.0, "aggregate": args.aggregate} for n in args.index
-        ]
-    cons = dict(base["constraints"])
-    for key in ("min_loss_factor", "max_price", "max_transmissibility", "max_static_strain"):
-        value = getattr(args, key)
-        if value is not None:
-            cons[key] = value
+    criteria = Criteria.load(args.criteria) if args.criteria else Criteria()
+    given = {
+        "temp_range": tuple(args.temp_range) if args.temp_range else None,
+        "temp_step": args.temp_step,
+        "freq_range": tuple(args.freq_range) if args.freq_range else None,
+        "freq_points": args.freq_points,
+    }
+    window = replace(criteria.window, **{k: v for k, v in given.items() if v is not None})
+    limits = {
+        key: getattr(args, key)
+        for key in ("min_loss_factor", "max_price", "max_transmissibility", "max_static_strain")
+        if getattr(args, key) is not None
+    }
     if args.allow_extrapolation:
-        cons["allow_extrapolation"] = True
+        limits["allow_extrapolation"] = True
     if args.ignore_service_range:
-        cons["service_covers_window"] = False
-    base["constraints"] = Constraints.from_dict(cons).to_dict()
+        limits["service_covers_window"] = False
+    changes: dict = {"window": window, "constraints": replace(criteria.constraints, **limits)}
+    if args.design:
+        changes["design"] = args.design
+        if not args.criteria:
+            changes["indices"] = ()  # the design's default indices
+    if args.index:
+        changes["indices"] = tuple(IndexChoice(n, 1.0, args.aggregate) for n in args.index)
     if args.mount:
         path = Path(args.mount)
         if not path.exists():
@@ -397,10 +382,10 @@ def _criteria_from_args(args):
             mount = json.loads(path.read_text(encoding="utf-8-sig"))
         except json.JSONDecodeError as exc:
             raise QuietgradeError(f"{path}: not valid JSON: {exc}") from None
-        base["mount"] = MountDesign.from_dict(mount).to_dict()
+        changes["mount"] = MountDesign.from_dict(mount)
     if args.pareto:
-        base["pareto"] = args.pareto
-    return Criteria.from_dict(base)
+        changes["pareto"] = tuple(args.pareto)
+    return replace(criteria, **changes)
 
 
 def cmd_rank(args) -> int:
@@ -448,6 +433,8 @@ def cmd_rank(args) -> int:
                 "mount": mount,
             }
         )
+    spread = result.spread
+    assert spread is not None  # rank_spread always says how the intervals were made
     data = {
         "criteria": criteria.to_dict(),
         "engine_version": __version__,
@@ -455,9 +442,9 @@ def cmd_rank(args) -> int:
         "excluded": [r for r in rows if not r["passed"]],
         "fit_errors": errors,
         "intervals": {
-            "draws": result.spread.draws,
-            "leading": list(result.spread.leading),
-            "note": result.spread.describe(),
+            "draws": spread.draws,
+            "leading": list(spread.leading),
+            "note": spread.describe(),
         },
         "out": args.out,
     }
@@ -479,11 +466,14 @@ def cmd_rank(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    common = argparse.ArgumentParser(add_help=False)
+    common = _Parser(add_help=False)
     common.add_argument("--db", help="library file or database URL (default: $QUIETGRADE_DB)")
     common.add_argument("--json", action="store_true", help="machine-readable output on stdout")
+    common.add_argument(
+        "--verbose", action="store_true", help="log cache use and fit timing on stderr"
+    )
     parser = _Parser(
-        prog="python -m engine",
+        prog="quietgrade",
         description="quietgrade: choose elastomer and damping-polymer grades from DMA data",
         parents=[common],
     )
@@ -498,7 +488,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("list", parents=[common], help="the grades in the library")
     p.set_defaults(func=cmd_list)
 
-    fit_opts = argparse.ArgumentParser(add_help=False)
+    fit_opts = _Parser(add_help=False)
     fit_opts.add_argument("--reference", type=float, help="reference temperature [degC]")
     fit_opts.add_argument(
         "--vertical-shift", action="store_true", help="apply the T0/T vertical factor"
@@ -528,16 +518,20 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("id")
     p.add_argument("--layout", choices=("shear", "compression"), required=True)
     p.add_argument("--mass", type=float, required=True, help="total supported mass [kg]")
-    p.add_argument("--mounts", type=int, default=1, help="identical pads sharing the mass")
+    p.add_argument(
+        "--mounts",
+        type=int,
+        help="identical pads sharing the mass (omitted: the mount design's default, 4)",
+    )
     p.add_argument("--area-mm2", type=float, required=True, help="loaded area of one pad")
     p.add_argument("--thickness-mm", type=float, required=True, help="rubber thickness")
-    p.add_argument("--shape", choices=("disc", "square"), default="disc")
+    p.add_argument("--shape", choices=("disc", "square"), help="omitted: disc")
     p.add_argument("--shape-factor", type=float, help="loaded / force-free area")
     p.add_argument("--k-factor", type=float, help="compression coefficient k")
     p.add_argument("--temp", type=float, nargs="+", required=True, help="[degC]")
     p.add_argument("--disturbance-hz", type=float, nargs="+", required=True)
     p.add_argument("--target-fn", type=float, help="size the pad area for this fn [Hz]")
-    p.add_argument("--service-life-h", type=float, default=1000.0)
+    p.add_argument("--service-life-h", type=float, help="omitted: 1000 h")
     p.set_defaults(func=cmd_mount)
 
     p = sub.add_parser("rank", parents=[common], help="the ranked shortlist")
@@ -566,6 +560,8 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
+    if args.verbose:
+        logging.basicConfig(level=logging.INFO, format="%(name)s: %(message)s")
     try:
         return args.func(args)
     except QuietgradeError as exc:

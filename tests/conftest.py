@@ -1,13 +1,8 @@
-import sys
-from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parent.parent
-if str(ROOT) not in sys.path:
-    sys.path.insert(0, str(ROOT))
-
-from engine.library.store import Library  # noqa: E402
+from engine.library.store import Library
+from tests.helpers import DEMO, Run, call_main
 
 
 @pytest.fixture
@@ -23,7 +18,22 @@ def demo_library(tmp_path_factory):
 
     path = tmp_path_factory.mktemp("demo") / "demo.sqlite"
     lib = Library(str(path))
-    demo = ROOT / "demo_materials"
-    import_files(lib, [demo / "catalog.csv"], [demo / "sweeps.csv"])
+    import_files(lib, [DEMO / "catalog.csv"], [DEMO / "sweeps.csv"])
     fit_library(lib, processes=1)
     return lib
+
+
+@pytest.fixture
+def run_cli(capsys, monkeypatch):
+    """``run_cli(db, *args)``: one command through :func:`engine.cli.main` in this
+    process, the library ``db`` named by QUIETGRADE_DB as a user's shell would; a
+    :class:`tests.helpers.Run` with the exit status and what the command wrote."""
+
+    def run(db, *args) -> Run:
+        monkeypatch.setenv("QUIETGRADE_DB", str(db))
+        capsys.readouterr()  # what came before is not this command's
+        code = call_main(args)
+        out, err = capsys.readouterr()
+        return Run(tuple(map(str, args)), code, out, err)
+
+    return run

@@ -1,8 +1,10 @@
-"""The command line contract of DESIGN.md, through real subprocesses.
+"""The command line contract of DESIGN.md.
 
-Each ``python -m engine`` start costs one to three seconds of imports, so the commands
-run once per module: a library is loaded, copied, and independent command chains run in
-parallel on their own copies; the tests then read the recorded results.
+The commands run through :func:`engine.cli.main` in this process (a new interpreter per
+command would cost its start-up and imports each time); the one test at the end runs
+``python -m engine`` as a process, to show that the entry point works there too. A
+library loaded once by ``load`` is copied for each test that needs it, so every test
+has a library of its own and no command sees what another test's commands wrote.
 """
 
 from __future__ import annotations
@@ -13,8 +15,6 @@ import os
 import shutil
 import subprocess
 import sys
-from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -22,9 +22,8 @@ import pytest
 
 from engine.physics.shift import wlf_change_reference
 from tests import synthetic
+from tests.helpers import DEMO, ROOT, invoke
 
-ROOT = Path(__file__).resolve().parent.parent
-DEMO = ROOT / "demo_materials"
 PROPS_KEYS = {
     "storage_MPa_low",
     "storage_MPa_high",
@@ -43,30 +42,6 @@ PROPS_KEYS = {
 BAD_ROW = 116  # spreadsheet row of the broken cell (header is row 1)
 
 
-@dataclass(frozen=True)
-class Run:
-    args: tuple[str, ...]
-    returncode: int
-    stdout: str
-    stderr: str
-
-    def json(self):
-        return json.loads(self.stdout)
-
-
-def engine(args, db: Path) -> Run:
-    env = {**os.environ, "QUIETGRADE_DB": str(db)}
-    done = subprocess.run(
-        [sys.executable, "-m", "engine", *map(str, args)],
-        cwd=ROOT,
-        env=env,
-        capture_output=True,
-        text=True,
-        timeout=300,
-    )
-    return Run(tuple(map(str, args)), done.returncode, done.stdout, done.stderr)
-
-
 def write_files(folder: Path) -> dict[str, Path]:
     files = {name: folder / f"{name}.csv" for name in ("catalog", "s1", "s2", "cat3", "bad")}
     synthetic.write_catalog(files["catalog"], ids=("SYN-1", "SYN-2"))
@@ -82,64 +57,36 @@ def write_files(folder: Path) -> dict[str, Path]:
 
 
 @pytest.fixture(scope="module")
-def cli(tmp_path_factory):
-    """Every command of these tests, run once; results by name.
-
-    Chains that need the loaded library run on copies of it once it is loaded; the
-    others start at once.
-    """
-    folder = tmp_path_factory.mktemp("cli")
-    files = write_files(folder)
-    main = folder / "main.sqlite"
-    garbage = folder / "garbage.sqlite"
-    garbage.write_bytes(b"\x00garbage, not a library\n" * 100)
-    loaded = {
-        "again": [["load", files["catalog"], files["s1"], files["s2"], "--json"]],
-        "bad": [["load", files["cat3"], files["bad"], "--json"], ["list", "--json"]],
-        "fit": [["fit", "SYN-1", "--json"]],
-        "props": [["props", "SYN-1", "--temp", 20, 30, "--freq", 1, 10, 100, "--json"]],
-        "unknown": [["fit", "NOPE", "--json"]],
-    }
-    independent = {
-        "demo": [["demo", "--json"], ["demo", "--json"]],
-        "folder": [["list", "--json", "--db", folder]],
-        "garbage": [["list", "--json", "--db", garbage]],
-    }
-
-    def run_chain(chain, db):
-        return [engine(args, db) for args in chain]
-
-    with ThreadPoolExecutor(max_workers=3) as pool:
-        first = pool.submit(
-            run_chain,
-            [["load", files["catalog"], files["s1"], files["s2"], "--json"], ["list", "--json"]],
-            main,
-        )
-        later = {
-            name: pool.submit(run_chain, chain, folder / f"chain-{name}.sqlite")
-            for name, chain in independent.items()
-        }
-        results = dict(zip(("load", "list"), first.result(), strict=True))
-        for name, chain in loaded.items():
-            db = folder / f"chain-{name}.sqlite"
-            shutil.copy(main, db)
-            later[name] = pool.submit(run_chain, chain, db)
-        results.update({name: future.result() for name, future in later.items()})
-    results["files"] = files
-    return results
+def files(tmp_path_factory) -> dict[str, Path]:
+    return write_files(tmp_path_factory.mktemp("cli-files"))
 
 
-def one_line(run: Run) -> str:
-    lines = run.stderr.strip().splitlines()
-    assert len(lines) == 1, run.stderr
-    return lines[0]
+def load_args(files) -> list:
+    return ["load", files["catalog"], files["s1"], files["s2"], "--json"]
+
+
+@pytest.fixture(scope="module")
+def loaded(files, tmp_path_factory) -> Path:
+    """A library written once by the ``load`` of :func:`load_args`."""
+    db = tmp_path_factory.mktemp("cli-loaded") / "main.sqlite"
+    run = invoke([*load_args(files), "--db", db])
+    assert run.returncode == 0, run.stderr
+    return db
+
+
+@pytest.fixture
+def db(loaded, tmp_path) -> Path:
+    """A copy of the loaded library for one test."""
+    copy = tmp_path / "library.sqlite"
+    shutil.copyfile(loaded, copy)
+    return copy
 
 
 # ---------------------------------------------------------------- load and list
 
 
-def test_load_prints_what_was_added(cli):
-    run = cli["load"]
+def test_load_prints_what_was_added(run_cli, files, tmp_path):
+    run = run_cli(tmp_path / "fresh.sqlite", *load_args(files))
     assert run.returncode == 0, run.stderr
     summary = run.json()
     assert summary["materials_added"] == ["SYN-1", "SYN-2"]
@@ -151,29 +98,32 @@ def test_load_prints_what_was_added(cli):
     ]
 
 
-def test_load_again_changes_nothing(cli):
-    (load,) = cli["again"]
+def test_load_again_changes_nothing(run_cli, files, db):
+    load = run_cli(db, *load_args(files))
     assert load.returncode == 0, load.stderr
     summary = load.json()
     assert summary["materials_added"] == summary["materials_updated"] == []
     assert summary["datasets_added"] == [] and len(summary["files_skipped"]) == 3
 
 
-def test_bad_sweep_is_refused_with_one_line_and_nothing_changes(cli):
-    load, listing = cli["bad"]
+def test_bad_sweep_is_refused_with_one_line_and_nothing_changes(run_cli, files, db):
+    before = run_cli(db, "list", "--json")
+    assert before.returncode == 0, before.stderr
+    load = run_cli(db, "load", files["cat3"], files["bad"], "--json")
     assert load.returncode == 2 and load.stdout == ""
-    line = one_line(load)
+    line = load.one_line()
     assert "bad.csv" in line
     assert f"row {BAD_ROW}" in line
     assert "column 'storage_modulus [MPa]'" in line
     assert "'abc' is not a number" in line
     # All or nothing: the good catalog of the same command (SYN-3) was not written.
+    listing = run_cli(db, "list", "--json")
     assert listing.returncode == 0
-    assert listing.json() == cli["list"].json()
+    assert listing.json() == before.json()
 
 
-def test_list_fields(cli):
-    run = cli["list"]
+def test_list_fields(run_cli, db):
+    run = run_cli(db, "list", "--json")
     assert run.returncode == 0, run.stderr
     rows = run.json()
     assert [r["id"] for r in rows] == ["SYN-1", "SYN-2"]
@@ -190,6 +140,7 @@ def test_list_fields(cli):
         "service_min_C",
         "service_max_C",
         "poisson_ratio",
+        "bulk_modulus_MPa",
         "notes",
         "extra",
         "datasets",
@@ -204,8 +155,8 @@ def test_list_fields(cli):
 # ---------------------------------------------------------------- fit and props
 
 
-def test_fit_json(cli):
-    (run,) = cli["fit"]
+def test_fit_json(run_cli, db):
+    run = run_cli(db, "fit", "SYN-1", "--json")
     assert run.returncode == 0, run.stderr
     data = run.json()
     for key in ("reference_C", "shift_factors", "tg", "reduced_frequency_range_Hz", "residuals"):
@@ -256,8 +207,8 @@ def measured(files, material="SYN-1") -> dict[tuple[float, float], float]:
         }
 
 
-def test_props_json(cli):
-    (run,) = cli["props"]
+def test_props_json(run_cli, files, db):
+    run = run_cli(db, "props", "SYN-1", "--temp", 20, 30, "--freq", 1, 10, 100, "--json")
     assert run.returncode == 0, run.stderr
     rows = run.json()
     assert len(rows) == 6
@@ -267,7 +218,7 @@ def test_props_json(cli):
     ]
     assert {r["mode"] for r in rows} == {"tensile"}
     assert not any(r["extrapolated"] for r in rows)
-    data = measured(cli["files"])
+    data = measured(files)
     for r in rows:
         # MPa in, MPa out: the fitted curve within 3 % of the imported 1 %-noise value.
         assert r["storage_MPa"] == pytest.approx(data[(r["temp_C"], r["freq_Hz"])], rel=0.03)
@@ -282,21 +233,27 @@ def test_props_json(cli):
 # ---------------------------------------------------------------- failures
 
 
-def test_unknown_grade_is_exit_2_with_one_line(cli):
-    (run,) = cli["unknown"]
+def test_unknown_grade_is_exit_2_with_one_line(run_cli, db):
+    run = run_cli(db, "fit", "NOPE", "--json")
     assert run.returncode == 2 and run.stdout == ""
-    assert "no grade 'NOPE'" in one_line(run)
+    assert "no grade 'NOPE'" in run.one_line()
 
 
 @pytest.mark.parametrize("name", ["folder", "garbage"])
-def test_db_that_is_not_a_library(cli, name):
-    (run,) = cli[name]
+def test_db_that_is_not_a_library(run_cli, tmp_path, name):
+    target = tmp_path
+    if name == "garbage":
+        target = tmp_path / "garbage.sqlite"
+        target.write_bytes(b"\x00garbage, not a library\n" * 100)
+    # --db names the library even where QUIETGRADE_DB names another.
+    run = run_cli(tmp_path / "other.sqlite", "list", "--json", "--db", target)
     assert run.returncode == 2 and run.stdout == ""
-    assert "not a quietgrade library" in one_line(run)
+    assert "not a quietgrade library" in run.one_line()
 
 
-def test_demo_twice_is_idempotent(cli):
-    first, second = cli["demo"]
+def test_demo_twice_is_idempotent(run_cli, tmp_path):
+    db = tmp_path / "demo.sqlite"
+    first, second = run_cli(db, "demo", "--json"), run_cli(db, "demo", "--json")
     assert first.returncode == 0, first.stderr
     assert second.returncode == 0, second.stderr
     a, b = first.json(), second.json()
@@ -306,3 +263,38 @@ def test_demo_twice_is_idempotent(cli):
     assert b["materials_added"] == b["materials_updated"] == b["datasets_added"] == []
     assert len(b["files_skipped"]) == 2
     assert a["fitted"] == b["fitted"] and a["fit_errors"] == b["fit_errors"]
+
+
+# ---------------------------------------------------------------- as a process
+
+
+def test_python_m_engine_runs_as_a_process(tmp_path):
+    """``python -m engine`` through the real interpreter: output on stdout, the exit
+    status of the process, the library named by QUIETGRADE_DB."""
+    env = {**os.environ, "QUIETGRADE_DB": str(tmp_path / "library.sqlite")}
+
+    def engine(*args):
+        return subprocess.run(
+            [sys.executable, "-m", "engine", *args],
+            cwd=ROOT,
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=300,
+        )
+
+    demo = engine("demo", "--json")
+    assert demo.returncode == 0, demo.stderr
+    loaded = json.loads(demo.stdout)
+    assert loaded["fitted"] and set(loaded["fitted"]) <= set(loaded["materials_added"])
+    listing = engine("list", "--json")
+    assert listing.returncode == 0, listing.stderr
+    rows = json.loads(listing.stdout)
+    with open(DEMO / "catalog.csv", newline="") as handle:
+        ids = sorted(r["id"] for r in csv.DictReader(handle))
+    assert sorted(r["id"] for r in rows) == ids
+    assert all(len(r["datasets"]) == 1 for r in rows)
+    refused = engine("fit", "NOPE")
+    assert refused.returncode == 2 and refused.stdout == ""
+    (line,) = refused.stderr.strip().splitlines()
+    assert line.startswith("error: no grade 'NOPE'")

@@ -1,9 +1,9 @@
-"""Tests of the command line for ``mount`` and ``rank`` (``python -m engine``).
+"""Tests of the command line for ``mount`` and ``rank``.
 
-The demo library is loaded once with ``python -m engine demo`` into a library named by
-QUIETGRADE_DB; ``mount``, ``rank`` and one bad-input case then run as separate processes,
-side by side. Further bad-input cases call :func:`engine.cli.main` in this process (the
-same code path without another interpreter start-up, which costs seconds here).
+The commands run through :func:`engine.cli.main` in this process, on a copy of the
+fitted demo library (``demo_library`` in conftest.py) that ``demo`` has been run on:
+``mount``, ``rank`` and one bad-input case once for the module (their results are
+shared by the tests that read them), further bad-input cases in their own tests.
 The mount figures are checked against the single-degree-of-freedom isolator (Snowdon
 1968), the static-deflection estimate fn = (1/2 pi) sqrt(g/delta) (common practice) and
 the shape factor of a bonded disc (Gent & Lindley 1959). Bad input must exit with
@@ -15,16 +15,14 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
-import subprocess
-import sys
+import shutil
 from pathlib import Path
 
 import pytest
 
 from engine.cli import main
+from tests.helpers import invoke
 
-ROOT = Path(__file__).resolve().parent.parent
 G0 = 9.80665  # standard gravity [m/s2], CGPM 1901
 WINDOW = ["--temp-range", "-20", "45", "--freq-range", "10", "100"]
 MOUNT = [
@@ -48,35 +46,18 @@ MOUNT = [
 ]
 
 
-def _start(args, env):
-    return subprocess.Popen(
-        [sys.executable, "-m", "engine", *args],
-        cwd=ROOT,
-        env=env,
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
-
-
 def _digest(path: Path) -> str:
     return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
 @pytest.fixture(scope="module")
-def cli(tmp_path_factory):
-    """Load the demo library, then run every command of this module in parallel."""
+def cli(demo_library, tmp_path_factory):
+    """A copy of the demo library with ``demo`` run on it, and the commands whose
+    results several tests read, each run once."""
     tmp = tmp_path_factory.mktemp("cli")
     db = tmp / "library.sqlite"
-    env = {**os.environ, "QUIETGRADE_DB": str(db)}
-    demo = subprocess.run(
-        [sys.executable, "-m", "engine", "demo", "--json"],
-        cwd=ROOT,
-        env=env,
-        capture_output=True,
-        text=True,
-        timeout=300,
-    )
+    shutil.copyfile(demo_library.location, db)
+    demo = invoke(["demo", "--json", "--db", db])
     assert demo.returncode == 0, demo.stderr
     design = tmp / "mount.json"
     design.write_text(json.dumps({"thickness_mm": 25, "target_fn_Hz": 10.0}))
@@ -87,12 +68,11 @@ def cli(tmp_path_factory):
         "inverted": ["rank", "--temp-range", "45", "-20", "--freq-range", "10", "100"],
     }
     before = _digest(db)
-    procs = {name: _start(args, env) for name, args in cases.items()}
     runs = {}
-    for name, proc in procs.items():
-        out, err = proc.communicate(timeout=300)
-        runs[name] = (proc.returncode, out, err)
-    return {"demo": json.loads(demo.stdout), "runs": runs, "db": db, "before": before}
+    for name, args in cases.items():
+        run = invoke([*args, "--db", db])
+        runs[name] = (run.returncode, run.stdout, run.stderr)
+    return {"demo": demo.json(), "runs": runs, "db": db, "before": before}
 
 
 def _ok_json(cli, name):

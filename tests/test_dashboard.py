@@ -3,10 +3,15 @@
 The checks are behavioural: every page renders, the shown ranking follows the window and
 agrees with the engine's own ranking, the comparison set is highlighted, a link
 reproduces the case, and a bad import shows its one-line reason and writes nothing.
+The charts are read as the pages hand them to ``st.plotly_chart`` (the figure's public
+data, ``Figure.to_dict()``), matched to the charts on the page by their keys.
 """
 
 import base64
+import dataclasses
+import html
 import json
+import re
 from pathlib import Path
 
 import numpy as np
@@ -17,16 +22,20 @@ from tests.crowd import CROWD_GRADES, SWEEP_HEADER, write_crowd_library
 
 pytest.importorskip("streamlit")
 
+import streamlit as st  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from dashboard import case, charts, data, importing  # noqa: E402
 from dashboard.common import SHOWN_LIMIT  # noqa: E402
 from engine.base.caution import CAUTION  # noqa: E402
 from engine.base.errors import CriteriaError, FitError, InputError  # noqa: E402
-from engine.curves.window import tensile_factor  # noqa: E402
+from engine.curves.mountcheck import MountDesign  # noqa: E402
+from engine.curves.window import OperatingWindow, tensile_factor  # noqa: E402
 from engine.library.fits import fit_library, master_curve  # noqa: E402
 from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
+from engine.output import mapfigure  # noqa: E402
+from engine.output.report import report_html  # noqa: E402
 from engine.selection.ranking import Criteria, rank  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -38,6 +47,34 @@ PAGES = {
     "views/shortlist.py": "Shortlist",
     "views/library.py": "Library",
 }
+
+
+DRAWN: dict = {}  # chart key -> the figure a page last handed to st.plotly_chart
+
+
+@pytest.fixture(autouse=True)
+def record_charts(monkeypatch):
+    """Keep every figure the pages draw, under its chart's key (every chart has one)."""
+    draw = st.plotly_chart
+
+    def plotly_chart(figure_or_data, *args, **kwargs):
+        DRAWN[kwargs.get("key")] = figure_or_data
+        return draw(figure_or_data, *args, **kwargs)
+
+    DRAWN.clear()
+    monkeypatch.setattr(st, "plotly_chart", plotly_chart)
+
+
+def figures(at: AppTest) -> list:
+    """The figures of the charts on the page, in page order."""
+    keys = [c.key for c in at.get("plotly_chart")]
+    assert None not in keys, "a chart without a key"
+    return [DRAWN[k] for k in keys]
+
+
+def specs(at: AppTest) -> list[dict]:
+    """The public data (``to_dict``) of the charts on the page, in page order."""
+    return [fig.to_dict() for fig in figures(at)]
 
 
 @pytest.fixture(scope="module")
@@ -101,7 +138,7 @@ def test_comparison_set_is_listed_and_highlighted(monkeypatch, demo_db):
     assert not at.exception
     table = [d.value for d in at.dataframe if "worst loss factor in window" in d.value.columns]
     assert table and table[0]["grade"].tolist() == chosen
-    spec = json.loads(at.get("plotly_chart")[0].proto.spec)
+    spec = map_spec(at)
     widths = {
         t["legendgroup"]: t["line"]["width"]
         for t in spec["data"]
@@ -160,9 +197,11 @@ def test_bad_case_file_shows_the_reason(monkeypatch, demo_db):
     at.file_uploader(key="case_file").set_value(("case.json", b"{not json", "application/json"))
     at.run()
     assert any("not valid JSON" in e.value for e in at.error)
-    good = case.state_from_criteria(case.criteria_from_state(case.default_state()))
-    good["c_temp"] = (-10.0, 30.0)
-    payload = json.dumps(case.criteria_dict(good)).encode()
+    default = case.criteria_from_state(case.default_state())
+    good = dataclasses.replace(
+        default, window=dataclasses.replace(default.window, temp_range=(-10.0, 30.0))
+    )
+    payload = json.dumps(good.to_dict()).encode()
     at.file_uploader(key="case_file").set_value(("case.json", payload, "application/json"))
     at.run()
     assert not at.exception
@@ -276,7 +315,8 @@ def crowd_db(tmp_path_factory):
 
 
 def _array(value) -> np.ndarray:
-    """A data array of a figure spec: a list, or Plotly's base64 typed array."""
+    """A data array of a figure's trace: a list or array, or a typed array in plotly.js's
+    documented form (``dtype``, base64 ``bdata``, optional ``shape``)."""
     if isinstance(value, dict):
         flat = np.frombuffer(base64.b64decode(value["bdata"]), dtype=value["dtype"])
         shape = value.get("shape")
@@ -287,7 +327,10 @@ def _array(value) -> np.ndarray:
 
 
 def map_spec(at: AppTest) -> dict:
-    return json.loads(at.get("plotly_chart")[0].proto.spec)
+    """The map's figure data; the map is the first chart of its page."""
+    charts_on_page = at.get("plotly_chart")
+    assert charts_on_page and charts_on_page[0].key == "map_chart"
+    return DRAWN["map_chart"].to_dict()
 
 
 def drawn_widths(spec: dict, ids) -> dict[str, float]:
@@ -372,10 +415,7 @@ def test_a_large_comparison_set_is_highlighted_and_bounded(monkeypatch, crowd_db
     at.switch_page("views/curves.py").run()
     assert not at.exception
     assert any(f"first {SHOWN_LIMIT} of the {len(chosen)}" in c.value for c in at.caption)
-    names = {
-        t["legendgroup"].rsplit("-", 1)[0]
-        for t in json.loads(at.get("plotly_chart")[0].proto.spec)["data"]
-    }
+    names = {t["legendgroup"].rsplit("-", 1)[0] for t in specs(at)[0]["data"]}
     assert names == set(chosen[:SHOWN_LIMIT])
 
     at.switch_page("views/mount.py").run()
@@ -387,12 +427,13 @@ def test_a_large_comparison_set_is_highlighted_and_bounded(monkeypatch, crowd_db
 
 def test_returning_to_a_window_draws_its_own_map(monkeypatch, demo_db):
     at = app(monkeypatch, demo_db)
-    first = map_spec(at)
+    first = DRAWN["map_chart"].to_json()
     at.slider(key="c_temp").set_value((0.0, 40.0)).run()
     assert "0 to 40 °C" in map_spec(at)["layout"]["title"]["text"]
     at.slider(key="c_temp").set_value(case.DEFAULTS["c_temp"]).run()
     assert not at.exception
-    assert map_spec(at) == first
+    map_spec(at)  # the map is on the page again
+    assert DRAWN["map_chart"].to_json() == first
 
 
 def test_curves_page_draws_the_open_tab_and_keeps_the_reading(monkeypatch, demo_db):
@@ -410,9 +451,7 @@ def test_curves_page_draws_the_open_tab_and_keeps_the_reading(monkeypatch, demo_
         at.session_state["curves_tab"] = tab
         at.run()
         assert not at.exception, f"{tab}: {at.exception}"
-        drawn = [
-            json.loads(c.proto.spec)["layout"]["title"]["text"] for c in at.get("plotly_chart")
-        ]
+        drawn = [spec["layout"]["title"]["text"] for spec in specs(at)]
         assert drawn[0].startswith("Stiffness and damping against temperature")
         assert len(drawn) == 1 + len(titles)
         assert all(d.startswith(t) for d, t in zip(drawn[1:], titles, strict=True)), tab
@@ -432,8 +471,7 @@ def test_curves_page_draws_the_open_tab_and_keeps_the_reading(monkeypatch, demo_
 
 def chart_spec(at: AppTest, title: str) -> dict:
     """The figure spec of the chart whose title starts with ``title``."""
-    for c in at.get("plotly_chart"):
-        spec = json.loads(c.proto.spec)
+    for spec in specs(at):
         if spec["layout"]["title"]["text"].startswith(title):
             return spec
     raise AssertionError(f"no chart titled {title!r} on the page")
@@ -610,6 +648,53 @@ def test_a_chosen_reference_temperature_refits_the_curves_page(monkeypatch, demo
     assert chart_spec(at, f"Shift factors of {focus} (reference {automatic.reference_C:.1f} °C")
 
 
+def _rgb(colour: str) -> tuple[int, int, int]:
+    """The red, green and blue of a #rrggbb or rgba(...) colour."""
+    if colour.startswith("#"):
+        return tuple(int(colour[i : i + 2], 16) for i in (1, 3, 5))
+    return tuple(int(v) for v in re.match(r"rgba?\((\d+), (\d+), (\d+)", colour).groups())
+
+
+def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    ctx = at.session_state["_context"]
+    paths = [t for t in map_spec(at)["data"] if t.get("mode") == mapfigure.PATH_MODE]
+    page = {t["legendgroup"]: t["line"]["color"] for t in paths}
+    report_map = mapfigure.map_figure(ctx.result)  # the map of the HTML report
+    report = {t.legendgroup: t.line.color for t in report_map.data if t.mode == mapfigure.PATH_MODE}
+    assert set(page) == set(report) == set(ctx.result.window_props.ids)
+    for gid in page:
+        assert _rgb(page[gid]) == _rgb(report[gid]) == _rgb(ctx.colours[gid]), gid
+    text = report_html(ctx.result, ctx.library, ctx.curves)
+    for g in ctx.result.shortlist:  # the swatch beside each grade of the report's table
+        swatch = f'<span class="swatch" style="background:{ctx.colours[g.id]}"></span>'
+        assert swatch + html.escape(g.name) in text, g.id
+
+
+def test_shortlist_page_offers_the_downloads(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/shortlist.py").run()
+    assert not at.exception
+    assert not [w for w in at.warning if "exports are not available" in w.value]
+    labels = {b.label for b in at.get("download_button")}
+    assert {"Shortlist CSV", "Shortlist XLSX", "Report (HTML)"} <= labels
+
+
+def test_curves_page_without_valid_criteria_uses_the_engines_window(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db)
+    at.slider(key="c_temp").set_value((0.0, 40.0)).run()
+    at.toggle(key="c_cx_on").set_value(True).run()  # a custom index with no formula
+    assert at.session_state["_context"].criteria is None
+    at.switch_page("views/curves.py").run()
+    assert not at.exception
+    w = OperatingWindow()
+    freqs = f"{w.freq_range[0]:g}, {w.design_frequency:.3g}, {w.freq_range[1]:g}"
+    assert at.text_input(key="curves_freqs").value == freqs
+    spec = chart_spec(at, "Stiffness and damping against temperature")
+    shaded = [(shape["x0"], shape["x1"]) for shape in spec["layout"]["shapes"]]
+    assert shaded and all(band == w.temp_range for band in shaded)
+
+
 def test_a_reference_the_fit_refuses_is_reported(monkeypatch, demo_db):
     def refuse(library, material_id, reference_C=None, vertical_shift=False):
         raise FitError(f"cannot refer {material_id} to {reference_C:g} °C")
@@ -680,8 +765,35 @@ def test_case_round_trips_through_criteria_and_link():
     assert back["compare"] == ["BW-NR40"]
 
 
+def test_the_default_case_is_the_engines():
+    # Every default with an engine counterpart is the engine's own: the default case's
+    # criteria are the engine's default criteria with its default mount design (the
+    # dashboard checks a mount for the default design type, an isolation mount).
+    assert case.criteria_from_state(case.default_state()) == Criteria(mount=MountDesign())
+    state = case.default_state()
+    state["c_design"] = "general"
+    state["c_mount_on"] = case.mount_checked_by_default("general")
+    assert case.criteria_from_state(state).mount is None
+
+
 def test_default_link_is_short():
-    assert case.to_query(case.default_state()) == {"t": "-20,45", "f": "10,100", "d": "mount"}
+    w = OperatingWindow()
+    assert case.to_query(case.default_state()) == {
+        "t": "{:g},{:g}".format(*w.temp_range),
+        "f": "{:g},{:g}".format(*w.freq_range),
+        "d": "mount",
+    }
+
+
+def test_sizing_a_pad_survives_the_link():
+    # The engine sizes no pad by default: switching sizing on must reach the link even
+    # at the target the box shows first.
+    state = case.default_state()
+    assert state["c_size_on"] is (MountDesign().target_fn_Hz is not None)
+    state["c_size_on"] = not state["c_size_on"]
+    back, notes = case.from_query(case.to_query(state))
+    assert notes == [] and back["c_size_on"] is state["c_size_on"]
+    assert case.criteria_from_state(back) == case.criteria_from_state(state)
 
 
 @pytest.mark.parametrize("design", ["isolation_mount", "damping_layer", "general"])
@@ -717,15 +829,19 @@ def test_case_errors_name_the_setting():
 
 
 def test_mount_page_says_what_the_limits_do_not_cover(monkeypatch, demo_db):
-    # The default design sizes 30 mm compression discs for 10 Hz: slender pads. The
+    # 30 mm compression discs sized for 10 Hz (set by the link): slender pads. The
     # engine's note on each shown grade (buckling, assumed k factor...) must be on the
     # page beside its verdict, word for word.
-    at = app(monkeypatch, demo_db)
+    link = {"mh": "30", "mt": "10"}
+    at = app(monkeypatch, demo_db, **link)
     at.switch_page("views/mount.py").run()
     assert not at.exception
     lib = Library(str(demo_db))
     curves, errors = fit_library(lib, processes=1)
-    criteria = case.criteria_from_state(case.default_state())
+    state, notes = case.from_query(link)
+    assert notes == []
+    criteria = case.criteria_from_state(state)
+    assert criteria.mount.thickness_mm == 30.0 and criteria.mount.target_fn_Hz == 10.0
     result = rank(curves, {m.id: m for m in lib.materials()}, criteria, errors)
     shown = [g.id for g in result.shortlist][:3]  # the seeded comparison set
     expected = [f"{gid}: {n}" for gid in shown for n in result.mount.notes.get(gid, [])]

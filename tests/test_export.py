@@ -8,10 +8,7 @@ import dataclasses
 import html
 import io
 import json
-import os
 import re
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -22,7 +19,6 @@ import pytest
 
 from engine.base.caution import CAUTION
 from engine.base.errors import CriteriaError, InputError
-from engine.cli import main
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import OperatingWindow, tensile_factor
 from engine.library.fits import fit_library
@@ -35,7 +31,9 @@ from engine.output.export import (
     window_properties,
     write_shortlist,
 )
-from engine.output.report import PALETTE, map_figure, report_html
+from engine.output.mapfigure import PATH_MODE, map_figure
+from engine.output.palette import GRADE_COLOURS, faded, grade_colours
+from engine.output.report import curves_figure, report_html
 from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
@@ -297,28 +295,38 @@ def test_html_escapes_text_from_data(ranked, demo):
     assert html.escape(MARKUP) in text
     assert "<b>Acme</b>" not in text and "&lt;b&gt;Acme&lt;/b&gt;" in text
     assert "<i>note</i>" not in text
-    # Chart labels and hover texts carry the escaped form too.
-    labels = []
-    for trace in map_figure(result).data:
-        labels += [trace.name, trace.hovertemplate]
-    assert any("&lt;script&gt;alert(1)&lt;/script&gt; &amp; co" in s for s in labels)
-    assert not any("<script>" in s or "<b>" in s for s in labels)
+    # Chart labels and hover texts carry the escaped form too, on both charts.
+    escaped = "&lt;script&gt;alert(1)&lt;/script&gt; &amp; co"
+    for fig in (map_figure(result), curves_figure(result)):
+        labels = [s for t in fig.data for s in (t.name, t.hovertemplate) if s]
+        assert any(escaped in s for s in labels)
+        assert not any(MARKUP in s or "<script>" in s for s in labels)
 
 
-def test_palette_is_our_own(ranked):
-    assert len(PALETTE) == 12 and len({c.lower() for c in PALETTE}) == 12
+def test_palette_is_our_own_and_the_report_takes_it(ranked):
+    assert len(GRADE_COLOURS) == 16 and len({c.lower() for c in GRADE_COLOURS}) == 16
     defaults = (
         plotly.colors.qualitative.Plotly
         + plotly.colors.qualitative.D3
         + plotly.colors.qualitative.T10
         + plotly.colors.qualitative.G10
     )
-    assert not {c.lower() for c in PALETTE} & {c.lower() for c in defaults}
-    fig = map_figure(ranked)
-    first = next(t for t in fig.data if t.name.startswith("1. "))
-    assert first.line.color == PALETTE[0]
-    greys = [t for t in fig.data if t.legendgroup == "excluded"]
-    assert len(greys) == 2 * len(ranked.excluded)
+    assert not {c.lower() for c in GRADE_COLOURS} & {c.lower() for c in defaults}
+    # One colour per ranked grade (the dashboard gives the same library's grades these).
+    colours = grade_colours(ranked.window_props.ids)
+    paths = {t.legendgroup: t for t in map_figure(ranked).data if t.mode == PATH_MODE}
+    assert set(paths) == set(ranked.window_props.ids)
+    for g in ranked.shortlist:
+        assert paths[g.id].line.color == faded(colours[g.id], 1.0)
+        assert paths[g.id].line.dash == "solid" and paths[g.id].name == g.id
+    for g in ranked.excluded:  # dotted and faded, in the grade's own colour
+        assert paths[g.id].line.dash == "dot"
+        assert paths[g.id].line.color == faded(colours[g.id], 0.38)
+    # The legend: the passing grades in rank order, then the excluded ones.
+    order = sorted(paths.values(), key=lambda t: t.legendrank)
+    assert [t.legendgroup for t in order] == [g.id for g in ranked.shortlist + ranked.excluded]
+    lines = [t for t in curves_figure(ranked).data if t.legendgroup == ranked.shortlist[0].id]
+    assert lines and {t.line.color for t in lines} == {colours[ranked.shortlist[0].id]}
 
 
 # -- units in text ---------------------------------------------------------------------------
@@ -342,7 +350,8 @@ def test_text_writes_degrees_celsius_and_headings_keep_the_unit_name(ranked, dem
     assert "constraint over -20 to 45 °C and 10 to 100 Hz" in text
     assert f"<small>(needs {limit})</small>" in text
     assert "<td>highest temperature [°C]</td>" in text
-    assert "°C<br>E'" in map_figure(ranked).data[0].hovertemplate
+    hovers = [t.hovertemplate for t in map_figure(ranked).data if t.mode == PATH_MODE]
+    assert hovers and all(" °C" in h and "degC" not in h for h in hovers)
     # The whole page, the master-curve table with the fits' own notes included, shows
     # no "degC" at all.
     assert "<h2>Master curves behind the figures</h2>" in text and "degC" not in text
@@ -420,41 +429,29 @@ def test_export_without_intervals_keeps_its_columns_and_says_so(demo):
 
 
 # -- command line --------------------------------------------------------------------------
-def test_cli_rank_writes_a_workbook(tmp_path, monkeypatch, capsys):
-    # The library is loaded by the CLI's own demo command (in this process, to save an
-    # interpreter start); the ranking and the export run as a separate process.
-    monkeypatch.setenv("QUIETGRADE_DB", str(tmp_path / "lib.sqlite"))
-    assert main(["demo"]) == 0
-    assert "demo library loaded" in capsys.readouterr().out
-    env = {**os.environ, "QUIETGRADE_DB": str(tmp_path / "lib.sqlite")}
-    run = [sys.executable, "-m", "engine"]
+def test_cli_rank_writes_a_workbook(tmp_path, run_cli):
+    db = tmp_path / "lib.sqlite"
+    assert "demo library loaded" in run_cli(db, "demo").stdout
     mount = tmp_path / "mount.json"
     mount.write_text(json.dumps({"thickness_mm": 25, "target_fn_Hz": 10.0}))
     out = tmp_path / "out" / "shortlist.xlsx"
-    ranked = subprocess.run(
-        [
-            *run,
-            "rank",
-            "--temp-range",
-            "-20",
-            "45",
-            "--freq-range",
-            "10",
-            "100",
-            "--allow-extrapolation",
-            "--mount",
-            str(mount),
-            "--max-transmissibility",
-            "1",
-            "--json",
-            "--out",
-            str(out),
-        ],
-        cwd=ROOT,
-        env=env,
-        capture_output=True,
-        text=True,
-        timeout=120,
+    ranked = run_cli(
+        db,
+        "rank",
+        "--temp-range",
+        "-20",
+        "45",
+        "--freq-range",
+        "10",
+        "100",
+        "--allow-extrapolation",
+        "--mount",
+        str(mount),
+        "--max-transmissibility",
+        "1",
+        "--json",
+        "--out",
+        str(out),
     )
     assert ranked.returncode == 0, ranked.stderr
     data = json.loads(ranked.stdout)

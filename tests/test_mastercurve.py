@@ -15,7 +15,7 @@ from engine.curves.mastercurve import MasterCurve, build_master_curve
 from engine.physics.shift import arrhenius_log_shift
 from engine.physics.transitions import energy_ratio, tg_loss_factor_peak, tg_loss_modulus_peak
 from tests import synthetic
-from tests.test_prony import _kk_storage_minus_equilibrium
+from tests.helpers import kk_storage_minus_equilibrium
 
 TRUE_LAW = synthetic.TRUE_LAW
 
@@ -103,7 +103,7 @@ def test_fitted_curve_is_kramers_kronig_consistent(curve, frequency):
     # (Ferry 1980, ch. 3; Tschoegl 1989), integrated with scipy.integrate.quad as in
     # tests/test_prony.py; E' from evaluate() at the reference temperature.
     omega = 2.0 * np.pi * frequency
-    from_loss = _kk_storage_minus_equilibrium(curve.prony.loss, omega, curve.prony.tau)
+    from_loss = kk_storage_minus_equilibrium(curve.prony.loss, omega, curve.prony.tau)
     direct = curve.evaluate(curve.reference_C, frequency).storage_modulus
     assert from_loss == pytest.approx(direct - curve.prony.equilibrium, rel=1e-3)
 

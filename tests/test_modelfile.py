@@ -21,9 +21,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from engine import __version__
 from engine.base.caution import CAUTION
 from engine.base.errors import InputError
+from engine.base.version import __version__
 from engine.cli import main
 from engine.curves.mastercurve import build_master_curve
 from engine.library.fits import master_curve

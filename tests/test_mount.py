@@ -173,6 +173,134 @@ def test_strain_limits_are_the_documented_values():
     assert mount.STATIC_COMPRESSIVE_STRAIN_LIMIT == 0.15
 
 
+# ------------------------------------------------ bulk-modulus limit
+
+
+def test_bulk_limit_against_the_series_spring_formula():
+    # Gent & Lindley 1959; Gent, Engineering with Rubber: 1/Ec,eff = 1/Ec + 1/K, by hand:
+    # Ec = 400 MPa, K = 2000 MPa -> 1/(1/400 + 1/2000) = 2000 * 400 / 2400 = 333.33 MPa;
+    # Ec = K = 2000 MPa -> 1000 MPa.
+    assert mount.bulk_limited_compression_modulus(400e6, 2.0e9) == pytest.approx(
+        2000e6 * 400e6 / 2400e6, rel=1e-14
+    )
+    ec = np.array([[2.0e9], [50e6]])
+    k = np.array([2.0e9, 1.0e9, np.inf])
+    value = mount.bulk_limited_compression_modulus(ec, k)
+    assert value.shape == (2, 3)
+    # by hand: Ec = 2000 MPa with K = 2000 and 1000 MPa -> 1000 and 666.67 MPa;
+    # Ec = 50 MPa with K = 2000 and 1000 MPa -> 48.78 and 47.62 MPa
+    expected = [[1.0e9, 2.0e9 / 3.0, 2.0e9], [50e6 / 1.025, 50e6 / 1.05, 50e6]]
+    np.testing.assert_allclose(value, expected, rtol=1e-14)
+    # K = inf (incompressible) leaves Ec unchanged
+    np.testing.assert_array_equal(value[:, 2], ec[:, 0])
+
+
+def test_bulk_limit_tends_to_k_at_large_shape_factor():
+    # Gent & Lindley 1959 series springs: as S -> inf, Ec = E(1 + 2kS^2) -> inf and
+    # Ec,eff -> K from below, with 1 - Ec,eff/K = K/(Ec + K).
+    e, k_factor, bulk = 3.0e6, 0.57, 2.0e9
+    s = np.logspace(0.0, 5.0, 26)
+    ec = mount.compression_modulus(e, s, k_factor)
+    eff = mount.bulk_limited_compression_modulus(ec, bulk)
+    assert np.all(np.diff(eff) > 0.0) and np.all(eff < bulk)
+    np.testing.assert_allclose(1.0 - eff / bulk, bulk / (ec + bulk), rtol=1e-8)
+    assert eff[-1] == pytest.approx(bulk, rel=1e-5)  # S = 1e5: K/Ec is about 1e-7
+
+
+def test_bulk_limit_negligible_at_small_shape_factor():
+    # Gent & Lindley 1959 series springs: at S = 0.5 a soft rubber has Ec of a few MPa,
+    # a thousandth of K, and Ec,eff = Ec / (1 + Ec/K) is Ec to about 0.2 %.
+    ec = mount.compression_modulus(3.0e6, 0.5, 0.57)  # 3 * (1 + 2 * 0.57 * 0.25) MPa
+    assert ec == pytest.approx(3.855e6, rel=1e-12)
+    eff = mount.bulk_limited_compression_modulus(ec, 2.0e9)
+    assert eff == pytest.approx(ec, rel=2e-3)
+    assert eff / ec == pytest.approx(1.0 / (1.0 + 3.855e6 / 2.0e9), rel=1e-12)
+
+
+def test_bulk_modulus_from_poisson_ratio_closed_form():
+    # Isotropic elasticity (Timoshenko & Goodier 1970): K = E / (3 (1 - 2 nu)).
+    # E = 3 MPa: nu = 0.49 -> 3/(3 * 0.02) = 50 MPa; nu = 0.4999 -> 5000 MPa;
+    # nu = 0.3 -> 3/(3 * 0.4) = 2.5 MPa.
+    nu = np.array([0.49, 0.4999, 0.3])
+    result = mount.bulk_modulus_for_grade(np.nan, nu, 3.0e6)
+    np.testing.assert_allclose(result.value, [50e6, 5.0e9, 2.5e6], rtol=1e-9)
+    assert result.source.tolist() == [mount.BULK_FROM_POISSON] * 3
+
+
+def test_bulk_modulus_sources_in_order_of_preference():
+    # Catalog K first, then K from nu < 0.5 and E, else the stated default (common
+    # practice: about 2 GPa for rubbers).
+    result = mount.bulk_modulus_for_grade(
+        [1500.0, np.nan, np.nan, np.nan, None, np.nan],
+        [0.45, 0.45, 0.5, np.nan, np.nan, 0.45],
+        [3.0e6, 3.0e6, 3.0e6, 3.0e6, 3.0e6, np.nan],
+    )
+    np.testing.assert_allclose(
+        result.value, [1.5e9, 3.0e6 / (3.0 * 0.1), 2.0e9, 2.0e9, 2.0e9, 2.0e9], rtol=1e-12
+    )
+    assert result.source.tolist() == [
+        mount.BULK_FROM_CATALOG,
+        mount.BULK_FROM_POISSON,
+        mount.BULK_DEFAULT,  # nu = 0.5 gives no finite K
+        mount.BULK_DEFAULT,
+        mount.BULK_DEFAULT,
+        mount.BULK_DEFAULT,  # nu without E
+    ]
+    scalar = mount.bulk_modulus_for_grade(np.nan, np.nan, 3.0e6, default=2.5e9)
+    assert float(scalar.value) == 2.5e9 and str(scalar.source) == mount.BULK_DEFAULT
+
+
+def test_bulk_and_shape_factor_constants():
+    # Common practice: K of about 2 GPa for rubbers; a warning above S = 10.
+    assert mount.DEFAULT_BULK_MODULUS_PA == 2.0e9
+    assert mount.HIGH_SHAPE_FACTOR == 10.0
+
+
+def test_high_shape_factor_flag():
+    # Common practice: flag S > 10; unknown (NaN) is not flagged.
+    flags = mount.is_high_shape_factor(np.array([0.5, 10.0, 10.01, 25.0, np.nan]))
+    assert flags.tolist() == [False, False, True, True, False]
+    assert bool(mount.is_high_shape_factor(6.0, limit=5.0))
+    assert not bool(mount.is_high_shape_factor(4.0))
+
+
+def test_pad_stiffness_with_bulk_modulus():
+    # Gent & Lindley 1959: k = Ec,eff A / h; without K the result is unchanged, K = inf
+    # gives the incompressible pad.
+    ec, area, h = np.array([400e6, 7.2e6]), 0.01, 0.01
+    plain = mount.compression_pad_stiffness(ec, area, h)
+    np.testing.assert_array_equal(plain, ec * area / h)
+    np.testing.assert_array_equal(mount.compression_pad_stiffness(ec, area, h, np.inf), plain)
+    limited = mount.compression_pad_stiffness(ec, area, h, bulk_modulus=2.0e9)
+    np.testing.assert_allclose(limited, 1.0 / (1.0 / ec + 1.0 / 2.0e9) * area / h, rtol=1e-14)
+
+
+@pytest.mark.parametrize("shape_factor", [10.0, 15.0, 20.0])
+def test_uncorrected_natural_frequency_too_high_at_high_shape_factor(shape_factor):
+    # A Shore A 60 disc (E from Gent 1958, k from the Gent & Lindley table, from memory)
+    # with K = 2 GPa (common practice). fn grows as sqrt(k), so the incompressible pad
+    # overstates fn by sqrt(k_plain / k_eff) = sqrt(1 + Ec/K) (series springs, Gent &
+    # Lindley 1959), worked by hand below; it is of the order of 10 % at S = 10 and
+    # 30 % at S = 20.
+    e = mount.youngs_modulus_from_hardness(60.0)
+    k_factor = mount.k_factor_from_hardness(60.0)
+    h, mass = 0.005, 250.0
+    diameter = 4.0 * shape_factor * h
+    s = mount.shape_factor_disc(diameter, h)
+    area = np.pi * diameter**2 / 4.0
+    ec = mount.compression_modulus(e, s, k_factor)
+    fn_plain = np.sqrt(mount.compression_pad_stiffness(ec, area, h) / mass) / (2.0 * np.pi)
+    fn_eff = np.sqrt(mount.compression_pad_stiffness(ec, area, h, 2.0e9) / mass) / (2.0 * np.pi)
+    by_hand = np.sqrt(1.0 + e * (1.0 + 2.0 * k_factor * shape_factor**2) / 2.0e9)
+    assert fn_plain / fn_eff == pytest.approx(by_hand, rel=1e-12)
+    excess = fn_plain / fn_eff - 1.0
+    if shape_factor == 10.0:
+        assert 0.05 < excess < 0.15
+    elif shape_factor == 20.0:
+        assert 0.25 < excess < 0.45
+    assert bool(mount.is_high_shape_factor(s)) == (shape_factor > mount.HIGH_SHAPE_FACTOR)
+
+
 # ------------------------------------------------ static deflection and fn
 
 
@@ -325,6 +453,29 @@ def test_size_compression_pad_area_broadcasts_and_reduces_to_shear_form():
         (lambda: mount.youngs_from_shear(0.0), r"shear_modulus must be positive"),
         (lambda: mount.shear_pad_stiffness(1e6, 0.0, 0.01), r"area must be positive \[m2\]"),
         (lambda: mount.compression_pad_stiffness(0.0, 0.01, 0.01), r"compression_modulus"),
+        (
+            lambda: mount.compression_pad_stiffness(1e6, 0.01, 0.01, -2e9),
+            r"bulk_modulus must be positive \[Pa\]; got -2e\+09",
+        ),
+        (
+            lambda: mount.bulk_limited_compression_modulus(0.0, 2e9),
+            r"compression_modulus must be positive",
+        ),
+        (
+            lambda: mount.bulk_modulus_for_grade([1500.0, -3.0], 0.49, 3e6),
+            r"bulk_modulus must be positive \[MPa\]; got -3",
+        ),
+        (lambda: mount.bulk_modulus_for_grade(np.nan, 0.6, 3e6), r"poisson_ratio must lie in"),
+        (
+            lambda: mount.bulk_modulus_for_grade(np.nan, 0.4, 0.0),
+            r"youngs_modulus must be positive",
+        ),
+        (
+            lambda: mount.bulk_modulus_for_grade(np.nan, 0.4, 3e6, default=0.0),
+            r"default must be positive \[Pa\]",
+        ),
+        (lambda: mount.is_high_shape_factor(-1.0), r"shape_factor must be zero or positive"),
+        (lambda: mount.is_high_shape_factor(12.0, limit=0.0), r"limit must be positive"),
         (lambda: mount.transmissibility(-1.0, 1e5, 0.1, 1.0), r"frequency must be zero or"),
         (lambda: mount.transmissibility(1.0, 0.0, 0.1, 1.0), r"storage_stiffness must be"),
         (lambda: mount.transmissibility(1.0, 1e5, -0.1, 1.0), r"loss_factor must be zero or"),

@@ -1,6 +1,6 @@
 """Tests of engine.curves.mountcheck: the vectorised mount check of many grades.
 
-With a frequency-independent grade (:func:`tests.test_window.flat_bank`) the closed
+With a frequency-independent grade (:func:`tests.helpers.flat_bank`) the closed
 forms of the single-degree-of-freedom isolator apply exactly:
 fn = (1/2 pi) sqrt(k/m) with k = G A/h (shear) or Ec A/h with Ec = E (1 + 2 k S^2)
 (Gent & Lindley 1959), the hysteretic transmissibility
@@ -22,7 +22,7 @@ from engine.curves.bank import CurveBank
 from engine.curves.mountcheck import FALLBACK_K_FACTOR, MountDesign, check_mounts
 from engine.library.fits import fit_library
 from engine.physics import mount
-from tests.test_window import flat_bank
+from tests.helpers import flat_bank
 
 G0 = 9.80665  # standard gravity [m/s2], CGPM 1901
 TWO_PI = 2.0 * np.pi

@@ -16,6 +16,7 @@ from scipy import integrate
 
 from engine.base.errors import FitError
 from engine.physics.prony import PronyFitReport, PronySeries, fit_prony, tau_grid
+from tests.helpers import kk_storage_minus_equilibrium
 
 OMEGA = np.logspace(-2.0, 6.0, 200)  # [rad/s], eight decades, 25 points per decade
 
@@ -191,37 +192,11 @@ def test_fit_default_grid_and_weights_non_negative():
     assert 0 < report.n_terms <= series.tau.size
 
 
-def _kk_storage_minus_equilibrium(loss, omega: float, tau: np.ndarray) -> float:
-    """(2 w^2/pi) PV int_0^inf E''(x) / (x (w^2 - x^2)) dx, by scipy quad.
-
-    Kramers-Kronig relation for the storage modulus, E'(w) - E'(0) (Ferry 1980,
-    ch. 3; Tschoegl 1989). With x = w e^u it becomes
-    (2/pi) PV int E''(w e^u) / (1 - e^{2u}) du, whose pole at u = 0 is handled by
-    quad's Cauchy weight on [-1, 1]; the tails decay exponentially in u.
-    """
-
-    def smooth_part(u):  # E''(w e^u) u / (1 - e^{2u}), which tends to -E''(w)/2 at u = 0
-        if u == 0.0:
-            return -0.5 * loss(omega)
-        return loss(omega * np.exp(u)) * u / -np.expm1(2.0 * u)
-
-    def regular(u):
-        return loss(omega * np.exp(u)) / -np.expm1(2.0 * u)
-
-    lo = np.log(1.0 / (omega * tau.max())) - 30.0
-    hi = np.log(1.0 / (omega * tau.min())) + 30.0
-    accuracy = {"limit": 400, "epsabs": 0.0, "epsrel": 1e-9}
-    core, _ = integrate.quad(smooth_part, -1.0, 1.0, weight="cauchy", wvar=0.0, **accuracy)
-    left, _ = integrate.quad(regular, lo, -1.0, **accuracy)
-    right, _ = integrate.quad(regular, 1.0, hi, **accuracy)
-    return 2.0 / np.pi * (left + core + right)
-
-
 def test_fitted_curves_are_kramers_kronig_consistent():
     known = smooth_spectrum(per_decade=5.0)
     series, _ = fit_prony(OMEGA, known.storage(OMEGA), known.loss(OMEGA), per_decade=1.5)
     for omega in (0.03, 1.0, 47.0, 2.0e3, 5.0e5):
-        from_loss = _kk_storage_minus_equilibrium(series.loss, omega, series.tau)
+        from_loss = kk_storage_minus_equilibrium(series.loss, omega, series.tau)
         direct = series.storage(omega) - series.equilibrium
         # Kramers-Kronig (Ferry 1980; Tschoegl 1989); the relation is exact and quad is
         # asked for 1e-9, so 1e-6 leaves room for quadrature error only

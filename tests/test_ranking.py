@@ -29,10 +29,9 @@ from engine.base.errors import CriteriaError
 from engine.curves.mastercurve import MasterCurve, build_master_curve
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import DutyPoint, OperatingWindow
-from engine.library.store import Material
 from engine.selection.ranking import Constraints, Criteria, IndexChoice, rank
 from tests import synthetic
-from tests.test_window import flat_bank
+from tests.helpers import flat_bank, material
 
 BASE = build_master_curve(synthetic.sweep(), "tensile")
 
@@ -70,21 +69,6 @@ POOL = [
     "damping_span",
 ]
 FEW = settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-
-
-def material(gid, density=1100.0, price=5.0, hardness=55.0, service=(-60.0, 150.0), mode="tensile"):
-    return Material(
-        id=gid,
-        name=f"Grade {gid}",
-        mode=mode,
-        supplier="Nobody",
-        family="synthetic",
-        density=density,
-        price=price,
-        hardness=hardness,
-        service_min=service[0],
-        service_max=service[1],
-    )
 
 
 def run(grades, criteria):

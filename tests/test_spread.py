@@ -40,7 +40,7 @@ from engine.selection.spread import (
     rank_spread,
 )
 from tests import synthetic
-from tests.test_ranking import material
+from tests.helpers import material
 
 ROOT = Path(__file__).resolve().parent.parent
 POINTS = synthetic.sweep(noise=0.01, seed=1)

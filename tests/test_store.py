@@ -1,19 +1,27 @@
 """The material library: opening, versions, edits with history, soft delete and the fit
-cache (engine/library/store.py and engine/library/fits.py)."""
+cache (engine/library/store.py and engine/library/fits.py), and the data folder
+(engine/base/paths.py). Schema migrations: tests/test_migrations.py."""
 
 from __future__ import annotations
 
+import dataclasses
+import logging
 import re
 import sqlite3
+import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
+import sqlalchemy as sa
 
+from engine.base import fields
 from engine.base.errors import FitError, LibraryError
-from engine.library import fits
+from engine.base.paths import user_data_dir
+from engine.library import fits, store
 from engine.library.fits import fit_library, master_curve, options_key
 from engine.library.importer import import_files
-from engine.library.store import SCHEMA_VERSION, Library, default_location
+from engine.library.store import SCHEMA_VERSION, Library, Material, default_location
 from tests import synthetic
 
 
@@ -73,16 +81,134 @@ def test_bad_url_is_refused():
         Library("nosuchdialect://host/db")
 
 
+def test_newer_schema_version_is_refused_with_a_reason(tmp_path):
+    path = tmp_path / "newer.sqlite"
+    Library(str(path))
+    with sqlite3.connect(path) as conn:
+        conn.execute(
+            "update meta set value = ? where key = 'schema_version'", (str(SCHEMA_VERSION + 1),)
+        )
+    before = path.read_bytes()
+    with pytest.raises(LibraryError, match="it was written by a newer quietgrade"):
+        Library(str(path))
+    assert path.read_bytes() == before
+    assert list(tmp_path.iterdir()) == [path]  # no backup copy: nothing was changed
+
+
+def test_schema_version_that_is_not_a_number_is_refused(tmp_path):
+    path = tmp_path / "odd.sqlite"
+    Library(str(path))
+    with sqlite3.connect(path) as conn:
+        conn.execute("update meta set value = 'two' where key = 'schema_version'")
+    with pytest.raises(LibraryError, match=r"odd\.sqlite: library schema version 'two' is not"):
+        Library(str(path))
+
+
 def test_default_location_honours_environment(tmp_path, monkeypatch):
     target = tmp_path / "env" / "lib.sqlite"
     monkeypatch.setenv("QUIETGRADE_DB", str(target))
     assert default_location() == str(target)
     lib = Library()
     assert lib.location == str(target) and target.exists()
-    # Without it: the user's data folder (XDG Base Directory Specification).
+    # Without it: the user's data folder (XDG Base Directory Specification on Linux).
     monkeypatch.delenv("QUIETGRADE_DB")
+    monkeypatch.setattr(sys, "platform", "linux")
     monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "data"))
     assert default_location() == str(tmp_path / "data" / "quietgrade" / "library.sqlite")
+
+
+# ---------------------------------------------------------------- the data folder
+
+
+@pytest.mark.parametrize(
+    ("platform", "env", "expected"),
+    [
+        # XDG Base Directory Specification: $XDG_DATA_HOME, default ~/.local/share; a
+        # relative value is ignored.
+        ("linux", {"XDG_DATA_HOME": "{tmp}/xdg"}, "{tmp}/xdg/quietgrade"),
+        ("linux", {}, "{home}/.local/share/quietgrade"),
+        ("linux", {"XDG_DATA_HOME": ""}, "{home}/.local/share/quietgrade"),
+        ("linux", {"XDG_DATA_HOME": "relative/data"}, "{home}/.local/share/quietgrade"),
+        ("freebsd14", {"XDG_DATA_HOME": "{tmp}/xdg"}, "{tmp}/xdg/quietgrade"),
+        # Apple's File System Programming Guide: ~/Library/Application Support.
+        ("darwin", {"XDG_DATA_HOME": "{tmp}/xdg"}, "{home}/Library/Application Support/quietgrade"),
+        # Windows' known folder LocalAppData, named by %LOCALAPPDATA%.
+        ("win32", {"LOCALAPPDATA": "{tmp}/local"}, "{tmp}/local/quietgrade"),
+        ("win32", {}, "{home}/AppData/Local/quietgrade"),
+        ("cygwin", {"LOCALAPPDATA": "{tmp}/local"}, "{tmp}/local/quietgrade"),
+    ],
+)
+def test_user_data_dir_per_platform(tmp_path, monkeypatch, platform, env, expected):
+    home = tmp_path / "home"
+    monkeypatch.setattr(Path, "home", classmethod(lambda cls: home))
+    monkeypatch.setattr(sys, "platform", platform)
+    for name in ("XDG_DATA_HOME", "LOCALAPPDATA", "QUIETGRADE_DB"):
+        monkeypatch.delenv(name, raising=False)
+    for name, value in env.items():
+        monkeypatch.setenv(name, value.format(tmp=tmp_path))
+    want = Path(expected.format(tmp=tmp_path, home=home))
+    assert user_data_dir() == want
+    assert default_location() == str(want / "library.sqlite")
+    assert not tmp_path.joinpath("home").exists()  # asking creates nothing
+
+
+def test_data_folder_is_created_only_when_a_library_is_opened(tmp_path, monkeypatch):
+    monkeypatch.delenv("QUIETGRADE_DB", raising=False)
+    monkeypatch.setattr(sys, "platform", "darwin")
+    monkeypatch.setattr(Path, "home", classmethod(lambda cls: tmp_path / "home"))
+    folder = tmp_path / "home" / "Library" / "Application Support" / "quietgrade"
+    location = default_location()
+    assert not folder.exists()
+    lib = Library()
+    assert lib.location == location == str(folder / "library.sqlite")
+    assert folder.is_dir() and (folder / "library.sqlite").is_file()
+
+
+def test_environment_location_wins_over_the_platform_folder(tmp_path, monkeypatch):
+    monkeypatch.setattr(sys, "platform", "win32")
+    monkeypatch.setenv("LOCALAPPDATA", str(tmp_path / "local"))
+    monkeypatch.setenv("QUIETGRADE_DB", "postgresql://db.invalid/lib")
+    assert default_location() == "postgresql://db.invalid/lib"
+    assert not (tmp_path / "local").exists()
+
+
+# ---------------------------------------------------------------- the catalog table
+
+
+def test_material_and_table_follow_the_field_table():
+    assert store.CATALOG_FIELDS == fields.FIELD_NAMES
+    assert tuple(f.name for f in dataclasses.fields(Material)) == (
+        "id",
+        *fields.FIELD_NAMES,
+        "extra",
+    )
+    columns = store.materials_table.columns
+    assert tuple(c.name for c in columns) == (
+        "id",
+        *fields.FIELD_NAMES,
+        "extra",
+        "deleted_at",
+        "updated_at",
+    )
+    for f in fields.CATALOG:
+        column = columns[f.name]
+        assert column.nullable == (not f.required), f.name
+        if f.kind == "number":
+            assert isinstance(column.type, sa.Float), f.name
+        else:
+            assert isinstance(column.type, sa.Text | sa.String), f.name
+    assert isinstance(columns["notes"].type, sa.Text)
+
+
+def test_bulk_modulus_is_stored_and_edited(tmp_path, library):
+    load_grades(library, tmp_path, ("G1",))
+    assert library.material("G1").bulk_modulus is None
+    library.update_catalog("G1", {"bulk_modulus": 1900})
+    m = library.material("G1")
+    assert m.bulk_modulus == 1900.0 and isinstance(m.bulk_modulus, float)
+    assert '"bulk_modulus": null' in library.history("G1")[0]["previous"]
+    library.update_catalog("G1", {"bulk_modulus": None})
+    assert library.material("G1").bulk_modulus is None
 
 
 # ---------------------------------------------------------------- edits and history
@@ -142,6 +268,11 @@ def test_edit_with_invalid_mode_is_refused(tmp_path, library):
         ({"service_min": -300.0}, "give a temperature above absolute zero"),
         ({"service_min": 80.0, "service_max": 20.0}, "service_min 80 degC is not below"),
         ({"supplier": 12}, "field 'supplier': 12 is not accepted; give text or None"),
+        ({"notes": 1.5}, "field 'notes': 1.5 is not accepted; give text or None"),
+        ({"name": 7}, "field 'name': 7 is not accepted; give non-blank text"),
+        ({"mode": 3}, "field 'mode': 3 is not accepted; give non-blank text"),
+        ({"bulk_modulus": 0.0}, "field 'bulk_modulus': 0.0 is not accepted; give a positive bulk"),
+        ({"bulk_modulus": -2000.0}, "give a positive bulk modulus [MPa] or None"),
     ],
 )
 def test_edit_with_invalid_value_is_refused(tmp_path, library, changes, message):
@@ -290,3 +421,28 @@ def test_fit_library_in_parallel_matches_serial(tmp_path):
     cached, _ = fit_library(libs[2], processes=2, progress=lambda d, t: calls[2].append((d, t)))
     assert calls[2] == [(12, 12)]
     assert cached["SYN-00"].to_dict() == serial["SYN-00"].to_dict()
+
+
+def test_fit_library_logs_cache_hits_and_misses(tmp_path, library, caplog):
+    load_grades(library, tmp_path, ("G1", "G2"))
+    caplog.set_level(logging.DEBUG, logger="engine.library.fits")
+    fit_library(library, processes=1)
+    first = [r.getMessage() for r in caplog.records if r.name == "engine.library.fits"]
+    assert "fit_library: 2 grade(s) with data, 0 cache hit(s), 2 cache miss(es)" in first
+    assert any(re.fullmatch(r"fit_library: G1 fitted in \d+\.\d{3} s", m) for m in first)
+    assert any(
+        re.fullmatch(r"fit_library: 2 fit\(s\) in \d+\.\d\d s \(serial\), 0 failed", m)
+        for m in first
+    )
+    caplog.clear()
+    fit_library(library, processes=1)
+    second = [r.getMessage() for r in caplog.records if r.name == "engine.library.fits"]
+    assert second == ["fit_library: 2 grade(s) with data, 2 cache hit(s), 0 cache miss(es)"]
+    assert [r.levelno for r in caplog.records] == [logging.INFO]
+
+
+def test_fits_print_nothing(tmp_path, library, capsys):
+    load_grades(library, tmp_path, ("G1",))
+    fit_library(library, processes=1)
+    master_curve(library, "G1", reference_C=0.0)
+    assert capsys.readouterr() == ("", "")

@@ -3,8 +3,8 @@
 Checks are against numpy as the reference library (inclusive grids, log spacing), the
 definition of the geometric mean of a band, and the isotropic-elasticity relation
 E = 2 (1 + nu) G (Timoshenko & Goodier 1970) that turns shear data into tensile moduli.
-A frequency-independent grade built by hand (:func:`flat_bank`) makes every expected
-modulus known in closed form; the helper is also used by the mount and ranking tests.
+A frequency-independent grade built by hand (:func:`tests.helpers.flat_bank`) makes
+every expected modulus known in closed form.
 """
 
 from __future__ import annotations
@@ -24,45 +24,7 @@ from engine.curves.window import (
     tensile_factor,
 )
 from tests import synthetic
-
-
-def flat_bank(storage, loss_factor, modes, ids=None) -> CurveBank:
-    """A CurveBank of grades whose modulus and loss factor do not depend on T or f.
-
-    ``storage`` [Pa] in each grade's own mode, ``loss_factor`` [-], ``modes`` "tensile"
-    or "shear" (all broadcast to one entry per grade). The shift law is a WLF law with
-    C1 = 0 (log aT = 0 everywhere) and the covered ranges are wide, so nothing is
-    flagged as extrapolated.
-    """
-    storage = np.atleast_1d(np.asarray(storage, dtype=float))
-    n = storage.size
-    eta = np.broadcast_to(np.asarray(loss_factor, dtype=float), (n,))
-    modes = np.array(np.broadcast_to(np.asarray(modes), (n,)))
-    nodes = 11
-    step = 5.0  # decades between nodes: the table spans -25 to +25 in log10 fR
-    nan = np.full(n, np.nan)
-    return CurveBank(
-        ids=list(ids) if ids is not None else [f"FLAT-{k}" for k in range(n)],
-        modes=modes,
-        start=np.full(n, -25.0),
-        log_storage=np.repeat(np.log10(storage)[:, None], nodes, axis=1),
-        log_loss=np.repeat(np.log10(storage * eta)[:, None], nodes, axis=1),
-        n_nodes=np.full(n, nodes),
-        kind=np.ones(n, dtype=int),  # WLF ...
-        reference=np.full(n, 23.0),
-        c1=np.zeros(n),  # ... with C1 = 0: no shift at any temperature
-        c2=np.full(n, 1e6),
-        wlf_reference=np.zeros(n),
-        activation=nan,
-        split=nan,
-        vertical=np.zeros(n, dtype=bool),
-        fr_lo=np.full(n, -25.0),
-        fr_hi=np.full(n, 25.0),
-        t_lo=np.full(n, -273.0),
-        t_hi=np.full(n, 1000.0),
-        step=step,
-    )
-
+from tests.helpers import flat_bank
 
 # ------------------------------------------------------------------ grids
 

@@ -10,11 +10,23 @@ import math
 import pandas as pd
 import streamlit as st
 
-from dashboard import case, charts, data
+from dashboard import case, data
+from dashboard.charts.common import INTERVAL_NOTE
+from dashboard.charts.curves import (
+    collapse_figure,
+    master_curve_figure,
+    nomogram_figure,
+    relaxation_figure,
+    residual_figure,
+    shift_figure,
+    temperature_figure,
+    transitions_figure,
+)
 from dashboard.common import MISSING, SHOWN_LIMIT, context
-from dashboard.palette import GRADE_COLOURS
 from engine.base.errors import CriteriaError, QuietgradeError
+from engine.curves.window import OperatingWindow
 from engine.library.fits import summary
+from engine.output.palette import GRADE_COLOURS
 
 ctx = context()
 st.header("Curves")
@@ -22,10 +34,11 @@ available = sorted(ctx.curves)
 if not available:
     st.error("no fitted grade in the library: import data on the Library page")
     st.stop()
-criteria = ctx.criteria
-window_range = tuple(criteria.window.temp_range) if criteria else (-20.0, 60.0)
-band = tuple(criteria.window.freq_range) if criteria else (1.0, 100.0)
-design_f = criteria.window.design_frequency if criteria else 10.0
+# Without valid criteria (the sidebar says why), the engine's default window.
+window = ctx.criteria.window if ctx.criteria else OperatingWindow()
+window_range = (window.temp_range[0], window.temp_range[1])
+band = (window.freq_range[0], window.freq_range[1])
+design_f = window.design_frequency
 
 c1, c2, c3, c4 = st.columns([1.2, 1.5, 1.4, 1.1])
 which = c1.radio("Show", ("comparison set", "one grade"), key="curves_which", horizontal=True)
@@ -113,9 +126,7 @@ points = {gid: ctx.points(gid) for gid in shown}
 st.plotly_chart(
     data.kept_figure(
         _view("temperature", shown, frequencies, list(window_range)),
-        lambda: charts.temperature_figure(
-            shown, curves, points, frequencies, window_range, ctx.colours
-        ),
+        lambda: temperature_figure(shown, curves, points, frequencies, window_range, ctx.colours),
     ),
     theme=None,
     key="curves_temperature",
@@ -123,7 +134,7 @@ st.plotly_chart(
 st.caption(
     "Moduli in each grade's own mode: E' for tensile data, G' for shear data. Faint "
     "line parts are extrapolated; marks are the measurements at the measured frequency "
-    "nearest each chosen one. Shaded: " + charts.INTERVAL_NOTE + "."
+    "nearest each chosen one. Shaded: " + INTERVAL_NOTE + "."
 )
 
 st.subheader("One grade in detail")
@@ -184,7 +195,7 @@ def _master_tab() -> None:
     if pts is not None:
         st.plotly_chart(
             data.kept_figure(
-                _view("master", focus), lambda: charts.master_curve_figure(focus, curve, pts)
+                _view("master", focus), lambda: master_curve_figure(focus, curve, pts)
             ),
             theme=None,
             key="mc",
@@ -196,7 +207,7 @@ def _master_tab() -> None:
         + (f"; no data in {gaps}, dotted as well" if gaps else "")
         + f"). Measured {curve.temperature_range[0]:.1f} to {curve.temperature_range[1]:.1f} "
         f"°C, {curve.frequency_range[0]:.3g} to {curve.frequency_range[1]:.3g} Hz. Shaded: "
-        + charts.INTERVAL_NOTE
+        + INTERVAL_NOTE
         + "."
     )
 
@@ -206,7 +217,7 @@ def _shift_tab() -> None:
     st.plotly_chart(
         data.kept_figure(
             _view("shift", focus, list(window_range)),
-            lambda: charts.shift_figure(focus, curve, window_range),
+            lambda: shift_figure(focus, curve, window_range),
         ),
         theme=None,
         key="shift",
@@ -262,7 +273,7 @@ def _shift_tab() -> None:
         f"Shift factors referred to {curve.reference_C:.1f} °C"
         + (f"; rms of the data about the law: {rms:.3g} decades" if rms is not None else "")
         + ". Bars and shading: "
-        + charts.INTERVAL_NOTE
+        + INTERVAL_NOTE
         + "."
     )
 
@@ -279,7 +290,7 @@ def _nomogram_tab() -> None:
     f_read = c2.number_input("and frequency [Hz]", min_value=1e-9, format="%g", key="nomo_f")
     st.session_state["_nomo_read"] = {"t": t_read, "f": f_read}
     st.plotly_chart(
-        charts.nomogram_figure(focus, curve, window_range, band, (t_read, f_read)),
+        nomogram_figure(focus, curve, window_range, band, (t_read, f_read)),
         theme=None,
         key="nomogram",
     )
@@ -300,7 +311,7 @@ def _nomogram_tab() -> None:
 
 def _transitions_tab() -> None:
     """Glass transition by each method, and the regions."""
-    st.plotly_chart(charts.transitions_figure(focus, curve, pts), theme=None, key="tg")
+    st.plotly_chart(transitions_figure(focus, curve, pts), theme=None, key="tg")
     st.dataframe(
         pd.DataFrame(
             [
@@ -346,7 +357,7 @@ def _relaxation_tab() -> None:
     lo_t, hi_t = window_range
     temps = sorted({float(lo_t), float(round((lo_t + hi_t) / 2)), float(hi_t)})
     st.plotly_chart(
-        charts.relaxation_figure(focus, curve, temps, list(GRADE_COLOURS)), theme=None, key="relax"
+        relaxation_figure(focus, curve, temps, list(GRADE_COLOURS)), theme=None, key="relax"
     )
 
 
@@ -359,9 +370,9 @@ def _quality_tab() -> None:
     m3.metric("Prony terms", q.get("prony_terms", 0))
     ok = q.get("superposition_ok")
     m4.metric("superposition", "holds" if ok else "in doubt")
-    st.plotly_chart(charts.residual_figure(focus, curve), theme=None, key="resid")
+    st.plotly_chart(residual_figure(focus, curve), theme=None, key="resid")
     if pts is not None:
-        st.plotly_chart(charts.collapse_figure(focus, curve, pts), theme=None, key="collapse")
+        st.plotly_chart(collapse_figure(focus, curve, pts), theme=None, key="collapse")
     for note in curve.notes:
         st.caption("Note: " + note)
 

@@ -73,7 +73,7 @@ def _import_format() -> None:
     preview, error = importing.try_plan(
         importing.plan_uploads, lib, [(f.name, f.getvalue()) for f in files]
     )
-    if error:
+    if preview is None:
         st.error(error)
         st.caption("Nothing was written.")
         return
@@ -96,7 +96,7 @@ def _import_mapped() -> None:
         return
     export = (upload.name, upload.getvalue())
     table, error = importing.try_plan(importing.read_export, *export)
-    if error:
+    if table is None:
         st.error(error)
         st.caption("Nothing was written.")
         return
@@ -166,7 +166,7 @@ def _import_mapped() -> None:
     preview, error = importing.try_plan(
         importing.plan_mapped, lib, export, mapping, units, material_id, catalogs
     )
-    if error:
+    if preview is None:
         st.error(error)
         st.caption("Nothing was written.")
         return

@@ -2,8 +2,10 @@
 
 import streamlit as st
 
-from dashboard import charts, data, tables
+from dashboard import data, tables
+from dashboard.charts.common import INTERVAL_NOTE
 from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result, take_map_selection
+from engine.output.mapfigure import READING
 
 ctx = context()
 st.header("Map")
@@ -11,19 +13,15 @@ result = need_result(ctx)
 if result is not None:
     c1, c2 = st.columns([3, 1])
     c1.caption(
-        "Each line is a grade's path through the window's temperatures at the design "
-        "frequency; small marks every 10 K, open marks where the master curve is "
-        "extrapolated. Dotted, faded lines are excluded grades (hover for the reason). "
-        "Grey dotted diagonals are lines of constant loss modulus E'' = η E'. Draw a box or "
-        "a lasso to put grades in the comparison set. Shaded tubes around the grades of the "
-        "comparison set"
+        READING + " Draw a box or a lasso to put grades in the comparison set. Shaded tubes around "
+        "the grades of the comparison set"
         + (f" (the first {SHOWN_LIMIT})" if len(ctx.compare) > SHOWN_LIMIT else "")
-        + f": at each temperature of the path, E' and η within their {charts.INTERVAL_NOTE}."
+        + f": at each temperature of the path, E' and η within their {INTERVAL_NOTE}."
     )
     show_excluded = c2.toggle("Show excluded grades", value=True, key="map_show_excluded")
     c2.toggle("Selection adds to the set", key="map_adds")
     fig = data.map_figure(
-        ctx.result_key,
+        ctx.ranking_name(),
         tuple(ctx.compare),
         show_excluded,
         result,

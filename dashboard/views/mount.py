@@ -2,7 +2,8 @@
 
 import streamlit as st
 
-from dashboard import charts, tables
+from dashboard import tables
+from dashboard.charts.mount import mount_figures
 from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result
 
 ctx = context()
@@ -34,7 +35,7 @@ if result is not None:
                 f"The charts show the first {len(drawn)} of the {len(ids)} grades in the "
                 "comparison set; the table below lists them all."
             )
-        fn_fig, tr_fig, sd_fig = charts.mount_figures(result, drawn, ctx.colours)
+        fn_fig, tr_fig, sd_fig = mount_figures(result, drawn, ctx.colours)
         c1, c2 = st.columns(2)
         c1.plotly_chart(fn_fig, theme=None, key="mount_fn")
         c2.plotly_chart(tr_fig, theme=None, key="mount_tr")

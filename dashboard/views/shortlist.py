@@ -28,7 +28,7 @@ def _with_intervals(result_key: str, _result, _curves, _library):
 def _exports(result, library, curves):
     """Download buttons; the files are made only when a button is pressed."""
     try:
-        from engine import export, report, workbook
+        from engine.output import export, report, workbook
     except ImportError as exc:
         st.warning(f"exports are not available in this installation ({exc})")
         return
@@ -59,7 +59,7 @@ def _exports(result, library, curves):
 if result is not None:
     try:
         if result.spread is None:  # not yet made by whoever ranked
-            result = _with_intervals(ctx.result_key, result, ctx.curves, ctx.library)
+            result = _with_intervals(ctx.ranking_name(), result, ctx.curves, ctx.library)
     except QuietgradeError as exc:
         st.warning(f"rank intervals are not available: {exc}")
     n = len(result.grades)

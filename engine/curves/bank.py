@@ -11,6 +11,7 @@ Large evaluations are cut into blocks of grades shared among threads
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -24,7 +25,7 @@ _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
 CORRECTION_STEP = 1.0  # K
 
 
-def _padded(rows: list[np.ndarray], width: int) -> np.ndarray:
+def _padded(rows: Sequence[np.ndarray], width: int) -> np.ndarray:
     """Rows of different lengths (each at least one value) stacked into ``width``
     columns, each padded with its last value."""
     out = np.empty((len(rows), width))
@@ -86,7 +87,7 @@ class CurveBank:
             c = curves[i]
             start, _, ls, ll = c.table()
             law = c.shift.law
-            scalars = (
+            curve_scalars = (
                 start,
                 ls.size,
                 _KIND[law.kind],
@@ -100,7 +101,9 @@ class CurveBank:
                 *c.log_fr_range,
                 *c.temperature_range,
             )
-            rows.append((scalars, ls, ll, c.mode, c.gaps, c.shift.temperatures, c.shift.log_shift))
+            rows.append(
+                (curve_scalars, ls, ll, c.mode, c.gaps, c.shift.temperatures, c.shift.log_shift)
+            )
         columns = zip(*rows, strict=True) if rows else ([],) * 7
         scalars, ls, ll, modes, gaps, temps, measured = columns
         width = max((t.size for t in ls), default=2)

@@ -559,7 +559,9 @@ def _template(law: ShiftLaw, temps: np.ndarray) -> LawTemplate:
     if law.kind in ("WLF", "WLF+Arrhenius"):
         t_min = float(temps.min())
         if law.kind == "WLF+Arrhenius":
+            assert law.split_C is not None  # a WLF+Arrhenius law has its split
             t_min = max(t_min, float(law.split_C))
+        assert law.wlf_reference_C is not None  # a law with a WLF branch has its reference
         c2_min = max(5.0, float(law.wlf_reference_C) - t_min + 1.0)
     return LawTemplate(law.kind, law.reference_C, law.wlf_reference_C, law.split_C, c2_min)
 
@@ -671,7 +673,12 @@ def build_master_curve(
         )
     grouping = group_temperatures(points[:, 0], temperature_tolerance_K)
     isotherms = split_isotherms(
-        *points.T, labels=grouping.labels, temperatures=grouping.temperatures
+        points[:, 0],
+        points[:, 1],
+        points[:, 2],
+        points[:, 3],
+        labels=grouping.labels,
+        temperatures=grouping.temperatures,
     )
     temps = grouping.temperatures
     notes: list[str] = []
@@ -785,8 +792,12 @@ def build_master_curve(
     r_e = joint.residual_storage / LN10
     r_eta = (joint.residual_loss - joint.residual_storage) / LN10
     per_iso = []
+    iso_rms: list[float] = []  # the larger of the two rms misfits of each isotherm
     for k, t in enumerate(temps):
         sel = labels == k
+        rms_storage = float(np.sqrt(np.mean(r_e[sel] ** 2)))
+        rms_loss_factor = float(np.sqrt(np.mean(r_eta[sel] ** 2)))
+        iso_rms.append(max(rms_storage, rms_loss_factor))
         per_iso.append(
             {
                 "temperature_C": float(t),
@@ -796,14 +807,12 @@ def build_master_curve(
                 if shift.log_shift_sd is None
                 else float(shift.log_shift_sd[k]),
                 "bridged": bool(shift.bridged[k]),
-                "rms_log_storage": float(np.sqrt(np.mean(r_e[sel] ** 2))),
-                "rms_log_loss_factor": float(np.sqrt(np.mean(r_eta[sel] ** 2))),
+                "rms_log_storage": rms_storage,
+                "rms_log_loss_factor": rms_loss_factor,
             }
         )
     collapse = _eta_collapse(np.log10(storage), np.log10(eta))
-    worst_iso = max(
-        (max(p["rms_log_storage"], p["rms_log_loss_factor"]) for p in per_iso), default=0.0
-    )
+    worst_iso = max(iso_rms, default=0.0)
     log_f = np.log10(points[:, 1])
     serial = [
         residual_correlation(labels, log_f, joint.residual_storage),

@@ -35,6 +35,34 @@ class MountDesign:
     pad the shape factor is ``shape_factor`` when given, else that of a ``shape`` ("disc"
     or "square") of the given area. ``target_fn_Hz`` switches on sizing: each grade's pad
     area is chosen to put fn at the target at ``sizing_temp_C``.
+
+    Parameters
+    ----------
+    layout : str
+        "compression" or "shear".
+    mass_kg, mounts : float, int
+        Total supported mass [kg] and the number of identical pads sharing it.
+    area_mm2, thickness_mm : float
+        Loaded area and rubber thickness of one pad.
+    shape, shape_factor, k_factor : str, float, float
+        Pad outline, or the shape factor and Gent-Lindley k directly.
+    disturbance_Hz : tuple of float
+        Frequencies of the disturbance the mount must isolate.
+    target_fn_Hz, sizing_temp_C : float
+        Size the pad area for this fn at this temperature (sizing is off without a target).
+    service_life_h : float
+        Time under load for the long-term sag.
+
+    Examples
+    --------
+    >>> from dataclasses import replace
+    >>> skid = MountDesign(mass_kg=180.0, mounts=4, disturbance_Hz=(24.7, 49.4))
+    >>> skid.mass_per_pad
+    45.0
+    >>> replace(skid, mounts=0)
+    Traceback (most recent call last):
+    ...
+    engine.base.errors.CriteriaError: number of mounts must be a whole number >= 1, not 0
     """
 
     layout: str = "compression"

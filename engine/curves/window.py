@@ -7,8 +7,10 @@ gives every grade's properties at every window point in one vectorised pass.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 
@@ -17,6 +19,12 @@ from engine.base.units import ABSOLUTE_ZERO_C
 from engine.curves.bank import CurveBank
 
 DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
+
+
+def _pair(values: Iterable[Any]) -> tuple[float, float]:
+    """A (low, high) setting as two floats; ValueError or TypeError if it is not two numbers."""
+    low, high = tuple(float(v) for v in values)
+    return low, high
 
 
 @dataclass(frozen=True)
@@ -30,8 +38,34 @@ class DutyPoint:
 class OperatingWindow:
     """Temperatures [degC] x frequencies [Hz], or duty points.
 
-    ``design_frequency_Hz`` is the frequency at which temperature paths are drawn and the
-    damping temperature span is measured; by default the geometric mean of the band.
+    Parameters
+    ----------
+    temp_range : (float, float)
+        Lowest and highest temperature [degC].
+    temp_step : float
+        Spacing of the temperature grid [K].
+    freq_range : (float, float)
+        Lowest and highest frequency [Hz]; the grid is log-spaced.
+    freq_points : int
+        Number of frequencies.
+    duty_points : tuple of DutyPoint
+        Temperature, frequency and share of service time; with them the point indices
+        are taken at the duty points.
+    design_frequency_Hz : float, optional
+        The frequency at which temperature paths are drawn and the damping temperature
+        span is measured; by default the geometric mean of the band.
+
+    Examples
+    --------
+    >>> w = OperatingWindow(temp_range=(-20.0, 40.0), temp_step=10.0, freq_range=(10.0, 1000.0))
+    >>> w.temperatures.tolist()
+    [-20.0, -10.0, 0.0, 10.0, 20.0, 30.0, 40.0]
+    >>> round(w.design_frequency, 6)
+    100.0
+    >>> OperatingWindow(temp_range=(60.0, -20.0))
+    Traceback (most recent call last):
+    ...
+    engine.base.errors.CriteriaError: temperature range 60 to -20 degC is inverted
     """
 
     temp_range: tuple[float, float] = (-20.0, 60.0)
@@ -135,18 +169,18 @@ class OperatingWindow:
                 DutyPoint(float(p["temp_C"]), float(p["freq_Hz"]), float(p.get("share", 1.0)))
                 for p in data.get("duty_points", [])
             )
-            return cls(
-                temp_range=tuple(float(v) for v in data.get("temp_range", (-20.0, 60.0))),
-                temp_step=float(data.get("temp_step", 5.0)),
-                freq_range=tuple(float(v) for v in data.get("freq_range", (5.0, 200.0))),
-                freq_points=int(data.get("freq_points", 13)),
-                duty_points=duty,
-                design_frequency_Hz=(
-                    None
-                    if data.get("design_frequency_Hz") is None
-                    else float(data["design_frequency_Hz"])
-                ),
-            )
+            given: dict = {}
+            if "temp_range" in data:
+                given["temp_range"] = _pair(data["temp_range"])
+            if "temp_step" in data:
+                given["temp_step"] = float(data["temp_step"])
+            if "freq_range" in data:
+                given["freq_range"] = _pair(data["freq_range"])
+            if "freq_points" in data:
+                given["freq_points"] = int(data["freq_points"])
+            if data.get("design_frequency_Hz") is not None:
+                given["design_frequency_Hz"] = float(data["design_frequency_Hz"])
+            return cls(duty_points=duty, **given)  # the rest: the class defaults
         except (KeyError, TypeError, ValueError) as exc:
             raise CriteriaError(f"bad window setting: {exc}") from None
 

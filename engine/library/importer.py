@@ -12,13 +12,16 @@ import csv
 import hashlib
 import io
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from engine.base.errors import InputError
+from engine.base.fields import CATALOG, FIELDS, MODES
 from engine.base.units import (
     ABSOLUTE_ZERO_C,
     FREQUENCY_UNITS,
@@ -32,20 +35,9 @@ from engine.base.units import (
 )
 from engine.library.store import Library, Material
 
-MODES = ("tensile", "shear")
-CATALOG_REQUIRED = ("id", "name", "mode")
-# Optional catalog columns: name -> (expected unit or None, kind)
-CATALOG_OPTIONAL = {
-    "supplier": (None, "text"),
-    "family": (None, "text"),
-    "density": ("kg/m3", "number"),
-    "price": ("per kg", "number"),
-    "hardness": ("Shore A", "number"),
-    "service_min": ("temperature", "number"),
-    "service_max": ("temperature", "number"),
-    "poisson_ratio": (None, "number"),
-    "notes": (None, "text"),
-}
+CATALOG_REQUIRED = ("id", *(f.name for f in CATALOG if f.required))
+# Optional catalog columns: name -> (expected unit or None, kind), from the field table
+CATALOG_OPTIONAL = {f.name: (f.header_unit, f.kind) for f in CATALOG if not f.required}
 SWEEP_REQUIRED = ("material", "temperature", "frequency", "storage_modulus")
 
 
@@ -78,7 +70,7 @@ def _decode(raw: bytes, file: str) -> str:
 def _delimiter(text: str) -> str:
     first = text.splitlines()[0] if text else ""
     counts = {d: first.count(d) for d in (",", ";", "\t")}
-    best = max(counts, key=counts.get)
+    best = max(counts, key=counts.__getitem__)
     return best if counts[best] else ","
 
 
@@ -213,7 +205,7 @@ def _unit(table: RawTable, name: str, header: str, unit: str | None, allowed) ->
             column=header,
         )
     canon = canonical_unit(unit)
-    if canon not in allowed:
+    if canon is None or canon not in allowed:
         raise InputError(
             f"unknown unit '{unit}'; accepted: {', '.join(allowed)}", file=table.file, column=header
         )
@@ -271,26 +263,20 @@ def parse_catalog(table: RawTable) -> list[Material]:
         if expected == "temperature":
             canon = _unit(table, name, header, unit, TEMPERATURE_UNITS) if unit else "degC"
             values = temperature_to_c(values, canon)
+        elif expected in MODULUS_UNITS:  # a modulus, stored in the field's unit (MPa)
+            canon = _unit(table, name, header, unit, tuple(MODULUS_UNITS)) if unit else expected
+            values = modulus_to_pa(values, canon) / MODULUS_UNITS[expected]
         numbers[name] = values
-    checks = {
-        "density": (lambda v: v <= 0, "density must be positive"),
-        "price": (lambda v: v < 0, "price must not be negative"),
-        "hardness": (lambda v: (v < 0) | (v > 100), "Shore A hardness lies between 0 and 100"),
-        "poisson_ratio": (lambda v: (v <= -1) | (v > 0.5), "Poisson's ratio lies in (-1, 0.5]"),
-        "service_min": (lambda v: v < ABSOLUTE_ZERO_C, "temperature below absolute zero"),
-        "service_max": (lambda v: v < ABSOLUTE_ZERO_C, "temperature below absolute zero"),
-    }
-    for name, (test, reason) in checks.items():
-        if name in numbers:
-            bad = test(np.nan_to_num(numbers[name], nan=0.0 if name != "density" else 1.0))
-            if bad.any():
-                row = _first(bad)
-                raise InputError(
-                    f"{table.frame[cols[name][0]].iloc[row - 2]}: {reason}",
-                    file=table.file,
-                    row=row,
-                    column=cols[name][0],
-                )
+    for name, values in numbers.items():
+        bad = ~FIELDS[name].accepts(values)
+        if bad.any():
+            row = _first(bad)
+            raise InputError(
+                f"{table.frame[cols[name][0]].iloc[row - 2]}: {FIELDS[name].rule}",
+                file=table.file,
+                row=row,
+                column=cols[name][0],
+            )
     if "service_min" in numbers and "service_max" in numbers:
         inverted = numbers["service_min"] >= numbers["service_max"]
         if inverted.any():
@@ -305,7 +291,7 @@ def parse_catalog(table: RawTable) -> list[Material]:
     extra_headers = [cols[n][0] for n in cols if n not in known]
     out = []
     for i in range(table.frame.shape[0]):
-        fields = {}
+        fields: dict[str, Any] = {}  # value types by field, as CATALOG_OPTIONAL gives them
         for name, (_, kind) in CATALOG_OPTIONAL.items():
             if name not in cols:
                 continue
@@ -469,7 +455,10 @@ def plan_import(
     """Validate catalogs and sweeps against each other and the library; write nothing."""
     known_sha = library.known_sha256()
     ids = library.existing_ids()
-    files, materials, datasets, skipped = [], [], [], []
+    files: list[dict] = []
+    materials: list[Material] = []
+    datasets: list[dict] = []
+    skipped: list[str] = []
     seen_catalog: dict[str, str] = {}
     for table in catalogs:
         rows = parse_catalog(table)
@@ -522,8 +511,8 @@ def plan_import(
 
 def import_files(
     library: Library,
-    catalogs: list[str | Path | RawTable] = (),
-    sweeps: list[str | Path | RawTable] = (),
+    catalogs: Sequence[str | Path | RawTable] = (),
+    sweeps: Sequence[str | Path | RawTable] = (),
 ):
     """Validate and import files into ``library`` in one transaction (all or nothing)."""
     cat = [c if isinstance(c, RawTable) else read_table(c) for c in catalogs]

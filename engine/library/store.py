@@ -4,41 +4,53 @@ SQLAlchemy 2 Core over SQLite by default (a file path), or any database URL. Mea
 points of a data set are kept as one binary column (float64, little-endian, columns
 temperature [degC], frequency [Hz], storage modulus [Pa], loss factor [-]) so that a
 large import is one insert per data set.
+
+The catalog columns come from the one table of catalog fields,
+:mod:`engine.base.fields`. A library written by an older quietgrade is brought up to
+:data:`SCHEMA_VERSION` when it is opened (:mod:`engine.library.migrations`); one written
+by a newer quietgrade is refused.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
 import json
+import logging
 import os
-from collections.abc import Iterable
+import sqlite3
+from collections.abc import Callable, Iterable
+from contextlib import closing
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 import sqlalchemy as sa
 
-from engine import __version__
+from engine.base import fields
 from engine.base.errors import LibraryError
-from engine.base.units import ABSOLUTE_ZERO_C
+from engine.base.paths import user_data_dir
+from engine.base.version import __version__
+from engine.library import migrations
 
-SCHEMA_VERSION = 1
+log = logging.getLogger(__name__)
 
-CATALOG_FIELDS = (
-    "name",
-    "mode",
-    "supplier",
-    "family",
-    "density",
-    "price",
-    "hardness",
-    "service_min",
-    "service_max",
-    "poisson_ratio",
-    "notes",
-)
+SCHEMA_VERSION = 2  # the last of engine.library.migrations.MIGRATIONS
+
+CATALOG_FIELDS = fields.FIELD_NAMES  # the catalog columns, in table order
+MODES = fields.MODES
 
 _metadata = sa.MetaData()
+_COLUMN_TYPES: dict[str, Callable[[], sa.types.TypeEngine]] = {
+    "text": sa.Text,
+    "choice": lambda: sa.String(16),
+    "number": sa.Float,
+}
+
+
+def _catalog_column(f: fields.CatalogField) -> sa.Column:
+    """The column of one catalog field: text, a short choice or a float [f.unit]."""
+    return sa.Column(f.name, _COLUMN_TYPES[f.kind](), nullable=not f.required)
+
 
 meta_table = sa.Table(
     "meta",
@@ -51,17 +63,7 @@ materials_table = sa.Table(
     "materials",
     _metadata,
     sa.Column("id", sa.String(200), primary_key=True),
-    sa.Column("name", sa.Text, nullable=False),
-    sa.Column("mode", sa.String(16), nullable=False),
-    sa.Column("supplier", sa.Text),
-    sa.Column("family", sa.Text),
-    sa.Column("density", sa.Float),  # [kg/m3]
-    sa.Column("price", sa.Float),  # [currency per kg]
-    sa.Column("hardness", sa.Float),  # [Shore A]
-    sa.Column("service_min", sa.Float),  # [degC]
-    sa.Column("service_max", sa.Float),  # [degC]
-    sa.Column("poisson_ratio", sa.Float),
-    sa.Column("notes", sa.Text),
+    *(_catalog_column(f) for f in fields.CATALOG),  # units: engine.base.fields
     sa.Column("extra", sa.Text, nullable=False, default="{}"),  # JSON of unknown columns
     sa.Column("deleted_at", sa.String(32)),
     sa.Column("updated_at", sa.String(32), nullable=False),
@@ -118,12 +120,15 @@ def _now() -> str:
 
 
 def default_location() -> str:
-    """``QUIETGRADE_DB`` if set, else ``library.sqlite`` in the user's data folder."""
+    """``QUIETGRADE_DB`` if set, else ``library.sqlite`` in the user's data folder.
+
+    The data folder is the platform's own (:func:`engine.base.paths.user_data_dir`); it
+    is created only when a library is opened there.
+    """
     env = os.environ.get("QUIETGRADE_DB")
     if env:
         return env
-    base = os.environ.get("XDG_DATA_HOME") or os.path.join(Path.home(), ".local", "share")
-    return os.path.join(base, "quietgrade", "library.sqlite")
+    return str(user_data_dir() / "library.sqlite")
 
 
 def _url(location: str) -> str:
@@ -142,19 +147,6 @@ def blob_to_points(blob: bytes) -> np.ndarray:
     return np.frombuffer(blob, dtype="<f8").reshape(-1, 4).copy()
 
 
-MODES = ("tensile", "shear")  # the modulus a grade's data give: E (tensile) or G (shear)
-_TEXT_FIELDS = ("supplier", "family", "notes")
-# Numeric catalog fields: name -> (test that a value is accepted, what is accepted)
-_NUMBER_FIELDS = {
-    "density": (lambda v: v > 0, "a positive density [kg/m3]"),
-    "price": (lambda v: v >= 0, "a price of zero or more"),
-    "hardness": (lambda v: 0 <= v <= 100, "a Shore A hardness between 0 and 100"),
-    "service_min": (lambda v: v >= ABSOLUTE_ZERO_C, "a temperature above absolute zero [degC]"),
-    "service_max": (lambda v: v >= ABSOLUTE_ZERO_C, "a temperature above absolute zero [degC]"),
-    "poisson_ratio": (lambda v: -1 < v <= 0.5, "a Poisson's ratio in (-1, 0.5]"),
-}
-
-
 def _checked_catalog_changes(material_id: str, changes: dict, old: dict) -> dict:
     """``changes`` to catalog fields if the import would accept them; else LibraryError.
 
@@ -163,26 +155,30 @@ def _checked_catalog_changes(material_id: str, changes: dict, old: dict) -> dict
     out = {}
     for name, value in changes.items():
         where = f"grade '{material_id}', field '{name}'"
-        if name in ("name", "mode"):
-            if not isinstance(value, str) or not value.strip():
-                raise LibraryError(f"{where}: {value!r} is not accepted; give non-blank text")
-            if name == "mode":
-                value = value.strip().lower()
-                if value not in MODES:
-                    raise LibraryError(
-                        f"{where}: mode '{changes[name]}' is not one of {', '.join(MODES)}"
-                    )
-        elif name in _TEXT_FIELDS:
-            if value is not None and not isinstance(value, str):
-                raise LibraryError(f"{where}: {value!r} is not accepted; give text or None")
-        elif value is not None:
-            accepted, what = _NUMBER_FIELDS[name]
+        spec = fields.FIELDS[name]
+        blank = value is None or (isinstance(value, str) and not value.strip())
+        if spec.required and blank:
+            raise LibraryError(f"{where}: {value!r} is not accepted; give non-blank text")
+        if value is None:
+            pass
+        elif spec.kind == "number":
             is_number = isinstance(value, int | float | np.number) and not isinstance(
                 value, bool | np.bool_
             )
-            if not (is_number and np.isfinite(value) and accepted(value)):
-                raise LibraryError(f"{where}: {value!r} is not accepted; give {what} or None")
+            if not (is_number and np.isfinite(value) and spec.accepts([value])[0]):
+                raise LibraryError(
+                    f"{where}: {value!r} is not accepted; give {spec.accepted} or None"
+                )
             value = float(value)
+        elif not isinstance(value, str):
+            give = "non-blank text" if spec.required else f"{spec.accepted} or None"
+            raise LibraryError(f"{where}: {value!r} is not accepted; give {give}")
+        elif spec.kind == "choice":
+            value = value.strip().lower()
+            if value not in spec.choices:
+                raise LibraryError(
+                    f"{where}: {name} '{changes[name]}' is not one of " + ", ".join(spec.choices)
+                )
         out[name] = value
     lo = out.get("service_min", old["service_min"])
     hi = out.get("service_max", old["service_max"])
@@ -216,7 +212,10 @@ def _dataset_query(*extra):
 
 @dataclass
 class Material:
-    """One catalog row. Units: density [kg/m3], hardness [Shore A], service [degC]."""
+    """One catalog row: the fields of :data:`engine.base.fields.CATALOG` in its order.
+
+    Units: density [kg/m3], hardness [Shore A], service [degC], bulk modulus [MPa].
+    """
 
     id: str
     name: str
@@ -229,6 +228,7 @@ class Material:
     service_min: float | None = None
     service_max: float | None = None
     poisson_ratio: float | None = None
+    bulk_modulus: float | None = None  # [MPa]
     notes: str | None = None
     extra: dict = field(default_factory=dict)
 
@@ -269,18 +269,46 @@ class ImportSummary:
 
 
 class Library:
-    """The material library at ``location`` (file path or database URL)."""
+    """The material library at ``location`` (file path or database URL).
+
+    Parameters
+    ----------
+    location : str, optional
+        A SQLite file path or an SQLAlchemy database URL; by default ``QUIETGRADE_DB``,
+        else ``library.sqlite`` in the platform's user-data folder. A library of an older
+        schema is migrated when it is opened.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> lib = Library(str(Path(tempfile.mkdtemp()) / "team.sqlite"))
+    >>> lib.materials()
+    []
+    >>> lib.material("NOPE")
+    Traceback (most recent call last):
+    ...
+    engine.base.errors.LibraryError: no grade 'NOPE' in the library ...team.sqlite
+    """
 
     def __init__(self, location: str | None = None) -> None:
         self.location = location or default_location()
+        self.backup: Path | None = None  # the copy taken before a schema update, if any
         try:
             self.engine = sa.create_engine(_url(self.location))
+            stored = self._schema_version()
+            if stored is not None and stored < SCHEMA_VERSION:
+                self._migrate(stored)
+                stored = self._schema_version()
+            if stored is not None and stored != SCHEMA_VERSION:
+                newer = "; it was written by a newer quietgrade" if stored > SCHEMA_VERSION else ""
+                raise LibraryError(
+                    f"{self.location}: library schema version {stored}, this quietgrade "
+                    f"reads version {SCHEMA_VERSION}{newer}"
+                )
             with self.engine.begin() as conn:
                 _metadata.create_all(conn)
-                found = conn.execute(
-                    sa.select(meta_table.c.value).where(meta_table.c.key == "schema_version")
-                ).scalar()
-                if found is None:
+                if stored is None and self._schema_version(conn) is None:
                     conn.execute(
                         meta_table.insert(),
                         [
@@ -288,15 +316,114 @@ class Library:
                             {"key": "library_version", "value": "0"},
                         ],
                     )
-                elif int(found) != SCHEMA_VERSION:
-                    raise LibraryError(
-                        f"{self.location}: library schema version {found}, this quietgrade "
-                        f"reads version {SCHEMA_VERSION}"
-                    )
         except sa.exc.DatabaseError as exc:
             raise LibraryError(f"{self.location}: not a quietgrade library ({exc.orig})") from None
         except sa.exc.ArgumentError as exc:
             raise LibraryError(f"{self.location}: not a database location ({exc})") from None
+
+    # -- schema ---------------------------------------------------------------------
+    def _schema_version(self, conn: sa.Connection | None = None) -> int | None:
+        """The schema version the library records; None for a new (empty) database."""
+        if conn is None:
+            with self.engine.connect() as own:
+                return self._schema_version(own)
+        if not sa.inspect(conn).has_table(meta_table.name):
+            return None
+        found = conn.execute(
+            sa.select(meta_table.c.value).where(meta_table.c.key == "schema_version")
+        ).scalar()
+        if found is None:
+            return None
+        try:
+            return int(found)
+        except ValueError:
+            raise LibraryError(
+                f"{self.location}: library schema version {found!r} is not a number"
+            ) from None
+
+    def _migrate(self, stored: int) -> None:
+        """Bring a library of schema version ``stored`` up to :data:`SCHEMA_VERSION`.
+
+        All pending migrations run in one transaction, so a failure leaves the library
+        as it was. A SQLite file is first copied to ``<file>.v<stored>.bak`` beside it.
+        """
+        try:
+            steps = migrations.pending(stored, SCHEMA_VERSION)
+        except ValueError as exc:
+            raise LibraryError(f"{self.location}: cannot update the library: {exc}") from None
+        backup = self._backup_file(stored)
+        current = None
+        try:
+            with self.engine.begin() as conn:
+                # The version row is written first: that opens the write transaction
+                # (SQLite's driver begins one only at the first change of data, and the
+                # migrations' DDL must run inside it), and it finds out whether another
+                # process has updated the library meanwhile.
+                claimed = conn.execute(
+                    meta_table.update()
+                    .where(meta_table.c.key == "schema_version", meta_table.c.value == str(stored))
+                    .values(value=str(SCHEMA_VERSION))
+                ).rowcount
+                if claimed:
+                    for step in steps:
+                        current = step
+                        step.apply(conn)
+                    current = None
+                    self._bump(conn)
+        except Exception as exc:
+            if backup is not None:
+                backup.unlink(missing_ok=True)  # the library is unchanged: no copy needed
+            if current is None:
+                raise
+            reason = getattr(exc, "orig", None) or exc
+            raise LibraryError(
+                f"{self.location}: migration {current.number} ({current.description}) "
+                f"failed, the library is left at schema version {stored}: "
+                f"{type(reason).__name__}: {reason}"
+            ) from exc
+        if not claimed:
+            if backup is not None:
+                backup.unlink(missing_ok=True)
+            return
+        self.backup = backup
+        log.info(
+            "%s: library schema updated from version %d to %d%s",
+            self.location,
+            stored,
+            SCHEMA_VERSION,
+            f" (the version {stored} file is kept as {backup})" if backup else "",
+        )
+
+    def _backup_file(self, stored: int) -> Path | None:
+        """Copy a SQLite library file to ``<file>.v<stored>.bak``; None for a server.
+
+        An existing copy of that name is kept: the new one gets a number
+        (``<file>.v<stored>.2.bak``, ...).
+        """
+        url = self.engine.url
+        database = url.database or ""
+        if url.get_backend_name() != "sqlite" or database in ("", ":memory:"):
+            return None
+        if database.startswith("file:") or url.query.get("uri"):
+            return None  # an SQLite URI: not a plain file this code can name a copy for
+        source = Path(database)
+        target = source.with_name(f"{source.name}.v{stored}.bak")
+        k = 2
+        while target.exists():
+            target = source.with_name(f"{source.name}.v{stored}.{k}.bak")
+            k += 1
+        try:
+            # SQLite's own copy: consistent even if a crashed writer left a journal.
+            with closing(sqlite3.connect(source)) as src, closing(sqlite3.connect(target)) as dst:
+                src.backup(dst)
+        except (OSError, sqlite3.Error) as exc:
+            target.unlink(missing_ok=True)
+            raise LibraryError(
+                f"{self.location}: library schema version {stored} needs updating to "
+                f"{SCHEMA_VERSION}, but the copy {target} could not be written first ({exc}); "
+                "the library is unchanged"
+            ) from None
+        return target
 
     # -- versions -------------------------------------------------------------------
     def version(self) -> int:
@@ -305,7 +432,7 @@ class Library:
             return int(
                 conn.execute(
                     sa.select(meta_table.c.value).where(meta_table.c.key == "library_version")
-                ).scalar()
+                ).scalar_one()
             )
 
     @staticmethod
@@ -373,7 +500,7 @@ class Library:
                 sa.select(datasets_table.c.points).where(
                     datasets_table.c.dataset_id == newest.dataset_id
                 )
-            ).scalar()
+            ).scalar_one()
         return newest, blob_to_points(blob)
 
     def imports(self) -> list[dict]:
@@ -428,7 +555,9 @@ class Library:
                         imported_at=now,
                     )
                 )
-                import_ids[f["key"]] = result.inserted_primary_key[0]
+                key = result.inserted_primary_key
+                assert key is not None  # an insert of one row has its primary key
+                import_ids[f["key"]] = key[0]
             ids = [m.id for m in materials]
             existing_rows = {}
             for start in range(0, len(ids), 500):

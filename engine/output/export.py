@@ -1,554 +1,41 @@
-"""Shortlist export: what every format shares, the CSV file and the choice of format.
+"""Writing a shortlist file: the extension (.csv, .xlsx, .html) picks the format.
 
-The export has three modules, in layers:
-
-- ``engine.output.export`` (this one): the rows every format writes (the shortlist, the
-  criteria, the window properties, the provenance), the CSV file, and
-  :func:`write_shortlist`, which picks the format from the file extension.
-- :mod:`engine.output.workbook` (the XLSX shortlist) and :mod:`engine.output.report` (the
-  self-contained HTML report) build on the rows of this module and import it.
-
-This module imports neither of the two when it loads (so a CSV needs neither openpyxl
-nor Plotly, and no module waits on another that is still loading): :func:`write_shortlist`
-imports the one it needs when it is called.
-
-Every file carries the caution of :mod:`engine.base.caution`. Units at this edge: moduli in
-MPa, temperatures in °C (``degC`` inside the unit brackets of column headings and setting
-names, as in the import format; °C in sentences), frequencies in Hz, pad area in mm2, sag
-in mm.
-
-CSV layout: UTF-8 with a byte-order mark (spreadsheets then read the text correctly), one
-header row, one row per grade (passing grades in rank order, then the excluded ones),
-text cells always quoted, and after the data a few lines that start with ``#``: the
-quietgrade version and date, how the intervals were made (or that they were not),
-grades that could not be ranked, and last the caution.
-``pandas.read_csv(path, comment="#")`` reads the file back to exactly the grade rows; a
-spreadsheet shows the ``#`` lines below the table. Text cells that begin with ``=``,
-``+``, ``-``, ``@``, a tab or a carriage return get a leading ``'`` so that no
-spreadsheet runs them as a formula (common practice).
+The rows and the CSV are :mod:`engine.output.rows`, the workbook
+:mod:`engine.output.workbook`, the report :mod:`engine.output.report`; the names of
+:mod:`engine.output.rows` that callers use are re-exported here.
 """
 
 from __future__ import annotations
 
-import io
-import math
 from pathlib import Path
 
-import numpy as np
-from scipy.interpolate import make_interp_spline
-
-from engine.base.caution import CAUTION
 from engine.base.errors import CriteriaError, InputError
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
-from engine.selection.ranking import RankResult
+from engine.output.rows import (
+    MOUNT_COLUMNS,
+    PROVENANCE_COLUMNS,
+    RANK_INTERVAL_COLUMNS,
+    WINDOW_COLUMNS,
+    criteria_rows,
+    finite,
+    index_columns,
+    interval_columns,
+    interval_heading,
+    intervals_note,
+    provenance_rows,
+    shortlist_csv,
+    shortlist_header,
+    shortlist_rows,
+    window_properties,
+    window_rows,
+    yes_no,
+)
+from engine.selection.results import RankResult
 
 EXTENSIONS = (".csv", ".xlsx", ".html")
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
-# -- rows --------------------------------------------------------------------------------
-def finite(value) -> float | None:
-    """A float, or None where the value is missing or not finite."""
-    if value is None:
-        return None
-    v = float(value)
-    return v if math.isfinite(v) else None
-
-
-def _finite_max(values) -> float | None:
-    a = np.asarray(values, dtype=float)
-    a = a[np.isfinite(a)]
-    return float(a.max()) if a.size else None
-
-
-def _finite_min(values) -> float | None:
-    a = np.asarray(values, dtype=float)
-    a = a[np.isfinite(a)]
-    return float(a.min()) if a.size else None
-
-
-def yes_no(flag: bool) -> str:
-    """A flag as the text the exports write: ``"yes"`` or ``"no"``."""
-    return "yes" if flag else "no"
-
-
-def index_columns(result: RankResult) -> dict[str, str]:
-    """Column heading of every chosen index, e.g. ``"loss_factor (worst) [-]"``.
-
-    Point indices name their aggregation over the window; window indices (one number per
-    grade for the whole window) say ``window``.
-    """
-    out = {}
-    for choice in result.criteria.indices:
-        spec = result.specs[choice.name]
-        how = choice.aggregate if spec.kind == "point" else "window"
-        unit = f" [{spec.unit}]" if spec.unit else ""
-        out[choice.name] = f"{choice.name} ({how}){unit}"
-    return out
-
-
-MOUNT_COLUMNS = (
-    "pad area [mm2]",
-    "fn min [Hz]",
-    "fn max [Hz]",
-    "worst transmissibility [-]",
-    "max static deflection [mm]",
-    "max static strain [-]",
-    "long-term sag [mm]",
-)
-# Mount columns with a 95 % interval, and the engine.selection.spread summary figure behind each.
-_MOUNT_SPREAD = {
-    "fn min [Hz]": "fn_min_Hz",
-    "fn max [Hz]": "fn_max_Hz",
-    "worst transmissibility [-]": "worst_transmissibility",
-    "max static deflection [mm]": "max_static_deflection_mm",
-}
-RANK_INTERVAL_COLUMNS = ("rank interval best", "rank interval worst")
-
-
-def interval_heading(heading: str, end: str) -> str:
-    """Heading of the ``end`` ("low" or "high") companion of a column, before its unit:
-    ``"fn min [Hz]"`` -> ``"fn min low [Hz]"``."""
-    name, bracket, unit = heading.rpartition(" [")
-    if bracket and heading.endswith("]"):
-        return f"{name} {end} [{unit}"
-    return f"{heading} {end}"
-
-
-def interval_columns(result: RankResult) -> dict[str, tuple[str, str]]:
-    """Every column that carries a 95 % interval -> the headings of its low and high."""
-    headings = list(index_columns(result).values())
-    if result.mount is not None:
-        headings += list(_MOUNT_SPREAD)
-    return {h: (interval_heading(h, "low"), interval_heading(h, "high")) for h in headings}
-
-
-def _mount_figures(figs: dict | None, spread=None) -> dict:
-    """Key mount figures of one grade from :meth:`MountResult.grade`, with the intervals
-    of ``spread`` (an :class:`engine.selection.spread.GradeSpread`) where it has them.
-
-    The natural-frequency range is over the window temperatures; the worst
-    transmissibility is the largest over the window temperatures and the disturbances;
-    the static deflection the largest over the window temperatures.
-    """
-    out = {}
-    for heading in MOUNT_COLUMNS:  # in the order of the header
-        out[heading] = None
-        if heading in _MOUNT_SPREAD:
-            out.update(dict.fromkeys(interval_heading(heading, e) for e in ("low", "high")))
-    if figs is None:
-        return out
-    out.update(
-        {
-            "pad area [mm2]": finite(figs["area_mm2"]),
-            "fn min [Hz]": _finite_min(figs["natural_frequency_Hz"]),
-            "fn max [Hz]": _finite_max(figs["natural_frequency_Hz"]),
-            "worst transmissibility [-]": _finite_max(figs["transmissibility"]),
-            "max static deflection [mm]": _finite_max(figs["static_deflection_mm"]),
-            "max static strain [-]": _finite_max(figs["static_strain"]),
-            "long-term sag [mm]": finite(figs["sag_mm"]),
-        }
-    )
-    summary = None if spread is None else spread.mount_summary
-    if summary:
-        for heading, key in _MOUNT_SPREAD.items():
-            low, high = summary[key]
-            out[interval_heading(heading, "low")] = finite(low)
-            out[interval_heading(heading, "high")] = finite(high)
-    return out
-
-
-def shortlist_header(result: RankResult) -> list[str]:
-    """The column headings of :func:`shortlist_rows`, in order (also without any grade).
-
-    Each column with a 95 % interval (:func:`interval_columns`) is followed by its low
-    and high; they are empty where no interval was computed (:mod:`engine.selection.spread`).
-    """
-    spread = interval_columns(result)
-    head = ["rank", *RANK_INTERVAL_COLUMNS, "id", "name", "supplier", "family"]
-    head += ["price [per kg]", "density [kg/m3]"]
-    for heading in index_columns(result).values():
-        head += [heading, *spread[heading]]
-    head += ["score", "pareto", "passed", "reason", "failed constraints", "extrapolated"]
-    if result.mount is not None:
-        for heading in MOUNT_COLUMNS:
-            head += [heading, *spread.get(heading, ())]
-    return [*head, "notes"]
-
-
-def shortlist_rows(result: RankResult) -> list[dict]:
-    """One row per grade: passing grades in rank order, then the excluded ones.
-
-    Values are numbers (None where unknown) or short texts; the keys are the column
-    headings of the exports (:func:`shortlist_header`). Mount columns appear when the
-    ranking checked a mount.
-    """
-    columns = index_columns(result)
-    spread = interval_columns(result)
-    pareto_on = result.criteria.pareto is not None
-    rows = []
-    for g in result.grades:
-        best, worst = g.rank_interval or (None, None)
-        row = {
-            "rank": g.rank,
-            RANK_INTERVAL_COLUMNS[0]: best,
-            RANK_INTERVAL_COLUMNS[1]: worst,
-            "id": g.id,
-            "name": g.name,
-            "supplier": g.supplier,
-            "family": g.family,
-            "price [per kg]": finite(g.price),
-            "density [kg/m3]": finite(g.density),
-        }
-        for name, heading in columns.items():
-            row[heading] = finite(g.indices.get(name))
-            low, high = g.index_interval(name)
-            row[spread[heading][0]] = finite(low)
-            row[spread[heading][1]] = finite(high)
-        row["score"] = finite(g.score)
-        row["pareto"] = yes_no(g.pareto) if pareto_on and g.passed else None
-        row["passed"] = "pass" if g.passed else "fail"
-        row["reason"] = g.reason
-        row["failed constraints"] = "; ".join(f.text() for f in g.failures) or None
-        row["extrapolated"] = yes_no(g.extrapolated)
-        if result.mount is not None:
-            row.update(_mount_figures(g.mount, g.spread))
-        row["notes"] = "; ".join(g.notes) or None
-        rows.append(row)
-    return rows
-
-
-def _one_line(text: str) -> str:
-    return " ".join(str(text).split())
-
-
-def intervals_note(result: RankResult) -> str:
-    """How the rank intervals and the low/high columns were made, in one sentence."""
-    if result.spread is None:
-        return "Rank intervals and low/high values were not computed for this ranking."
-    return result.spread.describe()
-
-
-def _trailer_lines(result: RankResult) -> list[str]:
-    """Lines after the table: version and date, the intervals, grades not ranked, the
-    caution last."""
-    lines = [f"quietgrade {result.engine_version}, ranked {result.created_at} (UTC)"]
-    lines.append(intervals_note(result))
-    for gid, msg in sorted(result.fit_errors.items()):
-        lines.append(f"not ranked, master curve failed: {_one_line(gid)}: {_one_line(msg)}")
-    lines.append(f"caution: {CAUTION}")
-    return lines
-
-
-# -- criteria, window properties, provenance ---------------------------------------------------
-_CONSTRAINT_LABELS = {
-    "service_covers_window": "service range must cover the window",
-    "hardness_range": "hardness range [Shore A]",
-    "max_price": "highest price [per kg]",
-    "min_loss_factor": "lowest worst-case loss factor [-]",
-    "max_transmissibility": "highest transmissibility at the disturbance [-]",
-    "fn_range_Hz": "natural-frequency range [Hz]",
-    "max_static_strain": "highest static strain incl. long-term sag [-]",
-    "allow_extrapolation": "extrapolation allowed",
-}
-_MOUNT_LABELS = {
-    "layout": ("pad layout", None),
-    "mass_kg": ("total supported mass [kg]", None),
-    "mounts": ("pads sharing the mass", None),
-    "area_mm2": ("loaded area of one pad [mm2]", None),
-    "thickness_mm": ("rubber thickness [mm]", None),
-    "shape": ("pad shape", None),
-    "shape_factor": ("shape factor [-]", "from the pad shape"),
-    "k_factor": ("compression coefficient k [-]", "from the hardness"),
-    "disturbance_Hz": ("disturbance frequencies [Hz]", None),
-    "target_fn_Hz": ("target natural frequency [Hz]", "off: pad area as given"),
-    "sizing_temp_C": ("sizing temperature [degC]", None),
-    "service_life_h": ("service life for the sag [h]", None),
-}
-
-
-def _setting(value):
-    """A criteria value as a spreadsheet cell: numbers stay numbers."""
-    if isinstance(value, bool):
-        return yes_no(value)
-    if isinstance(value, int | float):
-        return value
-    if isinstance(value, list | tuple):
-        if len(value) == 2 and all(isinstance(v, int | float) for v in value):
-            return f"{value[0]:g} to {value[1]:g}"
-        return ", ".join(f"{v:g}" if isinstance(v, int | float) else str(v) for v in value)
-    return str(value)
-
-
-def criteria_rows(result: RankResult) -> list[tuple[str, str, object]]:
-    """(section, setting, value) rows that describe everything the ranking used."""
-    c = result.criteria
-    w = c.window
-    rows: list[tuple[str, str, object]] = [
-        ("report", "ranked at (UTC)", result.created_at),
-        ("report", "quietgrade version", result.engine_version),
-        ("report", "grades ranked", len(result.grades)),
-        ("report", "grades passing", len(result.shortlist)),
-        ("report", "grades excluded", len(result.excluded)),
-        ("report", "intervals", intervals_note(result)),
-    ]
-    for gid, msg in sorted(result.fit_errors.items()):
-        rows.append(("report", f"not ranked: {gid}", f"master curve failed: {msg}"))
-    rows += [
-        ("window", "lowest temperature [degC]", w.temp_range[0]),
-        ("window", "highest temperature [degC]", w.temp_range[1]),
-        ("window", "temperature step [K]", w.temp_step),
-        ("window", "lowest frequency [Hz]", w.freq_range[0]),
-        ("window", "highest frequency [Hz]", w.freq_range[1]),
-        ("window", "frequencies in the band", w.freq_points),
-        ("window", "design frequency [Hz]", w.design_frequency),
-    ]
-    for k, p in enumerate(w.duty_points, start=1):
-        rows.append(
-            (
-                "window",
-                f"duty point {k}",
-                f"{p.temperature_C:g} °C, {p.frequency_Hz:g} Hz, share {p.share:g}",
-            )
-        )
-    rows.append(("design", "design type", c.design))
-    rows.append(("design", "loss-factor threshold of the damping span [-]", c.eta_threshold))
-    for choice in c.indices:
-        spec = result.specs[choice.name]
-        section = f"index {choice.name}"
-        rows += [
-            (section, "label", spec.label),
-            (section, "unit", spec.unit or "-"),
-            (section, "weight", choice.weight),
-            (
-                section,
-                "aggregation",
-                choice.aggregate if spec.kind == "point" else "one value for the window",
-            ),
-            (
-                section,
-                "direction",
-                "higher is better" if spec.higher_is_better else "lower is better",
-            ),
-        ]
-        if choice.formula is not None:
-            rows.append((section, "formula", choice.formula))
-    rows.append(("ranking", "Pareto pair", "off" if c.pareto is None else ", ".join(c.pareto)))
-    for key, value in c.constraints.to_dict().items():
-        label = _CONSTRAINT_LABELS.get(key, key)
-        if value is None and key == "max_static_strain" and result.mount is not None:
-            value = f"{result.mount.strain_limit:g} (the layout's common-practice limit)"
-        rows.append(("constraint", label, "off" if value is None else _setting(value)))
-    if c.mount is not None:
-        for key, value in c.mount.to_dict().items():
-            label, when_none = _MOUNT_LABELS.get(key, (key, None))
-            shown = (when_none or "off") if value is None else _setting(value)
-            rows.append(("mount", label, shown))
-        rows.append(("mount", "mass per pad [kg]", c.mount.mass_per_pad))
-    return rows
-
-
-WINDOW_COLUMNS = (
-    "rank",
-    "id",
-    "name",
-    "passed",
-    "temperature [degC]",
-    "frequency [Hz]",
-    "storage modulus E' [MPa]",
-    "loss modulus E'' [MPa]",
-    "loss factor [-]",
-    "extrapolated",
-)
-
-
-def window_properties(result: RankResult):
-    """E', E'', flags of every grade at the window temperatures and the design frequency.
-
-    Returns (frequency [Hz], storage (grades, T) [Pa], loss [Pa], extrapolated, note)
-    with rows in the order of ``result.window_props.ids``.
-
-    Notes
-    -----
-    Sources, in order of preference (the note says which one was used):
-    the temperature path the ranking evaluated at the design frequency (``path_*``,
-    1 K steps) when every window temperature lies on it; else the window grid when the
-    design frequency is one of the band frequencies (the default design frequency, the
-    geometric mean of the band, is the middle one of an odd number of points); else the
-    path interpolated linearly in log10 modulus between its two neighbouring points,
-    flagged as extrapolated where either neighbour is; else, without a path, the grid at
-    the band frequency nearest the design frequency.
-    """
-    props = result.window_props
-    temps = np.asarray(props.temperatures, dtype=float)
-    design_f = result.criteria.window.design_frequency
-    tensile = "moduli are tensile-equivalent (shear data converted with E = 2(1 + nu) G)"
-    at_design = f"At the design frequency {design_f:.4g} Hz"
-    has_path = props.path_storage is not None
-    if has_path:
-        pt = np.asarray(props.path_temperatures, dtype=float)
-        on_path = np.isclose(pt[:, None], temps[None, :], atol=1e-9, rtol=0)
-        if on_path.any(axis=0).all():
-            idx = on_path.argmax(axis=0)
-            note = f"{at_design}, from the temperature path of the ranking; {tensile}."
-            return (
-                design_f,
-                props.path_storage[:, idx],
-                props.path_loss[:, idx],
-                props.path_extrapolated[:, idx],
-                note,
-            )
-    on_band = np.isclose(props.frequencies, design_f, rtol=1e-9, atol=0)
-    if on_band.any() or not has_path:
-        j = (
-            int(np.argmax(on_band))
-            if on_band.any()
-            else int(np.argmin(np.abs(np.log10(props.frequencies / design_f))))
-        )
-        f_used = float(props.frequencies[j])
-        if on_band.any():
-            note = f"{at_design}, from the window grid of the ranking; {tensile}."
-        else:
-            note = (
-                f"At {f_used:.4g} Hz, the band frequency nearest the design frequency "
-                f"{design_f:.4g} Hz, from the window grid of the ranking; {tensile}."
-            )
-        return (
-            f_used,
-            props.storage[:, :, j],
-            props.loss[:, :, j],
-            props.extrapolated[:, :, j],
-            note,
-        )
-    log_s = make_interp_spline(pt, np.log10(props.path_storage), k=1, axis=1)(temps)
-    log_l = make_interp_spline(pt, np.log10(props.path_loss), k=1, axis=1)(temps)
-    right = np.clip(np.searchsorted(pt, temps), 0, pt.size - 1)
-    left = np.clip(np.searchsorted(pt, temps, side="right") - 1, 0, pt.size - 1)
-    extrap = props.path_extrapolated[:, left] | props.path_extrapolated[:, right]
-    note = (
-        f"{at_design}, from the temperature path of the ranking (1 K steps), interpolated "
-        f"linearly in log modulus at window temperatures between path points; {tensile}."
-    )
-    return design_f, 10.0**log_s, 10.0**log_l, extrap, note
-
-
-def window_rows(result: RankResult) -> tuple[list[dict], str]:
-    """Rows of the window-properties table (grades in result order) and its note."""
-    freq, storage, loss, extrap, note = window_properties(result)
-    where = {gid: k for k, gid in enumerate(result.window_props.ids)}
-    temps = result.window_props.temperatures
-    rows = []
-    for g in result.grades:
-        k = where[g.id]
-        for i, t in enumerate(temps):
-            rows.append(
-                {
-                    "rank": g.rank,
-                    "id": g.id,
-                    "name": g.name,
-                    "passed": "pass" if g.passed else "fail",
-                    "temperature [degC]": float(t),
-                    "frequency [Hz]": float(freq),
-                    "storage modulus E' [MPa]": finite(storage[k, i] / 1e6),
-                    "loss modulus E'' [MPa]": finite(loss[k, i] / 1e6),
-                    "loss factor [-]": finite(loss[k, i] / storage[k, i]),
-                    "extrapolated": yes_no(bool(extrap[k, i])),
-                }
-            )
-    return rows, note
-
-
-PROVENANCE_COLUMNS = (
-    "record",
-    "grade id",
-    "file name",
-    "file kind",
-    "sha256",
-    "size [bytes]",
-    "rows",
-    "points",
-    "data hash",
-    "imported at",
-)
-
-
-def provenance_rows(result: RankResult, library: Library | None) -> list[dict]:
-    """Library imports, then the data set each ranked grade's master curve was fitted to.
-
-    The data set used is the newest one of the grade (as :func:`engine.library.fits.fit_library`
-    takes it).
-    """
-    if library is None:
-        return []
-    rows = []
-    for imp in library.imports():
-        rows.append(
-            {
-                "record": "library import",
-                "grade id": None,
-                "file name": imp["file_name"],
-                "file kind": imp["kind"],
-                "sha256": imp["sha256"],
-                "size [bytes]": imp["size_bytes"],
-                "rows": imp["rows"],
-                "points": None,
-                "data hash": None,
-                "imported at": imp["imported_at"],
-            }
-        )
-    newest = {}
-    for ds in library.datasets():
-        newest[ds.material_id] = ds  # ordered by data set id within a grade
-    for g in result.grades:
-        ds = newest.get(g.id)
-        rows.append(
-            {
-                "record": "data set used",
-                "grade id": g.id,
-                "file name": ds.file_name if ds else "not in this library",
-                "file kind": "sweep" if ds else None,
-                "sha256": ds.sha256 if ds else None,
-                "size [bytes]": None,
-                "rows": None,
-                "points": ds.n_points if ds else None,
-                "data hash": ds.data_hash if ds else None,
-                "imported at": ds.imported_at if ds else None,
-            }
-        )
-    return rows
-
-
-# -- CSV -----------------------------------------------------------------------------------
-def _csv_cell(value) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return yes_no(value)
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
-        return "" if not math.isfinite(value) else f"{value:.6g}"
-    text = str(value)
-    if text.startswith(_FORMULA_START):
-        text = "'" + text
-    return '"' + text.replace('"', '""') + '"'
-
-
-def shortlist_csv(result: RankResult) -> bytes:
-    """The shortlist as CSV bytes (UTF-8 with BOM); see the module notes for the layout."""
-    rows = shortlist_rows(result)
-    header = shortlist_header(result)
-    out = io.StringIO()
-    out.write(",".join(_csv_cell(h) for h in header) + "\r\n")
-    for row in rows:
-        out.write(",".join(_csv_cell(row[h]) for h in header) + "\r\n")
-    for line in _trailer_lines(result):
-        out.write(f"# {line}\r\n")
-    return ("\ufeff" + out.getvalue()).encode("utf-8")
-
-
-# -- files -----------------------------------------------------------------------------------
 def write_shortlist(
     result: RankResult,
     path: str | Path,
@@ -557,9 +44,41 @@ def write_shortlist(
 ) -> Path:
     """Write the shortlist to ``path``; the extension (.csv, .xlsx, .html) picks the format.
 
-    The parent folder is created when missing. Returns the path written. A path that
-    cannot be written (no permission, a folder in the way, a full disk) raises
-    InputError naming the file and the reason.
+    The parent folder is created when missing. Every format carries the caution.
+
+    Parameters
+    ----------
+    result : RankResult
+        The ranking to write.
+    path : str or Path
+        ``.csv`` (grade rows), ``.xlsx`` (workbook of five sheets) or ``.html`` (a
+        self-contained report with its charts).
+    library : Library, optional
+        Adds the provenance of each grade's data (files, hashes, import dates).
+    curves : dict of MasterCurve, optional
+        Master curves for the report's charts.
+
+    Returns
+    -------
+    Path
+        The path written.
+
+    Raises
+    ------
+    CriteriaError
+        For an extension that is not a shortlist format.
+    InputError
+        For a path that cannot be written (no permission, a folder in the way, a full
+        disk), naming the file and the reason.
+
+    Examples
+    --------
+    >>> write_shortlist(None, "shortlist.pdf")
+    Traceback (most recent call last):
+    ...
+    engine.base.errors.CriteriaError: shortlist file shortlist.pdf: '.pdf' is not a ... .html
+
+    A whole selection that ends in a shortlist file is the example of :mod:`engine.api`.
     """
     p = Path(path)
     suffix = p.suffix.lower()

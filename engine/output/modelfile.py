@@ -97,11 +97,11 @@ from pathlib import Path
 
 import numpy as np
 
-from engine import __version__
 from engine.base.caution import CAUTION
 from engine.base.errors import FitError, InputError
+from engine.base.version import __version__
 from engine.curves.mastercurve import MasterCurve
-from engine.output.export import _FORMULA_START, _csv_cell, finite, yes_no
+from engine.output.rows import FORMULA_START, csv_cell, finite, yes_no
 from engine.physics.prony import PronySeries
 from engine.physics.shift import ShiftLaw, wlf_change_reference
 
@@ -160,6 +160,9 @@ def _optional_floats(values) -> list[float | None] | None:
 
 def _curve_wlf(law: ShiftLaw, reference_C: float) -> tuple[float | None, float | None]:
     """WLF constants of ``law`` at ``reference_C``; (None, None) below its divergence."""
+    # Called for a law with a WLF branch only, which has all three constants.
+    assert law.wlf_c1 is not None and law.wlf_c2 is not None
+    assert law.wlf_reference_C is not None
     try:
         c1, c2 = wlf_change_reference(law.wlf_c1, law.wlf_c2, law.wlf_reference_C, reference_C)
     except FitError:
@@ -190,6 +193,10 @@ def model_record(curve: MasterCurve, material_id: str) -> dict:
     has_wlf = law.kind in ("WLF", "WLF+Arrhenius")
     has_arrhenius = law.kind in ("Arrhenius", "WLF+Arrhenius")
     curve_c1, curve_c2 = _curve_wlf(law, curve.reference_C) if has_wlf else (None, None)
+    activation_kJ = None
+    if has_arrhenius:
+        assert law.activation_J_per_mol is not None  # an Arrhenius branch has its energy
+        activation_kJ = finite(law.activation_J_per_mol / 1e3)
     shift = curve.shift
     return {
         "format": {"name": FORMAT_NAME, "version": FORMAT_VERSION, "engine_version": __version__},
@@ -221,9 +228,7 @@ def model_record(curve: MasterCurve, material_id: str) -> dict:
             "wlf_reference_C": finite(law.wlf_reference_C) if has_wlf else None,
             "curve_wlf_c1": curve_c1,
             "curve_wlf_c2_K": curve_c2,
-            "activation_kJ_per_mol": (
-                finite(law.activation_J_per_mol / 1e3) if has_arrhenius else None
-            ),
+            "activation_kJ_per_mol": activation_kJ,
             "arrhenius_anchor_C": (
                 finite(law.split_C if law.kind == "WLF+Arrhenius" else law.reference_C)
                 if has_arrhenius
@@ -327,16 +332,16 @@ def _number(value) -> str:
 def _csv_row(section: str, key: str, index: int | None, value) -> str:
     number = text = ""
     if isinstance(value, bool):
-        text = _csv_cell(yes_no(value))
+        text = csv_cell(yes_no(value))
         unit = ""
     elif isinstance(value, str):
-        text = _csv_cell(value)
+        text = csv_cell(value)
         unit = ""
     else:
         number = "" if value is None else _number(value)
         unit = unit_of(key)
-    cells = [_csv_cell(section), _csv_cell(key), "" if index is None else str(index)]
-    return ",".join([*cells, number, text, _csv_cell(unit) if unit else ""])
+    cells = [csv_cell(section), csv_cell(key), "" if index is None else str(index)]
+    return ",".join([*cells, number, text, csv_cell(unit) if unit else ""])
 
 
 def model_csv(record: dict) -> bytes:
@@ -395,7 +400,7 @@ def write_model(curve: MasterCurve, path: str | Path, material_id: str) -> Path:
 
 
 def _unquote(text: str) -> str:
-    if text.startswith("'") and text[1:].startswith(_FORMULA_START):
+    if text.startswith("'") and text[1:].startswith(FORMULA_START):
         return text[1:]
     return text
 
@@ -411,7 +416,7 @@ def _parse_number(cell: str, name: str, row: int) -> int | float:
         raise InputError(f"'{cell}' is not a number", file=name, row=row, column="value") from None
 
 
-def _csv_cell_value(key: str, number: str, text: str, name: str, row: int):
+def csv_cell_value(key: str, number: str, text: str, name: str, row: int):
     if number and text:
         raise InputError(
             "a row holds a number in 'value' and a text in 'text'; give one of them",
@@ -458,7 +463,7 @@ def _read_csv(p: Path) -> dict:
         section, key = _unquote(section), _unquote(key)
         if not section or not key:
             raise InputError("blank section or key", file=name, row=row)
-        value = _csv_cell_value(key, number, text, name, row)
+        value = csv_cell_value(key, number, text, name, row)
         content = record.setdefault(section, {})
         if not index:
             if key in content:

@@ -1,6 +1,9 @@
-"""The shortlist as one self-contained HTML report, with its charts and its palette.
+"""The shortlist as one self-contained HTML report, with its charts.
 
-Built on the rows of :mod:`engine.output.export` (see its notes for the layers of the export);
+The map is :func:`engine.output.mapfigure.map_figure`, the figure the dashboard's map
+page draws too; the charts take their colours and template from
+:mod:`engine.output.palette`, so a grade has the same colour here as in the dashboard.
+Built on the rows of :mod:`engine.output.rows` (see :mod:`engine.output.export` for the layers);
 :func:`engine.output.export.write_shortlist` calls :func:`report_html` for ``.html`` files.
 The page writes temperatures as °C throughout, setting names included (the files write
 those with the import format's unit name ``[degC]``).
@@ -18,7 +21,9 @@ from plotly.subplots import make_subplots
 from engine.base.caution import CAUTION
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
-from engine.output.export import (
+from engine.output.mapfigure import READING, map_figure, plot_text, ranking_colours
+from engine.output.palette import TEMPLATE_NAME, tidy_log_axes
+from engine.output.rows import (
     RANK_INTERVAL_COLUMNS,
     criteria_rows,
     finite,
@@ -29,22 +34,6 @@ from engine.output.export import (
 )
 from engine.selection.ranking import RankResult
 
-# Twelve muted colours of this project's own, in the order shortlisted grades take them.
-PALETTE = (
-    "#3d6b8c",  # slate blue
-    "#b3603f",  # terracotta
-    "#5b8748",  # moss
-    "#875987",  # plum
-    "#bf9533",  # ochre
-    "#3f8c87",  # sea teal
-    "#9a4257",  # wine
-    "#6b6a3a",  # olive
-    "#5b6cb0",  # dusk indigo
-    "#9c7650",  # saddle tan
-    "#2f7357",  # pine
-    "#b35c85",  # heather rose
-)
-EXCLUDED_COLOUR = "#a8a8a8"
 FONT_STACK = '"Source Sans 3", "Noto Sans", "DejaVu Sans", "Segoe UI", Arial, sans-serif'
 
 
@@ -115,34 +104,6 @@ def _cell_interval(value, low, high) -> str:
     return f'<td class="num">{_num(value)}<br><small>{_num(low)} to {_num(high)}</small></td>'
 
 
-def _colours(result: RankResult) -> dict[str, str]:
-    return {g.id: PALETTE[k % len(PALETTE)] for k, g in enumerate(result.shortlist)}
-
-
-def _style(fig, height: int) -> None:
-    axis = {
-        "showline": True,
-        "linecolor": "#8c958f",
-        "gridcolor": "#e6e9e3",
-        "zeroline": False,
-        "ticks": "outside",
-        "tickcolor": "#8c958f",
-    }
-    fig.update_layout(
-        template="none",
-        height=height,
-        font={"family": FONT_STACK, "size": 13, "color": "#23282b"},
-        paper_bgcolor="#ffffff",
-        plot_bgcolor="#fbfbf8",
-        margin={"l": 70, "r": 20, "t": 30, "b": 60},
-        legend={"bgcolor": "rgba(255,255,255,0.85)", "bordercolor": "#d5dad3", "borderwidth": 1},
-        hoverlabel={"font": {"family": FONT_STACK, "size": 12}},
-        hovermode="closest",
-    )
-    fig.update_xaxes(**axis)
-    fig.update_yaxes(**axis)
-
-
 def _split(y: np.ndarray, flag: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(measured, extrapolated) copies of ``y`` with NaN gaps; the dotted part keeps the
     neighbouring points so that the two lines join."""
@@ -155,80 +116,29 @@ def _split(y: np.ndarray, flag: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _label(g) -> str:
     """Escaped "name (id)" of a grade, safe inside a Plotly hover template too."""
-    return f"{_e(g.name)} ({_e(g.id)})".replace("%", "&#37;")
+    return f"{plot_text(g.name)} ({plot_text(g.id)})"
 
 
 def _flags(extrap: np.ndarray) -> list[str]:
     return ["<br>extrapolated" if x else "" for x in extrap]
 
 
-def map_figure(result: RankResult):
-    """Modulus-loss map: E' [MPa] against loss factor (log-log), each grade's path
-    across the window temperatures at the design frequency."""
-    props = result.window_props
-    colours = _colours(result)
-    where = {gid: k for k, gid in enumerate(props.ids)}
-    temps = np.asarray(props.path_temperatures, dtype=float)
-    window_t = np.asarray(props.temperatures, dtype=float)
-    at_window = np.isclose(temps[:, None], window_t[None, :], atol=1e-9, rtol=0).any(axis=1)
-    sizes = np.where(at_window, 6, 0)
-    sizes[0] = 11  # the coldest end
-    fig = go.Figure()
-    shown_excluded = False
-    for g in [*result.excluded, *result.shortlist]:
-        k = where[g.id]
-        storage = props.path_storage[k] / 1e6
-        eta = props.path_loss[k] / props.path_storage[k]
-        extrap = props.path_extrapolated[k]
-        solid, dotted = _split(storage, extrap)
-        status = f"rank {g.rank}" if g.passed else "excluded"
-        hover = (
-            f"{_label(g)}<br>{status}<br>%{{customdata:.4~g}} °C<br>E' %{{y:.4~g}} MPa, "
-            "loss factor %{x:.3~g}%{text}<extra></extra>"
-        )
-        if g.passed:
-            colour, opacity, group = colours[g.id], 1.0, g.id
-            name, show = f"{g.rank}. {_label(g)}", True
-        else:
-            colour, opacity, group = EXCLUDED_COLOUR, 0.5, "excluded"
-            name, show = "excluded grades", not shown_excluded
-            shown_excluded = True
-        for y, dash, legend in ((solid, "solid", show), (dotted, "dot", False)):
-            fig.add_trace(
-                go.Scatter(
-                    x=eta,
-                    y=y,
-                    mode="lines+markers",
-                    line={"color": colour, "width": 2.2 if g.passed else 1.4, "dash": dash},
-                    marker={"size": sizes, "color": colour},
-                    opacity=opacity,
-                    name=name,
-                    legendgroup=group,
-                    showlegend=legend,
-                    customdata=temps,
-                    text=_flags(extrap),
-                    hovertemplate=hover,
-                )
-            )
-    _style(fig, 560)
-    decades = {"type": "log", "dtick": 1, "exponentformat": "none", "minor": {"showgrid": True}}
-    fig.update_xaxes(title_text="loss factor tan δ [-]", **decades)
-    fig.update_yaxes(title_text="storage modulus E' [MPa]", **decades)
-    return fig
-
-
-def curves_figure(result: RankResult):
+def curves_figure(result: RankResult) -> go.Figure:
     """E' and loss factor against temperature at the design frequency, shortlist only."""
     props = result.window_props
-    colours = _colours(result)
+    path_storage, path_loss = props.path_storage, props.path_loss
+    path_extrapolated = props.path_extrapolated
+    if path_storage is None or path_loss is None or path_extrapolated is None:
+        raise ValueError("the curves need the ranking's temperature path; it has none")
+    colours = ranking_colours(result)
     where = {gid: k for k, gid in enumerate(props.ids)}
     temps = np.asarray(props.path_temperatures, dtype=float)
     fig = make_subplots(rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.07)
     for g in result.shortlist:
         k = where[g.id]
-        storage = props.path_storage[k] / 1e6
-        eta = props.path_loss[k] / props.path_storage[k]
-        extrap = props.path_extrapolated[k]
+        storage = path_storage[k] / 1e6
+        eta = path_loss[k] / path_storage[k]
+        extrap = path_extrapolated[k]
         name = f"{g.rank}. {_label(g)}"
         for row, values, shown in (
             (1, storage, "E' %{y:.4~g} MPa"),
@@ -252,11 +162,11 @@ def curves_figure(result: RankResult):
                     row=row,
                     col=1,
                 )
-    _style(fig, 640)
+    fig.update_layout(template=TEMPLATE_NAME, height=640, hovermode="closest")
     fig.update_yaxes(type="log", title_text="storage modulus E' [MPa]", row=1, col=1)
     fig.update_yaxes(title_text="loss factor tan δ [-]", row=2, col=1)
     fig.update_xaxes(title_text="temperature [°C]", row=2, col=1)
-    return fig
+    return tidy_log_axes(fig)
 
 
 def _figure_html(fig, first: bool) -> str:
@@ -297,7 +207,7 @@ def _ranked_html(result: RankResult) -> str:
     passing = [r for r in rows if r["passed"] == "pass"]
     if not passing:
         return '<p class="hint">No grade meets every constraint.</p>'
-    colours = _colours(result)
+    colours = ranking_colours(result)
     spread = interval_columns(result)
     skip = {"rank", "id", "name", "passed", "failed constraints", "reason", "notes"}
     skip |= set(RANK_INTERVAL_COLUMNS) | {h for pair in spread.values() for h in pair}
@@ -463,10 +373,8 @@ def report_html(
         _excluded_html(result),
         fit_errors,
         "<h2>Stiffness and damping across the window</h2>",
-        f'<p class="hint">Each line is one grade from {lo:g} °C (large marker) to {hi:g} '
-        f"°C at the design frequency {f_design:.4g} Hz; small markers at the window "
-        "temperatures; dotted where the master curve is extrapolated. Shortlisted grades in "
-        "colour, excluded grades in grey. Moduli are tensile-equivalent.</p>",
+        f'<p class="hint">From {lo:g} to {hi:g} °C at the design frequency {f_design:.4g} '
+        f"Hz. {_e(READING)}</p>",
         f'<div class="figure">{map_fig}</div>',
         "<h2>Shortlisted grades against temperature</h2>",
         f'<p class="hint">Storage modulus and loss factor at {f_design:.4g} Hz; dotted where '
@@ -482,4 +390,4 @@ def report_html(
     return "\n".join(p for p in parts if p)
 
 
-__all__ = ["EXCLUDED_COLOUR", "PALETTE", "curves_figure", "map_figure", "report_html"]
+__all__ = ["curves_figure", "report_html"]

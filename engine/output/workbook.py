@@ -21,7 +21,7 @@ from openpyxl.utils import get_column_letter
 
 from engine.base.caution import CAUTION
 from engine.library.store import Library
-from engine.output.export import (
+from engine.output.rows import (
     PROVENANCE_COLUMNS,
     WINDOW_COLUMNS,
     criteria_rows,

@@ -42,14 +42,17 @@ MAX_NODES = 200
 MAX_CONSTANT_EXPONENT = 10.0
 """Largest absolute value of an exponent that contains no quantity names."""
 
-_UNARY_FUNCTIONS: dict[str, Callable[[NDArray[np.float64]], NDArray[np.float64]]] = {
+_Value = NDArray[np.float64] | np.float64
+"""A formula's value: an array, or a numpy scalar where only constants are involved."""
+
+_UNARY_FUNCTIONS: dict[str, Callable[[_Value], _Value]] = {
     "abs": np.abs,
     "exp": np.exp,
     "log": np.log,
     "log10": np.log10,
     "sqrt": np.sqrt,
 }
-_VARIADIC_FUNCTIONS: dict[str, Callable[..., NDArray[np.float64]]] = {
+_VARIADIC_FUNCTIONS: dict[str, Callable[..., _Value]] = {
     "max": np.maximum,
     "min": np.minimum,
 }
@@ -268,7 +271,7 @@ class _Checker:
         characters = len(self.encoded[:byte_offset].decode("utf-8", errors="replace"))
         return characters + self.lead + 1
 
-    def at(self, node: ast.AST) -> str:
+    def at(self, node: ast.expr | ast.keyword) -> str:
         return f"at column {self.column(node.col_offset)}"
 
     def segment(self, node: ast.AST) -> str:
@@ -415,9 +418,11 @@ class _Checker:
             )
 
 
-def _evaluate(node: ast.expr, arrays: Mapping[str, NDArray[np.float64]]) -> NDArray[np.float64]:
+def _evaluate(node: ast.expr, arrays: Mapping[str, NDArray[np.float64]]) -> _Value:
     """Value of a checked syntax tree; only the whitelisted node types can occur."""
     if isinstance(node, ast.Constant):
+        if not isinstance(node.value, int | float):
+            raise CriteriaError(f"internal: unchecked constant {node.value!r} in formula")
         return np.float64(node.value)
     if isinstance(node, ast.Name):
         return arrays[node.id]
@@ -437,7 +442,9 @@ def _evaluate(node: ast.expr, arrays: Mapping[str, NDArray[np.float64]]) -> NDAr
             return np.divide(left, right)
         return np.power(np.asarray(left, dtype=float), np.asarray(right, dtype=float))
     if isinstance(node, ast.Call):
-        name = node.func.id  # type: ignore[attr-defined]
+        if not isinstance(node.func, ast.Name):
+            raise CriteriaError("internal: unchecked call in formula")
+        name = node.func.id
         arguments = [_evaluate(argument, arrays) for argument in node.args]
         if name in _UNARY_FUNCTIONS:
             return _UNARY_FUNCTIONS[name](arguments[0])

@@ -20,7 +20,7 @@ frequency          [Hz]
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -39,6 +39,10 @@ QUANTITIES = (
     "temperature",
     "frequency",
 )
+# What a window index reads: storage modulus [Pa], shape (grades, window points); the
+# temperature path [degC] at the design frequency and the loss factor along it, shape
+# (grades, temperatures); the loss-factor threshold of the damping span.
+WINDOW_QUANTITIES = ("storage_modulus", "path_temperatures", "path_loss_factor", "eta_threshold")
 AGGREGATES = ("worst", "mean", "weighted", "best")
 
 
@@ -48,6 +52,11 @@ class IndexSpec:
 
     ``kind`` is "point" or "window"; ``higher_is_better`` sets the direction of merit;
     ``needs`` lists catalog fields without which the index is unknown for a grade.
+
+    A point index gives ``point(q)``: its value at every window point from the named
+    quantities ``q`` (QUANTITIES, arrays of shape (grades, points)), aggregated later. A
+    window index gives ``window(w)``: one value per grade from the window quantities
+    ``w`` (WINDOW_QUANTITIES).
     """
 
     name: str
@@ -57,12 +66,18 @@ class IndexSpec:
     kind: str
     needs: tuple[str, ...]
     doc: str
-    point: Callable[[dict], np.ndarray] | None = None
+    point: Callable[[Mapping], np.ndarray] | None = None
     formula: Formula | None = None
+    window: Callable[[Mapping], np.ndarray] | None = None
 
 
 def _q(q, name):
     return q[name]
+
+
+def _drift(storage: np.ndarray) -> np.ndarray:
+    """Largest over smallest storage modulus of each grade (rows) over the window."""
+    return storage.max(axis=1) / storage.min(axis=1)
 
 
 def _beam(q):
@@ -116,6 +131,7 @@ _register(
         (),
         "Ratio of the largest to the smallest E' over the whole window. A mount whose "
         "stiffness changes by this factor moves its natural frequency by its square root.",
+        window=lambda w: _drift(w["storage_modulus"]),
     )
 )
 _register(
@@ -128,6 +144,7 @@ _register(
         (),
         "sqrt(max E' / min E') over the window: the factor by which fn = (1/2 pi) "
         "sqrt(k/m) of a mount moves, as k is proportional to the modulus.",
+        window=lambda w: np.sqrt(_drift(w["storage_modulus"])),
     )
 )
 _register(
@@ -140,6 +157,9 @@ _register(
         (),
         "Width of the temperature range inside the window where eta >= the chosen "
         "threshold at the design frequency (1 K resolution).",
+        window=lambda w: damping_span(
+            w["path_temperatures"], w["path_loss_factor"], w["eta_threshold"]
+        ),
     )
 )
 _register(

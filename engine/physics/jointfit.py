@@ -53,10 +53,13 @@ class LawTemplate:
         """Fitted-space parameters (logs keep every constant inside its valid range)."""
         out = []
         if self.kind in ("WLF", "WLF+Arrhenius"):
+            assert law.wlf_c1 is not None and law.wlf_c2 is not None  # the law is of this kind
             out += [np.log(law.wlf_c1), np.log(max(law.wlf_c2 - self.c2_min, 1e-3))]
         if self.kind in ("Arrhenius", "WLF+Arrhenius"):
+            assert law.activation_J_per_mol is not None  # the law is of this kind
             out.append(np.log(law.activation_J_per_mol / 1e3))
         if self.kind == "WLF+Arrhenius":
+            assert law.split_C is not None  # the law is of this kind
             out.append(law.split_C / SPLIT_PRIOR_K)
         return np.array(out, dtype=float)
 
@@ -221,7 +224,7 @@ class JointResult:
     law: ShiftLaw
     group_temperatures: np.ndarray  # [degC]
     log_shift: np.ndarray  # log10 aT of each isotherm
-    log_shift_sd: np.ndarray  # posterior sd of log10 aT of each isotherm [decades]
+    log_shift_sd: np.ndarray | None  # posterior sd of log10 aT of each isotherm [decades]
     from_law: np.ndarray  # bool: the isotherm's shift is mostly the law's
     prony: PronySeries
     draws: list  # (ShiftLaw, log_shift per isotherm, PronySeries) per draw

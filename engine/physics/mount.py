@@ -42,6 +42,29 @@ force-free faces bulge strongly, creep grows and the linear compression modulus 
 Gent & Lindley no longer describes the pad.
 """
 
+DEFAULT_BULK_MODULUS_PA = 2.0e9
+"""Bulk modulus assumed for a rubber whose catalog gives neither ``K`` nor ``nu < 0.5`` [Pa].
+
+Rubbers lie roughly between 1 and 3 GPa; 2 GPa is the value designers commonly take
+when nothing better is known (common practice).
+"""
+
+HIGH_SHAPE_FACTOR = 10.0
+"""Shape factor above which a bonded compression pad is flagged [-] (common practice).
+
+Beyond about 10 the compression modulus ``E (1 + 2 k S^2)`` of a soft rubber is a fifth
+of the bulk modulus or more, so rubber's compressibility softens the pad noticeably and
+the result depends on a bulk modulus that catalogs rarely state; small errors in ``S``
+(bond flash, bulging into holes) also matter most there.
+"""
+
+BULK_FROM_CATALOG = "catalog"
+"""Source tag of a bulk modulus taken from the catalog column ``bulk_modulus [MPa]``."""
+BULK_FROM_POISSON = "poisson_ratio"
+"""Source tag of a bulk modulus derived from the catalog's Poisson's ratio and ``E``."""
+BULK_DEFAULT = "default"
+"""Source tag of a bulk modulus set to `DEFAULT_BULK_MODULUS_PA`."""
+
 # Compression coefficient k of Gent & Lindley against Shore A hardness, as tabulated in
 # rubber engineering handbooks. Values from memory; linear interpolation between rows.
 _K_FACTOR_HARDNESS = np.array([30.0, 35.0, 40.0, 45.0, 50.0, 55.0, 60.0, 65.0, 70.0, 75.0])
@@ -63,6 +86,22 @@ class NaturalFrequency(NamedTuple):
 
     frequency: NDArray[np.float64]
     converged: NDArray[np.bool_]
+
+
+class BulkModulus(NamedTuple):
+    """Bulk modulus of each grade and where it came from.
+
+    Attributes
+    ----------
+    value : array [Pa]
+        Bulk modulus ``K``.
+    source : array of str
+        Per grade one of `BULK_FROM_CATALOG`, `BULK_FROM_POISSON`, `BULK_DEFAULT`, so
+        that a note can say which value was used.
+    """
+
+    value: NDArray[np.float64]
+    source: NDArray[np.str_]
 
 
 def _as_float(name: str, value: ArrayLike) -> NDArray[np.float64]:
@@ -190,7 +229,8 @@ def compression_modulus(
     Notes
     -----
     ``Ec = E (1 + 2 k S^2)``. The bulk compressibility of rubber, which caps ``Ec`` at
-    large shape factors (above about 10), is not included.
+    large shape factors (above about 10), is not included here: see
+    `bulk_limited_compression_modulus`.
 
     References
     ----------
@@ -200,6 +240,141 @@ def compression_modulus(
     s = _non_negative("shape_factor", shape_factor, "-")
     k = _non_negative("k_factor", k_factor, "-")
     return e * (1.0 + 2.0 * k * s**2)
+
+
+def bulk_limited_compression_modulus(
+    compression_modulus: ArrayLike, bulk_modulus: ArrayLike
+) -> NDArray[np.float64]:
+    """Compression modulus of a bonded block with rubber's bulk compressibility.
+
+    Parameters
+    ----------
+    compression_modulus : array [Pa]
+        Compression modulus ``Ec`` of an incompressible block (see
+        `compression_modulus`).
+    bulk_modulus : array [Pa]
+        Bulk modulus ``K`` of the rubber (see `bulk_modulus_for_grade`); ``inf`` means
+        incompressible and returns ``Ec`` unchanged.
+
+    Returns
+    -------
+    array [Pa]
+        Effective compression modulus ``Ec,eff``.
+
+    Raises
+    ------
+    ValueError
+        If a modulus is not positive (NaN entries propagate).
+
+    Notes
+    -----
+    The shape (bulging) deformation and the volume change act as springs in series:
+    ``1 / Ec,eff = 1 / Ec + 1 / K``. Always ``Ec,eff < min(Ec, K)``; ``Ec,eff -> K`` as
+    the shape factor grows without bound and ``Ec,eff ~ Ec`` while ``Ec << K``
+    (shape factors below about 3 for soft rubbers). Since ``Ec = E (1 + 2 k S^2)`` and
+    ``K`` is about 2 GPa, the correction matters above a shape factor of about 10
+    (`HIGH_SHAPE_FACTOR`).
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    Gent, A. N. (ed.) (2012). Engineering with Rubber, 3rd ed. Hanser.
+    """
+    ec = _positive("compression_modulus", compression_modulus, "Pa")
+    k = _positive("bulk_modulus", bulk_modulus, "Pa")
+    return ec / (1.0 + ec / k)  # the same formula, exact for K = inf
+
+
+def bulk_modulus_for_grade(
+    bulk_modulus_mpa: ArrayLike,
+    poisson_ratio: ArrayLike,
+    youngs_modulus: ArrayLike,
+    default: float = DEFAULT_BULK_MODULUS_PA,
+) -> BulkModulus:
+    """Bulk modulus of each grade from what its catalog row gives.
+
+    Parameters
+    ----------
+    bulk_modulus_mpa : array [MPa]
+        Catalog value ``bulk_modulus [MPa]``; NaN (or None) where blank.
+    poisson_ratio : array [-]
+        Catalog Poisson's ratio ``nu`` in (-1, 0.5]; NaN where blank.
+    youngs_modulus : array [Pa]
+        Young's modulus ``E`` that the catalog ``nu`` goes with (for a dynamic check the
+        storage modulus ``E'`` at the operating point); NaN where unknown.
+    default : float [Pa], default `DEFAULT_BULK_MODULUS_PA` (2 GPa)
+        Value used where neither a bulk modulus nor a usable ``nu`` is given.
+
+    Returns
+    -------
+    BulkModulus
+        ``value`` [Pa] and ``source`` per grade, with the broadcast shape of the inputs.
+
+    Raises
+    ------
+    ValueError
+        If a catalog bulk modulus or ``E`` is not positive, ``nu`` lies outside
+        (-1, 0.5], or ``default`` is not positive.
+
+    Notes
+    -----
+    In order of preference:
+
+    1. the catalog bulk modulus, converted from MPa (`BULK_FROM_CATALOG`);
+    2. where ``nu < 0.5`` and ``E`` are known, the isotropic relation
+       ``K = E / (3 (1 - 2 nu))`` (`BULK_FROM_POISSON`);
+    3. otherwise ``default`` (`BULK_DEFAULT`): ``nu = 0.5`` says only "incompressible
+       enough", which gives no finite ``K``.
+
+    ``K`` from ``nu`` is very sensitive near 0.5 (``nu = 0.499`` and ``E = 3 MPa`` give
+    500 MPa, ``nu = 0.4999`` gives 5 GPa), so a catalog ``K`` is worth having.
+
+    References
+    ----------
+    Timoshenko, S. P. and Goodier, J. N. (1970). Theory of Elasticity, 3rd ed.
+    Gent, A. N. (ed.) (2012). Engineering with Rubber, 3rd ed. Hanser.
+    """
+    catalog = _positive("bulk_modulus", bulk_modulus_mpa, "MPa")
+    nu = _poisson(poisson_ratio)
+    e = _positive("youngs_modulus", youngs_modulus, "Pa")
+    fallback = float(_positive("default", default, "Pa"))
+    catalog, nu, e = np.broadcast_arrays(catalog, nu, e)
+    from_catalog = ~np.isnan(catalog)
+    from_poisson = ~from_catalog & (nu < 0.5) & np.isfinite(e)
+    denominator = np.where(from_poisson, 3.0 * (1.0 - 2.0 * nu), 1.0)
+    value = np.where(from_catalog, catalog * 1e6, np.where(from_poisson, e / denominator, fallback))
+    source = np.where(
+        from_catalog, BULK_FROM_CATALOG, np.where(from_poisson, BULK_FROM_POISSON, BULK_DEFAULT)
+    )
+    return BulkModulus(value=value.astype(float), source=source)
+
+
+def is_high_shape_factor(
+    shape_factor: ArrayLike, limit: float = HIGH_SHAPE_FACTOR
+) -> NDArray[np.bool_]:
+    """Flag compression pads whose shape factor calls for a warning.
+
+    Parameters
+    ----------
+    shape_factor : array [-]
+        Shape factor ``S`` of each pad; NaN (unknown) is not flagged.
+    limit : float [-], default `HIGH_SHAPE_FACTOR` (10)
+        Shape factor above which the pad is flagged (common practice).
+
+    Returns
+    -------
+    array of bool
+        True where ``S > limit``: the stiffness then leans on the bulk modulus
+        (see `bulk_limited_compression_modulus`) and on an exact shape factor.
+
+    Raises
+    ------
+    ValueError
+        If a shape factor is negative or ``limit`` is not positive.
+    """
+    s = _non_negative("shape_factor", shape_factor, "-")
+    threshold = float(_positive("limit", limit, "-"))
+    return np.asarray(s > threshold)
 
 
 def youngs_modulus_from_hardness(shore_a: ArrayLike) -> NDArray[np.float64]:
@@ -367,23 +542,32 @@ def shear_pad_stiffness(
 
 
 def compression_pad_stiffness(
-    compression_modulus: ArrayLike, area: ArrayLike, thickness: ArrayLike
+    compression_modulus: ArrayLike,
+    area: ArrayLike,
+    thickness: ArrayLike,
+    bulk_modulus: ArrayLike | None = None,
 ) -> NDArray[np.float64]:
     """Stiffness of a bonded rubber pad loaded in compression.
 
     Parameters
     ----------
     compression_modulus : array [Pa]
-        Compression modulus ``Ec`` (see `compression_modulus`).
+        Compression modulus ``Ec`` of the incompressible block (see
+        `compression_modulus`).
     area : array [m2]
         Loaded area of one face.
     thickness : array [m]
         Rubber thickness.
+    bulk_modulus : array [Pa], optional
+        Bulk modulus ``K`` (see `bulk_modulus_for_grade`). When given, ``Ec`` is first
+        limited by it as in `bulk_limited_compression_modulus`; when omitted the rubber
+        is taken as incompressible.
 
     Returns
     -------
     array [N/m]
-        ``k = Ec A / h`` (small strains).
+        ``k = Ec A / h``, or ``k = Ec,eff A / h`` with ``1 / Ec,eff = 1 / Ec + 1 / K``
+        (small strains).
 
     References
     ----------
@@ -392,6 +576,8 @@ def compression_pad_stiffness(
     ec = _positive("compression_modulus", compression_modulus, "Pa")
     a = _positive("area", area, "m2")
     h = _positive("thickness", thickness, "m")
+    if bulk_modulus is not None:
+        ec = bulk_limited_compression_modulus(ec, bulk_modulus)
     return ec * a / h
 
 
@@ -878,8 +1064,9 @@ def size_compression_pad_area(
     ``E k / (8 h^3)`` (square), so ``m (2 pi fn)^2 = (E / h) A + c A^2`` is a
     quadratic in ``A`` with one positive root, taken in the cancellation-free form
     ``A = 2 q / (b + sqrt(b^2 + 4 c q))``, ``b = E / h``, ``q = m (2 pi fn)^2``.
-    Check the shape factor of the result: beyond about 10 rubber's bulk
-    compressibility makes the pad softer than this.
+    Check the shape factor of the result: beyond about 10 (`is_high_shape_factor`)
+    rubber's bulk compressibility makes the pad softer than this
+    (`bulk_limited_compression_modulus`).
 
     References
     ----------

@@ -7,6 +7,7 @@ at the reference temperature and falls as temperature rises.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -555,6 +556,7 @@ def fit_shift_law(
             if robust_pass == 0:
                 grid = np.linspace(*c2_bounds, 25)
             else:
+                assert c2 is not None  # set by the previous pass
                 g0 = np.log(c2)
                 grid = np.linspace(max(g0 - 0.3, c2_bounds[0]), min(g0 + 0.3, c2_bounds[1]), 13)
             for _refine in range(2):
@@ -583,6 +585,7 @@ def fit_shift_law(
     notes = []
     at_bound = np.isclose(lin, lb, rtol=1e-4) | np.isclose(lin, ub, rtol=1e-4)
     if c2 is not None:
+        assert c2_bounds is not None  # C2 is fitted only where it has bounds
         at_bound = np.append(at_bound, np.isclose(np.log(c2), c2_bounds, atol=2e-3).any())
     if at_bound.any():
         notes.append("shift-law fit stopped at a parameter bound; treat its constants with care")
@@ -599,7 +602,8 @@ def _best_law(pairs, reference, splits, glassy_without_transition) -> ShiftLaw:
     misfit is clearly lower (by more than 2, or 10 %), so that pairs left undetermined do
     not decide the split.
     """
-    fitted, errors, tried = [], [], []
+    fitted, errors = [], []
+    tried: list[float | None] = []
     good = [p for p in pairs if p.status == "ok"]
     lo = np.array([p.lower for p in good])
     hi = np.array([p.upper for p in good])
@@ -638,7 +642,7 @@ def shift_isotherms(
     ``split`` may be a list of candidate glass transitions (for instance Tg by several
     methods); the one whose WLF/Arrhenius law fits the pairwise shifts best is used.
     """
-    splits = split if isinstance(split, list | tuple) else [split]
+    splits: Sequence[float | None] = split if isinstance(split, list | tuple) else [split]
     splits = splits or [None]
     temps = np.array([iso.temperature for iso in isotherms])
     if temps.size < 2:

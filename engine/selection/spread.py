@@ -59,14 +59,10 @@ from engine.base.errors import LibraryError
 from engine.curves.bank import CurveBank
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Material
-from engine.selection.ranking import (
-    UNCERTAIN,
-    RankResult,
-    _failures,
-    evaluate_grades,
-    raw_scores,
-    write_reasons,
-)
+from engine.selection.constraints import failures as constraint_failures
+from engine.selection.evaluation import evaluate_grades, raw_scores
+from engine.selection.reasons import UNCERTAIN, write_reasons
+from engine.selection.results import RankResult
 
 LEADING_GRADES = 20  # grades of the shortlist that get intervals
 PERCENTILES = (2.5, 97.5)  # of the 95 % intervals
@@ -233,9 +229,7 @@ def rank_spread(
     criteria = out.criteria
     ev = evaluate_grades(CurveBank.from_curves(stacked), rows, criteria)
     raw = raw_scores(ev.values, criteria).reshape(k_draws, n)
-    failures = _failures(
-        criteria, ev.specs, ev.values, ev.catalog, ev.eta_worst, ev.extrapolated, ev.mount
-    )
+    failures = constraint_failures(criteria, ev)
     passes = np.array([not f for f in failures]).reshape(k_draws, n)
 
     fitted_rank = np.array([g.rank for g in lead])
@@ -255,7 +249,8 @@ def rank_spread(
     }
     mount = summary = None
     if ev.mount is not None and out.mount is not None:
-        m, rows_m = ev.mount, [g.mount_index for g in lead]
+        m = ev.mount
+        rows_m = [i for g in lead if (i := g.mount_index) is not None]  # all, with a mount
         t = m.temperatures.size
         draws_m = {
             "natural_frequency_Hz": m.natural_frequency.reshape(k_draws, n, t),

@@ -1,5 +1,6 @@
 """Real-browser fixtures: dashboard servers on 127.0.0.1 (one serving the demo library,
-one a library too large for the map to draw grade by grade) and Debian's chromium.
+one a library too large for the map to draw grade by grade, and one for each test that
+writes to its library) and Debian's chromium.
 
 The tests are skipped, with the reason printed, only where chromium is absent.
 """
@@ -20,10 +21,9 @@ from pathlib import Path
 import pytest
 
 from tests.crowd import write_crowd_library
+from tests.helpers import ROOT, SHOTS
 
-ROOT = Path(__file__).resolve().parents[2]
 CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
-SHOTS = ROOT / "screenshots"
 CHROMIUM_ARGS = [
     "--headless",
     "--no-sandbox",
@@ -122,6 +122,16 @@ def app_url(tmp_path_factory):
     """The dashboard serving a fresh demo library: (URL, library)."""
     db = tmp_path_factory.mktemp("browser") / "library.sqlite"
     with dashboard(db, _load_demo) as url:
+        yield url, db
+
+
+@pytest.fixture
+def own_app_url(app_url, tmp_path):
+    """A dashboard of its own serving a copy of the demo library, for a test that writes
+    to the library (the shared one stays as every other test expects it): (URL, library)."""
+    _, shared = app_url
+    db = tmp_path / "library.sqlite"
+    with dashboard(db, lambda env: shutil.copyfile(shared, db)) as url:
         yield url, db
 
 

@@ -27,20 +27,54 @@ CHIPS = ".st-key-compare_pick span[data-tag]"
 WIDTH = 1280
 CHIPS_JS = "(chips) => [...document.querySelectorAll(chips)].map(e => e.getAttribute('aria-label'))"
 
+# Reading the figure a chart draws: the traces and layout of its figure JSON, which Plotly
+# keeps on the chart's element as ``.data`` and ``.layout`` (no internals of Plotly). An
+# array there is a JSON list or a typed array ``{dtype, bdata, shape}`` (base64 bytes).
+FIGURE_JS = """
+  const TYPED = {f8: Float64Array, f4: Float32Array, i4: Int32Array, u4: Uint32Array,
+    i2: Int16Array, u2: Uint16Array, i1: Int8Array, u1: Uint8Array, u1c: Uint8ClampedArray};
+  const values = (v) => {
+    if (v == null) return [];
+    if (!v.bdata) return Array.from(v);
+    const bytes = Uint8Array.from(atob(v.bdata), (c) => c.charCodeAt(0));
+    const flat = Array.from(new TYPED[v.dtype](bytes.buffer));
+    const shape = typeof v.shape === 'string' ? v.shape.split(',').map(Number) : v.shape;
+    if (!shape || shape.length < 2) return flat;
+    const n = flat.length / shape[0];
+    return Array.from({length: shape[0]}, (_, k) => flat.slice(k * n, (k + 1) * n));
+  };
+  // Data to viewport pixels through an axis of the layout: its type and range, and the
+  // plot area on screen (the drag rectangle Plotly lays over it).
+  const scale = (axis, start, length, flip) => {
+    const [a, b] = axis.range;
+    const f = axis.type === 'log' ? Math.log10 : Number;
+    return flip ? (v) => start + (b - f(v)) / (b - a) * length
+                : (v) => start + (f(v) - a) / (b - a) * length;
+  };
+"""
+
 # Every point of every grade's path on the map, in viewport pixels, and each path's width.
-MAP_POINTS_JS = """(plot) => {
+MAP_POINTS_JS = (
+    """(plot) => {"""
+    + FIGURE_JS
+    + """
   const gd = document.querySelector(plot);
-  const L = gd._fullLayout;
   const r = gd.querySelector('.nsewdrag').getBoundingClientRect();
+  const px = scale(gd.layout.xaxis, r.x, r.width, false);
+  const py = scale(gd.layout.yaxis, r.y, r.height, true);
   return {
     box: {x: r.x, y: r.y, w: r.width, h: r.height},
-    traces: gd.calcdata.filter(cd => cd[0].trace.legendgroup).map(cd => ({
-      grade: cd[0].trace.legendgroup,
-      width: cd[0].trace.line.width,
-      points: cd.map(pt => [r.x + L.xaxis.c2p(pt.x), r.y + L.yaxis.c2p(pt.y)]),
-    })),
+    traces: gd.data.filter(t => t.legendgroup).map(t => {
+      const xs = values(t.x), ys = values(t.y);
+      return {
+        grade: t.legendgroup,
+        width: t.line ? t.line.width : undefined,
+        points: xs.map((x, k) => [px(x), py(ys[k])]),
+      };
+    }),
   };
 }"""
+)
 
 # Rows on screen of the first data frame under ``where`` whose columns begin with ``headers``.
 TABLE_JS = """([where, headers]) => {

@@ -1,7 +1,9 @@
 """The dashboard in a real browser: Debian's chromium driven through Playwright.
 
 One dashboard server serves a fresh demo library (conftest.py); every page opened here is
-a new Streamlit session with the default case. The checks are behavioural: the map and
+a new Streamlit session with the default case. The upload test, which writes to its
+library, has a server and a copy of the library of its own, so the tests run in any
+order. The checks are behavioural: the map and
 the caution are drawn, stepping the window's temperature slider reranks as the engine
 does, a box drawn on the map fills the comparison set and widens those paths, the XLSX
 download opens with its sheets and the shortlist shown, an upload is previewed and
@@ -27,7 +29,6 @@ import pytest
 from dashboard import case, importing
 from engine.base.caution import CAUTION
 from engine.library.store import Library
-from tests.browser.conftest import ROOT, SHOTS
 from tests.browser.driving import (
     MAIN,
     MAP_POINTS_JS,
@@ -50,6 +51,7 @@ from tests.browser.driving import (
     table_rows,
 )
 from tests.crowd import SWEEP_HEADER
+from tests.helpers import ROOT, SHOTS
 
 pytestmark = pytest.mark.browser
 
@@ -85,6 +87,7 @@ def map_page(app_url, context):
 
 def test_map_and_caution_are_drawn(map_page):
     page = map_page
+    nav(page, "Map")
     title = page.locator(f"{PLOT} .gtitle").text_content()
     lo, hi = case.DEFAULTS["c_temp"]
     assert title.startswith("Paths through the window") and f"{lo:g} to {hi:g} °C" in title
@@ -207,8 +210,8 @@ def sweep_rows(grade: str) -> list[list[str]]:
     return [r for r in rows if float(r[1]) % 20 == 0 and r[2] in ("1", "10", "100")]
 
 
-def test_library_upload_is_previewed_written_and_a_bad_file_refused(app_url, page, tmp_path):
-    url, db = app_url
+def test_library_upload_is_previewed_written_and_a_bad_file_refused(own_app_url, page, tmp_path):
+    url, db = own_app_url
     lib = Library(str(db))
     grade = "BW-NR40"
     count = len(lib.datasets(grade))

@@ -17,23 +17,26 @@ import pytest
 
 from dashboard import charts
 from tests.browser import driving as drive
-from tests.browser.conftest import SHOTS
 from tests.crowd import CROWD_GRADES
+from tests.helpers import SHOTS
 
 pytestmark = pytest.mark.browser
 
 # The plot area [viewport px], the axis ranges [log10 of the data], the grades whose marks
-# are on a shared WebGL trace, and whether each WebGL canvas holds a live context.
-FRAME_JS = """(plot) => {
+# are on a shared WebGL trace, and whether each WebGL canvas holds a live context. The
+# traces and axes are read from the figure JSON on the chart (``.data``, ``.layout``).
+FRAME_JS = (
+    """(plot) => {"""
+    + drive.FIGURE_JS
+    + """
   const gd = document.querySelector(plot);
-  const L = gd._fullLayout;
   const r = gd.querySelector('.nsewdrag').getBoundingClientRect();
-  const shared = gd._fullData.filter(t => t.type === 'scattergl')
-    .flatMap(t => Array.from(t.customdata, row => row[0]));
+  const shared = gd.data.filter(t => t.type === 'scattergl')
+    .flatMap(t => values(t.customdata).map(row => row[0]));
   return {
     box: {x: r.x, y: r.y, w: r.width, h: r.height},
-    x: L.xaxis.range,
-    y: L.yaxis.range,
+    x: gd.layout.xaxis.range,
+    y: gd.layout.yaxis.range,
     shared: [...new Set(shared)].sort(),
     gl: [...gd.querySelectorAll('canvas.gl-canvas-context')].map(c => {
       const ctx = c.getContext('webgl');
@@ -41,6 +44,7 @@ FRAME_JS = """(plot) => {
     }),
   };
 }"""
+)
 
 # The lines of the hover label on show, or null.
 HOVER_JS = """(plot) => {
@@ -52,12 +56,25 @@ HOVER_JS = """(plot) => {
 
 
 @pytest.fixture(scope="module")
-def crowd(crowd_url, context):
-    """One session on the crowd library's Map, shared by the tests here (the box test,
-    which changes the comparison set, runs last), and the engine's ranking of it."""
-    url, db = crowd_url
-    with drive.map_session(context, url) as page:
-        yield page, drive.engine_result(db)
+def ranking(crowd_url):
+    """The engine's ranking of the crowd library."""
+    return drive.engine_result(crowd_url[1])
+
+
+@pytest.fixture(scope="module")
+def crowd(crowd_url, context, ranking):
+    """One session on the crowd library's Map, shared by the tests that only look (the
+    comparison set stays the default one), and the engine's ranking of the library."""
+    with drive.map_session(context, crowd_url[0]) as page:
+        yield page, ranking
+
+
+@pytest.fixture
+def own_crowd(crowd_url, context, ranking):
+    """A session of its own on the crowd library's Map, for a test that changes the
+    comparison set, and the engine's ranking of the library."""
+    with drive.map_session(context, crowd_url[0]) as page:
+        yield page, ranking
 
 
 def engine_paths(result, frame: dict) -> dict:
@@ -132,8 +149,8 @@ def test_hovering_an_excluded_shared_mark_shows_its_reasons(crowd):
     drive.no_exception(page, "map after hovering")
 
 
-def test_a_box_over_shared_marks_fills_the_comparison_set(crowd):
-    page, result = crowd
+def test_a_box_over_shared_marks_fills_the_comparison_set(own_crowd):
+    page, result = own_crowd
     page.locator(drive.PLOT).scroll_into_view_if_needed()
     seeded = drive.chips(page)
     frame = drive.steady(page, FRAME_JS)

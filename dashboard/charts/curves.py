@@ -1,7 +1,8 @@
-"""Plotly figures of engine results. Plotting transforms only: every value drawn comes
-from an engine object (WindowProps, MasterCurve, MountResult) or the measured points;
-the few arrays made here are axis geometry (guide lines, label positions, shifted
-abscissae from the engine's shift factors)."""
+"""Figures of the Curves page: stiffness and damping against temperature, the master
+curve, shift factors, the reduced-frequency nomogram, the glass transition, relaxation
+and the fit's data quality. Plotting transforms only: every value drawn comes from a
+MasterCurve or the measured points; the arrays made here are axis geometry (guide
+lines, label positions, shifted abscissae from the engine's shift factors)."""
 
 from __future__ import annotations
 
@@ -9,7 +10,18 @@ import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
-from dashboard.palette import (
+from dashboard.charts.common import (
+    BAND_SUFFIX,
+    TEMPLATE,
+    band_trace,
+    band_traces,
+    log_span,
+    mode_symbol,
+    tidy_log_axes,
+    with_interval,
+)
+from engine.curves.mastercurve import MasterCurve
+from engine.output.palette import (
     ACCENT,
     FREQUENCY_DASHES,
     FREQUENCY_SYMBOLS,
@@ -21,478 +33,10 @@ from dashboard.palette import (
     TEMPERATURE_SCALE,
     WARN,
     WINDOW_BAND,
-    band_colours,
     faded,
 )
-from engine.curves.mastercurve import MasterCurve
-from engine.curves.window import tensile_factor
-from engine.selection.ranking import RankResult
 
-TEMPLATE = "quietgrade"
 HOUR_S = 3600.0
-
-
-def _log_span(values, pad: float = 0.12) -> tuple[float, float]:
-    """log10 range covering the finite positive ``values``, padded [decades]."""
-    v = np.asarray(values, dtype=float).ravel()
-    v = v[np.isfinite(v) & (v > 0)]
-    if v.size == 0:
-        return (-1.0, 1.0)
-    lo, hi = np.log10(v.min()), np.log10(v.max())
-    if hi - lo < 0.5:
-        mid = 0.5 * (lo + hi)
-        lo, hi = mid - 0.25, mid + 0.25
-    return (float(lo - pad), float(hi + pad))
-
-
-def tidy_log_axes(fig: go.Figure) -> go.Figure:
-    """Readable tick labels on log axes: few labels on narrow spans, decades on wide ones."""
-    spans: dict[str, list[float]] = {}
-    for trace in fig.data:
-        for letter in ("x", "y"):
-            ref = getattr(trace, f"{letter}axis", None) or letter
-            values = getattr(trace, letter, None)
-            if values is None:
-                continue
-            try:
-                v = np.asarray(values, dtype=float).ravel()
-            except ValueError:  # a category axis
-                continue
-            v = v[np.isfinite(v) & (v > 0)]
-            if v.size:
-                lo, hi = spans.get(ref, [np.inf, -np.inf])
-                spans[ref] = [min(lo, np.log10(v.min())), max(hi, np.log10(v.max()))]
-    for ref, (lo, hi) in spans.items():
-        name = ("xaxis" if ref[0] == "x" else "yaxis") + ref[1:]
-        axis = fig.layout[name] if name in fig.layout else None
-        if axis is None or axis.type != "log":
-            continue
-        if axis.range is not None:
-            lo, hi = sorted(axis.range)
-        span = hi - lo
-        if span >= 2.5:
-            axis.update(
-                dtick=1 if span <= 12 else 2,
-                exponentformat="power" if span > 7 else "none",
-                minor={"ticks": "outside", "ticklen": 3, "dtick": "D1", "showgrid": False},
-            )
-        elif span >= 0.7:
-            # 1-2-5 ticks with their full values (Plotly's "D2" labels 0.5 as "5").
-            decades = range(int(np.floor(lo)) - 1, int(np.ceil(hi)) + 1)
-            ticks = [m * 10.0**d for d in decades for m in (1, 2, 5)]
-            ticks = [v for v in ticks if lo - 1e-9 <= np.log10(v) <= hi + 1e-9]
-            axis.update(tickvals=ticks, ticktext=[f"{v:g}" for v in ticks])
-    return fig
-
-
-def _mode_symbol(curve: MasterCurve) -> str:
-    return "G" if curve.mode == "shear" else "E"
-
-
-BAND_SUFFIX = "95 % interval"  # ends the name of every band trace
-INTERVAL_NOTE = (
-    "95 % interval from the fit's own uncertainty; wider where shifts come from the law, "
-    "across gaps and outside the data"
-)
-
-
-def band_trace(
-    x, low, high, colour: str, of: str, where=None, strength: float = 1.0, **kwargs
-) -> go.Scatter:
-    """A shaded band between ``low`` and ``high`` over ``x``.
-
-    ``of`` names the curve the band surrounds; it is the trace's ``meta`` and, unless
-    ``name`` is given, starts its name. The band is drawn where ``where`` holds (all
-    points by default; a run is widened by one point each side so that bands drawn for
-    the complementary masks meet) and both edges are finite and positive, one closed
-    outline per run of such points, outlines separated by a gap (NaN): each outline runs
-    along the upper edge in the order of ``x`` and back along the lower edge, so its
-    first half is the upper edge and its second half, reversed, the lower one.
-    ``strength`` scales the opacity (fainter beyond the data).
-    """
-    x, low, high = (np.asarray(v, dtype=float).ravel() for v in (x, low, high))
-    keep = np.isfinite(x) & np.isfinite(low) & np.isfinite(high) & (low > 0) & (high > 0)
-    if where is not None:
-        w = np.asarray(where, dtype=bool).ravel()
-        wide = w.copy()
-        wide[1:] |= w[:-1]
-        wide[:-1] |= w[1:]
-        keep &= wide
-    idx = np.flatnonzero(keep)
-    runs = np.split(idx, np.flatnonzero(np.diff(idx) > 1) + 1) if idx.size else []
-    xs, ys = [], []
-    for run in (r for r in runs if r.size >= 2):
-        xs += [x[run], x[run][::-1], [np.nan]]
-        ys += [high[run], low[run][::-1], [np.nan]]
-    fill, edge = band_colours(colour, strength)
-    return go.Scatter(
-        x=np.concatenate(xs[:-1]) if xs else np.zeros(0),
-        y=np.concatenate(ys[:-1]) if ys else np.zeros(0),
-        mode="lines",
-        fill="toself",
-        fillcolor=fill,
-        line={"color": edge, "width": 0.6 if strength >= 1.0 else 0.0},
-        hoverinfo="skip",
-        **{"name": f"{of} {BAND_SUFFIX}", "meta": of, **kwargs},
-    )
-
-
-BEYOND_STRENGTH = 0.45  # opacity of a band beyond the data, relative to one inside
-
-
-def band_traces(x, low, high, beyond, colour: str, of: str, **kwargs) -> list[go.Scatter]:
-    """The band of :func:`band_trace` inside the data and, fainter, ``beyond`` it."""
-    beyond = np.asarray(beyond, dtype=bool).ravel()
-    out = [band_trace(x, low, high, colour, of, where=~beyond, **kwargs)]
-    if beyond.any():
-        extra = {**kwargs, "showlegend": False}
-        if "name" in kwargs:
-            extra["name"] = f"{kwargs['name']} (beyond the data)"
-        else:
-            extra["name"] = f"{of} {BAND_SUFFIX} (beyond the data)"
-        out.append(
-            band_trace(x, low, high, colour, of, where=beyond, strength=BEYOND_STRENGTH, **extra)
-        )
-    return out
-
-
-def _with_interval(what: str) -> str:
-    """Hover line of a value with its 95 % interval held in customdata[0] and [1]."""
-    return f"{what}%{{y:.3g}} (95 %: %{{customdata[0]:.3g}} to %{{customdata[1]:.3g}})"
-
-
-def empty_figure(message: str) -> go.Figure:
-    fig = go.Figure()
-    fig.add_annotation(text=message, showarrow=False, xref="paper", yref="paper", x=0.5, y=0.5)
-    fig.update_layout(template=TEMPLATE, height=260, xaxis_visible=False, yaxis_visible=False)
-    return fig
-
-
-# -- map -----------------------------------------------------------------------------------
-
-
-LABEL_DECADES = 0.9  # width of a guide label on the map's loss-factor axis [decades]
-CROWD_LIMIT = 40  # more grades than this on the map: the rest share a few traces
-CROWD_TOP = 10  # passing grades always drawn on their own
-CROWD_CHOSEN = 20  # grades of the comparison set drawn on their own; more share traces
-
-
-def _add_crowd(fig, props, grades, rows, eta, storage, temps, chosen: bool = False) -> None:
-    """Draw many grades as two traces per state: their paths, and their marks.
-
-    The paths are one SVG line trace with a gap (a NaN point) between grades; the marks,
-    which carry the hover text and which a box or lasso selects, are one WebGL trace:
-    as SVG, tens of thousands of marks take a browser seconds to draw. ``chosen`` marks
-    grades of the comparison set, drawn wider and darker like the set's grades that
-    have traces of their own. Every per-point value is handed over as a numpy array:
-    Plotly validates, copies and encodes a Python list element by element, which at a
-    few hundred grades cost more than the rest of a rerun.
-    """
-    n_t = temps.size
-    for passed in (True, False):
-        ks = np.array([k for k in rows if grades[props.ids[k]].passed == passed], dtype=int)
-        if not ks.size:
-            continue
-        gap = np.full((ks.size, 1), np.nan)  # a NaN point ends one path before the next
-        xs = np.hstack([eta[ks], gap]).ravel()
-        ys = np.hstack([storage[ks], gap]).ravel()
-        states = []
-        for k in ks:
-            g = grades[props.ids[k]]
-            states.append(
-                f"rank {g.rank}"
-                if passed
-                else "excluded: " + "; ".join(f.text() for f in g.failures)
-            )
-        custom = np.empty((ks.size, n_t, 3), dtype=object)
-        custom[:, :, 0] = np.array([props.ids[k] for k in ks], dtype=object)[:, None]
-        custom[:, :, 1] = np.array(temps.tolist(), dtype=object)[None, :]
-        custom[:, :, 2] = np.array(states, dtype=object)[:, None]
-        state = "passing" if passed else "excluded"
-        if chosen:
-            alpha = 0.85 if passed else 0.6
-            width, size = 3.0, 4
-            name = f"{ks.size} more of the set, {state}"
-        else:
-            alpha = 0.35 if passed else 0.18
-            width, size = 1.0, 2
-            name = f"{ks.size} more, {state}"
-        colour = faded(INK, alpha)
-        group = f"{'set' if chosen else 'others'}, {state}"
-        fig.add_trace(
-            go.Scatter(
-                x=xs,
-                y=ys,
-                mode="lines",
-                name=name,
-                legendgroup=group,
-                line={"color": colour, "width": width, "dash": "solid" if passed else "dot"},
-                hoverinfo="skip",
-            )
-        )
-        fig.add_trace(
-            go.Scattergl(
-                x=eta[ks].ravel(),
-                y=storage[ks].ravel(),
-                mode="markers",  # box and lasso select marked points only
-                name=name,
-                legendgroup=group,
-                showlegend=False,
-                # WebGL draws a mark's colour at full strength: the fading is an opacity.
-                marker={"size": size, "color": INK, "opacity": alpha},
-                customdata=custom.reshape(-1, 3),  # grade, temperature, state
-                hovertemplate=(
-                    "<b>%{customdata[0]}</b><br>T = %{customdata[1]:.0f} °C<br>"
-                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>%{customdata[2]}<extra></extra>"
-                ),
-            )
-        )
-
-
-def map_figure(
-    result: RankResult,
-    colours: dict[str, str],
-    chosen: list[str],
-    min_loss_factor: float | None,
-    show_excluded: bool = True,
-    bands: dict[str, MasterCurve] | None = None,
-) -> go.Figure:
-    """E' against loss factor, each grade a path through the window's temperatures.
-
-    The grades of ``bands`` (id -> the master curve the ranking used) that are drawn on
-    their own get their 95 % intervals as a shaded tube along the path
-    (:func:`path_band_trace`).
-    """
-    props = result.window_props
-    grades = {g.id: g for g in result.grades}
-    temps = np.asarray(props.path_temperatures, dtype=float)
-    storage = np.asarray(props.path_storage, dtype=float) / 1e6
-    eta = np.asarray(props.path_loss_factor, dtype=float)
-    shown = [k for k, gid in enumerate(props.ids) if show_excluded or grades[gid].passed]
-    xa, xb = _log_span(
-        np.concatenate([eta[shown].ravel(), [min_loss_factor] if min_loss_factor else []]), 0.15
-    )
-    ya, yb = _log_span(storage[shown], 0.15)
-    fig = go.Figure()
-
-    # Feasible region (eta >= limit), drawn as a filled polygon in data coordinates.
-    if min_loss_factor:
-        x0 = max(min_loss_factor, 10**xa)
-        fig.add_trace(
-            go.Scatter(
-                x=[x0, 10**xb, 10**xb, x0, x0],
-                y=[10**ya, 10**ya, 10**yb, 10**yb, 10**ya],
-                fill="toself",
-                fillcolor="rgba(46, 111, 115, 0.09)",
-                line={"width": 0},
-                mode="lines",
-                hoverinfo="skip",
-                showlegend=False,
-            )
-        )
-        fig.add_annotation(
-            x=np.log10(x0),
-            y=yb,
-            yshift=-4,
-            text=f"η ≥ {min_loss_factor:g} (limit met)",
-            showarrow=False,
-            xanchor="left",
-            yanchor="top",
-            font={"size": 11, "color": ACCENT},
-        )
-
-    # Guides: constant loss modulus E'' = eta E' (straight lines of slope -1 here).
-    lo_d = int(np.floor(xa + ya))
-    hi_d = int(np.ceil(xb + yb))
-    for d in range(lo_d, hi_d + 1):
-        v = 10.0**d
-        fig.add_trace(
-            go.Scatter(
-                x=[10**xa, 10**xb],
-                y=[v / 10**xa, v / 10**xb],
-                mode="lines",
-                line={"color": GUIDE, "width": 0.8, "dash": "dot"},
-                hoverinfo="skip",
-                showlegend=False,
-            )
-        )
-        # Label where the guide enters the plot from the top or the left.
-        x_top = d - yb
-        if xa <= x_top <= xb - LABEL_DECADES:  # room for the text inside the plot
-            x_lab, y_lab = x_top, yb
-        elif ya <= d - xa <= yb:
-            x_lab, y_lab = xa, d - xa
-        else:
-            continue
-        fig.add_annotation(
-            x=x_lab + 0.02,
-            y=y_lab - 0.04,
-            text=f"E'' = {v:g} MPa",
-            showarrow=False,
-            xanchor="left",
-            yanchor="top",
-            font={"size": 10, "color": "#A39E91"},
-        )
-
-    on_ten = np.isclose(np.mod(temps, 10.0), 0.0) | np.isclose(np.mod(temps, 10.0), 10.0)
-    sizes = np.where(on_ten, 7, 0)
-    sizes[0] = sizes[-1] = 9
-    labels = [""] * temps.size
-    labels[0] = f"{temps[0]:g} °C"
-    labels[-1] = f"{temps[-1]:g} °C"
-    # A large library: apart from the top ranks and the first grades of the comparison
-    # set, grades share a few traces (passing or excluded, in the set or not), which
-    # keeps a rerun quick.
-    if len(shown) > CROWD_LIMIT:
-        own = {g.id for g in result.shortlist[:CROWD_TOP]} | set(chosen[:CROWD_CHOSEN])
-        picked = set(chosen)
-        crowd = [k for k in shown if props.ids[k] not in own]
-        _add_crowd(
-            fig,
-            props,
-            grades,
-            [k for k in crowd if props.ids[k] not in picked],
-            eta,
-            storage,
-            temps,
-        )
-        _add_crowd(
-            fig,
-            props,
-            grades,
-            [k for k in crowd if props.ids[k] in picked],
-            eta,
-            storage,
-            temps,
-            chosen=True,
-        )
-        shown = [k for k in shown if props.ids[k] in own]
-    for k in shown:
-        gid = props.ids[k]
-        g = grades[gid]
-        colour = colours.get(gid, INK)
-        picked = gid in chosen
-        if g.passed:
-            status = f"rank {g.rank}, score {g.score:.0f}"
-            alpha = 1.0 if (picked or not chosen) else 0.5
-            width = 4.0 if picked else 2.0
-            dash = "solid"
-        else:
-            status = "excluded:<br>" + "<br>".join(f.text() for f in g.failures)
-            alpha = 0.9 if picked else 0.38
-            width = 3.0 if picked else 1.3
-            dash = "dot"
-        labelled = g.passed or picked
-        marks = sizes if labelled else np.where(sizes > 0, 4, 0)
-        extrap = np.asarray(props.path_extrapolated[k], dtype=bool)
-        custom = np.empty((temps.size, 3), dtype=object)
-        custom[:, 0] = gid
-        custom[:, 1] = temps
-        custom[:, 2] = np.where(extrap, " (extrapolated)", "")
-        name = gid  # excluded grades are told apart by their dotted, faded line
-        if bands and gid in bands:
-            factor = float(tensile_factor([bands[gid].mode], props.poisson[k : k + 1])[0])
-            fig.add_trace(
-                path_band_trace(
-                    gid,
-                    bands[gid],
-                    temps,
-                    result.criteria.window.design_frequency,
-                    factor,
-                    colour,
-                )
-            )
-        fig.add_trace(
-            go.Scatter(
-                x=eta[k],
-                y=storage[k],
-                mode="lines+markers+text",
-                name=name,
-                legendgroup=gid,
-                line={"color": faded(colour, alpha), "width": width, "dash": dash},
-                marker={
-                    "size": marks,
-                    "color": faded(colour, alpha),
-                    "symbol": np.where(extrap, "circle-open", "circle").tolist(),
-                    "line": {"width": 1.2, "color": faded(colour, alpha)},
-                },
-                text=labels if labelled else None,
-                textposition="top right",
-                textfont={"size": 10, "color": faded(colour, max(alpha, 0.5))},
-                customdata=custom,
-                hovertemplate=(
-                    f"<b>%{{customdata[0]}}</b> {g.name}<br>"
-                    "T = %{customdata[1]:.0f} °C%{customdata[2]}<br>"
-                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>"
-                    f"{status}<extra></extra>"
-                ),
-                selected={"marker": {"opacity": 1.0}},
-                unselected={"marker": {"opacity": 1.0}},
-            )
-        )
-    fig.update_layout(
-        template=TEMPLATE,
-        height=640,
-        dragmode="select",
-        title=(
-            f"Paths through the window at {result.criteria.window.design_frequency:.3g} Hz, "
-            f"{temps[0]:g} to {temps[-1]:g} °C"
-        ),
-        xaxis={"type": "log", "range": [xa, xb], "title": {"text": "loss factor η = tan δ [-]"}},
-        yaxis={
-            "type": "log",
-            "range": [ya, yb],
-            "title": {"text": "storage modulus E' [MPa] (tensile equivalent)"},
-        },
-        legend={"title": {"text": "grade"}, "itemclick": "toggle"},
-        hovermode="closest",
-    )
-    return tidy_log_axes(fig)
-
-
-def path_band_trace(
-    gid: str,
-    curve: MasterCurve,
-    temperatures: np.ndarray,
-    frequency: float,
-    tensile: float,
-    colour: str,
-) -> go.Scatter:
-    """The 95 % intervals of a grade's map path as one shaded tube.
-
-    At every temperature of the path the interval of E' (times ``tensile``, which makes
-    it tensile-equivalent like the path) and the interval of the loss factor span a box
-    on the map; the tube is the union of the boxes, drawn as one outline per box in a
-    single filled trace (boxes of one orientation overlap without darkening): box k is
-    points 6k to 6k + 4 of the trace, (eta low, E' low), (eta high, E' low), (eta high,
-    E' high), (eta low, E' high) and back, E' in MPa, followed by a gap.
-    """
-    t = np.asarray(temperatures, dtype=float)
-    band = curve.interval(t, frequency)
-    e_lo = np.asarray(band.storage_low, dtype=float) * tensile / 1e6
-    e_hi = np.asarray(band.storage_high, dtype=float) * tensile / 1e6
-    n_lo = np.asarray(band.loss_factor_low, dtype=float)
-    n_hi = np.asarray(band.loss_factor_high, dtype=float)
-    gap = np.full_like(t, np.nan)
-    # Counter-clockwise boxes (in log-log as well), a NaN corner between two boxes.
-    xs = np.column_stack([n_lo, n_hi, n_hi, n_lo, n_lo, gap]).ravel()
-    ys = np.column_stack([e_lo, e_lo, e_hi, e_hi, e_lo, gap]).ravel()
-    fill, edge = band_colours(colour)
-    return go.Scatter(
-        x=xs,
-        y=ys,
-        mode="lines",
-        fill="toself",
-        fillcolor=fill,
-        line={"color": edge, "width": 0},
-        name=f"{gid} {BAND_SUFFIX}",
-        meta=gid,  # no legend group: a trace with one stands for a grade's path on the map
-        showlegend=False,
-        hoverinfo="skip",
-    )
-
-
-# -- curves --------------------------------------------------------------------------------
 
 
 def _nearest_measured(points: np.ndarray, frequency: float) -> tuple[float, np.ndarray]:
@@ -507,7 +51,7 @@ def _nearest_measured(points: np.ndarray, frequency: float) -> tuple[float, np.n
 def temperature_figure(
     ids: list[str],
     curves: dict[str, MasterCurve],
-    points: dict[str, np.ndarray],
+    points: dict[str, np.ndarray | None],
     frequencies: list[float],
     window_range: tuple[float, float],
     colours: dict[str, str],
@@ -524,7 +68,7 @@ def temperature_figure(
     for gid in ids:
         curve = curves[gid]
         colour = colours.get(gid, INK)
-        m = _mode_symbol(curve)
+        m = mode_symbol(curve)
         pts = points.get(gid)
         # One pass of the posterior draws for every temperature and frequency of the grade.
         band = curve.interval(grid[:, None], np.asarray(frequencies, dtype=float)[None, :])
@@ -568,7 +112,7 @@ def temperature_figure(
                             customdata=np.column_stack([low, high]),
                             hovertemplate=(
                                 f"{gid} {what}{part}<br>T = %{{x:.1f}} °C, f = {f:g} Hz<br>"
-                                + _with_interval("")
+                                + with_interval("")
                                 + "<extra></extra>"
                             ),
                         ),
@@ -661,7 +205,7 @@ def _isotherm_index(points: np.ndarray, curve: MasterCurve) -> np.ndarray:
 
 def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
     """The master curve at the reference temperature with the shifted measured points."""
-    m = _mode_symbol(curve)
+    m = mode_symbol(curve)
     lo, hi = curve.log_fr_range
     fr = np.logspace(lo - 1.0, hi + 1.0, 400)
     p = curve.evaluate(curve.reference_C, fr)
@@ -738,7 +282,7 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
                     customdata=np.column_stack([low / unit, high / unit]),
                     hovertemplate=(
                         f"{label}{part}<br>fR = %{{x:.3g}} Hz<br>"
-                        + _with_interval("")
+                        + with_interval("")
                         + "<extra></extra>"
                     ),
                 ),
@@ -877,7 +421,7 @@ def nomogram_figure(
     Reduced frequency along the bottom (log), E' and loss factor on the left (log),
     frequency on the right (log), and isotherms as diagonals log f = log fR - log aT(T).
     """
-    m = _mode_symbol(curve)
+    m = mode_symbol(curve)
     lo, hi = curve.log_fr_range
     xa, xb = lo - 0.5, hi + 0.5
     fr = np.logspace(xa, xb, 400)
@@ -992,8 +536,8 @@ def nomogram_figure(
             yref="paper",
             line={"color": ACCENT, "dash": "dot", "width": 1.5},
         )
-    ea, eb = _log_span(p.storage_modulus / 1e6, 0.1)
-    na, nb = _log_span(p.loss_factor, 0.1)
+    ea, eb = log_span(p.storage_modulus / 1e6, 0.1)
+    na, nb = log_span(p.loss_factor, 0.1)
     fig.update_layout(
         template=TEMPLATE,
         height=620,
@@ -1030,13 +574,13 @@ def nomogram_figure(
     return tidy_log_axes(fig)
 
 
-def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figure:
+def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray | None) -> go.Figure:
     """E' and tan delta at the Tg frequency, with Tg by each method and the regions.
 
     Each Tg found stands as a vertical line on the curves and, on a strip above them, as
     a mark with its 95 % interval as a bar (where the fit gives one), one row per method.
     """
-    m = _mode_symbol(curve)
+    m = mode_symbol(curve)
     f_tg = float(curve.tg[0]["frequency_Hz"]) if curve.tg else 1.0
     t_lo, t_hi = curve.temperature_range
     grid = np.linspace(t_lo, t_hi, 301)
@@ -1192,7 +736,7 @@ def relaxation_figure(
     gid: str, curve: MasterCurve, temperatures: list[float], colours: list[str]
 ) -> go.Figure:
     """Relaxation modulus against time, with the 1 h and 1000 h values marked."""
-    m = _mode_symbol(curve)
+    m = mode_symbol(curve)
     t = np.logspace(-3, 9, 361)
     marks = np.array([HOUR_S, 1000.0 * HOUR_S])
     fig = go.Figure()
@@ -1317,174 +861,10 @@ def collapse_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figu
         template=TEMPLATE,
         height=380,
         title=(
-            f"tan δ against {_mode_symbol(curve)}' of {gid}: scatter {text}, "
+            f"tan δ against {mode_symbol(curve)}' of {gid}: scatter {text}, "
             + ("one curve (superposition holds)" if ok else "does not collapse onto one curve")
         ),
-        xaxis={"type": "log", "title": {"text": f"storage modulus {_mode_symbol(curve)}' [MPa]"}},
+        xaxis={"type": "log", "title": {"text": f"storage modulus {mode_symbol(curve)}' [MPa]"}},
         yaxis={"type": "log", "title": {"text": "loss factor tan δ [-]"}},
     )
     return tidy_log_axes(fig)
-
-
-# -- mount ---------------------------------------------------------------------------------
-
-
-def mount_figures(
-    result: RankResult, ids: list[str], colours: dict[str, str]
-) -> tuple[go.Figure, go.Figure, go.Figure]:
-    """Natural frequency, transmissibility and static deflection against temperature."""
-    mres = result.mount
-    design = result.criteria.mount
-    con = result.criteria.constraints
-    temps = np.asarray(mres.temperatures, dtype=float)
-    rows = {gid: k for k, gid in enumerate(mres.ids)}
-    fn_fig, tr_fig, sd_fig = go.Figure(), go.Figure(), go.Figure()
-    for f in mres.disturbance:
-        fn_fig.add_hline(
-            y=float(f),
-            line={"color": WARN, "dash": "dash", "width": 1.2},
-            annotation_text=f"disturbance {f:g} Hz",
-            annotation_position="top left",
-            annotation_font_size=10,
-        )
-    if con.fn_range_Hz is not None:
-        fn_fig.add_hrect(
-            y0=con.fn_range_Hz[0], y1=con.fn_range_Hz[1], fillcolor=WINDOW_BAND, line_width=0
-        )
-    if design.target_fn_Hz is not None:
-        fn_fig.add_trace(
-            go.Scatter(
-                x=[design.sizing_temp_C],
-                y=[design.target_fn_Hz],
-                mode="markers",
-                name=f"sizing target {design.target_fn_Hz:g} Hz at {design.sizing_temp_C:g} °C",
-                marker={"symbol": "star-open", "size": 13, "color": INK, "line": {"width": 1.5}},
-            )
-        )
-    # Level lines as traces: shapes on a log axis would stretch its autorange.
-    levels = [(1.0, "1: no isolation", GUIDE, "dot")]
-    if con.max_transmissibility is not None:
-        levels.append(
-            (con.max_transmissibility, f"limit {con.max_transmissibility:g}", WARN, "dash")
-        )
-    for y, label, colour, dash in levels:
-        tr_fig.add_trace(
-            go.Scatter(
-                x=[temps.min(), temps.max()],
-                y=[y, y],
-                mode="lines+text",
-                line={"color": colour, "dash": dash, "width": 1.2},
-                text=[label, ""],
-                textposition="top right",
-                textfont={"size": 10},
-                hoverinfo="skip",
-                showlegend=False,
-            )
-        )
-    single = mres.disturbance.size == 1
-    for gid in ids:
-        if gid not in rows:
-            continue
-        k = rows[gid]
-        colour = colours.get(gid, INK)
-        fn_fig.add_trace(
-            go.Scatter(
-                x=temps,
-                y=mres.natural_frequency[k],
-                mode="lines+markers",
-                name=gid,
-                line={"color": colour, "width": 2},
-                marker={"size": 5},
-                hovertemplate=f"{gid}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>",
-            )
-        )
-        for j, f in enumerate(mres.disturbance):
-            tr_fig.add_trace(
-                go.Scatter(
-                    x=temps,
-                    y=mres.transmissibility[k][:, j],
-                    mode="lines+markers",
-                    name=gid if single else f"{gid} at {f:g} Hz",
-                    legendgroup=gid,
-                    line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
-                    marker={"size": 5},
-                    hovertemplate=(
-                        f"{gid} at {f:g} Hz<br>T = %{{x:g}} °C<br>transmissibility %{{y:.3g}}"
-                        "<extra></extra>"
-                    ),
-                )
-            )
-        sd_fig.add_trace(
-            go.Scatter(
-                x=temps,
-                y=mres.static_strain[k],
-                mode="lines+markers",
-                name=gid,
-                legendgroup=gid,
-                line={"color": colour, "width": 2},
-                marker={"size": 5},
-                customdata=mres.static_deflection[k] * 1e3,
-                hovertemplate=(
-                    f"{gid}<br>T = %{{x:g}} °C<br>static strain %{{y:.3g}} "
-                    "(%{customdata:.3g} mm)<extra></extra>"
-                ),
-            )
-        )
-        sd_fig.add_trace(
-            go.Scatter(
-                x=[temps.max()],
-                y=[mres.sag_strain[k]],
-                mode="markers",
-                legendgroup=gid,
-                showlegend=False,
-                name=f"{gid} with sag after {design.service_life_h:g} h",
-                marker={
-                    "color": colour,
-                    "size": 11,
-                    "symbol": "triangle-down-open",
-                    "line": {"width": 2},
-                },
-                customdata=[mres.sag[k] * 1e3],
-                hovertemplate=(
-                    f"{gid}: strain %{{y:.3g}} (%{{customdata:.3g}} mm) after "
-                    f"{design.service_life_h:g} h at {temps.max():g} °C<extra></extra>"
-                ),
-            )
-        )
-    limit = mres.strain_limit if con.max_static_strain is None else con.max_static_strain
-    sd_fig.add_hline(
-        y=limit,
-        line={"color": WARN, "dash": "dash"},
-        annotation_text=f"strain limit {limit:g}",
-        annotation_position="top left",
-        annotation_font_size=10,
-    )
-    bottom = {"orientation": "h", "y": -0.22, "font": {"size": 10}}
-    fn_fig.update_layout(
-        template=TEMPLATE,
-        height=460,
-        title="Natural frequency across the window",
-        xaxis_title="temperature [°C]",
-        yaxis_title="natural frequency fn [Hz]",
-        legend=bottom,
-    )
-    tr_fig.update_layout(
-        template=TEMPLATE,
-        height=460,
-        title="Transmissibility at the disturbance",
-        xaxis_title="temperature [°C]",
-        yaxis={"type": "log", "title": {"text": "transmissibility [-]"}},
-        legend=bottom,
-    )
-    sd_fig.update_layout(
-        template=TEMPLATE,
-        height=460,
-        title=f"Static strain (triangles: with sag after {design.service_life_h:g} h)",
-        xaxis_title="temperature [°C]",
-        yaxis={
-            "title": {"text": "static strain (deflection / thickness) [-]"},
-            "rangemode": "tozero",
-        },
-        legend=bottom,
-    )
-    return tidy_log_axes(fn_fig), tidy_log_axes(tr_fig), tidy_log_axes(sd_fig)

@@ -1,0 +1,67 @@
+"""Numbered changes of the library's schema, from one schema version to the next.
+
+Migration ``n`` turns a library of schema version ``n - 1`` into one of version ``n``.
+:class:`~engine.library.store.Library` applies the pending ones in order, all in one
+transaction, when it opens an older library. A migration is written against the schema
+as it stood then, never against today's tables, and once released it is never changed:
+a later change is a new migration. The statements are ones SQLite and PostgreSQL both
+accept.
+
+Examples
+--------
+>>> [(m.number, m.description) for m in MIGRATIONS]
+[(2, 'add the bulk_modulus column to materials')]
+>>> import sqlalchemy as sa
+>>> add_column_ddl(sa.create_engine("sqlite://").dialect, "materials",
+...                sa.Column("bulk_modulus", sa.Float))
+'ALTER TABLE materials ADD COLUMN bulk_modulus FLOAT'
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import NamedTuple
+
+import sqlalchemy as sa
+
+
+class Migration(NamedTuple):
+    number: int  # the schema version this migration produces
+    description: str
+    apply: Callable[[sa.Connection], None]
+
+
+def add_column_ddl(dialect, table: str, column: sa.Column) -> str:
+    """``ALTER TABLE ... ADD COLUMN ...`` for a nullable ``column`` without a default."""
+    quote = dialect.identifier_preparer.quote
+    kind = column.type.compile(dialect=dialect)
+    return f"ALTER TABLE {quote(table)} ADD COLUMN {quote(column.name)} {kind}"
+
+
+def add_column(conn: sa.Connection, table: str, column: sa.Column) -> None:
+    """Add a nullable ``column`` to ``table`` unless the table has it already."""
+    present = {c["name"] for c in sa.inspect(conn).get_columns(table)}
+    if column.name not in present:
+        conn.execute(sa.DDL(add_column_ddl(conn.dialect, table, column)))
+
+
+def _add_bulk_modulus(conn: sa.Connection) -> None:
+    add_column(conn, "materials", sa.Column("bulk_modulus", sa.Float))  # [MPa]
+
+
+MIGRATIONS: tuple[Migration, ...] = (
+    Migration(2, "add the bulk_modulus column to materials", _add_bulk_modulus),
+)
+
+
+def pending(stored: int, target: int, migrations=None) -> list[Migration]:
+    """The migrations that take schema version ``stored`` to ``target``, in order.
+
+    ``migrations`` defaults to :data:`MIGRATIONS` as it is at the call. ValueError if a
+    step is missing.
+    """
+    steps = sorted(MIGRATIONS if migrations is None else migrations, key=lambda m: m.number)
+    chosen = [m for m in steps if stored < m.number <= target]
+    if [m.number for m in chosen] != list(range(stored + 1, target + 1)):
+        raise ValueError(f"no complete chain of migrations from version {stored} to {target}")
+    return chosen

@@ -1,0 +1,235 @@
+"""Constraints: every limit a grade must meet, each one registered check.
+
+A check reads the evaluation of all grades at once and reports the grades that fail
+with :meth:`Checks.fail`; a :class:`Failure` is made only for those. Checks run in the
+order they are registered, so each grade's failures come in a fixed order. A new
+constraint is a field of :class:`engine.selection.criteria.Constraints` (None switches
+it off) and one function here decorated with :func:`constraint`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from engine.curves.mountcheck import MountResult
+from engine.selection.criteria import Criteria
+from engine.selection.evaluation import Evaluation
+from engine.selection.results import Failure, short_number
+
+MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
+
+
+@dataclass
+class Checks:
+    """What a check reads (the criteria and the evaluation) and where it writes."""
+
+    criteria: Criteria
+    ev: Evaluation
+    out: list[list[Failure]]
+
+    @property
+    def mres(self) -> MountResult:
+        """The mount check (only mount checks read it, and they run only with one)."""
+        assert self.ev.mount is not None
+        return self.ev.mount
+
+    def fail(self, mask, make: Callable[[int], Failure], topic: str = "window") -> None:
+        """Add ``make(k)`` to the failures of every grade k where ``mask`` is true."""
+        for k in np.flatnonzero(mask).tolist():
+            failure = make(k)
+            failure.topic = topic
+            self.out[k].append(failure)
+
+
+Check = Callable[[Checks], None]
+CHECKS: list[tuple[str, Check]] = []
+
+
+def constraint(name: str, needs_mount: bool = False) -> Callable[[Check], Check]:
+    """Register a check under ``name``; a mount check runs only with a mount design."""
+
+    def register(check: Check) -> Check:
+        def run(c: Checks) -> None:
+            if not needs_mount or c.ev.mount is not None:
+                check(c)
+
+        CHECKS.append((name, run))
+        return check
+
+    return register
+
+
+def failures(criteria: Criteria, ev: Evaluation) -> list[list[Failure]]:
+    """Every failed constraint of every grade of ``ev``, in registration order."""
+    checks = Checks(criteria, ev, [[] for _ in ev.ids])
+    for _, check in CHECKS:
+        check(checks)
+    return checks.out
+
+
+def _row_max(values: np.ndarray) -> np.ndarray:
+    """Largest finite-or-infinite value of each row, NaN ignored (NaN if all are)."""
+    return np.fmax.reduce(values.reshape(values.shape[0], -1), axis=1)
+
+
+@constraint("service_covers_window")
+def _service_range(c: Checks) -> None:
+    if not c.criteria.constraints.service_covers_window:
+        return
+    lo_t, hi_t = c.criteria.window.temp_range
+    smin, smax = c.ev.catalog["service_min"], c.ev.catalog["service_max"]
+    unknown = np.isnan(smin) | np.isnan(smax)
+    needs = f"to cover {lo_t:g} to {hi_t:g} °C"
+    with np.errstate(invalid="ignore"):
+        short = ~unknown & ((smin > lo_t) | (smax < hi_t))
+    c.fail(unknown, lambda k: Failure("service range", "unknown", needs), "catalog")
+    c.fail(
+        short,
+        lambda k: Failure("service range", f"{smin[k]:g} to {smax[k]:g} °C", needs),
+        "catalog",
+    )
+
+
+def _catalog_limit(c: Checks, field: str, label: str, unit: str, limit: str, outside) -> None:
+    """Failures of a catalog field: unknown, or ``outside(values)`` true."""
+    v = c.ev.catalog[field]
+    c.fail(np.isnan(v), lambda k: Failure(label, "unknown", limit), "catalog")
+    with np.errstate(invalid="ignore"):
+        bad = outside(v)
+    c.fail(bad, lambda k: Failure(label, f"{v[k]:g} {unit}", limit), "catalog")
+
+
+@constraint("hardness_range")
+def _hardness(c: Checks) -> None:
+    if c.criteria.constraints.hardness_range is None:
+        return
+    a, b = c.criteria.constraints.hardness_range
+    _catalog_limit(
+        c, "hardness", "hardness", "Shore A", f"{a:g}-{b:g} Shore A", lambda h: (h < a) | (h > b)
+    )
+
+
+@constraint("max_price")
+def _price(c: Checks) -> None:
+    top = c.criteria.constraints.max_price
+    if top is None:
+        return
+    _catalog_limit(c, "price", "price", "per kg", f"<= {top:g} per kg", lambda p: p > top)
+
+
+@constraint("min_loss_factor")
+def _loss_factor(c: Checks) -> None:
+    least = c.criteria.constraints.min_loss_factor
+    if least is None:
+        return
+    eta = c.ev.eta_worst
+    c.fail(
+        eta < least,
+        lambda k: Failure("worst-case loss factor", short_number(eta[k]), f">= {least:g}"),
+    )
+
+
+@constraint("allow_extrapolation")
+def _window_extrapolation(c: Checks) -> None:
+    if c.criteria.constraints.allow_extrapolation:
+        return
+    c.fail(
+        c.ev.extrapolated,
+        lambda k: Failure(
+            "extrapolation", "the window reaches beyond the measured data", "not allowed"
+        ),
+    )
+
+
+@constraint("indices")
+def _index_known(c: Checks) -> None:
+    catalog = c.ev.catalog
+    for name, spec in c.ev.specs.items():
+        missing = np.zeros(len(c.ev.ids), dtype=bool)
+        for field_name in spec.needs:
+            missing |= np.isnan(catalog[field_name])
+
+        def unknown_index(k, name=name, spec=spec):
+            absent = [f for f in spec.needs if np.isnan(catalog[f][k])]
+            return Failure(f"index {name}", "unknown", "needs " + (", ".join(absent) or "data"))
+
+        c.fail(missing | ~np.isfinite(c.ev.values[name]), unknown_index)
+
+
+@constraint("natural_frequency", needs_mount=True)
+def _root_found(c: Checks) -> None:
+    found = np.isfinite(c.mres.natural_frequency)
+    c.fail(
+        ~found.all(axis=1),
+        lambda k: Failure("natural frequency", "not found", "a root in 1 mHz-100 kHz"),
+        "mount",
+    )
+
+
+@constraint("fn_range_Hz", needs_mount=True)
+def _fn_range(c: Checks) -> None:
+    if c.criteria.constraints.fn_range_Hz is None:
+        return
+    a, b = c.criteria.constraints.fn_range_Hz
+    fn = c.mres.natural_frequency
+    found = np.isfinite(fn)
+    fn_lo = np.where(found, fn, np.inf).min(axis=1)
+    fn_hi = np.where(found, fn, -np.inf).max(axis=1)
+    c.fail(
+        found.any(axis=1) & ((fn_lo < a) | (fn_hi > b)),
+        lambda k: Failure(
+            "natural frequency", f"{fn_lo[k]:.3g} to {fn_hi[k]:.3g} Hz", f"{a:g} to {b:g} Hz"
+        ),
+        "mount",
+    )
+
+
+@constraint("max_transmissibility", needs_mount=True)
+def _transmissibility(c: Checks) -> None:
+    top = c.criteria.constraints.max_transmissibility
+    if top is None:
+        return
+    worst_t = _row_max(c.mres.transmissibility)
+    with np.errstate(invalid="ignore"):
+        high = worst_t > top
+    c.fail(
+        high,
+        lambda k: Failure(
+            "transmissibility at the disturbance", short_number(worst_t[k]), f"<= {top:g}"
+        ),
+        "mount",
+    )
+
+
+@constraint("max_static_strain", needs_mount=True)
+def _static_strain(c: Checks) -> None:
+    mres = c.mres
+    chosen = c.criteria.constraints.max_static_strain
+    limit = chosen if chosen is not None else mres.strain_limit
+    static = _row_max(mres.static_strain)
+    strain = np.where(np.isnan(static), np.nan, np.fmax(static, mres.sag_strain))
+    with np.errstate(invalid="ignore"):
+        strained = ~(strain <= limit)
+
+    def strain_failure(k):
+        needs = f"<= {limit:g}"
+        if strain[k] > 1.0:
+            needs += "; above 1 the pad cannot carry the load at all"
+        return Failure("static strain incl. long-term sag", short_number(strain[k]), needs)
+
+    c.fail(strained, strain_failure, "mount")
+
+
+@constraint("mount_extrapolation", needs_mount=True)
+def _mount_extrapolation(c: Checks) -> None:
+    if c.criteria.constraints.allow_extrapolation:
+        return
+    # Reported once: a window that already needs extrapolation says so above.
+    c.fail(
+        c.mres.extrapolated.any(axis=1) & ~c.ev.extrapolated,
+        lambda k: Failure("extrapolation", MOUNT_EXTRAPOLATION, "not allowed"),
+        "mount",
+    )

@@ -1,0 +1,59 @@
+"""The one-line reason of every grade: where it stands and which index carried it."""
+
+from __future__ import annotations
+
+from engine.physics.indices import IndexSpec
+from engine.selection.results import GradeResult, RankResult, short_number
+
+UNCERTAIN = "within the data's uncertainty"  # of neighbours the draws cannot order (spread)
+
+
+def write_reasons(result: RankResult) -> None:
+    """Set the one-line reason of every grade of ``result`` (passing ones in rank order)."""
+    passing = result.shortlist
+    weights = {c.name: c.weight for c in result.criteria.indices}
+    reasons = _Reasons(passing, result.specs, weights)
+    for r in passing:
+        r.reason = reasons.line(r)
+    for r in result.excluded:
+        r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
+
+
+class _Reasons:
+    """One line per passing grade: where it stands and which index carried it."""
+
+    def __init__(self, passing: list[GradeResult], specs: dict[str, IndexSpec], weights: dict):
+        self.n = len(passing)
+        self.specs = specs
+        self.best = {}
+        for name, spec in specs.items():
+            vals = [p.indices[name] for p in passing]
+            if vals:
+                self.best[name] = max(vals) if spec.higher_is_better else min(vals)
+        self.shown = sorted(specs, key=lambda n: -weights[n])[:2]
+        self.units = {
+            n: "" if spec.unit in ("-", "") else " " + spec.unit for n, spec in specs.items()
+        }
+
+    def line(self, r: GradeResult) -> str:
+        parts = []
+        best_on = [
+            spec.label
+            for name, spec in self.specs.items()
+            if self.n > 1 and r.indices[name] == self.best.get(name)
+        ]
+        if best_on:
+            parts.append("best " + " and ".join(best_on))
+        parts.append(
+            ", ".join(
+                f"{self.specs[n].label} {short_number(r.indices[n])}{self.units[n]}"
+                for n in self.shown
+            )
+        )
+        if r.spread is not None and r.spread.alongside:
+            parts.append(f"{UNCERTAIN} of {' and '.join(r.spread.alongside)}")
+        if r.pareto:
+            parts.append("Pareto-optimal")
+        if r.extrapolated:
+            parts.append("uses extrapolated data")
+        return f"rank {r.rank} of {self.n}: " + "; ".join(parts) + "; meets every constraint"

@@ -1,0 +1,109 @@
+"""The outcome of a ranking: each grade's failures, index values, score, rank and reason."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from engine.base.version import __version__
+from engine.curves.mountcheck import MountResult
+from engine.curves.window import WindowProps
+from engine.physics.indices import IndexSpec
+from engine.selection.criteria import Criteria
+
+if TYPE_CHECKING:  # engine.selection.spread builds on this module
+    from engine.selection.spread import GradeSpread, RankSpread
+
+
+@dataclass
+class Failure:
+    """A failed constraint: what, the value found, the limit; ``topic`` groups them
+    ("catalog", "window" or "mount")."""
+
+    constraint: str
+    value: float | str
+    limit: str
+    topic: str = "window"
+
+    def text(self) -> str:
+        return f"{self.constraint} {self.value} (needs {self.limit})"
+
+
+@dataclass
+class GradeResult:
+    id: str
+    name: str
+    supplier: str | None
+    family: str | None
+    price: float | None
+    density: float | None
+    passed: bool
+    failures: list[Failure]
+    indices: dict[str, float]  # aggregated index values (display units, see IndexSpec)
+    score: float | None = None  # 0-100 over the passing grades
+    raw_score: float | None = None
+    rank: int | None = None
+    pareto: bool = False
+    extrapolated: bool = False
+    worst_loss_factor: float | None = None  # over the window grid
+    reason: str = ""
+    mount_result: MountResult | None = field(default=None, repr=False)
+    mount_index: int | None = None
+    notes: list[str] = field(default_factory=list)
+    spread: GradeSpread | None = field(default=None, repr=False)  # see engine.selection.spread
+
+    @property
+    def mount(self) -> dict | None:
+        """JSON-ready mount figures of this grade (MountResult.grade), made on demand;
+        with the ``_low``/``_high`` companions of :mod:`engine.selection.spread` when it has
+        them."""
+        if self.mount_result is None or self.mount_index is None:
+            return None
+        figures = self.mount_result.grade(self.mount_index)
+        if self.spread is not None:
+            figures.update(self.spread.mount_companions())
+        return figures
+
+    def index_interval(self, name: str) -> tuple[float | None, float | None]:
+        """(low, high) 95 % interval of index ``name`` over the draws of the fits
+        (engine.selection.spread), or (None, None) where none was computed."""
+        if self.spread is None or name not in self.spread.indices:
+            return None, None
+        return self.spread.indices[name]
+
+    @property
+    def rank_interval(self) -> list[int] | None:
+        """[best, worst] rank over the draws of the fits (engine.selection.spread), else None."""
+        return None if self.spread is None else list(self.spread.rank_interval)
+
+
+@dataclass
+class RankResult:
+    criteria: Criteria
+    grades: list[GradeResult]  # passing in rank order, then excluded by id
+    specs: dict[str, IndexSpec]
+    window_props: WindowProps
+    mount: MountResult | None
+    created_at: str
+    engine_version: str = __version__
+    fit_errors: dict[str, str] = field(default_factory=dict)
+    spread: RankSpread | None = None  # how the intervals were made (engine.selection.spread)
+
+    @property
+    def shortlist(self) -> list[GradeResult]:
+        return [g for g in self.grades if g.passed]
+
+    @property
+    def excluded(self) -> list[GradeResult]:
+        return [g for g in self.grades if not g.passed]
+
+
+def short_number(v: float) -> str:
+    if v is None or not np.isfinite(v):
+        return "unknown"
+    a = abs(v)
+    if a != 0 and (a >= 1e4 or a < 1e-2):
+        return f"{v:.3g}"
+    return f"{v:.3g}" if a < 100 else f"{v:.0f}"

@@ -1,0 +1,154 @@
+"""Support shared by the test modules (test modules never import one another).
+
+- Paths of the checkout: :data:`ROOT`, the demo files :data:`DEMO`, screenshots
+  :data:`SHOTS`.
+- The command line in this process: :class:`Run` and :func:`invoke`.
+- Hand-built inputs: :func:`flat_bank` (grades whose moduli do not depend on T or f)
+  and :func:`material` (a catalog record).
+- :func:`kk_storage_minus_equilibrium`, the Kramers-Kronig integral for E'.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+from scipy import integrate
+
+from engine.cli import main
+from engine.curves.bank import CurveBank
+from engine.library.store import Material
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = ROOT / "demo_materials"
+SHOTS = ROOT / "screenshots"  # git-ignored
+
+
+# ------------------------------------------------------------------ the command line
+
+
+@dataclass(frozen=True)
+class Run:
+    """One command: its arguments, exit status and what it wrote."""
+
+    args: tuple[str, ...]
+    returncode: int
+    stdout: str
+    stderr: str
+
+    def json(self):
+        return json.loads(self.stdout)
+
+    def one_line(self) -> str:
+        """The single line on stderr (the CLI contract for bad input)."""
+        lines = self.stderr.strip().splitlines()
+        assert len(lines) == 1, self.stderr
+        return lines[0]
+
+
+def call_main(args) -> int:
+    """``engine.cli.main(args)``; the exit status, also where argparse stops with
+    SystemExit (as ``python -m engine`` would exit)."""
+    try:
+        return main([str(a) for a in args])
+    except SystemExit as stop:  # argparse: 2 on bad options, 0 after --help
+        return stop.code if isinstance(stop.code, int) else int(stop.code is not None)
+
+
+def invoke(args) -> Run:
+    """Run one command in this process with its stdout and stderr captured here (for
+    fixtures shared by several tests, where pytest's capsys is not available)."""
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        code = call_main(args)
+    return Run(tuple(map(str, args)), code, out.getvalue(), err.getvalue())
+
+
+# ------------------------------------------------------------------ hand-built inputs
+
+
+def flat_bank(storage, loss_factor, modes, ids=None) -> CurveBank:
+    """A CurveBank of grades whose modulus and loss factor do not depend on T or f.
+
+    ``storage`` [Pa] in each grade's own mode, ``loss_factor`` [-], ``modes`` "tensile"
+    or "shear" (all broadcast to one entry per grade). The shift law is a WLF law with
+    C1 = 0 (log aT = 0 everywhere) and the covered ranges are wide, so nothing is
+    flagged as extrapolated.
+    """
+    storage = np.atleast_1d(np.asarray(storage, dtype=float))
+    n = storage.size
+    eta = np.broadcast_to(np.asarray(loss_factor, dtype=float), (n,))
+    modes = np.array(np.broadcast_to(np.asarray(modes), (n,)))
+    nodes = 11
+    step = 5.0  # decades between nodes: the table spans -25 to +25 in log10 fR
+    nan = np.full(n, np.nan)
+    return CurveBank(
+        ids=list(ids) if ids is not None else [f"FLAT-{k}" for k in range(n)],
+        modes=modes,
+        start=np.full(n, -25.0),
+        log_storage=np.repeat(np.log10(storage)[:, None], nodes, axis=1),
+        log_loss=np.repeat(np.log10(storage * eta)[:, None], nodes, axis=1),
+        n_nodes=np.full(n, nodes),
+        kind=np.ones(n, dtype=int),  # WLF ...
+        reference=np.full(n, 23.0),
+        c1=np.zeros(n),  # ... with C1 = 0: no shift at any temperature
+        c2=np.full(n, 1e6),
+        wlf_reference=np.zeros(n),
+        activation=nan,
+        split=nan,
+        vertical=np.zeros(n, dtype=bool),
+        fr_lo=np.full(n, -25.0),
+        fr_hi=np.full(n, 25.0),
+        t_lo=np.full(n, -273.0),
+        t_hi=np.full(n, 1000.0),
+        step=step,
+    )
+
+
+def material(gid, density=1100.0, price=5.0, hardness=55.0, service=(-60.0, 150.0), mode="tensile"):
+    """A catalog record with the given fields (invented, input only)."""
+    return Material(
+        id=gid,
+        name=f"Grade {gid}",
+        mode=mode,
+        supplier="Nobody",
+        family="synthetic",
+        density=density,
+        price=price,
+        hardness=hardness,
+        service_min=service[0],
+        service_max=service[1],
+    )
+
+
+# ------------------------------------------------------------------ Kramers-Kronig
+
+
+def kk_storage_minus_equilibrium(loss, omega: float, tau: np.ndarray) -> float:
+    """(2 w^2/pi) PV int_0^inf E''(x) / (x (w^2 - x^2)) dx, by scipy quad.
+
+    Kramers-Kronig relation for the storage modulus, E'(w) - E'(0) (Ferry 1980,
+    ch. 3; Tschoegl 1989). With x = w e^u it becomes
+    (2/pi) PV int E''(w e^u) / (1 - e^{2u}) du, whose pole at u = 0 is handled by
+    quad's Cauchy weight on [-1, 1]; the tails decay exponentially in u.
+    """
+
+    def smooth_part(u):  # E''(w e^u) u / (1 - e^{2u}), which tends to -E''(w)/2 at u = 0
+        if u == 0.0:
+            return -0.5 * loss(omega)
+        return loss(omega * np.exp(u)) * u / -np.expm1(2.0 * u)
+
+    def regular(u):
+        return loss(omega * np.exp(u)) / -np.expm1(2.0 * u)
+
+    lo = np.log(1.0 / (omega * tau.max())) - 30.0
+    hi = np.log(1.0 / (omega * tau.min())) + 30.0
+    accuracy = {"limit": 400, "epsabs": 0.0, "epsrel": 1e-9}
+    core, _ = integrate.quad(smooth_part, -1.0, 1.0, weight="cauchy", wvar=0.0, **accuracy)
+    left, _ = integrate.quad(regular, lo, -1.0, **accuracy)
+    right, _ = integrate.quad(regular, 1.0, hi, **accuracy)
+    return 2.0 / np.pi * (left + core + right)
