@@ -1,4 +1,3 @@
-
 import pytest
 
 from engine.library.store import Library
