@@ -229,7 +229,6 @@ def loop_one(curve: MasterCurve, mat: Material, temps, freqs, design: MountDesig
     beam = [math.sqrt(x * e / 1e6) / mat.density for x, e in zip(flat_eta, flat_e, strict=True)]
     indices = {
         "loss_factor": min(flat_eta),
-        "frequency_drift": math.sqrt(max(flat_e) / min(flat_e)),
         "beam_damping": sum(beam) / len(beam),
     }
     # Sizing: compression disc at the target fn and the sizing temperature.
@@ -270,6 +269,7 @@ def loop_one(curve: MasterCurve, mat: Material, temps, freqs, design: MountDesig
         kc = complex(k_d, k_d * float(curve.evaluate(t, f_dist).loss_factor))
         trans.append(abs(kc) / abs(kc - m * (2.0 * math.pi * f_dist) ** 2))
         strain.append(m * mount.STANDARD_GRAVITY / stiffness(t, f_static) / h)
+    indices["frequency_drift"] = max(fn) / min(fn)  # the mount's own fn over temperature
     f_life = 1.0 / (2.0 * math.pi * design.service_life_h * 3600.0)
     sag = m * mount.STANDARD_GRAVITY / stiffness(max(temps), f_life) / h
     score = (

@@ -17,14 +17,18 @@ Link keys (values with ``,`` between numbers)::
     et  loss-factor threshold of the damping span
     le  minimum worst-case loss factor       pm  maximum price [per kg]
     hd  hardness range lo,hi [Shore A]       tm  maximum transmissibility
+    ie  minimum isolation efficiency [%]     rr  minimum disturbance-to-fn ratio f/fn
+    ra  maximum amplification at resonance
     x   allow extrapolation 1|0              sv  service range must cover the window 1|0
     sm  maximum static strain                fr  natural-frequency range lo,hi [Hz]
-    m   mount layout c | s, or 0 for no mount check
+    m   mount layout c | s, or 0 for no mount check (an isolation mount: a screening)
     mm  total mass [kg]   mc  pads   ma  pad area [mm2]   mh  rubber thickness [mm]
     ms  pad shape disc | square   msf shape factor   mk  k factor
     mt  target natural frequency [Hz] (0: no sizing)   md  disturbances f1,f2 [Hz]
     mst sizing temperature [degC]   ml  service life [h]
     g   comparison set id,id
+
+A limit the engine sets by default (tm, rr) that is switched off is written ``off``.
 """
 
 from __future__ import annotations
@@ -37,6 +41,7 @@ from engine.base.errors import CriteriaError
 from engine.curves.mountcheck import SHAPES, MountDesign
 from engine.curves.window import DutyPoint, OperatingWindow
 from engine.physics.indices import AGGREGATES, BUILT_IN
+from engine.selection.criteria import SCREENING_INDICES
 from engine.selection.ranking import DEFAULT_INDICES, Constraints, Criteria, IndexChoice
 
 DESIGN_CODES = {"isolation_mount": "mount", "damping_layer": "layer", "general": "general"}
@@ -54,11 +59,37 @@ def mount_checked_by_default(design: str) -> bool:
     return design == "isolation_mount"
 
 
+def screening(design: str, mount_on: bool) -> bool:
+    """Whether the case is a material screening: an isolation mount with no mount checked."""
+    return design == "isolation_mount" and not mount_on
+
+
+def default_indices(design: str, mount_on: bool) -> list[tuple[str, float, str]]:
+    """The engine's default indices (name, weight, aggregation) of the case: those of the
+    design type, or of a material screening when an isolation mount is not checked."""
+    return list(SCREENING_INDICES if screening(design, mount_on) else DEFAULT_INDICES[design])
+
+
+def index_state(design: str, mount_on: bool) -> dict:
+    """Widget values of the default indices of the case (list, weights, aggregations)."""
+    chosen = default_indices(design, mount_on)
+    state: dict[str, Any] = {"c_indices": [n for n, _, _ in chosen]}
+    for name, weight, agg in chosen:
+        state[weight_key(name)] = weight
+        state[aggregate_key(name)] = agg
+    return state
+
+
 # Widget values that no engine default gives: the numbers a box shows once its switch is
 # turned on (sizing a pad, limiting hardness), and the name of a new custom index.
 SIZING_TARGET_HZ = 10.0
 HARDNESS_SHOWN = (30.0, 80.0)  # Shore A
 CUSTOM_NAME = "own_index"
+
+
+def _percent(share: float | None) -> float | None:
+    """A share (0.8) as the percentage a box shows (80), rounded off the binary noise."""
+    return None if share is None else round(100.0 * share, 9)
 
 
 def _defaults() -> dict:
@@ -92,6 +123,9 @@ def _defaults() -> dict:
         "c_hard_on": con.hardness_range is not None,
         "c_hard": tuple(con.hardness_range or HARDNESS_SHOWN),
         "c_trans_max": con.max_transmissibility,
+        "c_iso_min": _percent(con.min_isolation_efficiency),
+        "c_ratio_min": con.min_frequency_ratio,
+        "c_amp_max": con.max_amplification,
         "c_extrap": con.allow_extrapolation,
         "c_service": con.service_covers_window,
         "c_strain_max": con.max_static_strain,
@@ -132,6 +166,9 @@ LOWER = {
     "c_eta_min": 0.0,
     "c_price_max": 0.0,
     "c_trans_max": 0.0,
+    "c_iso_min": 0.0,
+    "c_ratio_min": 0.0,
+    "c_amp_max": 1.0,  # at resonance T = sqrt(1 + eta^2) / eta, never below 1
     "c_strain_max": 0.0,
     "c_fn_lo": 0.0,
     "c_fn_hi": 0.0,
@@ -145,7 +182,9 @@ LOWER = {
     "c_life": 1e-3,
     "c_cx_w": 0.0,
 }
-UPPER = {"c_fpoints": 500}
+UPPER = {"c_fpoints": 500, "c_iso_min": 99.9}  # an efficiency of 100 % is no mount
+# A limit the engine sets by default (tm, rr), switched off, is written so in the link.
+SWITCHED_OFF = "off"
 HARDNESS_SCALE = (0.0, 100.0)  # Shore A
 
 
@@ -182,9 +221,7 @@ def default_state() -> dict:
     state: dict[str, Any] = {
         k: (list(v) if isinstance(v, list) else v) for k, v in DEFAULTS.items()
     }
-    for name, weight, agg in DEFAULT_INDICES[state["c_design"]]:
-        state[weight_key(name)] = weight
-        state[aggregate_key(name)] = agg
+    state.update(index_state(state["c_design"], bool(state["c_mount_on"])))
     return state
 
 
@@ -271,12 +308,18 @@ def _constraints(state: Mapping, mount_on: bool) -> Constraints:
     fn_lo, fn_hi = _optional(state.get("c_fn_lo")), _optional(state.get("c_fn_hi"))
     if (fn_lo is None) != (fn_hi is None):
         raise CriteriaError("give both ends of the natural-frequency range, or neither")
+    efficiency = _optional(state.get("c_iso_min"))
+    # The mount limits stay as set without a mount (the engine applies them to a checked
+    # mount only), except the fn range, which the engine refuses without one.
     return Constraints(
         service_covers_window=bool(state["c_service"]),
         hardness_range=tuple(state["c_hard"]) if state.get("c_hard_on") else None,
         max_price=_optional(state.get("c_price_max")),
         min_loss_factor=_optional(state.get("c_eta_min")),
-        max_transmissibility=_optional(state.get("c_trans_max")) if mount_on else None,
+        max_transmissibility=_optional(state.get("c_trans_max")),
+        min_isolation_efficiency=None if efficiency is None else efficiency / 100.0,
+        min_frequency_ratio=_optional(state.get("c_ratio_min")),
+        max_amplification=_optional(state.get("c_amp_max")),
         fn_range_Hz=(fn_lo, fn_hi) if (mount_on and fn_lo is not None) else None,
         max_static_strain=_optional(state.get("c_strain_max")),
         allow_extrapolation=bool(state["c_extrap"]),
@@ -319,6 +362,7 @@ def criteria_from_state(state: Mapping) -> Criteria:
             mount=_mount(state) if mount_on else None,
             pareto=pareto or None,
             eta_threshold=float(state["c_eta_thr"]),
+            screening_only=screening(state["c_design"], mount_on),
         )
     except (TypeError, ValueError) as exc:
         raise CriteriaError(f"bad setting: {exc}") from None
@@ -369,6 +413,9 @@ def state_from_criteria(criteria: Criteria) -> dict:
     state["c_price_max"] = con.max_price
     state["c_eta_min"] = con.min_loss_factor
     state["c_trans_max"] = con.max_transmissibility
+    state["c_iso_min"] = _percent(con.min_isolation_efficiency)
+    state["c_ratio_min"] = con.min_frequency_ratio
+    state["c_amp_max"] = con.max_amplification
     state["c_strain_max"] = con.max_static_strain
     state["c_extrap"] = bool(con.allow_extrapolation)
     state["c_fn_lo"], state["c_fn_hi"] = con.fn_range_Hz or (None, None)
@@ -415,7 +462,10 @@ def to_query(state: Mapping) -> dict[str, str]:
 
     def put(key, state_key, fmt=_g):
         value = state.get(state_key)
-        if value is not None and value != d[state_key]:
+        if value is None:
+            if d[state_key] is not None:  # a default limit switched off
+                q[key] = SWITCHED_OFF
+        elif value != d[state_key]:
             q[key] = fmt(value)
 
     put("ts", "c_tstep")
@@ -424,14 +474,15 @@ def to_query(state: Mapping) -> dict[str, str]:
     duty = duty_points(state.get("c_duty_now", state.get("c_duty")))
     if duty:
         q["dp"] = ";".join(f"{_g(p['temp_C'])}:{_g(p['freq_Hz'])}:{_g(p['share'])}" for p in duty)
-    design_default = [n for n, _, _ in DEFAULT_INDICES[state["c_design"]]]
+    own_defaults = default_indices(state["c_design"], bool(state.get("c_mount_on")))
+    design_default = [n for n, _, _ in own_defaults]
     ix = [
         f"{n}:{_g(state.get(weight_key(n), 1.0))}:{state.get(aggregate_key(n), 'worst')}"
         for n in state["c_indices"]
     ]
     plain = all(
         float(state.get(weight_key(n), 1.0)) == w and state.get(aggregate_key(n), "worst") == a
-        for n, w, a in DEFAULT_INDICES[state["c_design"]]
+        for n, w, a in own_defaults
     )
     if list(state["c_indices"]) != design_default or not plain:
         q["ix"] = ",".join(ix)
@@ -449,6 +500,9 @@ def to_query(state: Mapping) -> dict[str, str]:
     if state.get("c_hard_on"):
         q["hd"] = _pair(state["c_hard"])
     put("tm", "c_trans_max")
+    put("ie", "c_iso_min")
+    put("rr", "c_ratio_min")
+    put("ra", "c_amp_max")
     if bool(state["c_extrap"]) != d["c_extrap"]:
         q["x"] = "1" if state["c_extrap"] else "0"
     if bool(state["c_service"]) != d["c_service"]:
@@ -507,6 +561,9 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
         a, b = (num(v) for v in str(text).split(","))
         return (a, b)
 
+    def limit(text):
+        return None if text == SWITCHED_OFF else num(text)
+
     def flag(text):
         if text not in ("0", "1"):
             raise ValueError("use 0 or 1")
@@ -522,11 +579,6 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
             state["c_design"] = design(params["d"])
         except ValueError as exc:
             notes.append(f"d={params['d']}: {exc}")
-        for key in [k for k in state if k.startswith(("c_w_", "c_a_"))]:
-            del state[key]
-        state["c_indices"] = [n for n, _, _ in DEFAULT_INDICES[state["c_design"]]]
-        for n, w, a in DEFAULT_INDICES[state["c_design"]]:
-            state[weight_key(n)], state[aggregate_key(n)] = w, a
         state["c_mount_on"] = mount_checked_by_default(state["c_design"])
 
     simple = {
@@ -535,12 +587,15 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
         "fp": ("c_fpoints", lambda v: int(num(v))),
         "fd": ("c_fdesign", num),
         "et": ("c_eta_thr", num),
-        "le": ("c_eta_min", num),
-        "pm": ("c_price_max", num),
-        "tm": ("c_trans_max", num),
+        "le": ("c_eta_min", limit),
+        "pm": ("c_price_max", limit),
+        "tm": ("c_trans_max", limit),
+        "ie": ("c_iso_min", limit),
+        "rr": ("c_ratio_min", limit),
+        "ra": ("c_amp_max", limit),
         "x": ("c_extrap", flag),
         "sv": ("c_service", flag),
-        "sm": ("c_strain_max", num),
+        "sm": ("c_strain_max", limit),
         "mm": ("c_mass", num),
         "mc": ("c_mounts", lambda v: int(num(v))),
         "ma": ("c_area", num),
@@ -638,12 +693,17 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
 
     special("f", band)
     special("dp", duty)
+    special("m", mount)
+    # The indices of the case: those of the link, else the defaults of its design type
+    # with or without the mount check.
+    for key in [k for k in state if k.startswith(("c_w_", "c_a_"))]:
+        del state[key]
+    state.update(index_state(state["c_design"], bool(state["c_mount_on"])))
     special("ix", indices)
     special("cx", custom)
     special("pa", pareto)
     special("hd", hardness)
     special("fr", fn_range)
-    special("m", mount)
     special("ms", shape)
     special("mt", target)
     special("md", disturbances)

@@ -16,6 +16,11 @@ from engine.selection.ranking import Criteria, RankResult
 CONTEXT_KEY = "_context"
 MISSING = "–"  # shown in tables where a value is unknown or not computed
 SHOWN_LIMIT = 8  # grades of the comparison set drawn on the Curves and Mount pages
+SCREENING_CAPTION = (
+    "**Material screening only.** No mount is checked, so this ranking says nothing about "
+    "isolation (transmissibility, resonance, the drift of the natural frequency). Switch on "
+    "'Check a mount' in the sidebar (Mount) to rank the grades as mounts."
+)
 
 
 @dataclass
@@ -75,3 +80,9 @@ def need_result(ctx: Context) -> RankResult | None:
         st.error(ctx.problem or "no ranking: the library holds no fitted grade")
         return None
     return ctx.result
+
+
+def screening_caption(result: RankResult) -> None:
+    """Say so above a ranking of an isolation mount made without a mount check."""
+    if result.criteria.screening_only:
+        st.caption(SCREENING_CAPTION)

@@ -11,7 +11,7 @@ from dashboard import case
 from engine.base.errors import CriteriaError
 from engine.curves.mountcheck import LAYOUTS, SHAPES
 from engine.physics.indices import AGGREGATES, BUILT_IN
-from engine.selection.ranking import DEFAULT_INDICES, DESIGN_TYPES, Criteria
+from engine.selection.ranking import DESIGN_TYPES, Criteria
 
 DUTY_COLUMNS = ["temp_C", "freq_Hz", "share"]
 
@@ -38,12 +38,29 @@ def init_state() -> None:
 
 def _on_design() -> None:
     design = st.session_state["c_design"]
-    st.session_state["c_indices"] = [n for n, _, _ in DEFAULT_INDICES[design]]
-    for n, w, a in DEFAULT_INDICES[design]:
-        st.session_state[case.weight_key(n)] = w
-        st.session_state[case.aggregate_key(n)] = a
+    mount_on = case.mount_checked_by_default(design)
+    for key, value in case.index_state(design, mount_on).items():
+        st.session_state[key] = value
     st.session_state["c_pareto"] = []
-    st.session_state["c_mount_on"] = case.mount_checked_by_default(design)
+    st.session_state["c_mount_on"] = mount_on
+
+
+def _on_mount() -> None:
+    """The mount switch: default indices follow it (an isolation mount without a mount is
+    a material screening); chosen ones stay, less those a mount check must give."""
+    design, mount_on = st.session_state["c_design"], bool(st.session_state["c_mount_on"])
+    chosen = list(st.session_state.get("c_indices", []))
+    before = [n for n, _, _ in case.default_indices(design, not mount_on)]
+    if chosen == before:
+        for key, value in case.index_state(design, mount_on).items():
+            st.session_state[key] = value
+    elif not mount_on:
+        kept = [n for n in chosen if not (n in BUILT_IN and BUILT_IN[n].needs_mount)]
+        if kept:
+            st.session_state["c_indices"] = kept
+        else:
+            for key, value in case.index_state(design, mount_on).items():
+                st.session_state[key] = value
 
 
 def _on_case_file() -> None:
@@ -154,7 +171,39 @@ def _limits() -> None:
         key="c_trans_max",
         placeholder="no limit",
         disabled=not mount_on,
-        help="At the disturbance frequencies, worst case over the window (needs a mount).",
+        help="At every window temperature and disturbance frequency (needs a mount). "
+        "Below 1 the mount isolates; blank: no limit.",
+    )
+    st.number_input(
+        "Lowest isolation efficiency [%]",
+        min_value=case.LOWER["c_iso_min"],
+        max_value=case.UPPER["c_iso_min"],
+        format="%g",
+        key="c_iso_min",
+        placeholder="no limit",
+        disabled=not mount_on,
+        help="Share of the disturbing force kept from the structure, 1 − T, at every window "
+        "temperature and disturbance frequency (needs a mount).",
+    )
+    st.number_input(
+        "Lowest f/fn",
+        min_value=case.LOWER["c_ratio_min"],
+        format="%.3g",
+        key="c_ratio_min",
+        placeholder="no limit",
+        disabled=not mount_on,
+        help="Disturbance frequency over the mount's natural frequency, at every window "
+        "temperature: above √2 a mount isolates; raise it for a margin (needs a mount).",
+    )
+    st.number_input(
+        "Highest amplification at resonance",
+        min_value=case.LOWER["c_amp_max"],
+        format="%g",
+        key="c_amp_max",
+        placeholder="no limit",
+        disabled=not mount_on,
+        help="Amplification when the machine runs up through the mount's natural frequency, "
+        "at every window temperature (needs a mount).",
     )
     c1, c2 = st.columns(2)
     c1.number_input(
@@ -242,7 +291,12 @@ def _indices() -> None:
 
 
 def _mount() -> None:
-    st.toggle("Check a mount", key="c_mount_on")
+    st.toggle(
+        "Check a mount",
+        key="c_mount_on",
+        on_change=_on_mount,
+        help="Off for an isolation mount: a material screening only, with no mount figures.",
+    )
     off = not st.session_state.get("c_mount_on")
     c1, c2 = st.columns(2)
     c1.selectbox("Layout", LAYOUTS, key="c_layout", disabled=off)

@@ -11,18 +11,21 @@ A whole selection, from the demo data to a shortlist file:
 
 >>> import tempfile
 >>> from pathlib import Path
->>> from engine import Criteria, Library, OperatingWindow, rank_library, write_shortlist
+>>> from engine import Criteria, Library, MountDesign, OperatingWindow, rank_library
+>>> from engine import write_shortlist
 >>> from engine.library.demo import load_demo
 >>> folder = Path(tempfile.mkdtemp())
 >>> library = Library(str(folder / "library.sqlite"))
 >>> len(load_demo(library).materials_added)
 14
 >>> window = OperatingWindow(temp_range=(-20.0, 45.0), freq_range=(10.0, 100.0))
->>> result = rank_library(library, Criteria(window=window))
+>>> pads = MountDesign(mass_kg=180.0, mounts=4, thickness_mm=25.0, target_fn_Hz=10.0)
+>>> result = rank_library(library, Criteria(window=window, mount=pads))
 >>> len(result.grades)
 14
->>> result.shortlist[0].rank
-1
+>>> best = result.shortlist[0]
+>>> best.rank, best.indices["worst_transmissibility"] < 1.0
+(1, True)
 >>> write_shortlist(result, folder / "shortlist.csv", library).name
 'shortlist.csv'
 """

@@ -360,7 +360,15 @@ def _criteria_from_args(args):
     window = replace(criteria.window, **{k: v for k, v in given.items() if v is not None})
     limits = {
         key: getattr(args, key)
-        for key in ("min_loss_factor", "max_price", "max_transmissibility", "max_static_strain")
+        for key in (
+            "min_loss_factor",
+            "max_price",
+            "max_transmissibility",
+            "min_isolation_efficiency",
+            "min_frequency_ratio",
+            "max_amplification",
+            "max_static_strain",
+        )
         if getattr(args, key) is not None
     }
     if args.allow_extrapolation:
@@ -371,7 +379,12 @@ def _criteria_from_args(args):
     if args.design:
         changes["design"] = args.design
         if not args.criteria:
-            changes["indices"] = ()  # the design's default indices
+            changes["indices"] = ()  # the design's default indices and mount
+            changes["mount"] = None
+    if args.screening:
+        changes.update(screening_only=True, mount=None, design="isolation_mount")
+        if not args.index and not args.criteria:
+            changes["indices"] = ()
     if args.index:
         changes["indices"] = tuple(IndexChoice(n, 1.0, args.aggregate) for n in args.index)
     if args.mount:
@@ -390,6 +403,7 @@ def _criteria_from_args(args):
 
 def cmd_rank(args) -> int:
     from engine.library.fits import fit_library
+    from engine.selection.criteria import SCREENING_NOTE
     from engine.selection.ranking import rank
     from engine.selection.spread import MOUNT_SERIES, rank_spread
 
@@ -454,6 +468,16 @@ def cmd_rank(args) -> int:
         f"window {lo:g} to {hi:g} °C, {flo:g} to {fhi:g} Hz; "
         f"{len(result.shortlist)} of {len(result.grades)} grade(s) pass"
     ]
+    design = criteria.mount
+    if design is not None:
+        limit = criteria.constraints.transmissibility_limit
+        lines.append(
+            f"mount: {design.mounts} {design.layout} pad(s) under {design.mass_kg:g} kg, "
+            f"disturbance {', '.join(f'{f:g}' for f in design.disturbance_Hz)} Hz"
+            + (f", T below {limit:g} at every temperature" if limit is not None else "")
+        )
+    elif criteria.screening_only:
+        lines.append(SCREENING_NOTE)
     for g in result.shortlist:
         span = "" if g.rank_interval is None else "ranks {}-{}".format(*g.rank_interval)
         lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f} {span:>10}  {g.reason}")
@@ -545,7 +569,15 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--aggregate", choices=("worst", "mean", "weighted", "best"), default="worst")
     p.add_argument("--min-loss-factor", type=float)
     p.add_argument("--max-price", type=float)
-    p.add_argument("--max-transmissibility", type=float)
+    p.add_argument("--max-transmissibility", type=float, help="default 1 with a mount")
+    p.add_argument("--min-isolation-efficiency", type=float, help="e.g. 0.8 for 80 %%")
+    p.add_argument("--min-frequency-ratio", type=float, help="f/fn; default sqrt(2)")
+    p.add_argument("--max-amplification", type=float, help="T at resonance (run-up)")
+    p.add_argument(
+        "--screening",
+        action="store_true",
+        help="isolation design without a mount: a material screening only",
+    )
     p.add_argument("--max-static-strain", type=float)
     p.add_argument("--allow-extrapolation", action="store_true")
     p.add_argument("--ignore-service-range", action="store_true")

@@ -15,6 +15,7 @@ from __future__ import annotations
 import hashlib
 import json
 import math
+import re
 import shutil
 from pathlib import Path
 
@@ -63,8 +64,9 @@ def cli(demo_library, tmp_path_factory):
     design.write_text(json.dumps({"thickness_mm": 25, "target_fn_Hz": 10.0}))
     cases = {
         "mount": MOUNT,
-        "rank": ["rank", *WINDOW, "--json"],
+        "rank": ["rank", *WINDOW, "--screening", "--json"],
         "rank_mount": ["rank", *WINDOW, "--allow-extrapolation", "--mount", str(design), "--json"],
+        "rank_isolation": ["rank", *WINDOW, "--mount", str(design), "--json"],
         "inverted": ["rank", "--temp-range", "45", "-20", "--freq-range", "10", "100"],
     }
     before = _digest(db)
@@ -152,7 +154,8 @@ def test_rank_json_shortlist_and_excluded(cli):
     for r in shortlist:
         assert r["passed"] is True and r["failures"] == []
         assert r["reason"].startswith(f"rank {r['rank']} of {n}: ")
-        assert set(r["indices"]) == {"loss_factor", "frequency_drift"}  # mount defaults
+        assert "material screening only" in r["reason"]
+        assert set(r["indices"]) == {"loss_factor", "stiffness_drift"}  # screening defaults
     for r in excluded:
         assert r["rank"] is None and r["passed"] is False
         assert r["reason"].startswith("excluded: ") and r["failures"]
@@ -160,6 +163,31 @@ def test_rank_json_shortlist_and_excluded(cli):
     assert [r["id"] for r in excluded] == sorted(r["id"] for r in excluded)
     assert data["criteria"]["window"]["temp_range"] == [-20.0, 45.0]
     assert data["criteria"]["window"]["freq_range"] == [10.0, 100.0]
+
+
+def test_isolation_ranking_shortlists_only_mounts_that_isolate_everywhere(cli):
+    # Issue check: with the mount, no grade whose transmissibility reaches 1 anywhere in
+    # the window is shortlisted, and each such grade's reason names the temperature.
+    # T < 1 is isolation (Snowdon 1968); f/fn >= sqrt(2) its onset (hysteretic damping).
+    data = _ok_json(cli, "rank_isolation")
+    assert data["shortlist"], "pads sized for 10 Hz isolate 24.7 Hz on some demo grades"
+    for r in data["shortlist"]:
+        transmissibility = r["mount"]["transmissibility"]
+        assert max(max(row) for row in transmissibility) < 1.0
+        assert min(r["mount"]["natural_frequency_Hz"]) > 0.0
+        assert 24.7 / max(r["mount"]["natural_frequency_Hz"]) >= math.sqrt(2.0)
+        assert {"worst_transmissibility", "isolation_efficiency"} <= set(r["indices"])
+        assert r["indices"]["isolation_efficiency"] == pytest.approx(
+            1.0 - r["indices"]["worst_transmissibility"], rel=1e-12
+        )
+    amplifying = [
+        r
+        for r in data["excluded"]
+        if r["mount"] and max(max(row) for row in r["mount"]["transmissibility"]) >= 1.0
+    ]
+    assert amplifying, "some demo grades amplify the disturbance"
+    for r in amplifying:
+        assert re.search(r"T = [\d.]+ at -?\d+ °C, 24\.7 Hz", r["reason"]), r["reason"]
 
 
 def test_rank_json_carries_rank_intervals_and_companions(cli):
@@ -245,7 +273,8 @@ def test_rank_inverted_range_exits_2_with_one_line(cli):
         (["--criteria", "{tmp}/bad.json"], "bad.json: not valid JSON"),
         (["--mount", "{tmp}/nothere.json"], "nothere.json: file not found"),
         (["--pareto", "loss_factor", "damping_span"], "Pareto index 'damping_span' is not"),
-        (["--max-transmissibility", "0.3"], "need a mount design"),
+        (["--screening", "--index", "frequency_drift"], "needs a mount design"),
+        (["--min-isolation-efficiency", "1.5"], "must lie in"),
     ],
 )
 def test_rank_bad_input_exits_2_with_one_line(cli, tmp_path, capsys, args, message):

@@ -26,7 +26,7 @@ import streamlit as st  # noqa: E402
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 from dashboard import case, charts, data, importing  # noqa: E402
-from dashboard.common import SHOWN_LIMIT  # noqa: E402
+from dashboard.common import SCREENING_CAPTION, SHOWN_LIMIT  # noqa: E402
 from engine.base.caution import CAUTION  # noqa: E402
 from engine.base.errors import CriteriaError, FitError, InputError  # noqa: E402
 from engine.curves.mountcheck import MountDesign  # noqa: E402
@@ -36,7 +36,8 @@ from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
 from engine.output import mapfigure  # noqa: E402
 from engine.output.report import report_html  # noqa: E402
-from engine.selection.ranking import Criteria, rank  # noqa: E402
+from engine.selection.criteria import SCREENING_INDICES, SCREENING_NOTE  # noqa: E402
+from engine.selection.ranking import Constraints, Criteria, rank  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
@@ -50,6 +51,17 @@ PAGES = {
 
 
 DRAWN: dict = {}  # chart key -> the figure a page last handed to st.plotly_chart
+
+# The engine's default mount (10 mm pads of 2000 mm², not sized) isolates no demo grade
+# over the default window. This case, set by the link, sizes 25 mm pads for 10 Hz over
+# -20 to 45 °C and 10 to 100 Hz: some grades isolate, so there is a shortlist to read.
+ISOLATING = {"t": "-20,45", "f": "10,100", "mh": "25", "mt": "10"}
+
+
+def isolating_state() -> dict:
+    state, notes = case.from_query(ISOLATING)
+    assert notes == []
+    return state
 
 
 @pytest.fixture(autouse=True)
@@ -117,14 +129,16 @@ def test_empty_library_loads_demo_and_every_page_renders(monkeypatch, demo_db):
 
 
 def test_changing_the_window_changes_the_ranking(monkeypatch, demo_db):
-    at = app(monkeypatch, demo_db)
+    at = app(monkeypatch, demo_db, **ISOLATING)
     at.switch_page("views/shortlist.py").run()
     before = shortlist_ids(at)
-    assert before == engine_shortlist(demo_db, case.criteria_from_state(case.default_state()))
+    assert before and before == engine_shortlist(
+        demo_db, case.criteria_from_state(isolating_state())
+    )
     at.slider(key="c_temp").set_value((0.0, 40.0)).run()
     assert not at.exception
     after = shortlist_ids(at)
-    state = case.default_state()
+    state = isolating_state()
     state["c_temp"] = (0.0, 40.0)
     assert after == engine_shortlist(demo_db, case.criteria_from_state(state))
     assert after != before
@@ -352,14 +366,14 @@ def drawn_widths(spec: dict, ids) -> dict[str, float]:
 
 
 def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db):
-    at = app(monkeypatch, crowd_db)
+    at = app(monkeypatch, crowd_db, **ISOLATING)
     assert not at.exception
     lib = Library(str(crowd_db))
     curves, errors = fit_library(lib, processes=1)
     own = rank(
         curves,
         {m.id: m for m in lib.materials()},
-        case.criteria_from_state(case.default_state()),
+        case.criteria_from_state(isolating_state()),
         errors,
     )
     grades = {g.id: g for g in own.grades}
@@ -398,6 +412,7 @@ def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db)
     assert sorted(shared) == sorted(set(shared))  # no grade drawn twice
     assert alone.isdisjoint(shared) and alone | set(shared) == set(grades)
     assert any(not grades[g].passed for g in shared)  # the test covers excluded grades too
+    assert any(grades[g].passed for g in shared)  # and passing ones
 
 
 def test_a_large_comparison_set_is_highlighted_and_bounded(monkeypatch, crowd_db):
@@ -496,7 +511,8 @@ def bands_of(spec: dict, meta: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]
     """All band points drawn around the curve ``meta`` (inside and beyond the data)."""
     parts = [band_points(t) for t in spec["data"] if t.get("fill") and t.get("meta") == meta]
     assert parts, f"no band around {meta!r}"
-    return tuple(np.concatenate(p) for p in zip(*parts, strict=True))
+    x, high, low = (np.concatenate(p) for p in zip(*parts, strict=True))
+    return x, high, low
 
 
 def line_values(spec: dict, name: str, x: np.ndarray) -> np.ndarray:
@@ -526,10 +542,12 @@ def test_band_trace_draws_one_outline_per_run():
 
 
 def test_curves_page_draws_the_fits_95_percent_intervals(monkeypatch, demo_db):
-    at = app(monkeypatch, demo_db)
+    # Two grades in the comparison set, the first (shown first) with a Tg interval.
+    at = app(monkeypatch, demo_db, g="QC-EPDM60,BW-NR40")
     at.switch_page("views/curves.py").run()
     assert not at.exception
     ctx = at.session_state["_context"]
+    assert ctx.compare, "no grade in the comparison set: the temperature bands go unchecked"
     focus = at.selectbox(key="curves_focus").value
     curve = ctx.curves[focus]
     assert any(charts.INTERVAL_NOTE in c.value for c in at.caption)
@@ -578,7 +596,7 @@ def test_curves_page_draws_the_fits_95_percent_intervals(monkeypatch, demo_db):
 
 
 def test_map_shades_the_intervals_of_the_comparison_set(monkeypatch, demo_db):
-    at = app(monkeypatch, demo_db)
+    at = app(monkeypatch, demo_db, **ISOLATING)  # the set is seeded from the shortlist
     ctx = at.session_state["_context"]
     props = ctx.result.window_props
     spec = map_spec(at)
@@ -651,13 +669,18 @@ def test_a_chosen_reference_temperature_refits_the_curves_page(monkeypatch, demo
 def _rgb(colour: str) -> tuple[int, int, int]:
     """The red, green and blue of a #rrggbb or rgba(...) colour."""
     if colour.startswith("#"):
-        return tuple(int(colour[i : i + 2], 16) for i in (1, 3, 5))
-    return tuple(int(v) for v in re.match(r"rgba?\((\d+), (\d+), (\d+)", colour).groups())
+        red, green, blue = (int(colour[i : i + 2], 16) for i in (1, 3, 5))
+        return red, green, blue
+    match = re.match(r"rgba?\((\d+), (\d+), (\d+)", colour)
+    assert match, f"not a colour: {colour!r}"
+    red, green, blue = (int(v) for v in match.groups())
+    return red, green, blue
 
 
 def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_db):
-    at = app(monkeypatch, demo_db)
+    at = app(monkeypatch, demo_db, **ISOLATING)
     ctx = at.session_state["_context"]
+    assert ctx.result.shortlist  # the report's table has rows to check
     paths = [t for t in map_spec(at)["data"] if t.get("mode") == mapfigure.PATH_MODE]
     page = {t["legendgroup"]: t["line"]["color"] for t in paths}
     report_map = mapfigure.map_figure(ctx.result)  # the map of the HTML report
@@ -734,6 +757,9 @@ def full_state() -> dict:
         c_hard_on=True,
         c_hard=(40.0, 70.0),
         c_trans_max=0.5,
+        c_iso_min=85.0,
+        c_ratio_min=2.0,
+        c_amp_max=6.0,
         c_extrap=False,
         c_fn_lo=5.0,
         c_fn_hi=15.0,
@@ -757,6 +783,9 @@ def test_case_round_trips_through_criteria_and_link():
     criteria = case.criteria_from_state(state)
     assert criteria.mount.disturbance_Hz == (24.7, 49.4)
     assert criteria.indices[-1].formula == "loss_factor * sqrt(storage_modulus)"
+    con = criteria.constraints
+    assert (con.max_transmissibility, con.min_isolation_efficiency) == (0.5, 0.85)
+    assert (con.min_frequency_ratio, con.max_amplification) == (2.0, 6.0)
     again = case.criteria_from_state(case.state_from_criteria(criteria))
     assert again.to_dict() == criteria.to_dict()
     back, notes = case.from_query(case.to_query(state))
@@ -767,13 +796,26 @@ def test_case_round_trips_through_criteria_and_link():
 
 def test_the_default_case_is_the_engines():
     # Every default with an engine counterpart is the engine's own: the default case's
-    # criteria are the engine's default criteria with its default mount design (the
-    # dashboard checks a mount for the default design type, an isolation mount).
-    assert case.criteria_from_state(case.default_state()) == Criteria(mount=MountDesign())
+    # criteria are the engine's default criteria, which check its default mount design
+    # for the default design type, an isolation mount.
+    default = case.criteria_from_state(case.default_state())
+    assert default == Criteria() == Criteria(mount=MountDesign())
+    assert not default.screening_only
+    assert case.DEFAULTS["c_trans_max"] == Constraints().max_transmissibility == 1.0
+    assert case.DEFAULTS["c_ratio_min"] == Constraints().min_frequency_ratio
+    assert case.DEFAULTS["c_iso_min"] is Constraints().min_isolation_efficiency is None
+    assert case.DEFAULTS["c_amp_max"] is Constraints().max_amplification is None
+    # The mount switch off for an isolation mount: the engine's material screening.
     state = case.default_state()
-    state["c_design"] = "general"
-    state["c_mount_on"] = case.mount_checked_by_default("general")
-    assert case.criteria_from_state(state).mount is None
+    state.update(c_mount_on=False, **case.index_state("isolation_mount", False))
+    screening = case.criteria_from_state(state)
+    assert screening == Criteria(screening_only=True)
+    assert [(c.name, c.weight, c.aggregate) for c in screening.indices] == SCREENING_INDICES
+    state = case.default_state()
+    state.update(c_design="general", c_mount_on=case.mount_checked_by_default("general"))
+    state.update(case.index_state("general", state["c_mount_on"]))
+    general = case.criteria_from_state(state)
+    assert general.mount is None and general == Criteria(design="general")
 
 
 def test_default_link_is_short():
@@ -800,9 +842,132 @@ def test_sizing_a_pad_survives_the_link():
 @pytest.mark.parametrize("mount_on", [True, False])
 def test_mount_switch_survives_the_link(design, mount_on):
     state = case.default_state()
-    state.update(c_design=design, c_mount_on=mount_on)
+    state.update(c_design=design, c_mount_on=mount_on, **case.index_state(design, mount_on))
     back, notes = case.from_query(case.to_query(state))
     assert notes == [] and back["c_mount_on"] is mount_on
+    criteria = case.criteria_from_state(state)
+    assert case.criteria_from_state(back) == criteria
+    assert criteria.screening_only is (design == "isolation_mount" and not mount_on)
+    assert (criteria.mount is None) is not mount_on
+
+
+def _limits_off_state() -> dict:
+    """The default case with the engine's default mount limits switched off and the
+    limits it leaves off by default set."""
+    state = case.default_state()
+    state.update(c_trans_max=None, c_ratio_min=None, c_iso_min=70.0, c_amp_max=8.0)
+    return state
+
+
+def test_mount_limits_survive_the_link_and_the_case_file():
+    state = _limits_off_state()
+    criteria = case.criteria_from_state(state)
+    con = criteria.constraints
+    assert con.max_transmissibility is None and con.min_frequency_ratio is None
+    assert con.min_isolation_efficiency == 0.7 and con.max_amplification == 8.0
+    # The link writes a default limit switched off, not only a limit set.
+    query = case.to_query(state)
+    assert {k: query[k] for k in ("tm", "rr", "ie", "ra")} == {
+        "tm": case.SWITCHED_OFF,
+        "rr": case.SWITCHED_OFF,
+        "ie": "70",
+        "ra": "8",
+    }
+    back, notes = case.from_query(query)
+    assert notes == [] and case.criteria_from_state(back) == criteria
+    # The case file: the criteria's JSON, read back as the sidebar's loader does.
+    loaded = Criteria.from_dict(json.loads(json.dumps(criteria.to_dict())))
+    values = case.state_from_criteria(loaded)
+    assert case.out_of_range(values) == []
+    assert case.criteria_from_state(values) == criteria
+    assert (values["c_iso_min"], values["c_amp_max"]) == (70.0, 8.0)
+
+
+def test_link_mount_limits_the_widgets_cannot_hold_are_refused():
+    state, notes = case.from_query({"ie": "100", "ra": "0.5", "rr": "fast"})
+    assert "iso_min 100 is above 99.9" in notes and "amp_max 0.5 is below 1" in notes
+    assert any(n.startswith("rr=fast: ") for n in notes)
+    defaults = case.default_state()
+    for key in ("c_iso_min", "c_amp_max", "c_ratio_min"):
+        assert state[key] == defaults[key]
+
+
+def test_default_case_shortlists_no_grade_that_amplifies(monkeypatch, demo_db):
+    # The transmissibility limit is on by default (1: the mount must isolate at every
+    # window temperature and disturbance). No grade on the page's shortlist has a worst
+    # transmissibility of 1 or more; the grades that do are listed as excluded for it.
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/shortlist.py").run()
+    assert not at.exception
+    assert at.number_input(key="c_trans_max").value == Constraints().max_transmissibility
+    result = at.session_state["_context"].result
+    assert result.criteria.constraints.max_transmissibility == 1.0
+    mount = result.mount
+    worst = {gid: np.nanmax(mount.transmissibility[k]) for k, gid in enumerate(mount.ids)}
+    shown = [d.value for d in at.dataframe if "rank" in d.value.columns]
+    listed = shown[0]["grade"].tolist() if shown else []
+    assert listed == [g.id for g in result.shortlist]
+    assert all(worst[gid] < 1.0 for gid in listed)
+    amplifying = [gid for gid, t in worst.items() if t >= 1.0]
+    assert amplifying, "no demo grade amplifies in the default case: the check is empty"
+    excluded = " ".join(m.value for m in at.markdown)
+    grades = {g.id: g for g in result.grades}
+    for gid in amplifying:
+        assert not grades[gid].passed
+        failure = next(
+            f for f in grades[gid].failures if f.constraint == "amplifies the disturbance"
+        )
+        assert f"**{gid}**" in excluded and failure.text() in excluded
+    # A case with a shortlist: the page's own column of worst transmissibility, below 1.
+    at = app(monkeypatch, demo_db, **ISOLATING)
+    at.switch_page("views/shortlist.py").run()
+    table = next(d.value for d in at.dataframe if "rank" in d.value.columns)
+    assert len(table) >= 2 and (table["worst transmissibility"] < 1.0).all()
+
+
+def test_the_mount_switch_off_shows_a_material_screening(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db, **ISOLATING)
+    for page in ("views/map.py", "views/shortlist.py"):
+        at.switch_page(page).run()
+        assert not any(SCREENING_CAPTION in c.value for c in at.caption), page
+    at.toggle(key="c_mount_on").set_value(False).run()
+    assert not at.exception
+    result = at.session_state["_context"].result
+    assert result.criteria.screening_only and result.criteria.mount is None
+    assert at.multiselect(key="c_indices").value == [n for n, _, _ in SCREENING_INDICES]
+    assert at.query_params["m"] == "0"
+    for page in ("views/map.py", "views/shortlist.py"):
+        at.switch_page(page).run()
+        assert not at.exception, page
+        assert any(SCREENING_CAPTION in c.value for c in at.caption), page
+    reasons = [d.value for d in at.dataframe if "rank" in d.value.columns][0]["reason"]
+    assert len(reasons) and all(SCREENING_NOTE in r for r in reasons)
+    # On again: the mount of the sidebar, and the isolation indices back.
+    at.toggle(key="c_mount_on").set_value(True).run()
+    assert not at.exception
+    result = at.session_state["_context"].result
+    assert result.criteria == case.criteria_from_state(isolating_state())
+    assert not any(SCREENING_CAPTION in c.value for c in at.caption)
+
+
+def test_the_new_mount_limits_reach_the_ranking(monkeypatch, demo_db):
+    at = app(monkeypatch, demo_db, **ISOLATING)
+    at.switch_page("views/shortlist.py").run()
+    before = shortlist_ids(at)
+    at.number_input(key="c_iso_min").set_value(72.0).run()
+    at.number_input(key="c_ratio_min").set_value(2.2).run()
+    at.number_input(key="c_amp_max").set_value(33.0).run()
+    assert not at.exception
+    con = at.session_state["_context"].result.criteria.constraints
+    assert (con.min_isolation_efficiency, con.min_frequency_ratio) == (0.72, 2.2)
+    assert con.max_amplification == 33.0
+    link = tuple(at.query_params[k] for k in ("ie", "rr", "ra"))
+    assert link == ("72", "2.2", "33")
+    state = isolating_state()
+    state.update(c_iso_min=72.0, c_ratio_min=2.2, c_amp_max=33.0)
+    after = shortlist_ids(at)
+    assert after == engine_shortlist(demo_db, case.criteria_from_state(state))
+    assert after and set(after) < set(before)  # the tighter limits leave fewer grades
 
 
 def test_case_errors_name_the_setting():

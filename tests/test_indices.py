@@ -93,6 +93,8 @@ def test_built_in_directions_kinds_and_needs():
         "loss_modulus": (True, "point", ()),
         "stiffness_drift": (False, "window", ()),
         "frequency_drift": (False, "window", ()),
+        "worst_transmissibility": (False, "window", ()),
+        "isolation_efficiency": (True, "window", ()),
         "damping_span": (True, "window", ()),
         "beam_damping": (True, "point", ("density",)),
         "plate_damping": (True, "point", ("density",)),
@@ -103,6 +105,9 @@ def test_built_in_directions_kinds_and_needs():
     for name, (higher, kind, needs) in expected.items():
         spec = resolve(name)
         assert (spec.higher_is_better, spec.kind, spec.needs) == (higher, kind, needs), name
+        assert spec.needs_mount == (
+            name in ("frequency_drift", "worst_transmissibility", "isolation_efficiency")
+        )
         assert spec.doc and spec.label
         assert (spec.point is None) == (kind == "window"), name
 

@@ -64,10 +64,9 @@ POOL = [
     "loss_modulus",
     "beam_damping",
     "plate_damping_per_cost",
-    "frequency_drift",
     "stiffness_drift",
     "damping_span",
-]
+]  # material indices: the mount's own are checked with a mount below
 FEW = settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
 
@@ -119,7 +118,8 @@ def scenarios(draw, min_indices=1):
 
 
 def criteria_of(choices, **kw):
-    return Criteria(window=WINDOW, indices=choices, constraints=OPEN, **kw)
+    # Material screening (no mount): these properties are of the scores alone.
+    return Criteria(window=WINDOW, indices=choices, constraints=OPEN, screening_only=True, **kw)
 
 
 # ------------------------------------------------------------------ properties
@@ -159,9 +159,11 @@ def test_raising_a_weight_never_lowers_the_best_grade_on_that_index(scenario, da
     vals = [g.indices[name] for g in before.shortlist]
     best = max(vals) if spec.higher_is_better else min(vals)
     rank_after = {g.id: g.rank for g in after.shortlist}
-    for g in before.shortlist:
-        if g.indices[name] == best:
-            assert rank_after[g.id] <= g.rank
+    # Grades equal on the index to rounding (exact shifts of one curve) are a tie that
+    # last-digit differences may order either way: the property is for a clear best.
+    near = [g for g in before.shortlist if math.isclose(g.indices[name], best, rel_tol=1e-9)]
+    if len(near) == 1:
+        assert rank_after[near[0].id] <= near[0].rank
 
 
 @FEW
@@ -242,7 +244,7 @@ def test_ties_fall_to_first_index_then_price_then_id():
         ("B-CHEAP", 0, 1000.0, 2.0),
         ("E-LIGHT", 0, 900.0, 50.0),
     ]
-    choices = (IndexChoice("beam_damping", 0.0), IndexChoice("frequency_drift", 1.0))
+    choices = (IndexChoice("beam_damping", 0.0), IndexChoice("stiffness_drift", 1.0))
     result = run(grades, criteria_of(choices))
     assert order(result) == ["E-LIGHT", "B-CHEAP", "D-SAME", "C-DEAR", "A-HEAVY"]
     assert len({g.raw_score for g in result.shortlist}) == 1
@@ -296,12 +298,13 @@ def test_index_values_match_direct_evaluation():
         IndexChoice("loss_factor", 1.0, "weighted"),
         IndexChoice("loss_modulus", 1.0, "weighted"),
         IndexChoice("frequency_drift"),
+        IndexChoice("stiffness_drift"),
         IndexChoice("damping_span"),
     )
-    result = rank(curves, mats, Criteria(window=window, indices=choices, constraints=OPEN))
+    criteria = Criteria(window=window, indices=choices, constraints=OPEN, mount=MountDesign())
+    result = rank(curves, mats, criteria)
     share = np.array([0.25, 0.75])
     dt, df = np.array([-10.0, 20.0]), np.array([20.0, 50.0])
-    t, f = window.temperatures[:, None], window.frequencies[None, :]
     by_id = {g.id: g for g in result.grades}
     for gid, to_e in (("T", 1.0), ("S", 3.0)):  # E = 3 G for nu = 0.5 (Timoshenko 1970)
         curve, got = curves[gid], by_id[gid].indices
@@ -309,9 +312,17 @@ def test_index_values_match_direct_evaluation():
         assert got["loss_factor"] == pytest.approx(duty_p.loss_factor @ share, rel=5e-3)
         expected_lm = (duty_p.loss_modulus * to_e / 1e6) @ share  # [MPa]
         assert got["loss_modulus"] == pytest.approx(expected_lm, rel=5e-3)
-        e = curve.evaluate(t, f).storage_modulus
-        assert got["frequency_drift"] == pytest.approx(np.sqrt(e.max() / e.min()), rel=5e-3)
+        # The mount's own drift: its fn at each window temperature (common practice).
+        fn = result.mount.natural_frequency[result.mount.ids.index(gid)]
+        assert got["frequency_drift"] == pytest.approx(fn.max() / fn.min(), rel=1e-9)
         path = np.arange(-20.0, 40.5, 1.0)
+        e_path = curve.evaluate(path, window.design_frequency).storage_modulus
+        assert got["stiffness_drift"] == pytest.approx(e_path.max() / e_path.min(), rel=5e-3)
+        # fn = (1/2 pi) sqrt(k'(fn)/m) with k' ~ E' (common practice): the drift of fn is
+        # the square root of the stiffness ratio at the two roots themselves.
+        hot, cold = int(np.argmin(fn)), int(np.argmax(fn))
+        e_at = curve.evaluate(window.temperatures[[cold, hot]], fn[[cold, hot]]).storage_modulus
+        assert got["frequency_drift"] == pytest.approx(np.sqrt(e_at[0] / e_at[1]), rel=5e-3)
         eta = curve.evaluate(path, window.design_frequency).loss_factor
         assert got["damping_span"] == pytest.approx(np.sum(eta >= 0.2) * 1.0, abs=1.0)
 
@@ -341,7 +352,7 @@ def test_excluded_grades_keep_every_failed_constraint():
     cons = Constraints(
         hardness_range=(40.0, 70.0), max_price=20.0, min_loss_factor=limit, allow_extrapolation=True
     )
-    result = rank(curves, mats, Criteria(window=window, constraints=cons))
+    result = rank(curves, mats, Criteria(window=window, constraints=cons, screening_only=True))
     assert [g.id for g in result.shortlist] == ["OK"]
     excluded = {g.id: g for g in result.excluded}
     assert [g.id for g in result.excluded] == sorted(excluded)  # excluded follow, by id
@@ -383,9 +394,11 @@ def test_mount_constraints_exclude_with_their_values():
         g = next(x for x in result.excluded if x.id == gid)
         fails = {f.constraint: f for f in g.failures}
         worst_t = float(np.nanmax(mres.transmissibility[k]))
-        assert float(fails["transmissibility at the disturbance"].value) == pytest.approx(
-            worst_t, rel=5e-3
-        )
+        named = fails.get("transmissibility") or fails["amplifies the disturbance"]
+        assert named.value.startswith("T = ")
+        assert float(named.value.split()[2]) == pytest.approx(worst_t, rel=5e-3)
+        assert " °C, 24.7 Hz" in named.value  # where it is worst
+        assert named.limit == "< 0.01 at every temperature"
         assert g.mount["id"] == gid
     soft = next(x for x in result.excluded if x.id == "SOFT")
     strain = {f.constraint: f for f in soft.failures}["static strain incl. long-term sag"]
@@ -430,7 +443,17 @@ def test_criteria_dict_round_trip():
     assert Criteria.from_dict(FULL.to_dict()) == FULL
     assert Criteria.from_dict(json.loads(json.dumps(FULL.to_dict()))) == FULL
     assert Criteria.from_dict(Criteria().to_dict()) == Criteria()
-    assert [c.name for c in Criteria().indices] == ["loss_factor", "frequency_drift"]
+    assert [c.name for c in Criteria().indices] == [
+        "loss_factor",
+        "frequency_drift",
+        "worst_transmissibility",
+        "isolation_efficiency",
+    ]
+    assert Criteria().mount == MountDesign()  # an isolation design checks a mount
+    screening = Criteria(screening_only=True)
+    assert screening.mount is None
+    assert [c.name for c in screening.indices] == ["loss_factor", "stiffness_drift"]
+    assert Criteria.from_dict(screening.to_dict()) == screening
 
 
 def test_criteria_save_and_load_json(tmp_path):
@@ -554,12 +577,20 @@ def test_criteria_load_missing_file(tmp_path):
             "Pareto index 'damping_span' is not among the chosen indices",
         ),
         (
-            lambda: Criteria(constraints=Constraints(max_transmissibility=0.3)),
-            "transmissibility and fn limits need a mount design",
+            lambda: Criteria(screening_only=True, constraints=Constraints(fn_range_Hz=(5.0, 10.0))),
+            "an fn limit needs a mount design",
         ),
         (
-            lambda: Criteria(constraints=Constraints(fn_range_Hz=(5.0, 10.0))),
-            "transmissibility and fn limits need a mount design",
+            lambda: Criteria(screening_only=True, indices=(IndexChoice("frequency_drift"),)),
+            "index 'frequency_drift' needs a mount design",
+        ),
+        (
+            lambda: Criteria(design="general", screening_only=True),
+            "screening_only applies to the isolation-mount design",
+        ),
+        (
+            lambda: Constraints(min_isolation_efficiency=1.0),
+            r"min_isolation_efficiency 1 must lie in \[0, 1\)",
         ),
         (lambda: Criteria(eta_threshold=0.0), "loss-factor threshold must be positive"),
         (lambda: Criteria.from_dict(["loss_factor"]), "criteria must be a mapping"),

@@ -49,12 +49,25 @@ def mount_figures(
                 marker={"symbol": "star-open", "size": 13, "color": INK, "line": {"width": 1.5}},
             )
         )
-    # Level lines as traces: shapes on a log axis would stretch its autorange.
-    levels = [(1.0, "1: no isolation", GUIDE, "dot")]
-    if con.max_transmissibility is not None:
-        levels.append(
-            (con.max_transmissibility, f"limit {con.max_transmissibility:g}", WARN, "dash")
+    if con.min_frequency_ratio is not None and mres.disturbance.size:
+        # The highest fn the f/fn limit allows, at the lowest disturbance.
+        ceiling = float(np.min(mres.disturbance)) / con.min_frequency_ratio
+        fn_fig.add_hline(
+            y=ceiling,
+            line={"color": WARN, "dash": "dot", "width": 1.2},
+            annotation_text=f"highest fn for f/fn >= {con.min_frequency_ratio:.3g}",
+            annotation_position="bottom left",
+            annotation_font_size=10,
         )
+    # Level lines as traces: shapes on a log axis would stretch its autorange. The limit
+    # is the tighter of the transmissibility limit and 1 - the isolation efficiency.
+    limit = con.transmissibility_limit
+    if limit == 1.0:
+        levels = [(1.0, "1: no isolation (the limit)", WARN, "dash")]
+    else:
+        levels = [(1.0, "1: no isolation", GUIDE, "dot")]
+        if limit is not None:
+            levels.append((limit, f"limit {limit:g}", WARN, "dash"))
     for y, label, colour, dash in levels:
         tr_fig.add_trace(
             go.Scatter(

@@ -4,13 +4,21 @@ import streamlit as st
 
 from dashboard import data, tables
 from dashboard.charts.common import INTERVAL_NOTE
-from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result, take_map_selection
+from dashboard.common import (
+    MISSING,
+    SHOWN_LIMIT,
+    context,
+    need_result,
+    screening_caption,
+    take_map_selection,
+)
 from engine.output.mapfigure import READING
 
 ctx = context()
 st.header("Map")
 result = need_result(ctx)
 if result is not None:
+    screening_caption(result)
     c1, c2 = st.columns([3, 1])
     c1.caption(
         READING + " Draw a box or a lasso to put grades in the comparison set. Shaded tubes around "

@@ -8,7 +8,7 @@ downloads all show them.
 import streamlit as st
 
 from dashboard import tables
-from dashboard.common import MISSING, context, need_result
+from dashboard.common import MISSING, context, need_result, screening_caption
 from engine.base.errors import QuietgradeError
 from engine.output.export import intervals_note
 from engine.selection.spread import rank_spread
@@ -63,6 +63,7 @@ if result is not None:
     except QuietgradeError as exc:
         st.warning(f"rank intervals are not available: {exc}")
     n = len(result.grades)
+    screening_caption(result)
     st.caption(
         f"{len(result.shortlist)} of {n} grade(s) meet every limit. Score: weighted log10 "
         "index values, 100 for the best passing grade and 0 for the last. " + intervals_note(result)

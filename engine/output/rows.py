@@ -36,6 +36,7 @@ from scipy.interpolate import make_interp_spline
 
 from engine.base.caution import CAUTION
 from engine.library.store import Library
+from engine.selection.criteria import SCREENING_NOTE
 from engine.selection.ranking import RankResult
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -229,6 +230,8 @@ def _trailer_lines(result: RankResult) -> list[str]:
     caution last."""
     lines = [f"quietgrade {result.engine_version}, ranked {result.created_at} (UTC)"]
     lines.append(intervals_note(result))
+    if result.criteria.screening_only:
+        lines.append(SCREENING_NOTE)
     for gid, msg in sorted(result.fit_errors.items()):
         lines.append(f"not ranked, master curve failed: {_one_line(gid)}: {_one_line(msg)}")
     lines.append(f"caution: {CAUTION}")
@@ -241,7 +244,10 @@ _CONSTRAINT_LABELS = {
     "hardness_range": "hardness range [Shore A]",
     "max_price": "highest price [per kg]",
     "min_loss_factor": "lowest worst-case loss factor [-]",
-    "max_transmissibility": "highest transmissibility at the disturbance [-]",
+    "max_transmissibility": "highest transmissibility at every temperature and disturbance [-]",
+    "min_isolation_efficiency": "lowest isolation efficiency 1 - T [-]",
+    "min_frequency_ratio": "lowest frequency ratio f/fn [-]",
+    "max_amplification": "highest amplification passing through resonance [-]",
     "fn_range_Hz": "natural-frequency range [Hz]",
     "max_static_strain": "highest static strain incl. long-term sag [-]",
     "allow_extrapolation": "extrapolation allowed",
@@ -307,6 +313,8 @@ def criteria_rows(result: RankResult) -> list[tuple[str, str, object]]:
             )
         )
     rows.append(("design", "design type", c.design))
+    if c.screening_only:
+        rows.append(("design", "mount", SCREENING_NOTE))
     rows.append(("design", "loss-factor threshold of the damping span [-]", c.eta_threshold))
     for choice in c.indices:
         spec = result.specs[choice.name]

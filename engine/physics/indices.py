@@ -40,9 +40,20 @@ QUANTITIES = (
     "frequency",
 )
 # What a window index reads: storage modulus [Pa], shape (grades, window points); the
-# temperature path [degC] at the design frequency and the loss factor along it, shape
-# (grades, temperatures); the loss-factor threshold of the damping span.
-WINDOW_QUANTITIES = ("storage_modulus", "path_temperatures", "path_loss_factor", "eta_threshold")
+# temperature path [degC] at the design frequency (1 K steps) with the storage modulus
+# [Pa] and loss factor along it, shape (grades, temperatures); the loss-factor threshold
+# of the damping span; and with a mount design, the mount's natural frequency [Hz],
+# shape (grades, window temperatures), and transmissibility, shape (grades, window
+# temperatures, disturbances).
+WINDOW_QUANTITIES = (
+    "storage_modulus",
+    "path_temperatures",
+    "path_storage",
+    "path_loss_factor",
+    "eta_threshold",
+    "natural_frequency",
+    "transmissibility",
+)
 AGGREGATES = ("worst", "mean", "weighted", "best")
 
 
@@ -69,15 +80,22 @@ class IndexSpec:
     point: Callable[[Mapping], np.ndarray] | None = None
     formula: Formula | None = None
     window: Callable[[Mapping], np.ndarray] | None = None
+    needs_mount: bool = False  # a window index of the checked mount
 
 
 def _q(q, name):
     return q[name]
 
 
-def _drift(storage: np.ndarray) -> np.ndarray:
-    """Largest over smallest storage modulus of each grade (rows) over the window."""
-    return storage.max(axis=1) / storage.min(axis=1)
+def _drift(values: np.ndarray) -> np.ndarray:
+    """Largest over smallest value of each grade (row), NaN where one is unknown."""
+    v = values.reshape(values.shape[0], -1)
+    return v.max(axis=1) / v.min(axis=1)
+
+
+def _row_max(values: np.ndarray) -> np.ndarray:
+    """Largest value of each grade (row) over all its other axes."""
+    return values.reshape(values.shape[0], -1).max(axis=1)
 
 
 def _beam(q):
@@ -124,14 +142,15 @@ _register(
 _register(
     IndexSpec(
         "stiffness_drift",
-        "stiffness drift max E'/min E'",
+        "stiffness drift over temperature",
         "-",
         False,
         "window",
         (),
-        "Ratio of the largest to the smallest E' over the whole window. A mount whose "
-        "stiffness changes by this factor moves its natural frequency by its square root.",
-        window=lambda w: _drift(w["storage_modulus"]),
+        "Material only: the largest over the smallest E' along the window's temperatures "
+        "at the design frequency (1 K steps). A mount of the grade changes its stiffness by "
+        "this factor over the service temperatures; frequency dependence is left out.",
+        window=lambda w: _drift(w["path_storage"]),
     )
 )
 _register(
@@ -142,9 +161,39 @@ _register(
         False,
         "window",
         (),
-        "sqrt(max E' / min E') over the window: the factor by which fn = (1/2 pi) "
-        "sqrt(k/m) of a mount moves, as k is proportional to the modulus.",
-        window=lambda w: np.sqrt(_drift(w["storage_modulus"])),
+        "max fn / min fn of the checked mount over the window's temperatures, each fn the "
+        "root of fn = (1/2 pi) sqrt(k'(fn)/m) at its temperature: the mount's own drift.",
+        window=lambda w: _drift(w["natural_frequency"]),
+        needs_mount=True,
+    )
+)
+_register(
+    IndexSpec(
+        "worst_transmissibility",
+        "worst transmissibility",
+        "-",
+        False,
+        "window",
+        (),
+        "The largest force transmissibility T = |k*| / |k* - m (2 pi f)^2| of the checked "
+        "mount over the window's temperatures and the disturbance frequencies (Snowdon "
+        "1968). Below 1 the mount isolates.",
+        window=lambda w: _row_max(w["transmissibility"]),
+        needs_mount=True,
+    )
+)
+_register(
+    IndexSpec(
+        "isolation_efficiency",
+        "worst isolation efficiency",
+        "-",
+        True,
+        "window",
+        (),
+        "1 - T at the worst window temperature and disturbance: the share of the "
+        "disturbing force the mount keeps from the structure (common practice).",
+        window=lambda w: 1.0 - _row_max(w["transmissibility"]),
+        needs_mount=True,
     )
 )
 _register(

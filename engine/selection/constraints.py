@@ -20,6 +20,7 @@ from engine.selection.evaluation import Evaluation
 from engine.selection.results import Failure, short_number
 
 MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
+STIFF_RATIO = 0.5  # f/fn below this: T is within a third of 1, no resonance (common practice)
 
 
 @dataclass
@@ -187,18 +188,87 @@ def _fn_range(c: Checks) -> None:
     )
 
 
+def _worst_place(c: Checks, values: np.ndarray, largest: bool) -> tuple[np.ndarray, list]:
+    """Each grade's worst value over (temperatures, disturbances) and where it is, as
+    "at <T> °C, <f> Hz" texts; NaN entries are passed over."""
+    n = values.shape[0]
+    flat = values.reshape(n, -1)
+    fill = -np.inf if largest else np.inf
+    clean = np.where(np.isnan(flat), fill, flat)
+    at = clean.argmax(axis=1) if largest else clean.argmin(axis=1)
+    worst = clean[np.arange(n), at]
+    temps = c.mres.temperatures
+    assert c.criteria.mount is not None  # mount checks run only with a mount design
+    dist = np.asarray(c.criteria.mount.disturbance_Hz, dtype=float)
+    j_t, j_f = np.unravel_index(at, values.shape[1:])
+    where = [f"at {temps[a]:g} °C, {dist[b]:g} Hz" for a, b in zip(j_t, j_f, strict=True)]
+    return worst, where
+
+
+@constraint("frequency_ratio", needs_mount=True)
+def _frequency_ratio(c: Checks) -> None:
+    least = c.criteria.constraints.min_frequency_ratio
+    if least is None:
+        return
+    assert c.criteria.mount is not None
+    dist = np.asarray(c.criteria.mount.disturbance_Hz, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = dist[None, None, :] / c.mres.natural_frequency[:, :, None]
+    worst, where = _worst_place(c, ratio, largest=False)
+    c.fail(
+        np.isfinite(worst) & (worst < least),
+        lambda k: Failure(
+            # Well below resonance the pad is simply too stiff: it passes the force on.
+            "near resonance" if worst[k] >= STIFF_RATIO else "too stiff to isolate",
+            f"{where[k]} (f/fn = {worst[k]:.2g})",
+            f"f/fn >= {least:.3g} at every temperature",
+        ),
+        "mount",
+    )
+
+
 @constraint("max_transmissibility", needs_mount=True)
 def _transmissibility(c: Checks) -> None:
-    top = c.criteria.constraints.max_transmissibility
+    top = c.criteria.constraints.transmissibility_limit
     if top is None:
         return
-    worst_t = _row_max(c.mres.transmissibility)
+    worst, where = _worst_place(c, c.mres.transmissibility, largest=True)
     with np.errstate(invalid="ignore"):
-        high = worst_t > top
+        high = worst > top
+    efficiency = c.criteria.constraints.min_isolation_efficiency
+    needs = f"< {top:g} at every temperature" + (
+        f" (isolation efficiency >= {efficiency:.0%})"
+        if efficiency is not None and top == 1.0 - efficiency
+        else ""
+    )
     c.fail(
-        high,
+        high & np.isfinite(worst),
         lambda k: Failure(
-            "transmissibility at the disturbance", short_number(worst_t[k]), f"<= {top:g}"
+            "amplifies the disturbance" if worst[k] >= 1.0 else "transmissibility",
+            f"T = {short_number(worst[k])} {where[k]}",
+            needs,
+        ),
+        "mount",
+    )
+
+
+@constraint("max_amplification", needs_mount=True)
+def _amplification(c: Checks) -> None:
+    top = c.criteria.constraints.max_amplification
+    if top is None:
+        return
+    amp = c.mres.amplification
+    n = amp.shape[0]
+    clean = np.where(np.isnan(amp), -np.inf, amp)
+    at = clean.argmax(axis=1)
+    worst = clean[np.arange(n), at]
+    temps = c.mres.temperatures
+    c.fail(
+        np.isfinite(worst) & (worst > top),
+        lambda k: Failure(
+            "amplification passing through resonance",
+            f"{short_number(worst[k])} at {temps[at[k]]:g} °C",
+            f"<= {top:g}",
         ),
         "mount",
     )

@@ -9,7 +9,9 @@ Examples
 >>> from dataclasses import replace
 >>> c = Criteria()
 >>> [i.name for i in c.indices]
-['loss_factor', 'frequency_drift']
+['loss_factor', 'frequency_drift', 'worst_transmissibility', 'isolation_efficiency']
+>>> c.mount is not None, Criteria(screening_only=True).mount
+(True, None)
 >>> replace(c, constraints=replace(c.constraints, max_price=12.0)).constraints.max_price
 12.0
 """
@@ -31,10 +33,21 @@ from engine.physics.indices import AGGREGATES, IndexSpec, custom_index, resolve
 
 DESIGN_TYPES = ("isolation_mount", "damping_layer", "general")
 DEFAULT_INDICES = {
-    "isolation_mount": [("loss_factor", 1.0, "worst"), ("frequency_drift", 1.0, "worst")],
+    # The mount's own figures carry half the isolation score: its worst transmissibility
+    # and isolation efficiency over the window, beside damping and the drift of fn.
+    "isolation_mount": [
+        ("loss_factor", 1.0, "worst"),
+        ("frequency_drift", 1.0, "worst"),
+        ("worst_transmissibility", 1.0, "worst"),
+        ("isolation_efficiency", 1.0, "worst"),
+    ],
     "damping_layer": [("loss_modulus", 1.0, "worst"), ("damping_span", 1.0, "worst")],
     "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
 }
+# An isolation design without a mount is a material screening: no mount figures.
+SCREENING_INDICES = [("loss_factor", 1.0, "worst"), ("stiffness_drift", 1.0, "worst")]
+SCREENING_NOTE = "material screening only: no mount was checked, so isolation is not shown"
+ISOLATION_RATIO = math.sqrt(2.0)  # f/fn above which any mount isolates (Snowdon 1968)
 
 
 def _number(value, setting: str) -> float:
@@ -104,7 +117,11 @@ class Constraints:
     hardness_range: tuple[float, float] | None = None
     max_price: float | None = None
     min_loss_factor: float | None = None  # worst case over the window
-    max_transmissibility: float | None = None  # at the disturbance, worst case
+    # Mount limits, at every window temperature and disturbance (with a mount design):
+    max_transmissibility: float | None = 1.0  # below 1 the mount isolates
+    min_isolation_efficiency: float | None = None  # 1 - T, e.g. 0.8 for 80 %
+    min_frequency_ratio: float | None = ISOLATION_RATIO  # f/fn; raise it for a margin
+    max_amplification: float | None = None  # T at resonance, met on every run-up
     fn_range_Hz: tuple[float, float] | None = None
     max_static_strain: float | None = None  # None: the layout's common-practice limit
     allow_extrapolation: bool = False
@@ -115,8 +132,30 @@ class Constraints:
             object.__setattr__(self, key, _boolean(getattr(self, key), key))
         for key in ("hardness_range", "fn_range_Hz"):
             object.__setattr__(self, key, _range(getattr(self, key), key))
-        for key in ("max_price", "min_loss_factor", "max_transmissibility", "max_static_strain"):
+        for key in (
+            "max_price",
+            "min_loss_factor",
+            "max_transmissibility",
+            "min_isolation_efficiency",
+            "min_frequency_ratio",
+            "max_amplification",
+            "max_static_strain",
+        ):
             object.__setattr__(self, key, _optional_number(getattr(self, key), key))
+        efficiency = self.min_isolation_efficiency
+        if efficiency is not None and not 0.0 <= efficiency < 1.0:
+            raise CriteriaError(
+                f"min_isolation_efficiency {efficiency:g} must lie in [0, 1), e.g. 0.8 for 80 %"
+            )
+
+    @property
+    def transmissibility_limit(self) -> float | None:
+        """The tighter of the transmissibility limit and 1 - the isolation efficiency."""
+        limits = [self.max_transmissibility]
+        if self.min_isolation_efficiency is not None:
+            limits.append(1.0 - self.min_isolation_efficiency)
+        known = [v for v in limits if v is not None]
+        return min(known) if known else None
 
     def to_dict(self) -> dict:
         return {k: (list(v) if isinstance(v, tuple) else v) for k, v in self.__dict__.items()}
@@ -171,18 +210,23 @@ class Criteria:
     mount: MountDesign | None = None
     pareto: tuple[str, str] | None = None
     eta_threshold: float = 0.2  # for the damping temperature span
+    screening_only: bool = False  # an isolation design ranked without a mount
 
     def __post_init__(self) -> None:
         if self.design not in DESIGN_TYPES:
             raise CriteriaError(
                 f"design type '{self.design}' is not one of {', '.join(DESIGN_TYPES)}"
             )
+        _boolean(self.screening_only, "screening_only")
+        if self.screening_only:
+            if self.design != "isolation_mount":
+                raise CriteriaError("screening_only applies to the isolation-mount design")
+            object.__setattr__(self, "mount", None)
+        elif self.design == "isolation_mount" and self.mount is None:
+            object.__setattr__(self, "mount", MountDesign())  # a mount is part of the case
         if not self.indices:
-            object.__setattr__(
-                self,
-                "indices",
-                tuple(IndexChoice(n, w, a) for n, w, a in DEFAULT_INDICES[self.design]),
-            )
+            defaults = SCREENING_INDICES if self.screening_only else DEFAULT_INDICES[self.design]
+            object.__setattr__(self, "indices", tuple(IndexChoice(n, w, a) for n, w, a in defaults))
         names = [c.name for c in self.indices]
         if len(set(names)) != len(names):
             raise CriteriaError("an index is chosen twice")
@@ -194,7 +238,9 @@ class Criteria:
                 )
             if not (math.isfinite(c.weight) and c.weight >= 0):
                 raise CriteriaError(f"index '{c.name}': weight must be a number >= 0")
-            c.spec()  # unknown names and bad formulas fail here
+            spec = c.spec()  # unknown names and bad formulas fail here
+            if spec.needs_mount and self.mount is None:
+                raise CriteriaError(f"index '{c.name}' needs a mount design")
             if c.aggregate == "weighted" and not self.window.duty_points:
                 raise CriteriaError(
                     f"index '{c.name}': the 'weighted' aggregation needs duty points"
@@ -212,11 +258,8 @@ class Criteria:
                 )
         if not (math.isfinite(self.eta_threshold) and self.eta_threshold > 0):
             raise CriteriaError("loss-factor threshold must be positive")
-        if self.mount is None and (
-            self.constraints.max_transmissibility is not None
-            or self.constraints.fn_range_Hz is not None
-        ):
-            raise CriteriaError("transmissibility and fn limits need a mount design")
+        if self.mount is None and self.constraints.fn_range_Hz is not None:
+            raise CriteriaError("an fn limit needs a mount design")
 
     def to_dict(self) -> dict:
         return {
@@ -239,13 +282,23 @@ class Criteria:
             "mount": None if self.mount is None else self.mount.to_dict(),
             "pareto": None if self.pareto is None else list(self.pareto),
             "eta_threshold": self.eta_threshold,
+            "screening_only": self.screening_only,
         }
 
     @classmethod
     def from_dict(cls, data: dict) -> Criteria:
         if not isinstance(data, dict):
             raise CriteriaError("criteria must be a mapping of settings")
-        known = {"window", "design", "indices", "constraints", "mount", "pareto", "eta_threshold"}
+        known = {
+            "window",
+            "design",
+            "indices",
+            "constraints",
+            "mount",
+            "pareto",
+            "eta_threshold",
+            "screening_only",
+        }
         reject_unknown(data, known, "criteria setting(s)")
         entries = data.get("indices", [])
         if not isinstance(entries, list | tuple):
@@ -271,6 +324,8 @@ class Criteria:
             given["design"] = str(data["design"])
         if "eta_threshold" in data:
             given["eta_threshold"] = _number(data["eta_threshold"], "eta_threshold")
+        if "screening_only" in data:
+            given["screening_only"] = data["screening_only"]
         return cls(
             window=OperatingWindow.from_dict(window),
             indices=tuple(indices),

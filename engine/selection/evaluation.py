@@ -148,21 +148,6 @@ def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criter
     specs = {c.name: c.spec() for c in criteria.indices}
     point = [c for c in criteria.indices if specs[c.name].kind == "point"]
     values, eta_worst = _point_indices(props, catalog, point, specs)
-    whole = {
-        "storage_modulus": props.storage.reshape(n, -1),
-        "path_temperatures": props.path_temperatures,
-        "path_loss_factor": props.path_loss_factor,
-        "eta_threshold": criteria.eta_threshold,
-    }
-    for c in criteria.indices:
-        spec = specs[c.name]
-        if spec.kind == "window":
-            if spec.window is None:
-                raise CriteriaError(f"window index '{c.name}' has no evaluation")
-            values[c.name] = np.asarray(spec.window(whole), dtype=float)
-    extrap_any = np.asarray(props.extrapolated.reshape(n, -1).any(axis=1))
-    if props.duty_extrapolated is not None:
-        extrap_any |= props.duty_extrapolated.any(axis=1)
     mres = None
     if criteria.mount is not None:
         mres = check_mounts(
@@ -172,6 +157,28 @@ def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criter
             catalog["poisson_ratio"],
             catalog["hardness"],
         )
+    whole = {
+        "storage_modulus": props.storage.reshape(n, -1),
+        "path_temperatures": props.path_temperatures,
+        "path_storage": props.path_storage,
+        "path_loss_factor": props.path_loss_factor,
+        "eta_threshold": criteria.eta_threshold,
+    }
+    if mres is not None:
+        whole["natural_frequency"] = mres.natural_frequency
+        whole["transmissibility"] = mres.transmissibility
+    for c in criteria.indices:
+        spec = specs[c.name]
+        if spec.kind == "window":
+            if spec.window is None:
+                raise CriteriaError(f"window index '{c.name}' has no evaluation")
+            if spec.needs_mount and mres is None:
+                raise CriteriaError(f"index '{c.name}' needs a mount design")
+            with np.errstate(invalid="ignore", divide="ignore"):
+                values[c.name] = np.asarray(spec.window(whole), dtype=float)
+    extrap_any = np.asarray(props.extrapolated.reshape(n, -1).any(axis=1))
+    if props.duty_extrapolated is not None:
+        extrap_any |= props.duty_extrapolated.any(axis=1)
     return Evaluation(list(bank.ids), catalog, props, specs, values, eta_worst, extrap_any, mres)
 
 

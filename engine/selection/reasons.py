@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from engine.physics.indices import IndexSpec
+from engine.selection.criteria import SCREENING_NOTE
 from engine.selection.results import GradeResult, RankResult, short_number
 
 UNCERTAIN = "within the data's uncertainty"  # of neighbours the draws cannot order (spread)
@@ -14,7 +17,7 @@ def write_reasons(result: RankResult) -> None:
     weights = {c.name: c.weight for c in result.criteria.indices}
     reasons = _Reasons(passing, result.specs, weights)
     for r in passing:
-        r.reason = reasons.line(r)
+        r.reason = reasons.line(r, result.criteria.screening_only)
     for r in result.excluded:
         r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
 
@@ -35,7 +38,7 @@ class _Reasons:
             n: "" if spec.unit in ("-", "") else " " + spec.unit for n, spec in specs.items()
         }
 
-    def line(self, r: GradeResult) -> str:
+    def line(self, r: GradeResult, screening: bool = False) -> str:
         parts = []
         best_on = [
             spec.label
@@ -52,8 +55,15 @@ class _Reasons:
         )
         if r.spread is not None and r.spread.alongside:
             parts.append(f"{UNCERTAIN} of {' and '.join(r.spread.alongside)}")
+        if r.mount_result is not None and r.mount_index is not None:
+            worst = float(np.nanmax(r.mount_result.transmissibility[r.mount_index]))
+            if np.isfinite(worst) and "worst_transmissibility" not in self.shown:
+                effect = f"isolates {1.0 - worst:.0%}" if worst < 1.0 else "amplifies"
+                parts.append(f"worst T {short_number(worst)} ({effect})")
         if r.pareto:
             parts.append("Pareto-optimal")
         if r.extrapolated:
             parts.append("uses extrapolated data")
+        if screening:
+            parts.append(SCREENING_NOTE)
         return f"rank {r.rank} of {self.n}: " + "; ".join(parts) + "; meets every constraint"

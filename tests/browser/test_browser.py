@@ -1,7 +1,8 @@
 """The dashboard in a real browser: Debian's chromium driven through Playwright.
 
 One dashboard server serves a fresh demo library (conftest.py); every page opened here is
-a new Streamlit session with the default case. The upload test, which writes to its
+a new Streamlit session with the default case, or the case of its link (the shortlist
+tests, as the default mount isolates no demo grade). The upload test, which writes to its
 library, has a server and a copy of the library of its own, so the tests run in any
 order. The checks are behavioural: the map and
 the caution are drawn, stepping the window's temperature slider reranks as the engine
@@ -22,6 +23,7 @@ import csv
 import os
 import re
 import shutil
+import urllib.parse
 from pathlib import Path
 
 import pytest
@@ -63,11 +65,17 @@ PAGES = (
     ("library", "Library"),
 )
 REASONS = '[data-testid="stExpander"] li'
+# The default mount isolates no demo grade over the default window. The shortlist tests
+# open this case by its link: 25 mm pads sized for 10 Hz, -20 to 45 °C and 10 to 100 Hz.
+ISOLATING = {"t": "-20,45", "f": "10,100", "mh": "25", "mt": "10"}
+SHORTLIST = "shortlist?" + urllib.parse.urlencode(ISOLATING)
 
 
 def engine_shortlist(db: Path, temp_range: tuple[float, float]) -> list[str]:
-    """The engine's own shortlist for the default case with the given window."""
-    return [g.id for g in engine_result(db, c_temp=temp_range).shortlist]
+    """The engine's own shortlist for the case of ISOLATING with the given window."""
+    state, notes = case.from_query(ISOLATING)
+    assert notes == []
+    return [g.id for g in engine_result(db, **{**state, "c_temp": temp_range}).shortlist]
 
 
 @pytest.fixture(scope="module")
@@ -149,8 +157,8 @@ def test_a_box_on_the_map_fills_the_comparison_set(map_page):
 
 def test_moving_the_temperature_slider_reranks(app_url, page):
     url, db = app_url
-    open_page(page, url, "shortlist", "Shortlist")
-    lo, hi = case.DEFAULTS["c_temp"]
+    open_page(page, url, SHORTLIST, "Shortlist")
+    lo, hi = (float(v) for v in ISOLATING["t"].split(","))
     before = [r[1] for r in table_rows(page, "rank", "grade")]
     assert before == engine_shortlist(db, (lo, hi))
     new_lo = lo + 20.0
@@ -180,7 +188,7 @@ def test_moving_the_temperature_slider_reranks(app_url, page):
 def test_xlsx_download_opens_with_its_sheets(app_url, page, tmp_path):
     openpyxl = pytest.importorskip("openpyxl")
     url, _ = app_url
-    open_page(page, url, "shortlist", "Shortlist")
+    open_page(page, url, SHORTLIST, "Shortlist")
     shown = [r[1] for r in table_rows(page, "rank", "grade")]
     with page.expect_download() as info:
         page.get_by_role("button", name="Shortlist XLSX").click()
