@@ -752,3 +752,35 @@ def test_pareto_front_equals_its_definition(points):
     a = np.array([p[0] for p in points], dtype=float)
     b = np.array([p[1] for p in points], dtype=float)
     assert pareto_optimal(a, b).tolist() == brute_force_pareto(a.tolist(), b.tolist())
+
+
+def test_isolation_limits_name_where_they_fail():
+    # Pads sized for 10 Hz under 45 kg each; a disturbance at 24.7 Hz. Amplification at
+    # resonance of a hysteretic isolator is sqrt(1 + eta^2) / eta (Snowdon 1968), and an
+    # isolation efficiency of 90 % means T <= 0.1 (common practice).
+    curves = {"SOFT": VARIANTS[5], "BASE": VARIANTS[0]}
+    mats = {"SOFT": material("SOFT"), "BASE": material("BASE")}
+    design = MountDesign(thickness_mm=25.0, target_fn_Hz=10.0)
+    cons = Constraints(
+        allow_extrapolation=True,
+        max_static_strain=1e3,
+        min_isolation_efficiency=0.9,
+        max_amplification=1.0,
+    )
+    assert cons.transmissibility_limit == pytest.approx(0.1)
+    result = rank(curves, mats, Criteria(window=WINDOW, constraints=cons, mount=design))
+    mres = result.mount
+    for k, gid in enumerate(mres.ids):
+        g = next(x for x in result.grades if x.id == gid)
+        fails = {f.constraint: f for f in g.failures}
+        amp = fails["amplification passing through resonance"]
+        worst_t = int(np.nanargmax(mres.amplification[k]))
+        fn, temp = mres.natural_frequency[k, worst_t], mres.temperatures[worst_t]
+        eta = float(curves[gid].evaluate(temp, fn).loss_factor)
+        assert float(amp.value.split()[0]) == pytest.approx(np.sqrt(1 + eta**2) / eta, rel=5e-3)
+        assert amp.value.endswith(f"at {temp:g} °C")
+        worst = float(np.nanmax(mres.transmissibility[k]))
+        if worst > 0.1:
+            named = fails.get("transmissibility") or fails["amplifies the disturbance"]
+            assert named.limit == "< 0.1 at every temperature (isolation efficiency >= 90%)"
+        assert not g.passed

@@ -189,19 +189,21 @@ def _fn_range(c: Checks) -> None:
 
 
 def _worst_place(c: Checks, values: np.ndarray, largest: bool) -> tuple[np.ndarray, list]:
-    """Each grade's worst value over (temperatures, disturbances) and where it is, as
-    "at <T> °C, <f> Hz" texts; NaN entries are passed over."""
+    """Each grade's worst value over its temperatures (and disturbances, for values of
+    shape (grades, temperatures, disturbances)) and where it is, as "at <T> °C[, <f>
+    Hz]" texts; NaN entries are passed over."""
     n = values.shape[0]
     flat = values.reshape(n, -1)
-    fill = -np.inf if largest else np.inf
-    clean = np.where(np.isnan(flat), fill, flat)
+    clean = np.where(np.isnan(flat), -np.inf if largest else np.inf, flat)
     at = clean.argmax(axis=1) if largest else clean.argmin(axis=1)
     worst = clean[np.arange(n), at]
     temps = c.mres.temperatures
+    place = np.unravel_index(at, values.shape[1:])
+    if values.ndim == 2:
+        return worst, [f"at {temps[a]:g} °C" for a in place[0]]
     assert c.criteria.mount is not None  # mount checks run only with a mount design
     dist = np.asarray(c.criteria.mount.disturbance_Hz, dtype=float)
-    j_t, j_f = np.unravel_index(at, values.shape[1:])
-    where = [f"at {temps[a]:g} °C, {dist[b]:g} Hz" for a, b in zip(j_t, j_f, strict=True)]
+    where = [f"at {temps[a]:g} °C, {dist[b]:g} Hz" for a, b in zip(*place, strict=True)]
     return worst, where
 
 
@@ -257,17 +259,12 @@ def _amplification(c: Checks) -> None:
     top = c.criteria.constraints.max_amplification
     if top is None:
         return
-    amp = c.mres.amplification
-    n = amp.shape[0]
-    clean = np.where(np.isnan(amp), -np.inf, amp)
-    at = clean.argmax(axis=1)
-    worst = clean[np.arange(n), at]
-    temps = c.mres.temperatures
+    worst, where = _worst_place(c, c.mres.amplification, largest=True)
     c.fail(
         np.isfinite(worst) & (worst > top),
         lambda k: Failure(
             "amplification passing through resonance",
-            f"{short_number(worst[k])} at {temps[at[k]]:g} °C",
+            f"{short_number(worst[k])} {where[k]}",
             f"<= {top:g}",
         ),
         "mount",
