@@ -294,6 +294,7 @@ def cmd_mount(args) -> int:
         np.array(args.temp, dtype=float),
         known(material.poisson_ratio),
         known(material.hardness),
+        bulk_modulus=known(material.bulk_modulus),
     )
     figs = res.grade(0)
     one_t = len(args.temp) == 1
@@ -307,6 +308,8 @@ def cmd_mount(args) -> int:
         trans = [row[0] for row in trans]
     data = {
         "id": args.id,
+        "verdict": figs["verdict"],
+        "verdict_reasons": figs["verdict_reasons"],
         "mode": curve.mode,
         "layout": design.layout,
         "temp_C": pick(figs["temperatures_C"]),
@@ -315,30 +318,55 @@ def cmd_mount(args) -> int:
         "transmissibility": pick(trans),
         "static_deflection_mm": pick(figs["static_deflection_mm"]),
         "static_strain": pick(figs["static_strain"]),
+        "dynamic_to_static_ratio": pick(figs["dynamic_to_static_ratio"]),
         "loss_factor_at_resonance": pick(figs["loss_factor_at_resonance"]),
         "amplification_at_resonance": pick(figs["amplification_at_resonance"]),
         "isolation_onset_Hz": pick(figs["isolation_onset_Hz"]),
         "area_mm2": figs["area_mm2"],
         "shape_factor": figs["shape_factor"],
         "k_factor": figs["k_factor"],
+        "bulk_modulus_MPa": figs["bulk_modulus_MPa"],
+        "bulk_modulus_source": figs["bulk_modulus_source"],
         "mass_per_mount_kg": design.mass_per_pad,
+        "static_stress_MPa": figs["static_stress_MPa"],
+        "stress_limit_MPa": figs["stress_limit_MPa"],
         "long_term_sag_mm": figs["sag_mm"],
         "long_term_strain": figs["sag_strain"],
         "strain_limit": figs["strain_limit"],
         "extrapolated": pick(figs["extrapolated"]),
         "notes": figs["notes"],
     }
-    lines = [f"{args.id}: {design.layout} pads, {design.mounts} x {design.mass_per_pad:g} kg"]
+    reasons = figs["verdict_reasons"]
+    verdict = f"{args.id}: passes" if not reasons else f"{args.id}: fails — " + "; ".join(reasons)
+    lines = [
+        verdict,
+        f"  {design.mounts} {design.layout} pad(s) of {figs['area_mm2']:.4g} mm2 x "
+        f"{design.thickness_mm:g} mm under {design.mass_per_pad:.4g} kg each",
+    ]
+    carried = not any(r.startswith(("cannot carry", "too stiff")) for r in reasons)
+    hz = ", ".join(f"{f:g}" for f in args.disturbance_hz)
     for i, t in enumerate(figs["temperatures_C"]):
-        tr = figs["transmissibility"][i]
+        strain = figs["static_strain"][i]
+        flag = "  extrapolated" if figs["extrapolated"][i] else ""
+        if not carried:  # the linear figures of a pad that cannot carry its load mean nothing
+            lines.append(f"  {t:6.1f} °C: static strain {strain:.3g}{flag}")
+            continue
+        fn = figs["natural_frequency_Hz"][i]
+        if not math.isfinite(fn):
+            lines.append(f"  {t:6.1f} °C: no natural frequency, static strain {strain:.3g}{flag}")
+            continue
+        tr = ", ".join(f"{v:.3f}" for v in figs["transmissibility"][i])
         lines.append(
-            f"  {t:6.1f} °C: fn {figs['natural_frequency_Hz'][i]:.2f} Hz, T = "
-            + ", ".join(f"{v:.3f}" for v in tr)
-            + f" at {', '.join(f'{f:g}' for f in args.disturbance_hz)} Hz, static "
-            f"{figs['static_deflection_mm'][i]:.2f} mm"
-            + ("  extrapolated" if figs["extrapolated"][i] else "")
+            f"  {t:6.1f} °C: fn {fn:.3g} Hz, T = {tr} at {hz} Hz, amplification at resonance "
+            f"{figs['amplification_at_resonance'][i]:.3g}, static strain {strain:.3g} "
+            f"({figs['static_deflection_mm'][i]:.3g} mm), dynamic/static stiffness "
+            f"{figs['dynamic_to_static_ratio'][i]:.3g}{flag}"
         )
-    lines.append(f"  pad area {figs['area_mm2']:.0f} mm2, long-term sag {figs['sag_mm']:.2f} mm")
+    lines.append(
+        f"  long-term sag {figs['sag_mm']:.3g} mm (strain {figs['sag_strain']:.3g}) after "
+        f"{design.service_life_h:g} h at {max(args.temp):g} °C; strain limit "
+        f"{figs['strain_limit']:g}"
+    )
     lines += [f"  note: {n}" for n in figs["notes"]]
     _emit(args, data, lines)
     return 0

@@ -12,9 +12,12 @@ import threading
 import numpy as np
 import pytest
 
+from engine.curves import bank as bank_module
 from engine.curves.bank import CurveBank
 from engine.curves.mastercurve import TABLE_MARGIN, build_master_curve
+from engine.physics.creep import creep_compliance
 from tests import synthetic
+from tests.helpers import flat_bank
 
 T_GRID = np.linspace(-80.0, 150.0, 47)[:, None]  # [degC]
 F_GRID = np.logspace(-7.0, 10.0, 35)[None, :]  # [Hz]
@@ -179,3 +182,64 @@ def test_blocks_handed_out_inside_a_block_run_in_its_thread(monkeypatch):
     runner.join(timeout=20.0)
     assert not runner.is_alive(), "nested blocks waited on their own pool"
     assert len(done) == 24
+
+
+# ------------------------------------------------------------------ creep compliance
+
+
+def test_compliance_rows_follow_each_curves_spectrum(curves, bank):
+    # J at temperature T is J_ref(t / aT) / (T / T0 with a vertical shift), J_ref the
+    # creep compliance of the curve's Prony series (exact interconversion, Tschoegl 1989;
+    # reduced variables, Ferry 1980 ch. 11); the bank interpolates a 0.2-decade table of
+    # it, within 2e-4 (common practice for that grid).
+    n = len(curves)
+    temps = np.broadcast_to(np.linspace(-60.0, 120.0, 10), (n, 10))
+    time = np.array([1.0, 10.0, 3.6e6])[None, None, :]
+    compliance, extrapolated = bank.compliance_rows(temps[:, :, None], time)
+    assert compliance.shape == extrapolated.shape == (n, 10, 3)
+    for k, curve in enumerate(curves.values()):
+        t = temps[k][:, None]
+        reduced = time[0] / 10.0 ** curve.log_shift(t)
+        scale = curve.relaxation_modulus(0.0, t) / curve.prony.relaxation(0.0)  # T/T0 or 1
+        expected = creep_compliance(curve.prony, reduced) / scale
+        np.testing.assert_allclose(compliance[k], expected, rtol=2e-4, err_msg=str(k))
+        # flagged where the reduced frequency 1/(2 pi t/aT) or T leaves the data, as for
+        # the moduli at that frequency
+        log_fr = -np.log10(2.0 * np.pi * reduced)
+        want = curve.extrapolated(t, log_fr)
+        np.testing.assert_array_equal(extrapolated[k], want, err_msg=str(k))
+
+
+def test_compliance_rows_with_a_precomputed_shift(bank):
+    temps = np.broadcast_to(np.array([0.0, 40.0]), (len(bank), 2))
+    plain = bank.compliance_rows(temps, 10.0)
+    shifted = bank.compliance_rows(temps, 10.0, shift=bank.shift_rows(temps))
+    for got, want in zip(shifted, plain, strict=True):
+        np.testing.assert_array_equal(got, want)
+    with pytest.raises(ValueError, match=r"one row per grade \(5\)"):
+        bank.compliance_rows(np.zeros((2, 3)), 10.0)
+
+
+def test_a_rebuilt_bank_reuses_the_tabulated_compliance(curves, bank, monkeypatch):
+    # The tables are made once per spectrum: rebuilding the bank from the same curves
+    # solves no spectrum again, and gives the same tables.
+    calls = []
+    real = bank_module.retardation_spectra
+    monkeypatch.setattr(bank_module, "retardation_spectra", lambda *a: calls.append(1) or real(*a))
+    again = CurveBank.from_curves(curves)
+    assert calls == []
+    np.testing.assert_array_equal(again.compliance.log_compliance, bank.compliance.log_compliance)
+    # a curve with a new spectrum is solved, alone
+    fresh = build_master_curve(synthetic.sweep(noise=0.01, seed=9), "tensile")
+    CurveBank.from_curves({"fresh": fresh, **curves})
+    assert calls == [1]
+
+
+def test_a_bank_without_spectra_reads_the_static_modulus():
+    # A hand-built bank (no spectra) takes J = 1/E'(1/(2 pi t)): for a grade whose modulus
+    # does not depend on frequency, exactly 1/E (Tschoegl 1989: no creep).
+    flat = flat_bank([2.0e6, 5.0e5], [0.1, 0.2], "tensile")
+    assert flat.compliance is None
+    compliance, extrapolated = flat.compliance_rows(np.full((2, 3), 23.0), 10.0)
+    np.testing.assert_allclose(compliance, [[5e-7] * 3, [2e-6] * 3], rtol=1e-12)
+    assert not extrapolated.any()

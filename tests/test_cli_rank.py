@@ -142,6 +142,79 @@ def test_mount_bad_layout_exits_2(cli, capsys):
     assert "invalid choice: 'torsion'" in err
 
 
+def _mount_args(mass=None, temps=None, json_out=True):
+    """MOUNT with another total mass, other temperatures, or as text."""
+    args = list(MOUNT)
+    if mass is not None:
+        args[args.index("--mass") + 1] = mass
+    if temps is not None:
+        at = args.index("--temp") + 1
+        args[at : at + 1] = temps
+    if not json_out:
+        args.remove("--json")
+    return args
+
+
+@pytest.fixture(scope="module")
+def mount_runs(cli):
+    """The README's mount in text at three temperatures, and an impossible load (1e9 kg)
+    in JSON and text, each run once."""
+    db = cli["db"]
+    return {
+        "text": invoke([*_mount_args(temps=["-20", "23", "45"], json_out=False), "--db", db]),
+        "heavy": invoke([*_mount_args(mass="1e9"), "--db", db]),
+        "heavy_text": invoke([*_mount_args(mass="1e9", json_out=False), "--db", db]),
+    }
+
+
+def test_mount_json_has_the_verdict_and_the_static_figures(cli):
+    # The verdict is a result (exit 0, the CLI contract); the dynamic-to-static ratio
+    # k'(fn)/k_static exceeds 1 for a rubber (common practice), and fn is sqrt(ratio)
+    # times the static-deflection estimate (1/2 pi) sqrt(g/delta) (common practice).
+    d = _ok_json(cli, "mount")
+    assert d["verdict"] in ("passes", "fails")
+    assert (d["verdict"] == "passes") == (d["verdict_reasons"] == [])
+    ratio = d["dynamic_to_static_ratio"]
+    assert ratio > 1.0
+    fn_static = math.sqrt(G0 / (d["static_deflection_mm"] * 1e-3)) / (2.0 * math.pi)
+    assert d["natural_frequency_Hz"] == pytest.approx(math.sqrt(ratio) * fn_static, rel=1e-6)
+    # 45 kg on 2000 mm2: 0.22 MPa against the 1 MPa limit (common practice)
+    assert d["static_stress_MPa"] == pytest.approx(45.0 * G0 / 2000e-6 * 1e-6, rel=1e-9)
+    assert d["stress_limit_MPa"] == 1.0
+    assert d["long_term_strain"] >= d["static_strain"] * (1 - 1e-9)
+
+
+def test_mount_text_starts_with_the_verdict_and_gives_the_key_figures(mount_runs):
+    run = mount_runs["text"]
+    assert run.returncode == 0, run.stderr
+    lines = run.stdout.splitlines()
+    assert re.fullmatch(r"BW-NR40: (passes|fails — .+)", lines[0]), lines[0]
+    for t in ("-20.0 °C", "23.0 °C", "45.0 °C"):
+        line = next(x for x in lines if x.strip().startswith(t))
+        for figure in (
+            "fn ",
+            "T = ",
+            "amplification at resonance",
+            "static strain",
+            "dynamic/static stiffness",
+        ):
+            assert figure in line, (figure, line)
+    assert any(x.strip().startswith("long-term sag ") for x in lines)
+
+
+def test_mount_with_an_impossible_load_fails_plainly(mount_runs):
+    # 1e9 kg on four pads: a failure with a reason a person can act on, exit 0 (a
+    # computed verdict), no natural frequency of "0.00 Hz".
+    heavy, text = mount_runs["heavy"], mount_runs["heavy_text"]
+    assert heavy.returncode == 0 and text.returncode == 0, heavy.stderr + text.stderr
+    data = heavy.json()
+    assert data["verdict"] == "fails"
+    assert data["verdict_reasons"][0].startswith("cannot carry the load: static strain ")
+    first = text.stdout.splitlines()[0]
+    assert first.startswith("BW-NR40: fails — cannot carry the load: static strain ")
+    assert "fn 0.00" not in text.stdout and "T = 0.000" not in text.stdout
+
+
 # ------------------------------------------------------------------ rank
 
 

@@ -15,11 +15,15 @@ from hypothesis import strategies as st
 from scipy.linalg import solve_triangular
 
 from engine.physics.creep import (
+    COMPLIANCE_STEP,
+    ComplianceTable,
     RetardationSpectrum,
     creep_compliance,
     dynamic_to_static_ratio,
+    retardation_spectra,
     retardation_spectrum,
     static_modulus_from_compliance,
+    tabulate_compliance,
 )
 from engine.physics.prony import PronySeries, fit_prony, tau_grid
 from tests import synthetic
@@ -327,8 +331,8 @@ def test_static_modulus_and_dynamic_to_static_ratio():
 
 
 def test_dynamic_stiffness_exceeds_static_for_a_relaxing_solid():
-    # A passive solid is stiffer at 1 Hz than after 10 s under load: E'(omega) >= E(t)
-    # >= 1/J(t) for omega t >= 1 (common practice; Tschoegl 1989 bounds).
+    # A relaxing solid is stiffer at 1 Hz than after 10 s under load, E'(omega) > 1/J(t)
+    # for omega t >> 1 (common practice).
     series = fitted_series()
     storage = series.storage(2.0 * np.pi * 1.0)
     ratio = dynamic_to_static_ratio(storage, creep_compliance(series, 10.0))
@@ -369,3 +373,154 @@ def test_spectrum_rejects_bad_values(kwargs, message):
     values = {"glassy_compliance": 1e-9, "times": [1.0], "weights": [1e-7], "fluidity": 0.0}
     with pytest.raises(ValueError, match=message):
         RetardationSpectrum(**(values | kwargs))
+
+
+# ------------------------------------------------- many series in one pass
+
+
+def _stack(series_list):
+    """Series of different lengths padded with zero-weight terms into (G, N) arrays."""
+    width = max(p.tau.size for p in series_list)
+    tau = np.ones((len(series_list), width))
+    weights = np.zeros((len(series_list), width))
+    for k, p in enumerate(series_list):
+        tau[k, : p.tau.size] = p.tau
+        weights[k, : p.tau.size] = p.weights
+    return tau, weights, np.array([p.equilibrium for p in series_list])
+
+
+def _mixed_series():
+    """Solids, a fluid, a spring, repeated and zero-weight terms, unsorted times."""
+    broad = broad_series(60)
+    return [
+        broad,
+        PronySeries(tau=broad.tau, weights=broad.weights, equilibrium=0.0),
+        fitted_series(),
+        PronySeries(tau=[0.3], weights=[4.0e8], equilibrium=1.5e6),
+        PronySeries(tau=[2.0], weights=[3.0e6], equilibrium=0.0),
+        PronySeries(tau=[1.0, 10.0], weights=[0.0, 0.0], equilibrium=4.0e6),
+        PronySeries(tau=[1.0, 1e-3, 1.0, 30.0], weights=[2e7, 2e8, 3e7, 0.0], equilibrium=1e6),
+        PronySeries(tau=[10.0, 1e-3], weights=[3.0e7, 5.0e8], equilibrium=2.0e6),
+    ]
+
+
+def test_stacked_spectra_equal_one_at_a_time():
+    # retardation_spectra solves all series together; each row must be the spectrum of
+    # retardation_spectrum (the same exact interconversion, Tschoegl 1989) to rounding.
+    series = _mixed_series()
+    stacked = retardation_spectra(*_stack(series))
+    assert len(stacked) == len(series)
+    time = np.concatenate([[0.0], np.logspace(-20.0, 20.0, 81)])
+    for k, p in enumerate(series):
+        one, row = retardation_spectrum(p), stacked.row(k)
+        assert row.times.size == one.times.size, k
+        np.testing.assert_allclose(row.times, one.times, rtol=1e-12, err_msg=str(k))
+        np.testing.assert_allclose(row.weights, one.weights, rtol=1e-10, atol=0, err_msg=str(k))
+        assert row.fluidity == pytest.approx(one.fluidity, rel=1e-14)
+        np.testing.assert_allclose(row.compliance(time), one.compliance(time), rtol=1e-12)
+    rows = np.broadcast_to(time, (len(series), time.size))
+    expected = [retardation_spectrum(p).compliance(time) for p in series]
+    np.testing.assert_allclose(stacked.compliance(rows), expected, rtol=1e-12)
+
+
+def test_stacked_standard_linear_solid_against_closed_form():
+    # J(t) = 1/E_inf - (1/E_inf - 1/E_0) exp(-t E_inf / (E_0 tau)) (Ferry 1980, ch. 3;
+    # Tschoegl 1989) for several solids at once.
+    e_inf = np.array([1.5e6, 3.0e5, 8.0e6])
+    e_1 = np.array([4.0e8, 2.0e9, 1.0e7])
+    tau = np.array([0.3, 1e-5, 40.0])
+    e_0 = e_inf + e_1
+    stacked = retardation_spectra(tau[:, None], e_1[:, None], e_inf)
+    time = np.logspace(-8.0, 6.0, 57)
+    closed = 1.0 / e_inf[:, None] - (1.0 / e_inf - 1.0 / e_0)[:, None] * np.exp(
+        -time * (e_inf / (e_0 * tau))[:, None]
+    )
+    np.testing.assert_allclose(
+        stacked.compliance(np.broadcast_to(time, closed.shape)), closed, rtol=1e-12
+    )
+    np.testing.assert_allclose(stacked.times[:, 0], tau * e_0 / e_inf, rtol=1e-12)
+
+
+@pytest.mark.parametrize("make", [broad_series, fitted_series])
+def test_tabulated_compliance_follows_the_series(make):
+    # The table holds exact node values and slopes (Tschoegl 1989 series) and interpolates
+    # log J by cubic Hermite between nodes 0.2 decade apart: within 2e-4 of the series
+    # (the interpolation error of that grid, common practice), and exact or within 5e-4 of
+    # the creep beyond the tabulated span (J_g + t J'(0) before, J_e + t/eta_0 after).
+    series = make()
+    table = tabulate_compliance(retardation_spectra(*_stack([series])))
+    assert table.step == COMPLIANCE_STEP == 0.2
+    log_time = np.linspace(-40.0, 40.0, 8001)
+    tabulated = 10.0 ** table.log_compliance_at(0, log_time)
+    exact = creep_compliance(series, 10.0**log_time)
+    assert np.max(np.abs(tabulated / exact - 1.0)) < 2e-4
+
+
+def test_tabulated_compliance_of_a_fluid_keeps_flowing():
+    # Maxwell fluid: J(t) = 1/E_1 + t/(E_1 tau) at every time (Ferry 1980, ch. 3), also
+    # far beyond the table; and a broad fluid beyond its longest retardation time. Within
+    # the 2e-4 of the table's interpolation (common practice, as above).
+    broad = broad_series(40)
+    fluid = PronySeries(tau=broad.tau, weights=broad.weights, equilibrium=0.0)
+    maxwell = PronySeries(tau=[2.0], weights=[3.0e6], equilibrium=0.0)
+    table = tabulate_compliance(retardation_spectra(*_stack([maxwell, fluid])))
+    log_time = np.linspace(-20.0, 30.0, 501)
+    time = 10.0**log_time
+    np.testing.assert_allclose(
+        10.0 ** table.log_compliance_at(0, log_time), 1.0 / 3.0e6 + time / 6.0e6, rtol=2e-4
+    )
+    far = np.array([-20.0, 25.0])  # outside the table: the closed forms, exact
+    np.testing.assert_allclose(
+        10.0 ** table.log_compliance_at(0, far), 1.0 / 3.0e6 + 10.0**far / 6.0e6, rtol=1e-12
+    )
+    np.testing.assert_allclose(
+        10.0 ** table.log_compliance_at(1, log_time), creep_compliance(fluid, time), rtol=2e-4
+    )
+
+
+def test_compliance_table_rows_round_trip():
+    # Rows taken out (for a cache) and stacked again give the same table values.
+    series = _mixed_series()
+    table = tabulate_compliance(retardation_spectra(*_stack(series)))
+    again = ComplianceTable.from_rows([table.row(k) for k in range(len(table))])
+    rows = np.arange(len(series))[:, None]
+    log_time = np.linspace(-25.0, 25.0, 101)[None, :]
+    np.testing.assert_array_equal(
+        again.log_compliance_at(rows, log_time), table.log_compliance_at(rows, log_time)
+    )
+    reversed_rows = ComplianceTable.from_rows([table.row(k) for k in reversed(range(len(table)))])
+    np.testing.assert_array_equal(
+        reversed_rows.log_compliance_at(rows[::-1], log_time),
+        table.log_compliance_at(rows, log_time),
+    )
+
+
+def test_stacked_errors_name_the_problem():
+    tau, weights, equilibrium = _stack([broad_series(5), broad_series(5)])
+    with pytest.raises(ValueError, match=r"must hold one row \(and one equilibrium modulus\)"):
+        retardation_spectra(tau, weights[:, :3], equilibrium)
+    with pytest.raises(ValueError, match=r"relaxation times tau must be finite and positive"):
+        retardation_spectra(-tau, weights, equilibrium)
+    with pytest.raises(ValueError, match=r"weights must be finite and non-negative"):
+        retardation_spectra(tau, -weights, equilibrium)
+    with pytest.raises(ValueError, match=r"equilibrium moduli must be finite and non-negative"):
+        retardation_spectra(tau, weights, -equilibrium)
+    with pytest.raises(ValueError, match=r"series 1 has no stiffness"):
+        retardation_spectra(tau, weights * [[1.0], [0.0]], equilibrium * [1.0, 0.0])
+    stacked = retardation_spectra(tau, weights, equilibrium)
+    with pytest.raises(ValueError, match=r"time must have one row per series \(2\)"):
+        stacked.compliance(np.ones((3, 4)))
+    with pytest.raises(ValueError, match=r"time must be zero or positive"):
+        stacked.compliance(-np.ones((2, 1)))
+    with pytest.raises(ValueError, match=r"step and margin must be positive"):
+        tabulate_compliance(stacked, step=0.0)
+
+
+def test_tabulated_compliance_takes_scalars():
+    # common practice: a scalar time gives a scalar, on the table and beyond both ends
+    series = PronySeries(tau=[0.3], weights=[4.0e8], equilibrium=1.5e6)
+    table = tabulate_compliance(retardation_spectra(*_stack([series])))
+    for log_time in (-40.0, 0.0, 40.0):
+        value = table.log_compliance_at(0, log_time)
+        assert np.ndim(value) == 0
+        assert 10.0**value == pytest.approx(creep_compliance(series, 10.0**log_time), rel=2e-4)

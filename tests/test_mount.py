@@ -624,3 +624,90 @@ def test_reduced_root_outside_the_bracket_is_not_converged():
 def test_reduced_root_bad_arguments(kwargs, message):
     with pytest.raises(ValueError, match=message):
         mount.natural_frequency_reduced(power_law_master(1e6, 1.0, 0.0), 0.0, 0.0, **kwargs)
+
+
+# ------------------------------------------------- bulk-limited pads in the solvers
+
+
+def test_reduced_root_with_bulk_softening_constant_modulus_closed_form():
+    # Constant E': k' = K E / (1 + s E), the series spring of Gent & Lindley (1959), so
+    # fn = (1/2 pi) sqrt(k'/m) in closed form (Snowdon 1968).
+    e, k_geo, mass = 4.0e6, 0.05, 20.0
+    softening = np.array([0.0, 1e-9, 2.5e-7, 1e-6])  # s = c / K_bulk [1/Pa]
+    result = mount.natural_frequency_reduced(
+        power_law_master(e, 1.0, 0.0), 0.0, np.log10(k_geo), mass, bulk_softening=softening
+    )
+    expected = np.sqrt(k_geo * e / (1.0 + softening * e) / mass) / (2.0 * np.pi)
+    assert result.converged.all()
+    np.testing.assert_allclose(result.frequency, expected, rtol=1e-10)
+
+
+def test_reduced_root_with_bulk_softening_agrees_with_the_real_frequency_root():
+    # A master curve with a transition: the bulk-softened stiffness solved in reduced
+    # frequency equals the root of natural_frequency on k'(f) = K E'/(1 + s E') directly.
+    def master(x):
+        r = (10.0**x / 1e3) ** 0.6
+        return 1e6 + 1e8 * r / (1.0 + r)
+
+    log_at = np.linspace(-6.0, 4.0, 11)
+    mass, k_geo, soft = 25.0, 10.0**-1.5, 2.0e-8
+
+    def stiffness(f):
+        e = master(np.log10(f) + log_at)
+        return k_geo * e / (1.0 + soft * e)
+
+    reduced = mount.natural_frequency_reduced(
+        lambda x, index: np.log10(master(x)), log_at, np.log10(k_geo), mass, bulk_softening=soft
+    )
+    real = mount.natural_frequency(stiffness, np.full(11, mass))
+    assert reduced.converged.all() and real.converged.all()
+    np.testing.assert_allclose(reduced.frequency, real.frequency, rtol=1e-8)
+
+
+def test_reduced_root_rejects_negative_softening():
+    with pytest.raises(ValueError, match=r"bulk_softening must be zero or positive \[1/Pa\]"):
+        mount.natural_frequency_reduced(
+            power_law_master(1e6, 1.0, 0.0), 0.0, 0.0, 1.0, bulk_softening=-1e-9
+        )
+
+
+@pytest.mark.parametrize("shape", ["disc", "square"])
+@pytest.mark.parametrize("bulk", [2.0e9, 5.0e7, 1.0e6])
+def test_size_compression_pad_area_with_bulk_modulus_matches_brentq(shape, bulk):
+    # Gent & Lindley 1959: k = (A/h) Ec,eff, 1/Ec,eff = 1/Ec + 1/K, Ec = E (1 + 2 k S(A)^2),
+    # solved for A by scipy.optimize.brentq as the reference. K = 1 MPa (a foam with
+    # nu near 0, K = E/3) takes the other branch of the quadratic (q h alpha / K > 2).
+    target, mass, thickness, e, k = 14.0, 40.0, 0.012, 3.0e6, 0.7
+
+    def pad_stiffness(area):
+        if shape == "disc":
+            s = mount.shape_factor_disc(np.sqrt(4.0 * area / np.pi), thickness)
+        else:
+            side = np.sqrt(area)
+            s = mount.shape_factor_block(side, side, thickness)
+        ec = mount.compression_modulus(e, s, k)
+        return mount.compression_pad_stiffness(ec, area, thickness, bulk_modulus=bulk)
+
+    wanted = mass * (2.0 * np.pi * target) ** 2
+    reference = brentq(lambda a: pad_stiffness(a) - wanted, 1e-8, 10.0, xtol=1e-16, rtol=1e-14)
+    area = mount.size_compression_pad_area(
+        target, mass, thickness, e, k, shape=shape, bulk_modulus=bulk
+    )
+    assert area == pytest.approx(reference, rel=1e-9)
+    incompressible = mount.size_compression_pad_area(target, mass, thickness, e, k, shape=shape)
+    assert area > incompressible  # a softer pad needs more area for the same fn
+
+
+def test_size_compression_pad_area_with_infinite_bulk_modulus_is_incompressible():
+    # K = inf is the incompressible block of Gent & Lindley (1959): the same area.
+    target = np.array([5.0, 10.0, 20.0])
+    with_inf = mount.size_compression_pad_area(target, 10.0, 0.01, 2.0e6, 0.7, bulk_modulus=np.inf)
+    plain = mount.size_compression_pad_area(target, 10.0, 0.01, 2.0e6, 0.7)
+    np.testing.assert_allclose(with_inf, plain, rtol=1e-12)
+    with pytest.raises(ValueError, match=r"bulk_modulus must be positive \[Pa\]"):
+        mount.size_compression_pad_area(10.0, 10.0, 0.01, 2.0e6, 0.7, bulk_modulus=0.0)
+
+
+def test_compressive_stress_limit_is_the_documented_value():
+    # Common practice: static compressive stress of a bonded pad <= about 1 MPa.
+    assert mount.STATIC_COMPRESSIVE_STRESS_LIMIT == 1.0e6

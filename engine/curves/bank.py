@@ -5,12 +5,21 @@ Each grade's master curve is tabulated on a uniform log10 reduced-frequency grid
 arrays, so that E' and E'' of all grades at all window points come from array
 arithmetic: shift law -> reduced frequency -> linear interpolation in log-log.
 
+Each grade's creep compliance J(t), which static deflection and sag read, comes from its
+relaxation spectrum exactly (:func:`engine.physics.creep.retardation_spectra`) and is
+tabulated on a log10 reduced-time grid (:class:`engine.physics.creep.ComplianceTable`):
+all grades new to the process in one vectorised pass when the bank is built, each grade's
+table kept for as long as its spectrum lives, so a bank rebuilt from the same curves
+reuses them.
+
 Large evaluations are cut into blocks of grades shared among threads
 (:mod:`engine.base.blocks`).
 """
 
 from __future__ import annotations
 
+import threading
+import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -19,6 +28,8 @@ import numpy as np
 from engine.base.blocks import collector_paused, in_blocks, per_block
 from engine.base.units import c_to_k
 from engine.curves.mastercurve import TABLE_STEP, TOLERANCE_C, MasterCurve, hold_log_shift
+from engine.physics.creep import ComplianceTable, retardation_spectra, tabulate_compliance
+from engine.physics.prony import PronySeries
 from engine.physics.shift import GAS_CONSTANT, LN10
 
 _KIND = {"none": 0, "WLF": 1, "Arrhenius": 2, "WLF+Arrhenius": 3}
@@ -33,6 +44,53 @@ def _padded(rows: Sequence[np.ndarray], width: int) -> np.ndarray:
         out[k, : r.size] = r
         out[k, r.size :] = r[-1]
     return out
+
+
+# Tabulated creep compliance of each spectrum seen in this process (a row of a
+# ComplianceTable), kept while the spectrum itself is alive; and the last few stacked
+# tables with the spectra they were stacked from, for a bank rebuilt from the same curves.
+_COMPLIANCE_ROWS: weakref.WeakKeyDictionary[PronySeries, tuple] = weakref.WeakKeyDictionary()
+_STACKED: list[tuple[list[weakref.ref], ComplianceTable]] = []
+_STACKED_KEPT = 4
+_COMPLIANCE_LOCK = threading.Lock()
+
+
+def compliance_table(series: Sequence[PronySeries]) -> ComplianceTable:
+    """Tabulated creep compliance of each relaxation series (rows in the given order).
+
+    Series met before in the process reuse their rows; the others are solved together
+    (:func:`engine.physics.creep.retardation_spectra`, then
+    :func:`engine.physics.creep.tabulate_compliance`). The same series in the same
+    order as one of the last few calls get that call's table itself.
+    """
+    with _COMPLIANCE_LOCK:
+        for refs, stacked in _STACKED:
+            same = len(refs) == len(series)
+            if same and all(r() is p for r, p in zip(refs, series, strict=True)):
+                return stacked
+        cached = [_COMPLIANCE_ROWS.get(p) for p in series]
+    missing = [k for k, r in enumerate(cached) if r is None]
+    made: dict[int, tuple] = {}
+    if missing:
+        new = list({id(series[k]): series[k] for k in missing}.values())
+        width = max(p.tau.size for p in new)
+        tau = np.ones((len(new), width))
+        weights = np.zeros((len(new), width))
+        for k, p in enumerate(new):
+            tau[k, : p.tau.size] = p.tau
+            weights[k, : p.tau.size] = p.weights
+        equilibrium = np.array([p.equilibrium for p in new])
+        table = tabulate_compliance(retardation_spectra(tau, weights, equilibrium))
+        made = {id(p): table.row(k) for k, p in enumerate(new)}
+        with _COMPLIANCE_LOCK:
+            for p in new:
+                _COMPLIANCE_ROWS[p] = made[id(p)]
+    rows = [r if r is not None else made[id(p)] for p, r in zip(series, cached, strict=True)]
+    table = ComplianceTable.from_rows(rows)
+    with _COMPLIANCE_LOCK:
+        _STACKED.insert(0, ([weakref.ref(p) for p in series], table))
+        del _STACKED[_STACKED_KEPT:]
+    return table
 
 
 def _gap_array(gap_lists) -> np.ndarray | None:
@@ -72,6 +130,7 @@ class CurveBank:
     gaps: np.ndarray | None = None  # (grades, k, 2) uncovered log10 fR intervals, NaN padded
     correction: np.ndarray | None = None  # (grades, 1 K nodes): measured minus law log aT
     n_correction: np.ndarray | None = None
+    compliance: ComplianceTable | None = None  # creep compliance on log10 reduced time
 
     @classmethod
     def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
@@ -130,6 +189,7 @@ class CurveBank:
             t_hi=col[13],
         )
         bank.correction, bank.n_correction = bank._corrections(temps, measured)
+        bank.compliance = compliance_table([curves[i].prony for i in ids]) if n else None
         return bank
 
     def _corrections(self, temps, measured):
@@ -307,24 +367,63 @@ class CurveBank:
         flat, w = self._nodes(np.asarray(g), np.asarray(log_reduced_frequency, dtype=float))
         return self._interpolate(self.log_storage.ravel(), flat, w)
 
-    def _evaluate_into(self, g, t, f, shift, out_storage, out_loss, out_extrap) -> None:
-        log_fr = np.log10(f) + shift
-        if log_fr.shape != out_storage.shape:
-            log_fr = np.broadcast_to(log_fr, out_storage.shape).copy()
-        # Extrapolated: outside the covered reduced frequencies, in a gap, or outside
-        # the measured temperatures (a single isotherm: away from its temperature).
-        np.less(log_fr, self.fr_lo[g] - 1e-9, out=out_extrap)
-        out_extrap |= log_fr > self.fr_hi[g] + 1e-9
+    def compliance_rows(self, temperature, time, shift=None):
+        """Creep compliance J [1/Pa] in each grade's own mode and the extrapolated flag,
+        a time ``time`` [s] after a step load at ``temperature`` [degC]; row k of the
+        inputs belongs to grade k (they broadcast to shape (grades, ...)).
+
+        ``shift`` may hold :meth:`shift_rows` of ``temperature``. J at T is
+        J_ref(t / aT) / (T / T0 with a vertical shift), as the modulus scales by T / T0
+        (Ferry 1980, ch. 11). Flagged as extrapolated where 1 / (2 pi t / aT), the
+        reduced frequency the creep up to t is governed by, or T leaves the data, as in
+        :meth:`evaluate`. A bank built without spectra (by hand) reads J as
+        1 / E'(f = 1 / (2 pi t)), which is exact for a grade whose modulus does not
+        depend on frequency.
+        """
+        t = np.asarray(temperature, dtype=float)
+        time = np.asarray(time, dtype=float)
+        if t.shape[:1] != (len(self),) and time.shape[:1] != (len(self),):
+            raise ValueError(f"first axis must have one row per grade ({len(self)})")
+        nd = max(t.ndim, time.ndim)
+        t = t.reshape(t.shape + (1,) * (nd - t.ndim))
+        time = time.reshape(time.shape + (1,) * (nd - time.ndim))
+        if self.compliance is None:
+            storage, _, extrap = self.evaluate_rows(
+                t, 1.0 / (2.0 * np.pi * time), loss=False, shift=shift
+            )
+            return 1.0 / storage, extrap
+        shape = (len(self),) + np.broadcast_shapes(t.shape[1:], time.shape[1:])
+        g = np.arange(len(self)).reshape((-1,) + (1,) * (len(shape) - 1))
+        log_shift = self.shift_at(g, t) if shift is None else np.asarray(shift)
+        log_time = np.broadcast_to(np.log10(time) - log_shift, shape)
+        compliance = 10.0 ** self.compliance.log_compliance_at(g, log_time)
+        if self.vertical.any():
+            compliance /= self.vertical_factor(g, t)
+        extrap = np.empty(shape, dtype=bool)
+        self._flag_extrapolated(g, t, -np.log10(2.0 * np.pi) - log_time, extrap)
+        return compliance, extrap
+
+    def _flag_extrapolated(self, g, t, log_fr, out) -> None:
+        """Extrapolated: outside the covered reduced frequencies, in a gap, or outside
+        the measured temperatures (a single isotherm: away from its temperature)."""
+        np.less(log_fr, self.fr_lo[g] - 1e-9, out=out)
+        out |= log_fr > self.fr_hi[g] + 1e-9
         if self.gaps is not None:
             for j in range(self.gaps.shape[1]):
                 g_lo, g_hi = self.gaps[g, j, 0], self.gaps[g, j, 1]
                 if not np.isnan(g_lo).all():
-                    out_extrap |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN pads compare False
-        out_extrap |= np.where(
+                    out |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN pads compare False
+        out |= np.where(
             self.kind[g] == 0,
             np.abs(t - self.reference[g]) > TOLERANCE_C,
             (t < self.t_lo[g] - TOLERANCE_C) | (t > self.t_hi[g] + TOLERANCE_C),
         )
+
+    def _evaluate_into(self, g, t, f, shift, out_storage, out_loss, out_extrap) -> None:
+        log_fr = np.log10(f) + shift
+        if log_fr.shape != out_storage.shape:
+            log_fr = np.broadcast_to(log_fr, out_storage.shape).copy()
+        self._flag_extrapolated(g, t, log_fr, out_extrap)
         flat, w = self._nodes(g, log_fr)
         for table, out in ((self.log_storage, out_storage), (self.log_loss, out_loss)):
             if out is not None:

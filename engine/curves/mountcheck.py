@@ -2,13 +2,16 @@
 
 Composes the pad mechanics of :mod:`engine.physics.mount` with the stacked master curves of
 :mod:`engine.curves.bank`: N identical pads share the supported mass; each pad is a shear pad
-(k' = G'A/h) or a compression pad (k' = Ec A/h, Ec = E'(1 + 2kS^2)); stiffness and loss
-factor follow the master curve in frequency and temperature.
+(k' = G'A/h) or a compression pad (k' = Ec,eff A/h, Ec = E'(1 + 2kS^2) in series with the
+bulk modulus); stiffness and loss factor follow the master curve in frequency and
+temperature, static deflection and sag the creep compliance. Each grade gets a verdict
+against the limits of :func:`check_mounts`.
 """
 
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -24,6 +27,11 @@ STATIC_LOAD_TIME_S = 10.0  # time over which the static load is applied (common 
 DEFAULT_SERVICE_LIFE_H = 1000.0
 DEFAULT_SIZING_TEMP_C = 23.0  # laboratory standard atmosphere, ISO 23529
 SLENDER_SHAPE_FACTOR = 0.5  # below this a compression pad may buckle (common practice)
+THICK_SHEAR_PAD = 0.25  # rubber thickness over pad width beyond which shear pads bend
+MAX_STATIC_STRAIN = 1.0  # a static strain beyond this: the pad cannot carry the load
+MIN_FN_HZ = 0.1  # a natural frequency below this is no mount (static deflection ~25 m)
+MIN_PAD_AREA_MM2 = 10.0  # a sized pad smaller than this: too stiff for the load and size
+MIN_SIZED_AREA_FRACTION = 0.01  # ... or smaller than this share of the given area
 FALLBACK_K_FACTOR = 0.73  # Gent & Lindley table at 50 Shore A, used when hardness is unknown
 
 
@@ -149,7 +157,11 @@ class MountDesign:
 
 @dataclass
 class MountResult:
-    """Per grade (rows) and window temperature (columns) unless said otherwise. SI units."""
+    """Per grade (rows) and window temperature (columns) unless said otherwise. SI units.
+
+    The verdict of each grade (:attr:`verdict`, :meth:`reasons`) is worked out from these
+    figures when first asked for, against the limits named in :func:`check_mounts`.
+    """
 
     ids: list[str]
     temperatures: np.ndarray  # [degC]
@@ -163,18 +175,146 @@ class MountResult:
     amplification: np.ndarray  # transmissibility at fn
     loss_factor_at_resonance: np.ndarray
     isolation_onset: np.ndarray  # [Hz], sqrt(2) fn (hysteretic theory)
-    static_deflection: np.ndarray  # [m]
+    static_deflection: np.ndarray  # [m], after STATIC_LOAD_TIME_S under the load
     static_strain: np.ndarray  # [-]
     sag: np.ndarray  # (grades,) [m] deflection after the service life at the hottest T
     sag_strain: np.ndarray  # (grades,)
     strain_limit: float
     extrapolated: np.ndarray  # any property used at this temperature was extrapolated
     notes: dict  # grade id -> list of notes
+    dynamic_to_static_ratio: np.ndarray | None = None  # k'(fn) over the static stiffness
+    static_stress: np.ndarray | None = None  # (grades,) [Pa] supported weight / loaded area
+    stress_limit: float | None = None  # [Pa] compressive stress limit (compression pads)
+    bulk_modulus: np.ndarray | None = None  # (grades,) [Pa]; NaN from nu or in shear
+    bulk_source: np.ndarray | None = None  # (grades,) mount.BULK_* tag, "" in shear
+    design: MountDesign | None = None
+
+    @cached_property
+    def _failing(self) -> dict[str, np.ndarray]:
+        """Per check (in the order reasons are given), the grades that fail it."""
+        n = len(self.ids)
+        no = np.zeros(n, dtype=bool)
+        design = self.design
+        compression = design is not None and design.layout == "compression"
+        with np.errstate(invalid="ignore"):
+            too_stiff = no
+            if design is not None and design.target_fn_Hz is not None:
+                area_mm2 = self.area * 1e6
+                too_stiff = (area_mm2 < MIN_PAD_AREA_MM2) | (
+                    area_mm2 < MIN_SIZED_AREA_FRACTION * design.area_mm2
+                )
+            # An absurd sized pad fails for that alone: its strains and stresses follow.
+            static = np.fmax.reduce(self.static_strain, axis=1, initial=-np.inf)
+            worst = np.fmax(static, self.sag_strain)
+            cannot = ~too_stiff & ~(worst <= MAX_STATIC_STRAIN)  # NaN: no stiffness
+            carried = ~too_stiff & ~cannot
+            fn_low = np.fmin.reduce(self.natural_frequency, axis=1, initial=np.inf)
+            trans = np.where(self.converged[:, :, None], self.transmissibility, np.nan)
+            t_high = np.fmax.reduce(trans.reshape(n, -1), axis=1, initial=-np.inf)
+            stress = no
+            if compression and self.static_stress is not None and self.stress_limit is not None:
+                stress = carried & (self.static_stress > self.stress_limit)
+            buckling = no
+            if compression:
+                buckling = ~too_stiff & (self.shape_factor < SLENDER_SHAPE_FACTOR)
+            return {
+                "too_stiff": too_stiff,
+                "cannot_carry": cannot,
+                "no_fn": carried & ~self.converged.all(axis=1),
+                "too_soft": carried & (fn_low < MIN_FN_HZ),
+                "strain": carried & (worst > self.strain_limit),
+                "stress": stress,
+                "buckling": buckling,
+                "isolation": carried & (t_high >= 1.0),
+            }
+
+    @property
+    def passes(self) -> np.ndarray:
+        """True for each grade that meets every limit of the verdict."""
+        failing = np.zeros(len(self.ids), dtype=bool)
+        for mask in self._failing.values():
+            failing |= mask
+        return ~failing
+
+    @property
+    def verdict(self) -> list[str]:
+        """ "passes" or "fails", per grade."""
+        return ["passes" if ok else "fails" for ok in self.passes]
+
+    @property
+    def verdict_reasons(self) -> list[list[str]]:
+        """The plain reasons of each grade's verdict (empty lists for the grades that pass)."""
+        return [self.reasons(k) for k in range(len(self.ids))]
+
+    def reasons(self, k: int) -> list[str]:
+        """Why grade k fails, in plain words, one reason per limit it breaks."""
+        fails = [name for name, mask in self._failing.items() if mask[k]]
+        return [self._reason(name, k) for name in fails]
+
+    def _reason(self, name: str, k: int) -> str:
+        temps = self.temperatures
+        limit = self.strain_limit
+        shear = self.design is not None and self.design.layout == "shear"
+        strain_word = "static shear strain" if shear else "static strain"
+        static = self.static_strain[k]
+        j = int(np.nanargmax(static)) if np.isfinite(static).any() else 0
+        life = DEFAULT_SERVICE_LIFE_H if self.design is None else self.design.service_life_h
+        if name == "too_stiff":
+            return (
+                f"too stiff for this load and size: the pad would be {self.area[k] * 1e6:.2g} mm2"
+            )
+        if name in ("cannot_carry", "strain"):
+            prefix = "cannot carry the load: " if name == "cannot_carry" else ""
+            suffix = "" if name == "cannot_carry" else f" above the {limit:g} limit"
+            bound = MAX_STATIC_STRAIN if name == "cannot_carry" else limit
+            if not static[j] <= bound:  # the strain under the load itself (NaN included)
+                return f"{prefix}{strain_word} {static[j]:.3g} at {temps[j]:g} °C{suffix}"
+            return (
+                f"{prefix}long-term sag strain {self.sag_strain[k]:.3g} after {life:g} h at "
+                f"{temps.max():g} °C{suffix}"
+            )
+        if name == "no_fn":
+            missing = ", ".join(f"{t:g}" for t in temps[~self.converged[k]])
+            return f"no natural frequency between 1 mHz and 100 kHz at {missing} °C"
+        if name == "too_soft":
+            i = int(np.nanargmin(self.natural_frequency[k]))
+            return (
+                f"too soft for this load: fn {self.natural_frequency[k, i]:.2g} Hz at "
+                f"{temps[i]:g} °C, below {MIN_FN_HZ:g} Hz"
+            )
+        if name == "stress":
+            assert self.static_stress is not None and self.stress_limit is not None
+            return (
+                f"compressive stress {self.static_stress[k] / 1e6:.2g} MPa above the "
+                f"{self.stress_limit / 1e6:g} MPa limit"
+            )
+        if name == "buckling":
+            return (
+                f"pad would buckle: shape factor {self.shape_factor[k]:.2f} below "
+                f"{SLENDER_SHAPE_FACTOR:g} (rubber thicker than half the pad's width)"
+            )
+        trans = np.where(self.converged[k][:, None], self.transmissibility[k], np.nan)
+        at_t, at_f = (int(v) for v in np.unravel_index(int(np.nanargmax(trans)), trans.shape))
+        return (
+            f"does not isolate: T = {trans[at_t, at_f]:.2f} at {self.disturbance[at_f]:g} Hz, "
+            f"{temps[at_t]:g} °C"
+        )
 
     def grade(self, k: int) -> dict:
-        """JSON-ready figures of grade k (mm, Hz)."""
+        """JSON-ready figures of grade k (mm, Hz, MPa)."""
+
+        def listed(values):
+            return None if values is None else values[k].tolist()
+
+        def one(values, scale=1.0):
+            value = None if values is None else float(values[k] * scale)
+            return value if value is not None and np.isfinite(value) else None
+
+        ok = bool(self.passes[k])
         return {
             "id": self.ids[k],
+            "verdict": "passes" if ok else "fails",
+            "verdict_reasons": [] if ok else self.reasons(k),
             "area_mm2": float(self.area[k] * 1e6),
             "shape_factor": float(self.shape_factor[k]),
             "k_factor": float(self.k_factor[k]),
@@ -186,9 +326,16 @@ class MountResult:
             "isolation_onset_Hz": self.isolation_onset[k].tolist(),
             "static_deflection_mm": (self.static_deflection[k] * 1e3).tolist(),
             "static_strain": self.static_strain[k].tolist(),
+            "dynamic_to_static_ratio": listed(self.dynamic_to_static_ratio),
             "sag_mm": float(self.sag[k] * 1e3),
             "sag_strain": float(self.sag_strain[k]),
             "strain_limit": self.strain_limit,
+            "static_stress_MPa": one(self.static_stress, 1e-6),
+            "stress_limit_MPa": None if self.stress_limit is None else self.stress_limit * 1e-6,
+            "bulk_modulus_MPa": one(self.bulk_modulus, 1e-6),
+            "bulk_modulus_source": None
+            if self.bulk_source is None
+            else str(self.bulk_source[k]) or None,
             "extrapolated": self.extrapolated[k].tolist(),
             "notes": self.notes.get(self.ids[k], []),
         }
@@ -214,23 +361,96 @@ def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes:
     return out
 
 
+def _bulk(bulk_modulus, poisson, per_own, ids, notes):
+    """Bulk modulus of each grade for a compression pad and its note.
+
+    Returns (K [Pa] or, for a grade whose K comes from its Poisson's ratio, K per unit of
+    its own modulus (K = E / (3 (1 - 2 nu)) scales with E), the source tags)."""
+    found = mount.bulk_modulus_for_grade(bulk_modulus, poisson, per_own)
+    default_mpa = mount.DEFAULT_BULK_MODULUS_PA * 1e-6
+    assumed = f"bulk modulus not in the catalog: K = {default_mpa:g} MPa assumed (common practice)"
+    for k in np.flatnonzero(found.source == mount.BULK_DEFAULT):
+        notes.setdefault(ids[k], []).append(assumed)
+    from_nu = np.flatnonzero(found.source == mount.BULK_FROM_POISSON)
+    texts: dict[float, str] = {}  # one text per catalog nu (a library holds few values)
+    for k, nu in zip(from_nu, poisson[from_nu].tolist(), strict=True):
+        if nu not in texts:
+            ratio = 1.0 / (3.0 * (1.0 - 2.0 * nu))
+            texts[nu] = (
+                f"bulk modulus from Poisson's ratio {nu:g}: K = E/(3(1 - 2ν)) = {ratio:.3g} E"
+            )
+        notes.setdefault(ids[k], []).append(texts[nu])
+    return found.value, found.source
+
+
 def check_mounts(
     bank: CurveBank,
     design: MountDesign,
     temperatures: np.ndarray,
     poisson: np.ndarray,
     hardness: np.ndarray,
+    bulk_modulus: np.ndarray | None = None,
 ) -> MountResult:
     """Mount check of every grade in ``bank`` at ``temperatures`` [degC].
 
+    Parameters
+    ----------
+    bank : CurveBank
+        The grades' master curves.
+    design : MountDesign
+        Pads, load and disturbance.
+    temperatures : array [degC]
+        Window temperatures.
+    poisson, hardness : array, one entry per grade
+        Catalog Poisson's ratio [-] and Shore A hardness; NaN where blank.
+    bulk_modulus : array [MPa], one entry per grade, optional
+        Catalog bulk modulus; NaN where blank. Omitted: blank for every grade.
+
+    Returns
+    -------
+    MountResult
+        Figures per grade and temperature, notes, and the verdict of each grade.
+
     Notes
     -----
-    Natural frequency: the root of fn = (1/2 pi) sqrt(k'(fn)/m) by
-    scipy.optimize.elementwise.find_root (via :func:`engine.physics.mount.natural_frequency`).
+    Pad stiffness: a shear pad k' = G' A / h; a compression pad k' = Ec,eff A / h with
+    Ec = E' (1 + 2 k S^2) (Gent & Lindley 1959) in series with the bulk modulus K,
+    1 / Ec,eff = 1 / Ec + 1 / K (Gent 2012). K is the catalog value, else
+    E / (3 (1 - 2 nu)) from a catalog nu < 0.5, else 2000 MPa (common practice), each
+    with a note; shape factors above 10 carry a note, the stiffness then leaning on K.
+    Natural frequency: the root of fn = (1/2 pi) sqrt(k'(fn)/m), solved in reduced
+    frequency (:func:`engine.physics.mount.natural_frequency_reduced`).
     Transmissibility: T = |k*| / |k* - m (2 pi f)^2|, k* = k'(f)(1 + i eta(f)).
-    Static and long-term deflection use the relaxation modulus approximated by the
-    storage modulus at omega = 1/t (Schwarzl & Staverman; Ferry 1980, ch. 4) at
-    t = 10 s and at the service life, the latter at the hottest window temperature.
+    Static deflection: delta = m g / k_s with k_s the pad stiffness at the static
+    modulus 1 / J(t), J the creep compliance of the grade's relaxation spectrum (exact
+    interconversion, Ferry 1980, ch. 3; Tschoegl 1989) at the reduced time t / aT,
+    t = STATIC_LOAD_TIME_S (10 s) at each window temperature; the sag: the same after
+    the service life at the hottest window temperature. The dynamic-to-static ratio is
+    k'(fn) / k_s at each temperature (NaN where no fn was found).
+
+    Verdict: a grade fails, with one plain reason each, when
+    sizing gives a pad below `MIN_PAD_AREA_MM2` (10 mm2) or below
+    `MIN_SIZED_AREA_FRACTION` (1 %) of the given area ("too stiff for this load and
+    size"); the static or sag strain exceeds `MAX_STATIC_STRAIN` (1: "cannot carry the
+    load"), else exceeds the layout's limit (compression 0.15, shear 0.5; common
+    practice); no natural frequency is found, or one lies below `MIN_FN_HZ` (0.1 Hz);
+    the compressive stress m g / A exceeds
+    :data:`engine.physics.mount.STATIC_COMPRESSIVE_STRESS_LIMIT` (1 MPa, common
+    practice); a compression pad's shape factor is below `SLENDER_SHAPE_FACTOR` (0.5:
+    thicker than half its width, it would buckle; common practice); or the
+    transmissibility reaches 1 at some window temperature and disturbance (the pad
+    does not isolate; Snowdon 1968). A pad too stiff for its size gets that reason
+    alone, and one that cannot carry the load no other but buckling: the rest follows
+    from them.
+
+    References
+    ----------
+    Gent, A. N. and Lindley, P. B. (1959). Proc. Inst. Mech. Eng. 173, 111-122.
+    Gent, A. N. (ed.) (2012). Engineering with Rubber, 3rd ed. Hanser.
+    Ferry, J. D. (1980). Viscoelastic Properties of Polymers, 3rd ed. Wiley.
+    Tschoegl, N. W. (1989). The Phenomenological Theory of Linear Viscoelastic
+    Behavior. Springer.
+    Snowdon, J. C. (1968). Vibration and Shock in Damped Mechanical Systems. Wiley.
     """
     ids = list(bank.ids)
     n = len(ids)
@@ -238,19 +458,25 @@ def check_mounts(
     notes: dict[str, list[str]] = {}
     nu = poisson_or_default(poisson)
     own_is_shear = bank.modes == "shear"
-    if design.layout == "shear":
-        to_layout = np.where(own_is_shear, 1.0, 1.0 / (2.0 * (1.0 + nu)))
-    else:
+    compression = design.layout == "compression"
+    if compression:
         to_layout = np.where(own_is_shear, 2.0 * (1.0 + nu), 1.0)
+    else:
+        to_layout = np.where(own_is_shear, 1.0, 1.0 / (2.0 * (1.0 + nu)))
     h = design.thickness_mm * 1e-3
     m = design.mass_per_pad
-    if design.layout == "shear":
-        k_fac = np.full(n, np.nan)  # a shear pad needs no compression modulus
-    else:
+    if compression:
         k_fac = _k_factors(hardness, design.k_factor, ids, notes)
+        blank = np.full(n, np.nan) if bulk_modulus is None else np.asarray(bulk_modulus, float)
+        bulk, bulk_source = _bulk(blank, np.asarray(poisson, float), to_layout, ids, notes)
+        scales = bulk_source == mount.BULK_FROM_POISSON  # K per unit own modulus
+    else:
+        k_fac = np.full(n, np.nan)  # a shear pad needs no compression modulus
+        bulk, bulk_source = np.full(n, np.nan), np.full(n, "")
+        scales = np.zeros(n, dtype=bool)
 
     def shape_factor(area):
-        if design.layout == "shear":
+        if not compression:
             return np.zeros_like(area)
         if design.shape_factor is not None:
             return np.full_like(area, design.shape_factor)
@@ -264,46 +490,69 @@ def check_mounts(
         ft = design.target_fn_Hz
         st, _, _ = bank.evaluate(np.array([design.sizing_temp_C]), np.array([ft]))
         own = st[:, 0]
-        if design.layout == "shear":
-            area = mount.size_pad_area(ft, m, h, own * to_layout)
-        elif design.shape_factor is not None:
-            ec = mount.compression_modulus(own * to_layout, design.shape_factor, k_fac)
-            area = mount.size_pad_area(ft, m, h, ec)
+        e_layout = own * to_layout
+        if not compression:
+            area = mount.size_pad_area(ft, m, h, e_layout)
         else:
-            area = mount.size_compression_pad_area(ft, m, h, own * to_layout, k_fac, design.shape)
+            k_target = np.where(scales, bulk * own, bulk)
+            if design.shape_factor is not None:
+                ec = mount.compression_modulus(e_layout, design.shape_factor, k_fac)
+                ec = mount.bulk_limited_compression_modulus(ec, k_target)
+                area = mount.size_pad_area(ft, m, h, ec)
+            else:
+                area = mount.size_compression_pad_area(
+                    ft, m, h, e_layout, k_fac, design.shape, bulk_modulus=k_target
+                )
     s_factor = shape_factor(area)
-    # The layout modulus (G' = own x to_layout, or Ec = E'(1 + 2kS^2)) is the grade's own
-    # modulus times a constant per grade, so the pad stiffness is too: k' = M A / h.
-    if design.layout == "shear":
-        layout_factor = to_layout
+    # Pad stiffness from the grade's own modulus M: k' = P M / (1 + beta M). A shear pad
+    # and a pad whose K scales with E (from nu) have beta = 0: k' is proportional to M.
+    if compression:
+        layout_factor = mount.compression_modulus(to_layout, s_factor, k_fac)  # Ec / M
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ratio = np.where(scales, layout_factor / bulk, 0.0)  # Ec / K, constant
+            beta = np.where(scales, 0.0, layout_factor / bulk)  # Ec / (K M)
+        per_modulus = layout_factor * area / h / (1.0 + ratio)
     else:
-        layout_factor = mount.compression_modulus(to_layout, s_factor, k_fac)
-    per_modulus = layout_factor * area / h
+        per_modulus = to_layout * area / h
+        beta = np.zeros(n)
+    soften = bool(beta.any())
 
     def pad_stiffness(storage):
         """Storage stiffness [N/m] of one pad from the grade's own modulus, rows = grades."""
-        return storage * per_modulus.reshape((-1,) + (1,) * (storage.ndim - 1))
+        rows = (-1,) + (1,) * (storage.ndim - 1)
+        k = storage * per_modulus.reshape(rows)
+        if soften:
+            k /= 1.0 + storage * beta.reshape(rows)
+        return k
 
     t_rows = np.broadcast_to(t[None, :], (n, t.size))
     shift_rows = bank.shift_rows(t_rows)  # log10 aT once, for every evaluation below
     extrap = np.zeros((n, t.size), dtype=bool)
+    vertical = bank.vertical_factor(np.arange(n)[:, None], t_rows)
     with np.errstate(divide="ignore", invalid="ignore"):
-        log_k = np.log10(per_modulus[:, None] * bank.vertical_factor(np.arange(n)[:, None], t_rows))
+        log_k = np.log10(per_modulus[:, None] * vertical)
+    softening = beta[:, None] * vertical
     fn = np.empty((n, t.size))
     ok = np.empty((n, t.size), dtype=bool)
+    # Grades whose stiffness is proportional to the modulus (beta = 0) are solved apart
+    # from the bulk-softened ones, so that only the latter pay for the series spring.
+    for rows in (np.flatnonzero(beta == 0.0), np.flatnonzero(beta != 0.0)):
 
-    def solve(a: int, b: int) -> None:
-        # One solver call per block of grades; entry (k, j) belongs to grade a + k.
-        grade_of = np.repeat(np.arange(a, b), t.size)
-        nat = mount.natural_frequency_reduced(
-            lambda x, idx: bank.log_storage_at(grade_of[idx], x),
-            shift_rows[a:b],
-            log_k[a:b],
-            m,
-        )
-        fn[a:b], ok[a:b] = nat
+        def solve(a: int, b: int, rows=rows) -> None:
+            # One solver call per block; entry (k, j) belongs to grade rows[a + k].
+            block = rows[a:b]
+            grade_of = np.repeat(block, t.size)
+            nat = mount.natural_frequency_reduced(
+                lambda x, idx: bank.log_storage_at(grade_of[idx], x),
+                shift_rows[block],
+                log_k[block],
+                m,
+                bulk_softening=softening[block] if beta[block[0]] != 0.0 else None,
+            )
+            fn[block], ok[block] = nat
 
-    in_blocks(n, solve, per_worker(n))
+        if rows.size:
+            in_blocks(rows.size, solve, per_worker(rows.size))
     fn_safe = np.where(ok, fn, 1.0)
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
     eta_fn = np.where(ok, ls_fn / st_fn, np.nan)
@@ -317,34 +566,47 @@ def check_mounts(
     k_d = pad_stiffness(st_d)
     trans = mount.transmissibility(f3, k_d, ls_d / st_d, m)
 
-    f_static = 1.0 / (2.0 * np.pi * STATIC_LOAD_TIME_S)
-    st_s, _, x_s = bank.evaluate_rows(t_rows, f_static, loss=False, shift=shift_rows)
+    # Static and long-term stiffness from the creep compliance J(t / aT).
+    j_s, x_s = bank.compliance_rows(t_rows, STATIC_LOAD_TIME_S, shift=shift_rows)
     extrap |= x_s
-    k_static = pad_stiffness(st_s)
+    k_static = pad_stiffness(1.0 / j_s)
     deflection = mount.static_deflection(m, k_static)
     t_hot = float(t.max())
-    f_life = 1.0 / (2.0 * np.pi * design.service_life_h * 3600.0)
-    st_l, _, x_l = bank.evaluate_rows(np.full((n, 1), t_hot), np.full((n, 1), f_life))
-    k_life = pad_stiffness(st_l)
-    sag = mount.static_deflection(m, k_life)[:, 0]
+    life_s = design.service_life_h * 3600.0
+    j_l, x_l = bank.compliance_rows(np.full((n, 1), t_hot), life_s)
+    sag = mount.static_deflection(m, pad_stiffness(1.0 / j_l))[:, 0]
     for k in np.flatnonzero(x_l[:, 0]):
         notes.setdefault(ids[k], []).append(
             f"long-term sag after {design.service_life_h:g} h at {t_hot:g} °C extrapolates "
             "the master curve"
         )
-    if design.layout == "compression":
+    if compression:
         for k in np.flatnonzero(s_factor < SLENDER_SHAPE_FACTOR):
             notes.setdefault(ids[k], []).append(
                 f"shape factor {s_factor[k]:.2f}: a tall, slender pad; check it against "
                 "buckling or use a wider, thinner pad"
             )
+        for k in np.flatnonzero(mount.is_high_shape_factor(s_factor)):
+            k_text = f"K = {bulk[k] * 1e-6:g} MPa" if not scales[k] else "K from Poisson's ratio"
+            notes.setdefault(ids[k], []).append(
+                f"shape factor {s_factor[k]:.1f} above {mount.HIGH_SHAPE_FACTOR:g}: the pad's "
+                f"stiffness leans on the bulk modulus ({k_text}) and on an exact shape factor"
+            )
+    else:
+        width = np.sqrt(4.0 * area / np.pi) if design.shape == "disc" else np.sqrt(area)
+        for k in np.flatnonzero(h > THICK_SHEAR_PAD * width):
+            notes.setdefault(ids[k], []).append(
+                f"rubber thickness {design.thickness_mm:g} mm above a quarter of the pad's "
+                f"width ({width[k] * 1e3:.0f} mm): bending adds to the shear deflection, so "
+                "k' = G'A/h overstates the stiffness"
+            )
     for k in np.flatnonzero(~ok.all(axis=1)):
         notes.setdefault(ids[k], []).append("natural frequency not found at some temperatures")
     limit = (
-        mount.STATIC_SHEAR_STRAIN_LIMIT
-        if design.layout == "shear"
-        else mount.STATIC_COMPRESSIVE_STRAIN_LIMIT
+        mount.STATIC_COMPRESSIVE_STRAIN_LIMIT if compression else mount.STATIC_SHEAR_STRAIN_LIMIT
     )
+    with np.errstate(invalid="ignore"):
+        ratio_ds = np.where(ok, k_fn / k_static, np.nan)
     return MountResult(
         ids=ids,
         temperatures=t,
@@ -365,4 +627,10 @@ def check_mounts(
         strain_limit=limit,
         extrapolated=extrap,
         notes=notes,
+        dynamic_to_static_ratio=ratio_ds,
+        static_stress=m * mount.STANDARD_GRAVITY / area,
+        stress_limit=mount.STATIC_COMPRESSIVE_STRESS_LIMIT if compression else None,
+        bulk_modulus=np.where(scales, np.nan, bulk),
+        bulk_source=bulk_source,
+        design=design,
     )

@@ -42,6 +42,14 @@ force-free faces bulge strongly, creep grows and the linear compression modulus 
 Gent & Lindley no longer describes the pad.
 """
 
+STATIC_COMPRESSIVE_STRESS_LIMIT = 1.0e6
+"""Largest long-term static compressive stress of a bonded rubber pad [Pa] (common practice).
+
+Stress is the supported weight over the loaded area. Designers commonly keep the dead
+load of a bonded compression pad at or below about 1 MPa; well-bonded pads of high shape
+factor carry more, unbonded or low shape-factor pads less.
+"""
+
 DEFAULT_BULK_MODULUS_PA = 2.0e9
 """Bulk modulus assumed for a rubber whose catalog gives neither ``K`` nor ``nu < 0.5`` [Pa].
 
@@ -842,6 +850,7 @@ def natural_frequency_reduced(
     mass: ArrayLike,
     f_low: float = 1e-3,
     f_high: float = 1e5,
+    bulk_softening: ArrayLike | None = None,
 ) -> NaturalFrequency:
     """Natural frequency of mounts whose stiffness follows a master curve.
 
@@ -849,6 +858,10 @@ def natural_frequency_reduced(
     temperature T is ``k'(f) = K E'(f aT)``: a constant ``K`` of the pad geometry (and
     layout) times the master curve ``E'`` at the reduced frequency. The root is sought
     in the reduced frequency, where the master curve is the same for every temperature.
+    With ``bulk_softening`` ``s`` the stiffness is ``k' = K E' / (1 + s E')`` instead: a
+    bonded compression pad whose compression modulus ``Ec = c E'`` acts in series with
+    the bulk modulus, ``k' = (A / h) Ec / (1 + Ec / K_bulk)``, so ``K = c A / h`` and
+    ``s = c / K_bulk`` (see `bulk_limited_compression_modulus`).
 
     Parameters
     ----------
@@ -864,6 +877,9 @@ def natural_frequency_reduced(
         Supported mass per mount.
     f_low, f_high : float [Hz]
         Search bracket in real frequency.
+    bulk_softening : array [1/Pa], optional
+        ``s >= 0`` per entry (broadcast like the other arguments); omitted or 0: the
+        stiffness is proportional to ``E'``.
 
     Returns
     -------
@@ -884,7 +900,9 @@ def natural_frequency_reduced(
     ``[log10 f_low + log10 aT, log10 f_high + log10 aT]``. The left side grows with x
     while ``d log E' / d log f < 2`` (any passive viscoelastic solid), so the root is
     unique. The same equation as :func:`natural_frequency`, with the temperature moved
-    into the right-hand side.
+    into the right-hand side. With bulk softening the left side becomes
+    ``x - (log10 E' - log10(1 + s E')) / 2``, whose slope is larger still (the series
+    spring flattens ``k'`` further), so the root stays unique.
 
     References
     ----------
@@ -896,7 +914,11 @@ def natural_frequency_reduced(
     low, high = _bracket(f_low, f_high)
     shift = np.asarray(log_shift, dtype=float)
     log_k = np.asarray(log_stiffness_per_modulus, dtype=float)
-    shape = np.broadcast_shapes(m.shape, shift.shape, log_k.shape)
+    soft = (
+        None if bulk_softening is None else _non_negative("bulk_softening", bulk_softening, "1/Pa")
+    )
+    shapes = [m.shape, shift.shape, log_k.shape] + ([] if soft is None else [soft.shape])
+    shape = np.broadcast_shapes(*shapes)
     shift = np.broadcast_to(shift, shape).ravel()
     log_m = np.broadcast_to(np.log10(m), shape).ravel()
     rhs = shift + 0.5 * (np.broadcast_to(log_k, shape).ravel() - log_m) - np.log10(_TWO_PI)
@@ -907,8 +929,18 @@ def natural_frequency_reduced(
     rhs = np.where(ok, rhs, 0.0)
     index = np.arange(shift.size)
 
-    def residual(x, target, idx):
-        return x - 0.5 * np.asarray(log_storage_fn(x, idx), dtype=float) - target
+    if soft is None or not soft.any():
+
+        def residual(x, target, idx):
+            return x - 0.5 * np.asarray(log_storage_fn(x, idx), dtype=float) - target
+
+    else:
+        softening = np.broadcast_to(soft, shape).ravel()
+
+        def residual(x, target, idx):
+            log_e = np.asarray(log_storage_fn(x, idx), dtype=float)
+            series = np.log1p(softening[idx] * 10.0**log_e) / np.log(10.0)
+            return x - 0.5 * (log_e - series) - target
 
     result = elementwise.find_root(
         residual,
@@ -1028,6 +1060,7 @@ def size_compression_pad_area(
     youngs_modulus_at_target: ArrayLike,
     k_factor: ArrayLike,
     shape: str = "disc",
+    bulk_modulus: ArrayLike | None = None,
 ) -> NDArray[np.float64]:
     """Loaded area of a compression disc or square giving a target natural frequency.
 
@@ -1045,6 +1078,8 @@ def size_compression_pad_area(
         Compression coefficient ``k``.
     shape : {"disc", "square"}
         Plan form of the pad.
+    bulk_modulus : array [Pa], optional
+        Bulk modulus ``K`` of the rubber; omitted: incompressible.
 
     Returns
     -------
@@ -1064,9 +1099,14 @@ def size_compression_pad_area(
     ``E k / (8 h^3)`` (square), so ``m (2 pi fn)^2 = (E / h) A + c A^2`` is a
     quadratic in ``A`` with one positive root, taken in the cancellation-free form
     ``A = 2 q / (b + sqrt(b^2 + 4 c q))``, ``b = E / h``, ``q = m (2 pi fn)^2``.
-    Check the shape factor of the result: beyond about 10 (`is_high_shape_factor`)
-    rubber's bulk compressibility makes the pad softer than this
-    (`bulk_limited_compression_modulus`).
+
+    With a bulk modulus the pad stiffness is ``(A / h) Ec / (1 + Ec / K)``
+    (`bulk_limited_compression_modulus`); with ``Ec = E (1 + alpha A)``,
+    ``alpha = 2 k S^2 / A``, stiffness ``= q`` becomes ``E alpha A^2 + E (1 - q h alpha / K) A
+    - q h (1 + E / K) = 0``, again one positive root (taken in whichever of the two
+    algebraically equal forms avoids cancellation). ``K = inf`` gives the form above.
+    Check the shape factor of the result: beyond about 10 (`is_high_shape_factor`) the
+    stiffness leans on a bulk modulus that catalogs rarely state.
 
     References
     ----------
@@ -1082,6 +1122,15 @@ def size_compression_pad_area(
     # S^2 = A * shape_coefficient / h^2
     shape_coefficient = 1.0 / (4.0 * np.pi) if shape == "disc" else 1.0 / 16.0
     q = m * (_TWO_PI * fn) ** 2
-    b = e / h
-    c = 2.0 * e * k * shape_coefficient / h**3
-    return 2.0 * q / (b + np.sqrt(b**2 + 4.0 * c * q))
+    if bulk_modulus is None:
+        b = e / h
+        c = 2.0 * e * k * shape_coefficient / h**3
+        return 2.0 * q / (b + np.sqrt(b**2 + 4.0 * c * q))
+    inv_k = 1.0 / _positive("bulk_modulus", bulk_modulus, "Pa")  # 0 for K = inf
+    alpha = 2.0 * k * shape_coefficient / h**2  # Ec = E (1 + alpha A)
+    qa = e * alpha
+    qb = e * (1.0 - q * h * alpha * inv_k)
+    qc = q * h * (1.0 + e * inv_k)
+    root = np.sqrt(qb**2 + 4.0 * qa * qc)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(qb >= 0.0, 2.0 * qc / (qb + root), (root - qb) / (2.0 * qa))

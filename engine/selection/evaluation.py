@@ -156,6 +156,7 @@ def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criter
             window.temperatures,
             catalog["poisson_ratio"],
             catalog["hardness"],
+            bulk_modulus=catalog["bulk_modulus"],
         )
     whole = {
         "storage_modulus": props.storage.reshape(n, -1),
