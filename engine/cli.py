@@ -271,7 +271,13 @@ def cmd_mount(args) -> int:
     lib = _library(args)
     material = lib.material(args.id)
     curve = master_curve(lib, args.id)
-    optional = {"mounts": args.mounts, "shape": args.shape, "service_life_h": args.service_life_h}
+    optional = {
+        "mounts": args.mounts,
+        "shape": args.shape,
+        "service_life_h": args.service_life_h,
+        "harmonics": None if args.harmonics is None else tuple(args.harmonics),
+        "working_strain": args.working_strain,
+    }
     design = MountDesign(
         layout=args.layout,
         mass_kg=args.mass,
@@ -279,7 +285,8 @@ def cmd_mount(args) -> int:
         thickness_mm=args.thickness_mm,
         shape_factor=args.shape_factor,
         k_factor=args.k_factor,
-        disturbance_Hz=tuple(args.disturbance_hz),
+        disturbance_Hz=tuple(args.disturbance_hz or ()),
+        disturbance_rpm=tuple(args.rpm or ()),
         target_fn_Hz=args.target_fn,
         **{k: v for k, v in optional.items() if v is not None},  # else the design's defaults
     )
@@ -298,7 +305,7 @@ def cmd_mount(args) -> int:
     )
     figs = res.grade(0)
     one_t = len(args.temp) == 1
-    one_d = len(args.disturbance_hz) == 1
+    one_d = len(design.frequencies) == 1
 
     def pick(values):
         return values[0] if one_t else values
@@ -313,7 +320,8 @@ def cmd_mount(args) -> int:
         "mode": curve.mode,
         "layout": design.layout,
         "temp_C": pick(figs["temperatures_C"]),
-        "disturbance_Hz": args.disturbance_hz[0] if one_d else args.disturbance_hz,
+        "disturbance_Hz": design.frequencies[0] if one_d else list(design.frequencies),
+        "disturbances": design.disturbance_labels(),
         "natural_frequency_Hz": pick(figs["natural_frequency_Hz"]),
         "transmissibility": pick(trans),
         "static_deflection_mm": pick(figs["static_deflection_mm"]),
@@ -344,7 +352,7 @@ def cmd_mount(args) -> int:
         f"{design.thickness_mm:g} mm under {design.mass_per_pad:.4g} kg each",
     ]
     carried = not any(r.startswith(("cannot carry", "too stiff")) for r in reasons)
-    hz = ", ".join(f"{f:g}" for f in args.disturbance_hz)
+    hz = ", ".join(design.disturbance_labels())
     for i, t in enumerate(figs["temperatures_C"]):
         strain = figs["static_strain"][i]
         flag = "  extrapolated" if figs["extrapolated"][i] else ""
@@ -357,7 +365,7 @@ def cmd_mount(args) -> int:
             continue
         tr = ", ".join(f"{v:.3f}" for v in figs["transmissibility"][i])
         lines.append(
-            f"  {t:6.1f} °C: fn {fn:.3g} Hz, T = {tr} at {hz} Hz, amplification at resonance "
+            f"  {t:6.1f} °C: fn {fn:.3g} Hz, T = {tr} at {hz}, amplification at resonance "
             f"{figs['amplification_at_resonance'][i]:.3g}, static strain {strain:.3g} "
             f"({figs['static_deflection_mm'][i]:.3g} mm), dynamic/static stiffness "
             f"{figs['dynamic_to_static_ratio'][i]:.3g}{flag}"
@@ -501,7 +509,7 @@ def cmd_rank(args) -> int:
         limit = criteria.constraints.transmissibility_limit
         lines.append(
             f"mount: {design.mounts} {design.layout} pad(s) under {design.mass_kg:g} kg, "
-            f"disturbance {', '.join(f'{f:g}' for f in design.disturbance_Hz)} Hz"
+            f"disturbance {', '.join(design.disturbance_labels())}"
             + (f", T below {limit:g} at every temperature" if limit is not None else "")
         )
     elif criteria.screening_only:
@@ -517,17 +525,41 @@ def cmd_rank(args) -> int:
     return 0
 
 
-def build_parser() -> argparse.ArgumentParser:
-    common = _Parser(add_help=False)
-    common.add_argument("--db", help="library file or database URL (default: $QUIETGRADE_DB)")
-    common.add_argument("--json", action="store_true", help="machine-readable output on stdout")
-    common.add_argument(
-        "--verbose", action="store_true", help="log cache use and fit timing on stderr"
+def _global_options(parser: _Parser, suppress: bool) -> _Parser:
+    """Add the global options. A command's copy has no defaults (``suppress``), so that
+    one given before the command is not overwritten by the command's own default."""
+
+    def default(value):
+        return argparse.SUPPRESS if suppress else value
+
+    parser.add_argument(
+        "--db",
+        default=default(None),
+        help="library file or database URL (default: $QUIETGRADE_DB)",
     )
-    parser = _Parser(
-        prog="quietgrade",
-        description="quietgrade: choose elastomer and damping-polymer grades from DMA data",
-        parents=[common],
+    parser.add_argument(
+        "--json",
+        action="store_true",
+        default=default(False),
+        help="machine-readable output on stdout",
+    )
+    parser.add_argument(
+        "--verbose",
+        action="store_true",
+        default=default(False),
+        help="log cache use and fit timing on stderr",
+    )
+    return parser
+
+
+def build_parser() -> argparse.ArgumentParser:
+    common = _global_options(_Parser(add_help=False), suppress=True)
+    parser = _global_options(
+        _Parser(
+            prog="quietgrade",
+            description="quietgrade: choose elastomer and damping-polymer grades from DMA data",
+        ),
+        suppress=False,
     )
     parser.add_argument("--version", action="version", version=f"quietgrade {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
@@ -581,7 +613,20 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--shape-factor", type=float, help="loaded / force-free area")
     p.add_argument("--k-factor", type=float, help="compression coefficient k")
     p.add_argument("--temp", type=float, nargs="+", required=True, help="[degC]")
-    p.add_argument("--disturbance-hz", type=float, nargs="+", required=True)
+    p.add_argument("--disturbance-hz", type=float, nargs="+", help="disturbance frequencies [Hz]")
+    p.add_argument("--rpm", type=float, nargs="+", help="disturbance shaft speeds [rev/min]")
+    p.add_argument(
+        "--harmonics",
+        type=int,
+        nargs="+",
+        help="orders of each disturbance to check, e.g. 1 2 3 (omitted: 1)",
+    )
+    p.add_argument(
+        "--working-strain",
+        type=float,
+        help="dynamic strain amplitude in service [-], e.g. 0.05; used with a grade's "
+        "strain-amplitude sweep",
+    )
     p.add_argument("--target-fn", type=float, help="size the pad area for this fn [Hz]")
     p.add_argument("--service-life-h", type=float, help="omitted: 1000 h")
     p.set_defaults(func=cmd_mount)

@@ -260,7 +260,12 @@ def test_isolation_ranking_shortlists_only_mounts_that_isolate_everywhere(cli):
     ]
     assert amplifying, "some demo grades amplify the disturbance"
     for r in amplifying:
-        assert re.search(r"T = [\d.]+ at -?\d+ °C, 24\.7 Hz", r["reason"]), r["reason"]
+        # A pad that cannot carry the load is excused the other mount checks: its own
+        # reason names the temperature where it gives way.
+        assert re.search(r"T = [\d.]+ at -?\d+ °C, 24\.7 Hz", r["reason"]) or re.search(
+            r"cannot carry the load: .* at -?\d+ °C", r["reason"]
+        ), r["reason"]
+    assert any("T = " in r["reason"] for r in amplifying)
 
 
 def test_rank_json_carries_rank_intervals_and_companions(cli):

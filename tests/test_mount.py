@@ -711,3 +711,49 @@ def test_size_compression_pad_area_with_infinite_bulk_modulus_is_incompressible(
 def test_compressive_stress_limit_is_the_documented_value():
     # Common practice: static compressive stress of a bonded pad <= about 1 MPa.
     assert mount.STATIC_COMPRESSIVE_STRESS_LIMIT == 1.0e6
+
+
+# --- buckling --------------------------------------------------------------------------
+
+
+def test_buckling_load_limits_of_the_haringx_formula():
+    # P_cr = (P_S / 2)(sqrt(1 + 4 P_E / P_S) - 1) (Haringx 1948; Gent 1964, and Gent,
+    # Engineering with Rubber, for short blocks P_cr = sqrt(P_E P_S)): it tends to
+    # sqrt(P_S P_E) with P_S = G A when P_E >> P_S (a short pad) and to the Euler load
+    # P_E when P_E << P_S (a slender one).
+    e, k = 3.0e6, 0.73
+    area = np.pi * 0.1**2 / 4.0  # a 100 mm disc
+    h, s = 0.002, 0.1 / (4 * 0.002)
+    p_e = np.pi**2 * e * (1 + 2 / 3 * k * s**2) * area**2 / (4 * np.pi) / h**2
+    p_s = e / 3.0 * area
+    stubby = mount.buckling_load(e, area, h, s, k)
+    assert float(stubby) == pytest.approx(np.sqrt(p_s * p_e), rel=0.01)
+    slender_h, s = 2.0, 0.1 / (4 * 2.0)
+    euler = np.pi**2 * e * (1 + 2 / 3 * k * s**2) * area**2 / (4 * np.pi) / slender_h**2
+    slender = mount.buckling_load(e, area, slender_h, s, k)
+    assert float(slender) == pytest.approx(euler, rel=0.01)
+    assert float(slender) < euler  # the shear flexibility only lowers the load
+
+
+def test_buckling_load_of_a_square_section_uses_its_second_moment():
+    # I / A^2 = 1/12 for a square (common practice); larger than a disc's 1 / (4 pi), so a
+    # square pad of the same area buckles at a higher load.
+    args = (3.0e6, 0.05**2, 0.05, 0.25, 0.73)
+    disc = mount.buckling_load(*args)
+    square = mount.buckling_load(*args, second_moment_ratio=1.0 / 12.0)
+    assert float(square) > float(disc)
+
+
+def test_buckling_load_refuses_a_nonpositive_thickness():
+    with pytest.raises(ValueError, match="thickness"):
+        mount.buckling_load(3.0e6, 1e-3, 0.0, 0.5, 0.73)
+
+
+def test_hardness_from_youngs_modulus_inverts_the_indentation_relation():
+    # Gent (1958): E = 2.46 MPa at 50 Shore A; the inverse returns the hardness exactly.
+    s = np.linspace(20.0, 90.0, 15)
+    back = mount.hardness_from_youngs_modulus(mount.youngs_modulus_from_hardness(s))
+    np.testing.assert_allclose(back, s, rtol=1e-12)
+    assert float(mount.hardness_from_youngs_modulus(2.46e6)) == pytest.approx(50.0, abs=0.05)
+    with pytest.raises(ValueError, match="positive"):
+        mount.hardness_from_youngs_modulus(0.0)

@@ -32,6 +32,7 @@ from engine.curves.mountcheck import (
     SLENDER_SHAPE_FACTOR,
     STATIC_LOAD_TIME_S,
     MountDesign,
+    _k_factors,
     check_mounts,
 )
 from engine.library.fits import fit_library
@@ -146,17 +147,44 @@ def test_compression_pad_shape_factor_from_area(shape):
 
 def test_k_factor_from_hardness_and_its_notes():
     # Gent & Lindley table (from memory): 40 Shore A -> 0.85; outside 30-75 the nearest
-    # row (75 -> 0.52) is used with a note; unknown hardness -> 0.73 with a note.
+    # row (75 -> 0.52) is used with a note. A blank hardness is read from the grade's own
+    # modulus by the inverse of Gent's (1958) indentation relation, so that k and the
+    # modulus it multiplies belong to one compound: E = 2 MPa reads as 44.5 Shore A by
+    # that relation, k = 0.85 + (0.80 - 0.85) * 4.5 / 5 = 0.805 between the table's rows.
     bank = flat_bank([2e6, 2e6, 2e6], [0.1, 0.1, 0.1], "tensile", ids=["H40", "H80", "HNAN"])
     design = MountDesign(layout="compression")
     res = check_mounts(
         bank, design, np.array([23.0]), np.full(3, np.nan), np.array([40.0, 80.0, np.nan])
     )
-    np.testing.assert_allclose(res.k_factor, [0.85, 0.52, FALLBACK_K_FACTOR], atol=0.005)
-    assert FALLBACK_K_FACTOR == 0.73
+    read = float(mount.hardness_from_youngs_modulus(2e6))
+    assert read == pytest.approx(44.5, abs=0.05)
+    k_read = 0.85 + (0.80 - 0.85) * (read - 40.0) / 5.0
+    np.testing.assert_allclose(res.k_factor, [0.85, 0.52, k_read], atol=1e-9)
     assert not any("k =" in n or "k-factor" in n for n in res.notes["H40"])
     assert any("outside the k-factor table" in n for n in res.notes["H80"])
-    assert any("hardness unknown" in n for n in res.notes["HNAN"])
+    assert any("k = 0.81 from the 44 Shore A" in n for n in res.notes["HNAN"])
+
+
+def test_k_factor_falls_back_when_neither_hardness_nor_modulus_is_known():
+    # 0.73 (the Gent & Lindley row at 50 Shore A, from memory) with a note.
+    notes: dict = {}
+    k = _k_factors(np.array([np.nan]), None, ["X"], notes, lambda: np.array([np.nan]))
+    assert FALLBACK_K_FACTOR == 0.73 and k[0] == FALLBACK_K_FACTOR
+    assert any("hardness unknown" in n for n in notes["X"])
+
+
+def test_a_catalog_hardness_far_from_what_the_modulus_reads_is_noted():
+    # 2 MPa reads as about 44 Shore A (Gent 1958); a catalog 70 is 26 points away.
+    bank = flat_bank([2e6, 2e6], [0.1, 0.1], "tensile", ids=["FAR", "NEAR"])
+    res = check_mounts(
+        bank,
+        MountDesign(layout="compression"),
+        np.array([23.0]),
+        np.full(2, np.nan),
+        np.array([70.0, 48.0]),
+    )
+    assert any("reads as 44 Shore A" in n for n in res.notes["FAR"])
+    assert not any("reads as" in n for n in res.notes["NEAR"])
 
 
 def test_shear_layout_adds_no_k_factor_note():
@@ -345,8 +373,11 @@ def test_strain_limit_is_exceeded_by_an_overloaded_pad(demo):
         ({"service_life_h": 0.0}, "mount service_life_h must be a positive number"),
         ({"mounts": 0}, "number of mounts must be a whole number >= 1"),
         ({"mounts": 2.5}, "number of mounts must be a whole number >= 1"),
-        ({"disturbance_Hz": ()}, "give at least one positive disturbance frequency"),
-        ({"disturbance_Hz": (24.7, -3.0)}, "give at least one positive disturbance frequency"),
+        ({"disturbance_Hz": ()}, "give at least one disturbance, as a positive frequency"),
+        (
+            {"disturbance_Hz": (24.7, -3.0)},
+            "give at least one disturbance, as a positive frequency",
+        ),
         ({"shape_factor": 0.0}, "shape factor must be positive"),
         ({"k_factor": -0.5}, "k factor must be positive"),
         ({"target_fn_Hz": 0.0}, "target natural frequency must be positive"),
@@ -651,15 +682,38 @@ def test_compressive_stress_above_the_limit_fails():
 
 
 def test_a_tall_compression_pad_would_buckle():
-    # Disc of 2000 mm2 (D = 50.5 mm), 30 mm thick: S = D/(4h) = 0.42 < 0.5, thicker than
-    # half its width (common practice): fails, and the slender note stays.
-    bank = flat_bank([3e6], [0.1], "tensile", ids=["TALL"])
-    res = _verdict(bank, MountDesign(thickness_mm=30))
-    assert res.shape_factor[0] < SLENDER_SHAPE_FACTOR == 0.5
+    # Disc of 2000 mm2, 100 mm thick (S = 0.126) on a 10 MPa rubber under 180 kg: its
+    # critical load by Haringx's shear-flexible column formula (Haringx 1948; Gent 1964),
+    # P_cr = (G A / 2)(sqrt(1 + 4 P_E / (G A)) - 1), P_E = pi^2 E_b I / h^2, is below
+    # twice the load (safety factor 2, common practice): it fails, the slender note stays.
+    e, area, h = 10e6, 2000e-6, 0.1
+    bank = flat_bank([e], [0.1], "tensile", ids=["TALL"])
+    design = MountDesign(mass_kg=180.0, mounts=1, thickness_mm=100, k_factor=0.73)
+    res = _verdict(bank, design)
+    s = res.shape_factor[0]
+    assert s == pytest.approx(np.sqrt(4 * area / np.pi) / (4 * h), rel=1e-12)
+    g_a = e / 3.0 * area
+    p_e = np.pi**2 * e * (1 + 2 / 3 * 0.73 * s**2) * (area**2 / (4 * np.pi)) / h**2
+    p_cr = 0.5 * g_a * (np.sqrt(1 + 4 * p_e / g_a) - 1)
+    assert res.critical_load[0] == pytest.approx(p_cr, rel=1e-9)
+    load = 180.0 * G0
+    assert p_cr < 2 * load
     assert res.reasons(0) == [
-        "pad would buckle: shape factor 0.42 below 0.5 (rubber thicker than half the pad's width)"
+        f"pad would buckle: {load:.3g} N on a pad that buckles at {p_cr:.3g} N "
+        f"(shape factor {s:.2f}; needs a safety factor of 2)"
     ]
     assert any("slender" in n for n in res.notes["TALL"])
+
+
+def test_a_stubby_pad_of_shape_factor_below_half_does_not_buckle_under_a_light_load():
+    # 50 mm disc, 30 mm thick (S = 0.42): P_cr of about 3.7 kN (Haringx 1948) against
+    # 441 N: rubber columns this stubby are stable (Gent 1964); only the note remains.
+    bank = flat_bank([3e6], [0.1], "tensile", ids=["STUB"])
+    res = _verdict(bank, MountDesign(thickness_mm=30))
+    assert res.shape_factor[0] < SLENDER_SHAPE_FACTOR
+    assert res.critical_load[0] > 2 * 45.0 * G0
+    assert not any(r.startswith("pad would buckle") for r in res.reasons(0))
+    assert any("slender" in n for n in res.notes["STUB"])
 
 
 def test_a_stiff_grade_sized_to_an_absurd_pad_is_too_stiff():

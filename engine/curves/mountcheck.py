@@ -10,6 +10,7 @@ against the limits of :func:`check_mounts`.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import asdict, dataclass
 from functools import cached_property
 
@@ -32,6 +33,14 @@ MAX_STATIC_STRAIN = 1.0  # a static strain beyond this: the pad cannot carry the
 MIN_FN_HZ = 0.1  # a natural frequency below this is no mount (static deflection ~25 m)
 MIN_PAD_AREA_MM2 = 10.0  # a sized pad smaller than this: too stiff for the load and size
 MIN_SIZED_AREA_FRACTION = 0.01  # ... or smaller than this share of the given area
+# The isolation-mount case's default pads: each sized for fn = 10 Hz at the sizing
+# temperature, well below the default disturbance of 24.7 Hz (f/fn = 2.5: about 80 %
+# isolation where it holds, common practice), with 25 mm of rubber so that the static
+# strain of such a soft pad stays near the compression limit.
+DEFAULT_TARGET_FN_HZ = 10.0
+DEFAULT_THICKNESS_MM = 25.0
+MAX_HARMONIC = 20  # highest harmonic order accepted
+MAX_WORKING_STRAIN = 1.0  # a dynamic strain amplitude above 100 % is no mount's working range
 FALLBACK_K_FACTOR = 0.73  # Gent & Lindley table at 50 Shore A, used when hardness is unknown
 
 
@@ -55,9 +64,19 @@ class MountDesign:
     shape, shape_factor, k_factor : str, float, float
         Pad outline, or the shape factor and Gent-Lindley k directly.
     disturbance_Hz : tuple of float
-        Frequencies of the disturbance the mount must isolate.
+        Frequencies of the disturbance the mount must isolate [Hz].
+    disturbance_rpm : tuple of float
+        Shaft speeds of the disturbance [rev/min]; each runs at speed / 60 Hz.
+    harmonics : tuple of int
+        Orders of each disturbance checked (1 the fundamental, 2 twice its frequency...).
+        The frequencies checked are every disturbance (Hz and rpm) times every order.
+    working_strain : float
+        Dynamic strain amplitude of the pad in service [-] (0.05 for 5 %); with a
+        grade's strain-amplitude sweep the check uses its stiffness and loss factor at
+        this amplitude. None: the small-strain (DMA) values.
     target_fn_Hz, sizing_temp_C : float
-        Size the pad area for this fn at this temperature (sizing is off without a target).
+        Size the pad area for this fn at this temperature (None: the pad area as given;
+        the isolation-mount case's default pads, :func:`default_mount`, are sized).
     service_life_h : float
         Time under load for the long-term sag.
 
@@ -67,6 +86,11 @@ class MountDesign:
     >>> skid = MountDesign(mass_kg=180.0, mounts=4, disturbance_Hz=(24.7, 49.4))
     >>> skid.mass_per_pad
     45.0
+    >>> pump = MountDesign(disturbance_Hz=(), disturbance_rpm=(1480.0,), harmonics=(1, 2))
+    >>> [round(f, 2) for f in pump.frequencies]
+    [24.67, 49.33]
+    >>> pump.disturbance_labels()
+    ['24.7 Hz (1480 rpm)', '49.3 Hz (2 x 1480 rpm)']
     >>> replace(skid, mounts=0)
     Traceback (most recent call last):
     ...
@@ -82,6 +106,9 @@ class MountDesign:
     shape_factor: float | None = None
     k_factor: float | None = None
     disturbance_Hz: tuple[float, ...] = (24.7,)
+    disturbance_rpm: tuple[float, ...] = ()
+    harmonics: tuple[int, ...] = (1,)
+    working_strain: float | None = None
     target_fn_Hz: float | None = None
     sizing_temp_C: float = DEFAULT_SIZING_TEMP_C
     service_life_h: float = DEFAULT_SERVICE_LIFE_H
@@ -102,8 +129,25 @@ class MountDesign:
                 raise CriteriaError(f"mount {name} must be a positive number, not {value}")
         if int(self.mounts) != self.mounts or self.mounts < 1:
             raise CriteriaError(f"number of mounts must be a whole number >= 1, not {self.mounts}")
-        if not self.disturbance_Hz or any(f <= 0 for f in self.disturbance_Hz):
-            raise CriteriaError("give at least one positive disturbance frequency")
+        given = (*self.disturbance_Hz, *self.disturbance_rpm)
+        if not given or not all(np.isfinite(f) and f > 0 for f in given):
+            raise CriteriaError(
+                "give at least one disturbance, as a positive frequency [Hz] or speed [rpm]"
+            )
+        if not self.harmonics or any(
+            int(n) != n or not 1 <= n <= MAX_HARMONIC for n in self.harmonics
+        ):
+            raise CriteriaError(
+                f"harmonic orders must be whole numbers from 1 to {MAX_HARMONIC}, "
+                f"not {', '.join(f'{n:g}' for n in self.harmonics) or 'none'}"
+            )
+        if self.working_strain is not None and not (
+            np.isfinite(self.working_strain) and 0 < self.working_strain <= MAX_WORKING_STRAIN
+        ):
+            raise CriteriaError(
+                f"working strain amplitude must be above 0 and at most {MAX_WORKING_STRAIN:g} "
+                f"(a fraction: 0.05 for 5 %), not {self.working_strain}"
+            )
         if self.shape_factor is not None and self.shape_factor <= 0:
             raise CriteriaError("shape factor must be positive")
         if self.k_factor is not None and self.k_factor <= 0:
@@ -113,8 +157,37 @@ class MountDesign:
 
     def to_dict(self) -> dict:
         d = asdict(self)
-        d["disturbance_Hz"] = list(self.disturbance_Hz)
+        for key in ("disturbance_Hz", "disturbance_rpm", "harmonics"):
+            d[key] = list(d[key])
         return d
+
+    def _sources(self) -> list[tuple[float, str, int]]:
+        """(frequency [Hz], what it is, order) of every disturbance checked."""
+        out = []
+        for n in self.harmonics:
+            order = int(n)
+            for f in self.disturbance_Hz:
+                text = f"{f:g} Hz" if order == 1 else f"{order} x {f:g} Hz"
+                out.append((order * float(f), text, order))
+            for r in self.disturbance_rpm:
+                text = f"{r:g} rpm" if order == 1 else f"{order} x {r:g} rpm"
+                out.append((order * float(r) / 60.0, text, order))
+        return out
+
+    @property
+    def frequencies(self) -> tuple[float, ...]:
+        """Every disturbance frequency checked [Hz], ascending, each once."""
+        return tuple(sorted({f for f, _, _ in self._sources()}))
+
+    def disturbance_labels(self) -> list[str]:
+        """One label per entry of :attr:`frequencies`: the frequency and, when it is a
+        harmonic or comes from a speed, what it is."""
+        labels: dict[float, str] = {}
+        for f, text, order in self._sources():
+            if f not in labels:
+                plain = order == 1 and text.endswith(" Hz")
+                labels[f] = f"{f:.3g} Hz" if plain else f"{f:.3g} Hz ({text})"
+        return [labels[f] for f in self.frequencies]
 
     @classmethod
     def from_dict(cls, data: dict) -> MountDesign:
@@ -131,12 +204,18 @@ class MountDesign:
                 raise ValueError(f"{value!r} is not a finite number")
             return float(value)
 
-        optional = ("shape_factor", "k_factor", "target_fn_Hz")
+        optional = ("shape_factor", "k_factor", "target_fn_Hz", "working_strain")
+        if "disturbance_rpm" in data and "disturbance_Hz" not in data:
+            data["disturbance_Hz"] = []  # speeds alone replace the default frequency
         for key, value in list(data.items()):
             try:
-                if key == "disturbance_Hz":
+                if key in ("disturbance_Hz", "disturbance_rpm", "harmonics"):
                     values = value if isinstance(value, list | tuple) else [value]
                     data[key] = tuple(number(v) for v in values)
+                    if key == "harmonics" and any(v != int(v) for v in data[key]):
+                        raise ValueError(f"{value!r} are not whole numbers")
+                    if key == "harmonics":
+                        data[key] = tuple(int(v) for v in data[key])
                 elif key == "mounts":
                     if number(value) != int(value):
                         raise ValueError(f"{value!r} is not a whole number")
@@ -153,6 +232,13 @@ class MountDesign:
     @property
     def mass_per_pad(self) -> float:
         return self.mass_kg / self.mounts
+
+
+def default_mount() -> MountDesign:
+    """The pads an isolation-mount case checks when it names none: 4 compression discs
+    under 180 kg, 25 mm of rubber, each sized for fn = 10 Hz at 23 °C, disturbance
+    24.7 Hz (the user sees them and can change each)."""
+    return MountDesign(thickness_mm=DEFAULT_THICKNESS_MM, target_fn_Hz=DEFAULT_TARGET_FN_HZ)
 
 
 @dataclass
@@ -187,11 +273,14 @@ class MountResult:
     stress_limit: float | None = None  # [Pa] compressive stress limit (compression pads)
     bulk_modulus: np.ndarray | None = None  # (grades,) [Pa]; NaN from nu or in shear
     bulk_source: np.ndarray | None = None  # (grades,) mount.BULK_* tag, "" in shear
+    critical_load: np.ndarray | None = None  # (grades,) [N] buckling load of one pad
     design: MountDesign | None = None
 
     @cached_property
-    def _failing(self) -> dict[str, np.ndarray]:
-        """Per check (in the order reasons are given), the grades that fail it."""
+    def failing(self) -> dict[str, np.ndarray]:
+        """Per check of the verdict (in the order reasons are given), the grades that fail
+        it: "too_stiff", "cannot_carry", "no_fn", "too_soft", "strain", "stress",
+        "buckling", "isolation"."""
         n = len(self.ids)
         no = np.zeros(n, dtype=bool)
         design = self.design
@@ -215,8 +304,9 @@ class MountResult:
             if compression and self.static_stress is not None and self.stress_limit is not None:
                 stress = carried & (self.static_stress > self.stress_limit)
             buckling = no
-            if compression:
-                buckling = ~too_stiff & (self.shape_factor < SLENDER_SHAPE_FACTOR)
+            if compression and design is not None and self.critical_load is not None:
+                load = design.mass_per_pad * mount.STANDARD_GRAVITY
+                buckling = carried & (load > mount.BUCKLING_LOAD_SHARE * self.critical_load)
             return {
                 "too_stiff": too_stiff,
                 "cannot_carry": cannot,
@@ -232,7 +322,7 @@ class MountResult:
     def passes(self) -> np.ndarray:
         """True for each grade that meets every limit of the verdict."""
         failing = np.zeros(len(self.ids), dtype=bool)
-        for mask in self._failing.values():
+        for mask in self.failing.values():
             failing |= mask
         return ~failing
 
@@ -248,31 +338,39 @@ class MountResult:
 
     def reasons(self, k: int) -> list[str]:
         """Why grade k fails, in plain words, one reason per limit it breaks."""
-        fails = [name for name, mask in self._failing.items() if mask[k]]
-        return [self._reason(name, k) for name in fails]
+        fails = [name for name, mask in self.failing.items() if mask[k]]
+        return [self.reason(name, k) for name in fails]
 
-    def _reason(self, name: str, k: int) -> str:
-        temps = self.temperatures
-        limit = self.strain_limit
-        shear = self.design is not None and self.design.layout == "shear"
-        strain_word = "static shear strain" if shear else "static strain"
+    def strain_text(self, k: int, bound: float | None = None) -> str:
+        """Grade k's static strain that breaks ``bound`` (default: the layout's limit)
+        and where: under the load at a window temperature if that breaks it already,
+        else the long-term sag after the service life."""
+        bound = self.strain_limit if bound is None else bound
+        strain_word = "static strain"
+        if self.design is not None and self.design.layout == "shear":
+            strain_word = "static shear strain"
         static = self.static_strain[k]
         j = int(np.nanargmax(static)) if np.isfinite(static).any() else 0
+        if not static[j] <= bound:  # the strain under the load itself (NaN included)
+            return f"{strain_word} {static[j]:.3g} at {self.temperatures[j]:g} °C"
         life = DEFAULT_SERVICE_LIFE_H if self.design is None else self.design.service_life_h
+        return (
+            f"long-term sag strain {self.sag_strain[k]:.3g} after {life:g} h at "
+            f"{self.temperatures.max():g} °C"
+        )
+
+    def reason(self, name: str, k: int) -> str:
+        """The plain reason of check ``name`` (a key of :attr:`failing`) for grade k."""
+        temps = self.temperatures
+        limit = self.strain_limit
         if name == "too_stiff":
             return (
                 f"too stiff for this load and size: the pad would be {self.area[k] * 1e6:.2g} mm2"
             )
-        if name in ("cannot_carry", "strain"):
-            prefix = "cannot carry the load: " if name == "cannot_carry" else ""
-            suffix = "" if name == "cannot_carry" else f" above the {limit:g} limit"
-            bound = MAX_STATIC_STRAIN if name == "cannot_carry" else limit
-            if not static[j] <= bound:  # the strain under the load itself (NaN included)
-                return f"{prefix}{strain_word} {static[j]:.3g} at {temps[j]:g} °C{suffix}"
-            return (
-                f"{prefix}long-term sag strain {self.sag_strain[k]:.3g} after {life:g} h at "
-                f"{temps.max():g} °C{suffix}"
-            )
+        if name == "cannot_carry":
+            return f"cannot carry the load: {self.strain_text(k, MAX_STATIC_STRAIN)}"
+        if name == "strain":
+            return f"{self.strain_text(k)} above the {limit:g} limit"
         if name == "no_fn":
             missing = ", ".join(f"{t:g}" for t in temps[~self.converged[k]])
             return f"no natural frequency between 1 mHz and 100 kHz at {missing} °C"
@@ -289,9 +387,12 @@ class MountResult:
                 f"{self.stress_limit / 1e6:g} MPa limit"
             )
         if name == "buckling":
+            assert self.design is not None and self.critical_load is not None
+            load = self.design.mass_per_pad * mount.STANDARD_GRAVITY
             return (
-                f"pad would buckle: shape factor {self.shape_factor[k]:.2f} below "
-                f"{SLENDER_SHAPE_FACTOR:g} (rubber thicker than half the pad's width)"
+                f"pad would buckle: {load:.3g} N on a pad that buckles at "
+                f"{self.critical_load[k]:.3g} N (shape factor {self.shape_factor[k]:.2f}; "
+                f"needs a safety factor of {1.0 / mount.BUCKLING_LOAD_SHARE:g})"
             )
         trans = np.where(self.converged[k][:, None], self.transmissibility[k], np.nan)
         at_t, at_f = (int(v) for v in np.unravel_index(int(np.nanargmax(trans)), trans.shape))
@@ -336,20 +437,55 @@ class MountResult:
             "bulk_modulus_source": None
             if self.bulk_source is None
             else str(self.bulk_source[k]) or None,
+            "critical_load_N": one(self.critical_load),
             "extrapolated": self.extrapolated[k].tolist(),
             "notes": self.notes.get(self.ids[k], []),
         }
 
 
-def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes: dict):
+# A durometer is read at 23 degC after a few seconds (ISO 7619-1: 3 s for Shore A); the
+# grade's modulus at that temperature and at 1 / (2 pi 3 s) stands for what it reads
+# (time-frequency equivalence, common practice).
+HARDNESS_READ_TEMP_C = 23.0
+HARDNESS_READ_FREQ_HZ = 1.0 / (2.0 * np.pi * 3.0)
+# A catalog hardness this many points from what the modulus reads gets a note.
+HARDNESS_MISMATCH_POINTS = 15.0
+
+
+def _k_factors(
+    hardness: np.ndarray,
+    given: float | None,
+    ids: list[str],
+    notes: dict,
+    read_modulus: Callable[[], np.ndarray] | None = None,
+) -> np.ndarray:
+    """The Gent-Lindley k of each grade: the design's, else from the catalog hardness,
+    else from the hardness the grade's own Young's modulus reads as (Gent 1958), so that
+    k and the modulus it multiplies describe the same compound; 0.73 where neither is
+    known. ``read_modulus`` gives Young's modulus [Pa] per grade at the durometer's
+    reading condition (called only when needed)."""
     if given is not None:
         return np.full(hardness.shape, float(given))
     lo, hi = 30.0, 75.0  # range of the Gent & Lindley table in engine.physics.mount
+    hardness = np.array(hardness, dtype=float)
     unknown = np.isnan(hardness)
+    read = np.full(hardness.shape, np.nan)
+    if read_modulus is not None:
+        e = np.asarray(read_modulus(), dtype=float)
+        fine = np.isfinite(e) & (e > 0.0)
+        read[fine] = np.clip(mount.hardness_from_youngs_modulus(e[fine]), 0.0, 99.0)
     out = np.full(hardness.shape, FALLBACK_K_FACTOR)
     known = ~unknown
     out[known] = mount.k_factor_from_hardness(np.clip(hardness[known], lo, hi))
-    for k in np.flatnonzero(unknown):
+    inferred = unknown & np.isfinite(read)
+    out[inferred] = mount.k_factor_from_hardness(np.clip(read[inferred], lo, hi))
+    where = f"E at {HARDNESS_READ_TEMP_C:g} °C"
+    for k in np.flatnonzero(inferred):
+        notes.setdefault(ids[k], []).append(
+            f"hardness not in the catalog: k = {out[k]:.2f} from the {read[k]:.0f} Shore A "
+            f"its {where} reads as (Gent 1958)"
+        )
+    for k in np.flatnonzero(unknown & ~inferred):
         notes.setdefault(ids[k], []).append(
             f"hardness unknown: k = {FALLBACK_K_FACTOR} assumed for the compression modulus"
         )
@@ -357,6 +493,12 @@ def _k_factors(hardness: np.ndarray, given: float | None, ids: list[str], notes:
         notes.setdefault(ids[k], []).append(
             f"hardness {hardness[k]:g} Shore A outside the k-factor table ({lo:g}-{hi:g}): "
             "nearest table value used"
+        )
+    mismatch = known & np.isfinite(read) & (np.abs(read - hardness) > HARDNESS_MISMATCH_POINTS)
+    for k in np.flatnonzero(mismatch):
+        notes.setdefault(ids[k], []).append(
+            f"catalog hardness {hardness[k]:g} Shore A, but its {where} reads as "
+            f"{read[k]:.0f} Shore A: k taken from the catalog hardness"
         )
     return out
 
@@ -436,12 +578,13 @@ def check_mounts(
     practice); no natural frequency is found, or one lies below `MIN_FN_HZ` (0.1 Hz);
     the compressive stress m g / A exceeds
     :data:`engine.physics.mount.STATIC_COMPRESSIVE_STRESS_LIMIT` (1 MPa, common
-    practice); a compression pad's shape factor is below `SLENDER_SHAPE_FACTOR` (0.5:
-    thicker than half its width, it would buckle; common practice); or the
+    practice); a compression pad's load exceeds half its buckling load
+    (:func:`engine.physics.mount.buckling_load` with the long-term Young's modulus 1 / J
+    after the service life at the hottest window temperature: Haringx 1948, Gent 1964;
+    the safety factor of 2 is common practice); or the
     transmissibility reaches 1 at some window temperature and disturbance (the pad
-    does not isolate; Snowdon 1968). A pad too stiff for its size gets that reason
-    alone, and one that cannot carry the load no other but buckling: the rest follows
-    from them.
+    does not isolate; Snowdon 1968). A pad too stiff for its size, or one that cannot
+    carry the load, gets that reason alone: the rest follows from it.
 
     References
     ----------
@@ -466,7 +609,13 @@ def check_mounts(
     h = design.thickness_mm * 1e-3
     m = design.mass_per_pad
     if compression:
-        k_fac = _k_factors(hardness, design.k_factor, ids, notes)
+
+        def read_modulus() -> np.ndarray:
+            at = np.array([HARDNESS_READ_TEMP_C]), np.array([HARDNESS_READ_FREQ_HZ])
+            own, _, _ = bank.evaluate(*at, loss=False)
+            return own[:, 0] * to_layout  # to_layout is the tensile basis here
+
+        k_fac = _k_factors(hardness, design.k_factor, ids, notes, read_modulus)
         blank = np.full(n, np.nan) if bulk_modulus is None else np.asarray(bulk_modulus, float)
         bulk, bulk_source = _bulk(blank, np.asarray(poisson, float), to_layout, ids, notes)
         scales = bulk_source == mount.BULK_FROM_POISSON  # K per unit own modulus
@@ -559,7 +708,7 @@ def check_mounts(
     extrap |= x_fn
     k_fn = pad_stiffness(st_fn)
     amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
-    dist = np.asarray(design.disturbance_Hz, dtype=float)
+    dist = np.asarray(design.frequencies, dtype=float)
     f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
     st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
     extrap |= x_d.any(axis=2)
@@ -580,7 +729,22 @@ def check_mounts(
             f"long-term sag after {design.service_life_h:g} h at {t_hot:g} °C extrapolates "
             "the master curve"
         )
+    critical = None
     if compression:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            e_long = np.where(j_l[:, 0] > 0, to_layout / j_l[:, 0], np.nan)  # E after the life
+        usable = np.isfinite(e_long) & (e_long > 0)
+        critical = np.full(n, np.nan)
+        second_moment = 1.0 / (4.0 * np.pi) if design.shape == "disc" else 1.0 / 12.0
+        critical[usable] = mount.buckling_load(
+            e_long[usable],
+            area[usable],
+            h,
+            s_factor[usable],
+            k_fac[usable],
+            second_moment_ratio=second_moment,
+            poisson_ratio=nu[usable],
+        )
         for k in np.flatnonzero(s_factor < SLENDER_SHAPE_FACTOR):
             notes.setdefault(ids[k], []).append(
                 f"shape factor {s_factor[k]:.2f}: a tall, slender pad; check it against "
@@ -632,5 +796,6 @@ def check_mounts(
         stress_limit=mount.STATIC_COMPRESSIVE_STRESS_LIMIT if compression else None,
         bulk_modulus=np.where(scales, np.nan, bulk),
         bulk_source=bulk_source,
+        critical_load=critical,
         design=design,
     )

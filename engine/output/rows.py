@@ -88,6 +88,7 @@ MOUNT_COLUMNS = (
     "fn min [Hz]",
     "fn max [Hz]",
     "worst transmissibility [-]",
+    "amplification at resonance [-]",
     "max static deflection [mm]",
     "max static strain [-]",
     "long-term sag [mm]",
@@ -140,6 +141,7 @@ def _mount_figures(figs: dict | None, spread=None) -> dict:
             "fn min [Hz]": _finite_min(figs["natural_frequency_Hz"]),
             "fn max [Hz]": _finite_max(figs["natural_frequency_Hz"]),
             "worst transmissibility [-]": _finite_max(figs["transmissibility"]),
+            "amplification at resonance [-]": _finite_max(figs["amplification_at_resonance"]),
             "max static deflection [mm]": _finite_max(figs["static_deflection_mm"]),
             "max static strain [-]": _finite_max(figs["static_strain"]),
             "long-term sag [mm]": finite(figs["sag_mm"]),
@@ -262,6 +264,9 @@ _MOUNT_LABELS = {
     "shape_factor": ("shape factor [-]", "from the pad shape"),
     "k_factor": ("compression coefficient k [-]", "from the hardness"),
     "disturbance_Hz": ("disturbance frequencies [Hz]", None),
+    "disturbance_rpm": ("disturbance speeds [rpm]", "none"),
+    "harmonics": ("harmonic orders checked", None),
+    "working_strain": ("working strain amplitude [-]", "small strain (DMA)"),
     "target_fn_Hz": ("target natural frequency [Hz]", "off: pad area as given"),
     "sizing_temp_C": ("sizing temperature [degC]", None),
     "service_life_h": ("service life for the sag [h]", None),
@@ -345,9 +350,11 @@ def criteria_rows(result: RankResult) -> list[tuple[str, str, object]]:
     if c.mount is not None:
         for key, value in c.mount.to_dict().items():
             label, when_none = _MOUNT_LABELS.get(key, (key, None))
-            shown = (when_none or "off") if value is None else _setting(value)
+            blank = value is None or (isinstance(value, list) and not value)
+            shown = (when_none or "off") if blank else _setting(value)
             rows.append(("mount", label, shown))
         rows.append(("mount", "mass per pad [kg]", c.mount.mass_per_pad))
+        rows.append(("mount", "disturbances checked", ", ".join(c.mount.disturbance_labels())))
     return rows
 
 

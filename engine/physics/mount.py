@@ -66,6 +66,10 @@ the result depends on a bulk modulus that catalogs rarely state; small errors in
 (bond flash, bulging into holes) also matter most there.
 """
 
+# A compression pad passes the buckling check when its static load is at most this
+# share of its critical load (a safety factor of 2; common practice).
+BUCKLING_LOAD_SHARE = 0.5
+
 BULK_FROM_CATALOG = "catalog"
 """Source tag of a bulk modulus taken from the catalog column ``bulk_modulus [MPa]``."""
 BULK_FROM_POISSON = "poisson_ratio"
@@ -425,6 +429,31 @@ def youngs_modulus_from_hardness(shore_a: ArrayLike) -> NDArray[np.float64]:
     return e_mpa * 1e6
 
 
+def hardness_from_youngs_modulus(youngs_modulus: ArrayLike) -> NDArray[np.float64]:
+    """Shore A hardness a rubber of Young's modulus ``E`` would read: the inverse of
+    `youngs_modulus_from_hardness` (the same indentation relation of Gent 1958).
+
+    Parameters
+    ----------
+    youngs_modulus : array [Pa]
+        Young's modulus, positive.
+
+    Returns
+    -------
+    array [Shore A]
+        ``S = (0.137505 * 254 E - 0.0981 * 56) / (0.0981 * 7.62336 + 0.137505 * 2.54 E)``
+        with ``E`` in MPa; below 0 for moduli under about 0.16 MPa (clip before use) and
+        tending to 100 as ``E`` grows.
+
+    Examples
+    --------
+    >>> float(np.round(hardness_from_youngs_modulus(youngs_modulus_from_hardness(50.0)), 9))
+    50.0
+    """
+    e = _positive("youngs_modulus", youngs_modulus, "Pa") * 1e-6
+    return (0.137505 * 254.0 * e - 0.0981 * 56.0) / (0.0981 * 7.62336 + 0.137505 * 2.54 * e)
+
+
 def k_factor_from_hardness(shore_a: ArrayLike) -> NDArray[np.float64]:
     """Compression coefficient ``k`` of a rubber from its Shore A hardness.
 
@@ -587,6 +616,71 @@ def compression_pad_stiffness(
     if bulk_modulus is not None:
         ec = bulk_limited_compression_modulus(ec, bulk_modulus)
     return ec * a / h
+
+
+def buckling_load(
+    youngs_modulus: ArrayLike,
+    area: ArrayLike,
+    thickness: ArrayLike,
+    shape_factor: ArrayLike,
+    k_factor: ArrayLike,
+    second_moment_ratio: ArrayLike = 1.0 / (4.0 * np.pi),
+    poisson_ratio: ArrayLike = 0.5,
+) -> NDArray[np.float64]:
+    """Critical compressive load of a bonded rubber pad, with its shear flexibility.
+
+    Parameters
+    ----------
+    youngs_modulus : array [Pa]
+        Young's modulus E of the rubber (the long-term one for a static load).
+    area, thickness : array [m2], [m]
+        Loaded area and rubber thickness of the pad.
+    shape_factor, k_factor : array
+        Shape factor S and the Gent-Lindley coefficient k of the pad.
+    second_moment_ratio : array
+        I / A^2 of the pad's section: 1 / (4 pi) for a disc (the default), 1 / 12 for
+        a square.
+    poisson_ratio : array
+        Of the rubber, for G = E / (2 (1 + nu)); 0.5 by default.
+
+    Returns
+    -------
+    array [N]
+        ``P_cr = (P_S / 2) (sqrt(1 + 4 P_E / P_S) - 1)``: the column buckling load of a
+        pad with both faces bonded to plates that stay parallel, its Euler load
+        ``P_E = pi^2 E_b I / h^2`` taken with the bending modulus
+        ``E_b = E (1 + (2/3) k S^2)`` and its shear stiffness ``P_S = G A`` (Haringx
+        1948; Gent 1964). For a short pad (``P_E >> P_S``) it tends to
+        ``sqrt(P_S P_E)``; for a slender one (``P_E << P_S``) to ``P_E``. It is always
+        below both ``P_E`` and ``sqrt(P_S P_E)``.
+
+    References
+    ----------
+    Haringx, J. A. (1948). Philips Res. Rep. 3, 401-449.
+    Gent, A. N. (1964). Elastic stability of rubber compression springs. J. Mech.
+    Eng. Sci. 6, 318-326.
+
+    Examples
+    --------
+    The shear flexibility lowers the load below the Euler load of the same pad:
+
+    >>> e, h = 3.0e6, 0.02
+    >>> a = 0.04 ** 2 * np.pi / 4.0  # a 40 mm disc, S = 0.5
+    >>> p = buckling_load(e, a, h, 0.5, 0.73)
+    >>> euler = np.pi**2 * e * (1 + 2 / 3 * 0.73 * 0.25) * a**2 / (4 * np.pi) / h**2
+    >>> bool(p < euler)
+    True
+    """
+    e = _positive("youngs_modulus", youngs_modulus, "Pa")
+    a = _positive("area", area, "m2")
+    h = _positive("thickness", thickness, "m")
+    s = _non_negative("shape_factor", shape_factor, "")
+    k = _positive("k_factor", k_factor, "")
+    nu = _poisson(poisson_ratio)
+    e_bend = e * (1.0 + (2.0 / 3.0) * k * s**2)
+    euler = np.pi**2 * e_bend * np.asarray(second_moment_ratio, dtype=float) * a**2 / h**2
+    shear = e / (2.0 * (1.0 + nu)) * a
+    return 0.5 * shear * (np.sqrt(1.0 + 4.0 * euler / shear) - 1.0)
 
 
 # --- dynamics -----------------------------------------------------------------------

@@ -30,6 +30,9 @@ class Checks:
     criteria: Criteria
     ev: Evaluation
     out: list[list[Failure]]
+    # Grades whose pad is too stiff for its size or cannot carry the load: the other
+    # mount checks say nothing of them (their figures follow from an unusable pad).
+    unusable_pad: np.ndarray | None = None
 
     @property
     def mres(self) -> MountResult:
@@ -39,6 +42,8 @@ class Checks:
 
     def fail(self, mask, make: Callable[[int], Failure], topic: str = "window") -> None:
         """Add ``make(k)`` to the failures of every grade k where ``mask`` is true."""
+        if topic == "mount" and self.unusable_pad is not None:
+            mask = np.asarray(mask, dtype=bool) & ~self.unusable_pad
         for k in np.flatnonzero(mask).tolist():
             failure = make(k)
             failure.topic = topic
@@ -140,7 +145,7 @@ def _window_extrapolation(c: Checks) -> None:
     c.fail(
         c.ev.extrapolated,
         lambda k: Failure(
-            "extrapolation", "the window reaches beyond the measured data", "not allowed"
+            "extrapolation", "the window reaches beyond the measured data (not allowed)", ""
         ),
     )
 
@@ -158,6 +163,24 @@ def _index_known(c: Checks) -> None:
             return Failure(f"index {name}", "unknown", "needs " + (", ".join(absent) or "data"))
 
         c.fail(missing | ~np.isfinite(c.ev.values[name]), unknown_index)
+
+
+# The verdict's own checks of the pad, reported in its plain words; the limits a user
+# sets (transmissibility, f/fn, amplification, static strain) are constraints of their own.
+_PAD_CHECKS = ("too_stiff", "cannot_carry", "too_soft", "stress", "buckling")
+
+
+@constraint("mount_pad", needs_mount=True)
+def _pad(c: Checks) -> None:
+    mres = c.mres
+    failing = mres.failing
+
+    def plain(name: str) -> Callable[[int], Failure]:
+        return lambda k: Failure(mres.reason(name, k), "", "")
+
+    for name in _PAD_CHECKS:
+        c.fail(failing[name], plain(name), "mount")
+    c.unusable_pad = failing["too_stiff"] | failing["cannot_carry"]
 
 
 @constraint("natural_frequency", needs_mount=True)
@@ -202,8 +225,8 @@ def _worst_place(c: Checks, values: np.ndarray, largest: bool) -> tuple[np.ndarr
     if values.ndim == 2:
         return worst, [f"at {temps[a]:g} °C" for a in place[0]]
     assert c.criteria.mount is not None  # mount checks run only with a mount design
-    dist = np.asarray(c.criteria.mount.disturbance_Hz, dtype=float)
-    where = [f"at {temps[a]:g} °C, {dist[b]:g} Hz" for a, b in zip(*place, strict=True)]
+    labels = c.criteria.mount.disturbance_labels()
+    where = [f"at {temps[a]:g} °C, {labels[b]}" for a, b in zip(*place, strict=True)]
     return worst, where
 
 
@@ -212,8 +235,7 @@ def _frequency_ratio(c: Checks) -> None:
     least = c.criteria.constraints.min_frequency_ratio
     if least is None:
         return
-    assert c.criteria.mount is not None
-    dist = np.asarray(c.criteria.mount.disturbance_Hz, dtype=float)
+    dist = c.mres.disturbance
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = dist[None, None, :] / c.mres.natural_frequency[:, :, None]
     worst, where = _worst_place(c, ratio, largest=False)
@@ -282,10 +304,9 @@ def _static_strain(c: Checks) -> None:
         strained = ~(strain <= limit)
 
     def strain_failure(k):
-        needs = f"<= {limit:g}"
-        if strain[k] > 1.0:
-            needs += "; above 1 the pad cannot carry the load at all"
-        return Failure("static strain incl. long-term sag", short_number(strain[k]), needs)
+        if np.isnan(strain[k]):
+            return Failure("static strain", "unknown", f"<= {limit:g}")
+        return Failure(mres.strain_text(k, limit), "", f"<= {limit:g}")
 
     c.fail(strained, strain_failure, "mount")
 
@@ -297,6 +318,6 @@ def _mount_extrapolation(c: Checks) -> None:
     # Reported once: a window that already needs extrapolation says so above.
     c.fail(
         c.mres.extrapolated.any(axis=1) & ~c.ev.extrapolated,
-        lambda k: Failure("extrapolation", MOUNT_EXTRAPOLATION, "not allowed"),
+        lambda k: Failure("extrapolation", f"{MOUNT_EXTRAPOLATION} (not allowed)", ""),
         "mount",
     )

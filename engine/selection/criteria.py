@@ -27,7 +27,7 @@ from pathlib import Path
 import numpy as np
 
 from engine.base.errors import CriteriaError, reject_unknown
-from engine.curves.mountcheck import MountDesign
+from engine.curves.mountcheck import MountDesign, default_mount
 from engine.curves.window import OperatingWindow
 from engine.physics.indices import AGGREGATES, IndexSpec, custom_index, resolve
 
@@ -223,7 +223,7 @@ class Criteria:
                 raise CriteriaError("screening_only applies to the isolation-mount design")
             object.__setattr__(self, "mount", None)
         elif self.design == "isolation_mount" and self.mount is None:
-            object.__setattr__(self, "mount", MountDesign())  # a mount is part of the case
+            object.__setattr__(self, "mount", default_mount())  # a mount is part of the case
         if not self.indices:
             defaults = SCREENING_INDICES if self.screening_only else DEFAULT_INDICES[self.design]
             object.__setattr__(self, "indices", tuple(IndexChoice(n, w, a) for n, w, a in defaults))

@@ -60,6 +60,9 @@ class _Reasons:
             if np.isfinite(worst) and "worst_transmissibility" not in self.shown:
                 effect = f"isolates {1.0 - worst:.0%}" if worst < 1.0 else "amplifies"
                 parts.append(f"worst T {short_number(worst)} ({effect})")
+            peak = r.mount_result.amplification[r.mount_index]
+            if np.isfinite(peak).any():
+                parts.append(f"run-up through resonance x{short_number(float(np.nanmax(peak)))}")
         if r.pareto:
             parts.append("Pareto-optimal")
         if r.extrapolated:

@@ -28,7 +28,13 @@ class Failure:
     topic: str = "window"
 
     def text(self) -> str:
-        return f"{self.constraint} {self.value} (needs {self.limit})"
+        """The failure as a reason reads: what, the value found, what was needed (a
+        blank value or limit is left out)."""
+        found = f" {self.value}" if self.value != "" else ""
+        if found and not self.limit:  # a statement, not a figure against a limit
+            found = f":{found}"
+        needs = f" (needs {self.limit})" if self.limit else ""
+        return f"{self.constraint}{found}{needs}"
 
 
 @dataclass
