@@ -277,6 +277,10 @@ def cmd_mount(args) -> int:
         "service_life_h": args.service_life_h,
         "harmonics": None if args.harmonics is None else tuple(args.harmonics),
         "working_strain": args.working_strain,
+        # Neither Hz nor rpm given: the design's default disturbance.
+        "disturbance_Hz": (
+            tuple(args.disturbance_hz or ()) if args.disturbance_hz or args.rpm else None
+        ),
     }
     design = MountDesign(
         layout=args.layout,
@@ -285,7 +289,6 @@ def cmd_mount(args) -> int:
         thickness_mm=args.thickness_mm,
         shape_factor=args.shape_factor,
         k_factor=args.k_factor,
-        disturbance_Hz=tuple(args.disturbance_hz or ()),
         disturbance_rpm=tuple(args.rpm or ()),
         target_fn_Hz=args.target_fn,
         **{k: v for k, v in optional.items() if v is not None},  # else the design's defaults
