@@ -11,7 +11,7 @@ from setuptools import setup
 from setuptools.command.build_py import build_py
 
 DEMO_SOURCE = Path("demo_materials")
-DEMO_FILES = ("catalog.csv", "sweeps.csv")
+DEMO_FILES = ("catalog.csv", "sweeps.csv", "amplitude.csv")
 DEMO_TARGET = Path("engine") / "demo_data"
 
 

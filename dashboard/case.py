@@ -25,10 +25,13 @@ Link keys (values with ``,`` between numbers)::
     mm  total mass [kg]   mc  pads   ma  pad area [mm2]   mh  rubber thickness [mm]
     ms  pad shape disc | square   msf shape factor   mk  k factor
     mt  target natural frequency [Hz] (0: no sizing)   md  disturbances f1,f2 [Hz]
+    mr  disturbance speeds r1,r2 [rpm]   mo  harmonic orders n1,n2 (1: the fundamental)
+    mw  working strain amplitude [-] (0: small strain, as measured)
     mst sizing temperature [degC]   ml  service life [h]
     g   comparison set id,id
 
-A limit the engine sets by default (tm, rr) that is switched off is written ``off``.
+A limit the engine sets by default (tm, rr) that is switched off is written ``off``, and
+so is ``md`` when the disturbances are given as speeds alone.
 """
 
 from __future__ import annotations
@@ -38,7 +41,13 @@ from collections.abc import Mapping
 from typing import Any
 
 from engine.base.errors import CriteriaError
-from engine.curves.mountcheck import SHAPES, MountDesign
+from engine.curves.mountcheck import (
+    MAX_HARMONIC,
+    MAX_WORKING_STRAIN,
+    SHAPES,
+    MountDesign,
+    default_mount,
+)
 from engine.curves.window import DutyPoint, OperatingWindow
 from engine.physics.indices import AGGREGATES, BUILT_IN
 from engine.selection.criteria import SCREENING_INDICES
@@ -87,6 +96,11 @@ HARDNESS_SHOWN = (30.0, 80.0)  # Shore A
 CUSTOM_NAME = "own_index"
 
 
+def _listed(values) -> str:
+    """Numbers as a list box shows them: ``24.7, 49.4`` (blank for none)."""
+    return ", ".join(f"{float(v):g}" for v in values)
+
+
 def _percent(share: float | None) -> float | None:
     """A share (0.8) as the percentage a box shows (80), rounded off the binary noise."""
     return None if share is None else round(100.0 * share, 9)
@@ -95,7 +109,7 @@ def _percent(share: float | None) -> float | None:
 def _defaults() -> dict:
     """The widget values of the engine's default criteria (its dataclasses' defaults)."""
     criteria = Criteria()
-    window, con, mount = criteria.window, criteria.constraints, MountDesign()
+    window, con, mount = criteria.window, criteria.constraints, default_mount()
     custom = IndexChoice(CUSTOM_NAME)
     return {
         "c_temp": tuple(float(v) for v in window.temp_range),
@@ -142,7 +156,10 @@ def _defaults() -> dict:
         "c_kf": mount.k_factor,
         "c_size_on": mount.target_fn_Hz is not None,
         "c_fn_target": float(mount.target_fn_Hz or SIZING_TARGET_HZ),
-        "c_dist": ", ".join(f"{f:g}" for f in mount.disturbance_Hz),
+        "c_dist": _listed(mount.disturbance_Hz),
+        "c_rpm": _listed(mount.disturbance_rpm),
+        "c_harm": [int(n) for n in mount.harmonics],
+        "c_work": mount.working_strain,
         "c_size_temp": float(mount.sizing_temp_C),
         "c_life": float(mount.service_life_h),
         "compare": [],
@@ -180,9 +197,15 @@ LOWER = {
     "c_kf": 0.0,
     "c_fn_target": 1e-3,
     "c_life": 1e-3,
+    "c_work": 0.0,  # 0: the small-strain values, as measured
     "c_cx_w": 0.0,
 }
-UPPER = {"c_fpoints": 500, "c_iso_min": 99.9}  # an efficiency of 100 % is no mount
+UPPER = {
+    "c_fpoints": 500,
+    "c_iso_min": 99.9,  # an efficiency of 100 % is no mount
+    "c_work": MAX_WORKING_STRAIN,
+}
+HARMONIC_ORDERS = tuple(range(1, MAX_HARMONIC + 1))  # the orders the sidebar offers
 # A limit the engine sets by default (tm, rr), switched off, is written so in the link.
 SWITCHED_OFF = "off"
 HARDNESS_SCALE = (0.0, 100.0)  # Shore A
@@ -228,16 +251,54 @@ def default_state() -> dict:
 # -- criteria ------------------------------------------------------------------------------
 
 
-def parse_numbers(text: str, what: str) -> list[float]:
-    """Numbers written with commas or spaces between them, e.g. ``24.7, 49.4``."""
+def parse_numbers(text: str, what: str, blank_ok: bool = False) -> list[float]:
+    """Numbers written with commas or spaces between them, e.g. ``24.7, 49.4``; with
+    ``blank_ok`` an empty text is the empty list."""
     parts = [p for p in str(text).replace(";", ",").replace(" ", ",").split(",") if p]
     try:
         values = [float(p) for p in parts]
     except ValueError:
         raise CriteriaError(f"{what}: '{text}' is not a list of numbers") from None
-    if not values:
+    if not all(math.isfinite(v) for v in values):
+        raise CriteriaError(f"{what}: '{text}' holds a value that is not a finite number")
+    if not values and not blank_ok:
         raise CriteriaError(f"{what}: give at least one number")
     return values
+
+
+# The mount inputs typed as text or picked from a list: the sidebar keeps their last
+# valid values (a bad entry is reported and undone), the link refuses bad ones.
+DISTURBANCE_KEYS = ("c_dist", "c_rpm", "c_harm")
+
+
+def _disturbances(state: Mapping) -> dict[str, Any]:
+    """The disturbance settings of a MountDesign from the widget values (unchecked)."""
+    harmonics = state.get("c_harm", DEFAULTS["c_harm"]) or ()
+    return {
+        "disturbance_Hz": tuple(
+            parse_numbers(state["c_dist"], "disturbance frequencies", blank_ok=True)
+        ),
+        "disturbance_rpm": tuple(
+            parse_numbers(state.get("c_rpm", ""), "disturbance speeds [rpm]", blank_ok=True)
+        ),
+        "harmonics": tuple(sorted({int(n) for n in harmonics})),
+    }
+
+
+def disturbance_problem(state: Mapping) -> str | None:
+    """Why the disturbances in ``state`` (Hz, rpm, harmonic orders) make no mount design,
+    in one line, or None when they do (the engine's MountDesign checks them)."""
+    try:
+        MountDesign(**_disturbances(state))
+    except (CriteriaError, TypeError, ValueError) as exc:
+        return str(exc)
+    return None
+
+
+def _working_strain(state: Mapping) -> float | None:
+    """The working strain amplitude [-]; blank or 0 means the small-strain values."""
+    value = _optional(state.get("c_work"))
+    return value if value else None
 
 
 def _optional(value):
@@ -336,7 +397,8 @@ def _mount(state: Mapping) -> MountDesign:
         shape=state["c_shape"],
         shape_factor=_optional(state.get("c_sf")),
         k_factor=_optional(state.get("c_kf")),
-        disturbance_Hz=tuple(parse_numbers(state["c_dist"], "disturbance frequencies")),
+        **_disturbances(state),
+        working_strain=_working_strain(state),
         target_fn_Hz=_optional(state["c_fn_target"]) if state.get("c_size_on") else None,
         sizing_temp_C=float(state["c_size_temp"]),
         service_life_h=float(state["c_life"]),
@@ -433,7 +495,10 @@ def state_from_criteria(criteria: Criteria) -> dict:
             c_kf=m.k_factor,
             c_size_on=m.target_fn_Hz is not None,
             c_fn_target=float(m.target_fn_Hz or DEFAULTS["c_fn_target"]),
-            c_dist=", ".join(f"{f:g}" for f in m.disturbance_Hz),
+            c_dist=_listed(m.disturbance_Hz),
+            c_rpm=_listed(m.disturbance_rpm),
+            c_harm=sorted({int(n) for n in m.harmonics}),
+            c_work=m.working_strain,
             c_size_temp=float(m.sizing_temp_C),
             c_life=float(m.service_life_h),
         )
@@ -531,13 +596,32 @@ def to_query(state: Mapping) -> dict[str, str]:
             put("mt", "c_fn_target")
         else:
             q["mt"] = _g(state["c_fn_target"])
-        if str(state["c_dist"]).strip() != d["c_dist"]:
-            q["md"] = ",".join(_g(v) for v in parse_numbers(state["c_dist"], "disturbances"))
+        _put_disturbances(q, state)
         put("mst", "c_size_temp")
         put("ml", "c_life")
     if state.get("compare"):
         q["g"] = ",".join(state["compare"])
     return q
+
+
+def _put_disturbances(q: dict[str, str], state: Mapping) -> None:
+    """The link codes md, mr, mo and mw of the case (those that differ from the defaults);
+    a list that does not parse is left out (the sidebar never holds one for long)."""
+    d = DEFAULTS
+    try:
+        parts = _disturbances(state)
+    except CriteriaError:
+        return
+    hz, rpm, orders = parts["disturbance_Hz"], parts["disturbance_rpm"], parts["harmonics"]
+    if _listed(hz) != d["c_dist"]:
+        q["md"] = ",".join(_g(v) for v in hz) if hz else SWITCHED_OFF
+    if _listed(rpm) != d["c_rpm"]:
+        q["mr"] = ",".join(_g(v) for v in rpm) if rpm else SWITCHED_OFF
+    if list(orders) != d["c_harm"]:
+        q["mo"] = ",".join(str(n) for n in orders)
+    strain = _working_strain(state)
+    if strain != d["c_work"]:
+        q["mw"] = SWITCHED_OFF if strain is None else _g(strain)
 
 
 def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
@@ -685,8 +769,21 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
             state["c_fn_target"] = value
 
     def disturbances(text):
-        values = parse_numbers(text, "disturbances")
-        state["c_dist"] = ", ".join(_g(v) for v in values)
+        blank = text == SWITCHED_OFF
+        state["c_dist"] = "" if blank else _listed(parse_numbers(text, "disturbances"))
+
+    def speeds(text):
+        blank = text == SWITCHED_OFF
+        state["c_rpm"] = "" if blank else _listed(parse_numbers(text, "speeds [rpm]"))
+
+    def orders(text):
+        values = parse_numbers(text, "harmonic orders")
+        if any(v not in HARMONIC_ORDERS for v in values):
+            raise ValueError(f"harmonic orders are whole numbers from 1 to {MAX_HARMONIC}")
+        state["c_harm"] = sorted({int(v) for v in values})
+
+    def working_strain(text):
+        state["c_work"] = None if text == SWITCHED_OFF else num(text)
 
     def compare(text):
         state["compare"] = [g for g in str(text).split(",") if g]
@@ -707,6 +804,14 @@ def from_query(params: Mapping[str, str]) -> tuple[dict, list[str]]:
     special("ms", shape)
     special("mt", target)
     special("md", disturbances)
+    special("mr", speeds)
+    special("mo", orders)
+    special("mw", working_strain)
+    problem = disturbance_problem(state)
+    if problem is not None:
+        notes.append(f"disturbances: {problem}; the default disturbance is used")
+        for key in DISTURBANCE_KEYS:
+            state[key] = default_state()[key]
     special("g", compare)
     defaults = default_state()
     for problem in out_of_range(state):

@@ -17,6 +17,7 @@ import plotly.graph_objects as go
 import streamlit as st
 
 from dashboard.charts.map import map_figure as draw_map
+from engine.api import working_sweeps
 from engine.curves.mastercurve import MasterCurve
 from engine.library.demo import DEMO_DIR
 from engine.library.fits import fit_library, master_curve
@@ -35,7 +36,12 @@ def load_demo_if_empty(library: Library) -> bool:
     """Import the invented demo grades into a library that has never held anything."""
     if library.materials(include_deleted=True) or library.imports():
         return False
-    import_files(library, [DEMO_DIR / "catalog.csv"], [DEMO_DIR / "sweeps.csv"])
+    import_files(
+        library,
+        [DEMO_DIR / "catalog.csv"],
+        [DEMO_DIR / "sweeps.csv"],
+        [DEMO_DIR / "amplitude.csv"],
+    )
     return True
 
 
@@ -74,7 +80,8 @@ def _ranked(location: str, version: int, criteria_key: str, _criteria: Criteria)
     found = _fit_store().get((location, version))
     curves, errors = found if found is not None else fit_library(library)
     materials = {m.id: m for m in library.materials()}
-    return rank(curves, materials, _criteria, errors)
+    sweeps = working_sweeps(library, _criteria)
+    return rank(curves, materials, _criteria, errors, amplitude_sweeps=sweeps)
 
 
 def ranking_key(library: Library, criteria: Criteria) -> str:

@@ -24,6 +24,7 @@ def apply_state(values: dict) -> None:
         st.session_state[key] = value
     st.session_state["c_duty_rev"] = st.session_state.get("c_duty_rev", 0) + 1
     st.session_state.pop("c_duty_now", None)
+    st.session_state.pop(MOUNT_MSG, None)
 
 
 def init_state() -> None:
@@ -290,6 +291,83 @@ def _indices() -> None:
     )
 
 
+# Last valid value of each disturbance input, kept so that a bad entry can be undone.
+KEPT = "_kept_"
+MOUNT_MSG = "_mount_msg"
+
+
+def _shown(value) -> str:
+    if isinstance(value, list):
+        return ", ".join(f"{n}x" for n in value) or "none"
+    return str(value).strip() or "blank"
+
+
+def _on_disturbance(key: str) -> None:
+    """A disturbance input changed: keep it if the disturbances still make a mount design,
+    else undo it to its last valid value and say why in one line."""
+    problem = case.disturbance_problem(st.session_state)
+    if problem is None:
+        st.session_state.pop(MOUNT_MSG, None)
+        return
+    kept = st.session_state.get(KEPT + key, case.DEFAULTS[key])
+    st.session_state[key] = list(kept) if isinstance(kept, list) else kept
+    st.session_state[MOUNT_MSG] = f"{problem}; kept {_shown(kept)}"
+
+
+def _disturbances(off: bool) -> None:
+    """Disturbances as frequencies and/or shaft speeds, the harmonic orders checked and
+    the working strain amplitude."""
+    if case.disturbance_problem(st.session_state) is None:
+        for key in case.DISTURBANCE_KEYS:
+            value = st.session_state.get(key, case.DEFAULTS[key])
+            st.session_state[KEPT + key] = list(value) if isinstance(value, list) else value
+    c1, c2 = st.columns(2)
+    c1.text_input(
+        "Disturbance [Hz]",
+        key="c_dist",
+        disabled=off,
+        on_change=_on_disturbance,
+        args=("c_dist",),
+        placeholder="none",
+        help="Frequencies of the disturbance, separated by commas; may be blank when "
+        "speeds are given.",
+    )
+    c2.text_input(
+        "Shaft speed [rpm]",
+        key="c_rpm",
+        disabled=off,
+        on_change=_on_disturbance,
+        args=("c_rpm",),
+        placeholder="none",
+        help="Speeds of the disturbing machine, separated by commas; each runs at speed / 60 Hz.",
+    )
+    st.multiselect(
+        "Harmonic orders",
+        options=list(case.HARMONIC_ORDERS),
+        format_func=lambda n: "1x (fundamental)" if n == 1 else f"{n}x",
+        key="c_harm",
+        disabled=off,
+        on_change=_on_disturbance,
+        args=("c_harm",),
+        help="Each disturbance (Hz and rpm) is checked at these multiples of its frequency.",
+    )
+    msg = st.session_state.get(MOUNT_MSG)
+    if msg:
+        st.warning(msg)
+    st.number_input(
+        "Working strain amplitude [-]",
+        min_value=case.LOWER["c_work"],
+        max_value=case.UPPER["c_work"],
+        format="%g",
+        step=0.01,
+        key="c_work",
+        placeholder="small strain, as measured",
+        disabled=off,
+        help="Dynamic strain amplitude of the pad in service, e.g. 0.05 for 5 %; blank or "
+        "0: the small-strain values of the DMA data.",
+    )
+
+
 def _mount() -> None:
     st.toggle(
         "Check a mount",
@@ -354,12 +432,7 @@ def _mount() -> None:
         key="c_size_temp",
         disabled=off or not st.session_state.get("c_size_on"),
     )
-    st.text_input(
-        "Disturbance frequencies [Hz]",
-        key="c_dist",
-        disabled=off,
-        help="One or more, separated by commas.",
-    )
+    _disturbances(off)
     st.number_input(
         "Service life for sag [h]",
         min_value=case.LOWER["c_life"],

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from engine.physics.mount import STANDARD_GRAVITY
 from engine.selection.ranking import GradeResult, RankResult
 
 
@@ -93,22 +94,27 @@ def shortlist_frame(result: RankResult) -> pd.DataFrame:
 
 
 def mount_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
-    """Sized pad, deflections and the mount checks of each grade."""
+    """Sized pad, the mount's key figures and its verdict, one row per grade.
+
+    The verdict's reasons and the notes are not repeated here: the Mount page gives them
+    once, beside each grade's verdict.
+    """
     grades = {g.id: g for g in result.grades}
     n_pass = len(result.shortlist)
     own_limit = result.criteria.constraints.max_static_strain
+    design = result.criteria.mount
+    load = None if design is None else design.mass_per_pad * STANDARD_GRAVITY
     rows = []
     for gid in ids:
         g = grades.get(gid)
         if g is None or g.mount is None:
             continue
         m = g.mount
-        mount_fails = [f.text() for f in g.failures if f.topic == "mount"]
-        if any(f.constraint == "extrapolation" and "mount" in str(f.value) for f in g.failures):
-            mount_fails.append("the mount check leaves the measured data")
+        ratio = m["dynamic_to_static_ratio"]
         rows.append(
             {
                 "grade": gid,
+                "mount verdict": m["verdict"],
                 "status": _status(g, n_pass),
                 "pad area [mm²]": m["area_mm2"],
                 "shape factor": m["shape_factor"],
@@ -118,13 +124,14 @@ def mount_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
                 "peak amplification at resonance": float(
                     np.nanmax(m["amplification_at_resonance"])
                 ),
+                "dynamic-to-static ratio": None if ratio is None else _span(ratio),
                 "static deflection [mm]": _span(m["static_deflection_mm"]),
                 "largest static strain": float(np.nanmax(m["static_strain"])),
                 "long-term sag [mm]": m["sag_mm"],
                 "sag strain": m["sag_strain"],
                 "strain limit": m["strain_limit"] if own_limit is None else own_limit,
-                "mount checks": "pass" if not mount_fails else "; ".join(mount_fails),
-                "notes": "; ".join(m["notes"]),
+                "load per pad [N]": load,
+                "buckling load per pad [N]": m["critical_load_N"],
             }
         )
     return pd.DataFrame(rows)

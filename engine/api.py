@@ -105,5 +105,14 @@ def rank_library(
     if not curves:
         raise FitError(f"no fitted grades in the library {library.location}")
     materials = {m.id: m for m in library.materials()}
-    result = rank(curves, materials, criteria, errors)
+    sweeps = working_sweeps(library, criteria)
+    result = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)
     return rank_spread(result, curves, materials) if intervals else result
+
+
+def working_sweeps(library: Library, criteria: Criteria, ids=None) -> dict | None:
+    """The library's strain-amplitude sweeps (of ``ids``, default all) when the case's
+    mount works at a given strain amplitude; None otherwise (nothing is read)."""
+    if criteria.mount is None or criteria.mount.working_strain is None:
+        return None
+    return library.amplitude_sweeps(ids)

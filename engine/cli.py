@@ -79,6 +79,7 @@ def cmd_load(args) -> int:
         f"{len(summary.materials_updated)}, added {len(summary.datasets_added)} data set(s)"
     ]
     lines += [f"  data set for {m}: {n} points" for m, n in summary.datasets_added]
+    lines += [f"  amplitude sweep for {m}: {n} points" for m, n in summary.amplitude_sweeps_added]
     lines += [f"  unchanged (already imported): {f}" for f in summary.files_skipped]
     _emit(args, summary.to_dict(), lines)
     return 0
@@ -305,6 +306,9 @@ def cmd_mount(args) -> int:
         known(material.poisson_ratio),
         known(material.hardness),
         bulk_modulus=known(material.bulk_modulus),
+        amplitude_sweeps=(
+            None if design.working_strain is None else lib.amplitude_sweeps([args.id])
+        ),
     )
     figs = res.grade(0)
     one_t = len(args.temp) == 1
@@ -441,6 +445,7 @@ def _criteria_from_args(args):
 
 
 def cmd_rank(args) -> int:
+    from engine.api import working_sweeps
     from engine.library.fits import fit_library
     from engine.selection.criteria import SCREENING_NOTE
     from engine.selection.ranking import rank
@@ -452,7 +457,9 @@ def cmd_rank(args) -> int:
     if not curves:
         raise QuietgradeError(f"no fitted grades in the library {lib.location}")
     materials = {m.id: m for m in lib.materials()}
-    result = rank_spread(rank(curves, materials, criteria, errors), curves, materials)
+    sweeps = working_sweeps(lib, criteria)
+    ranked = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)
+    result = rank_spread(ranked, curves, materials)
     if args.out:
         from engine.output.export import write_shortlist
 

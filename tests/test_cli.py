@@ -261,7 +261,7 @@ def test_demo_twice_is_idempotent(run_cli, tmp_path):
         ids = sorted(r["id"] for r in csv.DictReader(handle))
     assert sorted(a["materials_added"]) == ids
     assert b["materials_added"] == b["materials_updated"] == b["datasets_added"] == []
-    assert len(b["files_skipped"]) == 2
+    assert len(b["files_skipped"]) == 3  # catalog, sweeps, amplitude sweeps
     assert a["fitted"] == b["fitted"] and a["fit_errors"] == b["fit_errors"]
 
 

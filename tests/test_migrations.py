@@ -216,15 +216,17 @@ def test_failed_migration_leaves_the_library_as_it_was(tmp_path, monkeypatch, th
     path = v1_library(tmp_path / "lib.sqlite")
     data = path.read_bytes()
     before = tables(path)
-    # Migration 2 (which adds a column) runs and then migration 3 fails: both are undone.
-    monkeypatch.setattr(store, "SCHEMA_VERSION", 3)
+    # Migrations 2 and 3 (a column, a table) run and then the next one fails: all are
+    # undone.
+    failing = store.SCHEMA_VERSION + 1
+    monkeypatch.setattr(store, "SCHEMA_VERSION", failing)
     monkeypatch.setattr(
-        migrations, "MIGRATIONS", (*MIGRATIONS, Migration(3, "a step that fails", third))
+        migrations, "MIGRATIONS", (*MIGRATIONS, Migration(failing, "a step that fails", third))
     )
     with pytest.raises(LibraryError) as caught:
         Library(str(path))
     message = str(caught.value)
-    assert message.startswith(f"{path}: migration 3 (a step that fails) failed")
+    assert message.startswith(f"{path}: migration {failing} (a step that fails) failed")
     assert "left at schema version 1" in message and message.endswith(reason)
     assert path.read_bytes() == data and tables(path) == before
     assert sorted(tmp_path.iterdir()) == [path]  # no copy left behind, no journal
@@ -324,9 +326,12 @@ def test_upgrade_on_any_database(tmp_path, monkeypatch, backend):
 
     # A failing later step undoes migration 2's DDL as well (one transaction).
     with monkeypatch.context() as patch:
-        patch.setattr(store, "SCHEMA_VERSION", 3)
-        patch.setattr(migrations, "MIGRATIONS", (*MIGRATIONS, Migration(3, "fails", _fail_sql)))
-        with pytest.raises(LibraryError, match=r"migration 3 \(fails\) failed"):
+        failing = store.SCHEMA_VERSION + 1
+        patch.setattr(store, "SCHEMA_VERSION", failing)
+        patch.setattr(
+            migrations, "MIGRATIONS", (*MIGRATIONS, Migration(failing, "fails", _fail_sql))
+        )
+        with pytest.raises(LibraryError, match=rf"migration {failing} \(fails\) failed"):
             Library(url)
     assert "bulk_modulus" not in columns(engine)["materials"]
     files = [p.name for p in tmp_path.iterdir()]

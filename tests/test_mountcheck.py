@@ -44,6 +44,7 @@ from tests.helpers import flat_bank
 G0 = 9.80665  # standard gravity [m/s2], CGPM 1901
 TWO_PI = 2.0 * np.pi
 NO = np.array([np.nan])
+NO2 = np.array([np.nan, np.nan])
 
 
 def closed_fn(k, m):
@@ -780,3 +781,67 @@ def test_verdicts_of_many_grades_and_the_json(demo):
         assert len(figures["dynamic_to_static_ratio"]) == 3
         assert figures["static_stress_MPa"] == pytest.approx(45.0 * G0 / 2000e-6 * 1e-6)
         assert figures["stress_limit_MPa"] == 1.0
+
+
+# ------------------------------------------------------------------ working amplitude
+
+
+def _kraus_sweep(e0=6e6, e_inf=2e6, loss_inf=0.3e6, loss_max=0.9e6, strain_c=0.02, m=0.6):
+    from engine.physics.kraus import kraus_loss, kraus_storage
+
+    g = np.logspace(-4, -0.5, 14)
+    e1 = kraus_storage(g, e0, e_inf, strain_c, m)
+    e2 = kraus_loss(g, loss_inf, loss_max, strain_c, m)
+    return np.column_stack([g, e1, e2 / e1, np.full(g.size, 23.0), np.full(g.size, 10.0)])
+
+
+def test_working_strain_scales_the_dynamic_stiffness_by_the_kraus_ratio():
+    # A constant-modulus shear pad: fn = (1/2 pi) sqrt(c k / m) with c = E'(g)/E'(1e-3)
+    # of the Kraus (1984) model fitted to the grade's sweep, and T the hysteretic closed
+    # form (Snowdon 1968) with eta scaled by eta(g)/eta(1e-3). The static figures stay
+    # on the small-strain creep compliance.
+    from engine.physics.kraus import amplitude_factors, fit_kraus
+
+    sweep = _kraus_sweep()
+    bank = flat_bank([1e6, 1e6], [0.1, 0.1], "shear", ids=["SWEPT", "PLAIN"])
+    base = dict(layout="shear", mass_kg=180.0, mounts=4, area_mm2=2000, thickness_mm=10)
+    temps = np.array([23.0])
+    small = check_mounts(bank, MountDesign(**base), temps, NO2, NO2)
+    worked = check_mounts(
+        bank,
+        MountDesign(**base, working_strain=0.05),
+        temps,
+        NO2,
+        NO2,
+        amplitude_sweeps={"SWEPT": sweep},
+    )
+    fit = fit_kraus(sweep[:, 0], sweep[:, 1], sweep[:, 2])
+    c_storage, c_loss = amplitude_factors(fit, 0.05)
+    assert 0.3 < c_storage < 0.7 and c_loss > 1.5  # softer and lossier: the Payne effect
+    fn0 = small.natural_frequency[0, 0]
+    assert worked.natural_frequency[0, 0] == pytest.approx(fn0 * np.sqrt(c_storage), rel=1e-9)
+    assert worked.natural_frequency[1, 0] == pytest.approx(small.natural_frequency[1, 0])
+    r = 24.7 / worked.natural_frequency[0, 0]
+    eta = 0.1 * c_loss
+    t_closed = np.sqrt((1 + eta**2) / ((1 - r**2) ** 2 + eta**2))
+    assert worked.transmissibility[0, 0, 0] == pytest.approx(t_closed, rel=1e-6)
+    assert worked.static_strain[0, 0] == pytest.approx(small.static_strain[0, 0], rel=1e-12)
+    assert any(
+        n.startswith("at the working strain: amplitude sweep at 23 °C")
+        for n in worked.notes["SWEPT"]
+    )
+
+
+def test_a_filled_compound_without_a_sweep_is_noted():
+    # 50 Shore A and harder: filled (common practice); small-strain DMA overstates its
+    # stiffness at large amplitudes (the Payne effect, Kraus 1984).
+    bank = flat_bank([3e6, 3e6], [0.1, 0.1], "tensile", ids=["HARD", "SOFT"])
+    res = check_mounts(
+        bank,
+        MountDesign(area_mm2=2000, thickness_mm=25),
+        np.array([23.0]),
+        NO2,
+        np.array([60.0, 40.0]),
+    )
+    assert any(n.startswith("filled compound (60 Shore A)") for n in res.notes["HARD"])
+    assert not any("filled" in n for n in res.notes.get("SOFT", []))

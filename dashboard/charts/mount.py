@@ -1,5 +1,6 @@
-"""Figures of the Mount page: natural frequency, transmissibility and static strain of
-the comparison set against temperature, from the engine's MountResult."""
+"""Figures of the Mount page: natural frequency, transmissibility, amplification at
+resonance and static strain of the comparison set against temperature, from the engine's
+MountResult."""
 
 from __future__ import annotations
 
@@ -7,17 +8,30 @@ import numpy as np
 import plotly.graph_objects as go
 
 from dashboard.charts.common import TEMPLATE, tidy_log_axes
+from engine.curves.mountcheck import MAX_STATIC_STRAIN
 from engine.output.palette import FREQUENCY_DASHES, GUIDE, INK, WARN, WINDOW_BAND
 from engine.selection.ranking import RankResult
+
+# Up to this many disturbance frequencies the transmissibility chart draws one line per
+# frequency and grade (a dash per frequency); beyond, one line per grade: the worst.
+LINES_PER_DISTURBANCE = 3
+# The static-strain axis ends a little above the strain at which a pad cannot carry its
+# load at all: a sag of 40 would flatten every other line. Beyond it a sag is drawn at the
+# top with its value.
+STRAIN_AXIS_TOP = 1.2 * MAX_STATIC_STRAIN
 
 
 def mount_figures(
     result: RankResult, ids: list[str], colours: dict[str, str]
-) -> tuple[go.Figure, go.Figure, go.Figure]:
-    """Natural frequency, transmissibility and static deflection against temperature.
+) -> tuple[go.Figure, go.Figure, go.Figure, go.Figure]:
+    """Natural frequency, transmissibility, amplification at resonance (the run-up) and
+    static strain against temperature.
 
-    Drawn only for a ranking that checked a mount: the Mount page says so and draws
-    nothing when ``result.mount`` or ``result.criteria.mount`` is None.
+    The transmissibility is drawn at each disturbance frequency (a dash per frequency)
+    when there are at most :data:`LINES_PER_DISTURBANCE`, else as the worst over the
+    disturbances; its axis says which. Drawn only for a ranking that checked a mount:
+    the Mount page says so and draws nothing when ``result.mount`` or
+    ``result.criteria.mount`` is None.
     """
     mres = result.mount
     design = result.criteria.mount
@@ -26,12 +40,13 @@ def mount_figures(
     con = result.criteria.constraints
     temps = np.asarray(mres.temperatures, dtype=float)
     rows = {gid: k for k, gid in enumerate(mres.ids)}
-    fn_fig, tr_fig, sd_fig = go.Figure(), go.Figure(), go.Figure()
-    for f in mres.disturbance:
+    labels = design.disturbance_labels()
+    fn_fig, tr_fig, am_fig, sd_fig = go.Figure(), go.Figure(), go.Figure(), go.Figure()
+    for f, label in zip(mres.disturbance, labels, strict=True):
         fn_fig.add_hline(
             y=float(f),
             line={"color": WARN, "dash": "dash", "width": 1.2},
-            annotation_text=f"disturbance {f:g} Hz",
+            annotation_text=f"disturbance {label}",
             annotation_position="top left",
             annotation_font_size=10,
         )
@@ -82,7 +97,42 @@ def mount_figures(
                 showlegend=False,
             )
         )
+    limit = mres.strain_limit if con.max_static_strain is None else con.max_static_strain
+    shown = [rows[g] for g in ids if g in rows]
+    peaks = [np.nanmax(mres.static_strain[k], initial=0.0) for k in shown]
+    peaks += [mres.sag_strain[k] for k in shown if np.isfinite(mres.sag_strain[k])]
+    strain_top = min(max([1.5 * limit, *(1.1 * v for v in peaks)]), STRAIN_AXIS_TOP)
     single = mres.disturbance.size == 1
+    each = mres.disturbance.size <= LINES_PER_DISTURBANCE
+    if each and not single:
+        # A key to the dashes: one grey line per disturbance frequency, in the legend only.
+        for j, label in enumerate(labels):
+            tr_fig.add_trace(
+                go.Scatter(
+                    x=[None],
+                    y=[None],
+                    mode="lines",
+                    name=label,
+                    legendgroup="disturbances",
+                    line={"color": GUIDE, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
+                    hoverinfo="skip",
+                )
+            )
+    amp_limit = con.max_amplification
+    if amp_limit is not None:
+        am_fig.add_trace(
+            go.Scatter(
+                x=[temps.min(), temps.max()],
+                y=[amp_limit, amp_limit],
+                mode="lines+text",
+                line={"color": WARN, "dash": "dash", "width": 1.2},
+                text=[f"limit {amp_limit:g}", ""],
+                textposition="top right",
+                textfont={"size": 10},
+                hoverinfo="skip",
+                showlegend=False,
+            )
+        )
     for gid in ids:
         if gid not in rows:
             continue
@@ -99,22 +149,61 @@ def mount_figures(
                 hovertemplate=f"{gid}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>",
             )
         )
-        for j, f in enumerate(mres.disturbance):
+        trans = mres.transmissibility[k]
+        if each:
+            for j, label in enumerate(labels):
+                tr_fig.add_trace(
+                    go.Scatter(
+                        x=temps,
+                        y=trans[:, j],
+                        mode="lines+markers",
+                        name=gid,
+                        legendgroup=gid,
+                        showlegend=j == 0,
+                        line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
+                        marker={"size": 5},
+                        hovertemplate=(
+                            f"{gid} at {label}<br>T = %{{x:g}} °C<br>transmissibility "
+                            "%{y:.3g}<extra></extra>"
+                        ),
+                    )
+                )
+        else:
+            finite = np.isfinite(trans).any(axis=1)
+            at = np.argmax(np.where(np.isfinite(trans), trans, -np.inf), axis=1)
+            worst = np.where(finite, trans[np.arange(temps.size), at], np.nan)
             tr_fig.add_trace(
                 go.Scatter(
                     x=temps,
-                    y=mres.transmissibility[k][:, j],
+                    y=worst,
                     mode="lines+markers",
-                    name=gid if single else f"{gid} at {f:g} Hz",
+                    name=gid,
                     legendgroup=gid,
-                    line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
+                    line={"color": colour, "width": 2},
                     marker={"size": 5},
+                    customdata=[labels[j] for j in at],
                     hovertemplate=(
-                        f"{gid} at {f:g} Hz<br>T = %{{x:g}} °C<br>transmissibility %{{y:.3g}}"
-                        "<extra></extra>"
+                        f"{gid}<br>T = %{{x:g}} °C<br>worst transmissibility %{{y:.3g}} "
+                        "at %{customdata}<extra></extra>"
                     ),
                 )
             )
+        am_fig.add_trace(
+            go.Scatter(
+                x=temps,
+                y=mres.amplification[k],
+                mode="lines+markers",
+                name=gid,
+                legendgroup=gid,
+                line={"color": colour, "width": 2},
+                marker={"size": 5},
+                customdata=mres.natural_frequency[k],
+                hovertemplate=(
+                    f"{gid}<br>T = %{{x:g}} °C<br>amplification %{{y:.3g}} at fn "
+                    "%{customdata:.3g} Hz<extra></extra>"
+                ),
+            )
+        )
         sd_fig.add_trace(
             go.Scatter(
                 x=temps,
@@ -131,28 +220,32 @@ def mount_figures(
                 ),
             )
         )
+        sag = float(mres.sag_strain[k])
+        off_scale = sag > strain_top
         sd_fig.add_trace(
             go.Scatter(
                 x=[temps.max()],
-                y=[mres.sag_strain[k]],
-                mode="markers",
+                y=[strain_top if off_scale else sag],
+                mode="markers+text" if off_scale else "markers",
+                text=[f"{gid}: {sag:.3g}, off the scale"] if off_scale else None,
+                textposition="bottom left",
+                textfont={"size": 10, "color": colour},
                 legendgroup=gid,
                 showlegend=False,
                 name=f"{gid} with sag after {design.service_life_h:g} h",
                 marker={
                     "color": colour,
                     "size": 11,
-                    "symbol": "triangle-down-open",
+                    "symbol": "triangle-up-open" if off_scale else "triangle-down-open",
                     "line": {"width": 2},
                 },
-                customdata=[mres.sag[k] * 1e3],
+                customdata=[[sag, mres.sag[k] * 1e3]],
                 hovertemplate=(
-                    f"{gid}: strain %{{y:.3g}} (%{{customdata:.3g}} mm) after "
+                    f"{gid}: strain %{{customdata[0]:.3g}} (%{{customdata[1]:.3g}} mm) after "
                     f"{design.service_life_h:g} h at {temps.max():g} °C<extra></extra>"
                 ),
             )
         )
-    limit = mres.strain_limit if con.max_static_strain is None else con.max_static_strain
     sd_fig.add_hline(
         y=limit,
         line={"color": WARN, "dash": "dash"},
@@ -169,13 +262,30 @@ def mount_figures(
         yaxis_title="natural frequency fn [Hz]",
         legend=bottom,
     )
+    if single:
+        tr_title, tr_axis = f"Transmissibility at {labels[0]}", "transmissibility [-]"
+    elif each:
+        tr_title = "Transmissibility at each disturbance"
+        tr_axis = "transmissibility, a dash per disturbance [-]"
+    else:
+        tr_title = f"Worst transmissibility over the {len(labels)} disturbances"
+        tr_axis = f"worst transmissibility over {len(labels)} disturbances [-]"
     tr_fig.update_layout(
         template=TEMPLATE,
         height=460,
-        title="Transmissibility at the disturbance",
+        title=tr_title,
         xaxis_title="temperature [°C]",
-        yaxis={"type": "log", "title": {"text": "transmissibility [-]"}},
+        yaxis={"type": "log", "title": {"text": tr_axis}},
         legend=bottom,
+    )
+    am_fig.update_layout(
+        template=TEMPLATE,
+        height=460,
+        title="Amplification at resonance (run-up through fn)",
+        xaxis_title="temperature [°C]",
+        yaxis={"type": "log", "title": {"text": "transmissibility at fn [-]"}},
+        legend=bottom,
+        showlegend=True,  # name the grade even when it is the only line
     )
     sd_fig.update_layout(
         template=TEMPLATE,
@@ -184,8 +294,13 @@ def mount_figures(
         xaxis_title="temperature [°C]",
         yaxis={
             "title": {"text": "static strain (deflection / thickness) [-]"},
-            "rangemode": "tozero",
+            "range": [0.0, strain_top],
         },
         legend=bottom,
     )
-    return tidy_log_axes(fn_fig), tidy_log_axes(tr_fig), tidy_log_axes(sd_fig)
+    return (
+        tidy_log_axes(fn_fig),
+        tidy_log_axes(tr_fig),
+        tidy_log_axes(am_fig),
+        tidy_log_axes(sd_fig),
+    )

@@ -10,7 +10,7 @@ against the limits of :func:`check_mounts`.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import asdict, dataclass
 from functools import cached_property
 
@@ -18,6 +18,7 @@ import numpy as np
 
 from engine.base.blocks import in_blocks, per_worker
 from engine.base.errors import CriteriaError, reject_unknown
+from engine.curves.amplitude import amplitude_corrections
 from engine.curves.bank import CurveBank
 from engine.curves.window import poisson_or_default
 from engine.physics import mount
@@ -396,10 +397,11 @@ class MountResult:
             )
         trans = np.where(self.converged[k][:, None], self.transmissibility[k], np.nan)
         at_t, at_f = (int(v) for v in np.unravel_index(int(np.nanargmax(trans)), trans.shape))
-        return (
-            f"does not isolate: T = {trans[at_t, at_f]:.2f} at {self.disturbance[at_f]:g} Hz, "
-            f"{temps[at_t]:g} °C"
-        )
+        if self.design is not None:
+            where = self.design.disturbance_labels()[at_f]
+        else:
+            where = f"{self.disturbance[at_f]:g} Hz"
+        return f"does not isolate: T = {trans[at_t, at_f]:.2f} at {where}, {temps[at_t]:g} °C"
 
     def grade(self, k: int) -> dict:
         """JSON-ready figures of grade k (mm, Hz, MPa)."""
@@ -525,6 +527,44 @@ def _bulk(bulk_modulus, poisson, per_own, ids, notes):
     return found.value, found.source
 
 
+# Shore A hardness from which a compound is taken as filled (gum vulcanisates rarely
+# reach it; common practice): its small-strain stiffness overstates the working one.
+FILLED_HARDNESS = 50.0
+
+
+def _amplitude(design, sweeps, bank, hardness, notes) -> tuple[np.ndarray, np.ndarray]:
+    """Per grade, the factors that carry the small-strain storage modulus and loss factor
+    to the design's working strain amplitude (ones without a usable sweep), with notes."""
+    ids = list(bank.ids)
+    storage, loss = np.ones(len(ids)), np.ones(len(ids))
+    corrected = np.zeros(len(ids), dtype=bool)
+    if design.working_strain is not None and sweeps:
+        mine = {gid: sweeps[gid] for gid in ids if gid in sweeps}
+        modes = dict(zip(ids, np.asarray(bank.modes).tolist(), strict=True))
+        found, said = amplitude_corrections(mine, design.working_strain, modes)
+        for k, gid in enumerate(ids):
+            notes_k = said.get(gid, [])
+            if gid in found:
+                c = found[gid]
+                storage[k], loss[k], corrected[k] = c.storage_factor, c.loss_factor_factor, True
+                notes_k = [f"at the working strain: {c.source}", *notes_k]
+            if notes_k:
+                notes.setdefault(gid, []).extend(notes_k)
+    filled = np.asarray(hardness, dtype=float) >= FILLED_HARDNESS
+    if design.working_strain is None:
+        why = "checked at small strain"
+        fix = "give a working strain and an amplitude sweep"
+    else:
+        why = f"no usable amplitude sweep for the working strain {design.working_strain:g}"
+        fix = "import one"
+    for k in np.flatnonzero(filled & ~corrected).tolist():
+        notes.setdefault(ids[k], []).append(
+            f"filled compound ({float(hardness[k]):g} Shore A) {why}: the small-strain DMA "
+            f"stiffness overstates it at large amplitudes ({fix})"
+        )
+    return storage, loss
+
+
 def check_mounts(
     bank: CurveBank,
     design: MountDesign,
@@ -532,6 +572,7 @@ def check_mounts(
     poisson: np.ndarray,
     hardness: np.ndarray,
     bulk_modulus: np.ndarray | None = None,
+    amplitude_sweeps: Mapping[str, np.ndarray] | None = None,
 ) -> MountResult:
     """Mount check of every grade in ``bank`` at ``temperatures`` [degC].
 
@@ -547,6 +588,13 @@ def check_mounts(
         Catalog Poisson's ratio [-] and Shore A hardness; NaN where blank.
     bulk_modulus : array [MPa], one entry per grade, optional
         Catalog bulk modulus; NaN where blank. Omitted: blank for every grade.
+    amplitude_sweeps : mapping of grade id to array, optional
+        Strain-amplitude sweeps (``Library.amplitude_sweeps``). With a design
+        ``working_strain``, a grade's sweep, fitted with the Kraus model
+        (:mod:`engine.curves.amplitude`), scales its dynamic storage modulus and loss
+        factor to the working amplitude (fn, transmissibility, amplification and the
+        sizing; the static figures stay on the creep compliance). A grade of
+        `FILLED_HARDNESS` Shore A or more without a usable sweep gets a note.
 
     Returns
     -------
@@ -634,11 +682,12 @@ def check_mounts(
         side = np.sqrt(area)
         return mount.shape_factor_block(side, side, h)
 
+    amp_storage, amp_loss = _amplitude(design, amplitude_sweeps, bank, hardness, notes)
     area = np.full(n, design.area_mm2 * 1e-6)
     if design.target_fn_Hz is not None:
         ft = design.target_fn_Hz
         st, _, _ = bank.evaluate(np.array([design.sizing_temp_C]), np.array([ft]))
-        own = st[:, 0]
+        own = st[:, 0] * amp_storage  # sized on the stiffness at the working amplitude
         e_layout = own * to_layout
         if not compression:
             area = mount.size_pad_area(ft, m, h, e_layout)
@@ -679,8 +728,8 @@ def check_mounts(
     extrap = np.zeros((n, t.size), dtype=bool)
     vertical = bank.vertical_factor(np.arange(n)[:, None], t_rows)
     with np.errstate(divide="ignore", invalid="ignore"):
-        log_k = np.log10(per_modulus[:, None] * vertical)
-    softening = beta[:, None] * vertical
+        log_k = np.log10(per_modulus[:, None] * vertical * amp_storage[:, None])
+    softening = beta[:, None] * vertical * amp_storage[:, None]
     fn = np.empty((n, t.size))
     ok = np.empty((n, t.size), dtype=bool)
     # Grades whose stiffness is proportional to the modulus (beta = 0) are solved apart
@@ -704,16 +753,16 @@ def check_mounts(
             in_blocks(rows.size, solve, per_worker(rows.size))
     fn_safe = np.where(ok, fn, 1.0)
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
-    eta_fn = np.where(ok, ls_fn / st_fn, np.nan)
+    eta_fn = np.where(ok, ls_fn / st_fn, np.nan) * amp_loss[:, None]
     extrap |= x_fn
-    k_fn = pad_stiffness(st_fn)
+    k_fn = pad_stiffness(st_fn * amp_storage[:, None])
     amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
     dist = np.asarray(design.frequencies, dtype=float)
     f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
     st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
     extrap |= x_d.any(axis=2)
-    k_d = pad_stiffness(st_d)
-    trans = mount.transmissibility(f3, k_d, ls_d / st_d, m)
+    k_d = pad_stiffness(st_d * amp_storage[:, None, None])
+    trans = mount.transmissibility(f3, k_d, ls_d / st_d * amp_loss[:, None, None], m)
 
     # Static and long-term stiffness from the creep compliance J(t / aT).
     j_s, x_s = bank.compliance_rows(t_rows, STATIC_LOAD_TIME_S, shift=shift_rows)

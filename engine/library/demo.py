@@ -1,8 +1,9 @@
 """The invented demo grades of demo_materials/, loaded into a library.
 
 In a source checkout the files are read from ``demo_materials/`` beside the package; an
-installed package carries copies of the two files in ``engine/demo_data/`` (setup.py
-copies them when the wheel is built, so ``demo_materials/`` stays their one source).
+installed package carries copies of the files in ``engine/demo_data/`` (setup.py copies
+them when the wheel is built, so ``demo_materials/`` stays their one source). The
+strain-amplitude sweeps (``amplitude.csv``) are loaded where the folder has them.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from engine.library.importer import import_files
 from engine.library.store import ImportSummary, Library
 
 DEMO_FILES = ("catalog.csv", "sweeps.csv")
+DEMO_AMPLITUDE = "amplitude.csv"  # strain-amplitude sweeps of four filled grades
 
 
 def _demo_dir() -> Path:
@@ -28,5 +30,12 @@ DEMO_DIR = _demo_dir()
 
 
 def load_demo(library: Library) -> ImportSummary:
-    """Import the demo catalog and sweeps (idempotent: a second call changes nothing)."""
-    return import_files(library, [DEMO_DIR / "catalog.csv"], [DEMO_DIR / "sweeps.csv"])
+    """Import the demo catalog, sweeps and amplitude sweeps (idempotent: a second call
+    changes nothing)."""
+    amplitude = DEMO_DIR / DEMO_AMPLITUDE
+    return import_files(
+        library,
+        [DEMO_DIR / "catalog.csv"],
+        [DEMO_DIR / "sweeps.csv"],
+        [amplitude] if amplitude.is_file() else [],
+    )

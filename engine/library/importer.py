@@ -1,4 +1,8 @@
-"""Reading and validating catalog and sweep files (the import format of DESIGN.md).
+"""Reading and validating catalog, sweep and amplitude-sweep files.
+
+The catalog and sweep formats are those of DESIGN.md; the strain-amplitude sweep format
+is in docs/amplitude_sweeps.md. A file with a ``strain_amplitude`` column given among
+the sweep files is read as an amplitude sweep.
 
 Every problem is an :class:`~engine.base.errors.InputError` naming file, row and column.
 Rows are counted as a spreadsheet shows them: the header is row 1, the first data row
@@ -39,6 +43,15 @@ CATALOG_REQUIRED = ("id", *(f.name for f in CATALOG if f.required))
 # Optional catalog columns: name -> (expected unit or None, kind), from the field table
 CATALOG_OPTIONAL = {f.name: (f.header_unit, f.kind) for f in CATALOG if not f.required}
 SWEEP_REQUIRED = ("material", "temperature", "frequency", "storage_modulus")
+AMPLITUDE_REQUIRED = ("material", "temperature", "frequency", "strain_amplitude", "storage_modulus")
+STRAIN_UNITS = {"-": 1.0, "%": 0.01}  # strain amplitude as a fraction, or in percent
+AMPLITUDE_MIN_POINTS = 5  # fewest points of a grade's amplitude sweep (six-parameter fit)
+MAX_STRAIN_AMPLITUDE = 1.0  # 100 %: above it a value is taken for a unit mistake
+# Points of one grade's amplitude sweep count as one temperature within this band [K]
+# (the default isotherm tolerance of the master-curve fit) and as one frequency within
+# this relative band.
+AMPLITUDE_TEMPERATURE_BAND = 1.0
+AMPLITUDE_FREQUENCY_BAND = 0.01
 
 
 @dataclass
@@ -446,13 +459,26 @@ class ImportPlan:
     datasets: list[dict]
     skipped: list[str]
 
+    @property
+    def amplitude_sweeps(self) -> list[dict]:
+        """The amplitude sweeps the plan would write (carried by their files' entries)."""
+        return [s for f in self.files if f["kind"] == "amplitude" for s in f["sweeps"]]
+
 
 def plan_import(
     library: Library,
     catalogs: list[RawTable],
     sweeps: list[RawTable],
+    amplitude: Sequence[RawTable] = (),
 ) -> ImportPlan:
-    """Validate catalogs and sweeps against each other and the library; write nothing."""
+    """Validate catalogs and sweeps against each other and the library; write nothing.
+
+    Tables among ``sweeps`` that :func:`looks_like_amplitude` are read as amplitude
+    sweeps, as are those of ``amplitude``; each amplitude file's entry in
+    ``ImportPlan.files`` carries its validated sweeps (``"sweeps"``).
+    """
+    amplitude = [*amplitude, *(t for t in sweeps if looks_like_amplitude(t))]
+    sweeps = [t for t in sweeps if not looks_like_amplitude(t)]
     known_sha = library.known_sha256()
     ids = library.existing_ids()
     files: list[dict] = []
@@ -506,6 +532,25 @@ def plan_import(
             datasets.append(
                 {"material_id": mid, "file_key": key, "data_hash": data_hash(pts), "points": pts}
             )
+    for table in amplitude:
+        amp = parse_amplitude(table, ids)
+        if table.sha256 in known_sha:
+            skipped.append(table.file)
+            continue
+        files.append(
+            {
+                "key": f"amplitude:{len(files)}",
+                "file_name": Path(table.file).name,
+                "sha256": table.sha256,
+                "size_bytes": table.size_bytes,
+                "rows": amp.rows,
+                "kind": "amplitude",
+                "sweeps": [
+                    {"material_id": mid, "data_hash": data_hash(pts), "points": pts}
+                    for mid, pts in amp.by_material.items()
+                ],
+            }
+        )
     return ImportPlan(files, materials, datasets, skipped)
 
 
@@ -513,11 +558,17 @@ def import_files(
     library: Library,
     catalogs: Sequence[str | Path | RawTable] = (),
     sweeps: Sequence[str | Path | RawTable] = (),
+    amplitude: Sequence[str | Path | RawTable] = (),
 ):
-    """Validate and import files into ``library`` in one transaction (all or nothing)."""
+    """Validate and import files into ``library`` in one transaction (all or nothing).
+
+    Amplitude sweeps may be given in ``amplitude`` or among ``sweeps``, where they are
+    recognised by their ``strain_amplitude`` column.
+    """
     cat = [c if isinstance(c, RawTable) else read_table(c) for c in catalogs]
     swp = [s if isinstance(s, RawTable) else read_table(s) for s in sweeps]
-    plan = plan_import(library, cat, swp)
+    amp = [a if isinstance(a, RawTable) else read_table(a) for a in amplitude]
+    plan = plan_import(library, cat, swp, amp)
     summary = library.write_import(plan.files, plan.materials, plan.datasets)
     summary.files_skipped.extend(plan.skipped)
     return summary
@@ -527,6 +578,185 @@ def looks_like_catalog(table: RawTable) -> bool:
     """True when a table has the catalog's required columns and no sweep columns."""
     names = set(_columns(table))
     return set(CATALOG_REQUIRED) <= names and "storage_modulus" not in names
+
+
+def looks_like_amplitude(table: RawTable) -> bool:
+    """True when a table has a ``strain_amplitude`` column (``strain amplitude`` too)."""
+    return "strain_amplitude" in _amplitude_columns(table, check=False)
+
+
+# -- strain-amplitude sweeps (docs/amplitude_sweeps.md) -----------------------------------
+
+
+def _amplitude_columns(table: RawTable, check: bool = True) -> dict[str, tuple[str, str | None]]:
+    """Like :func:`_columns`, with spaces in names read as underscores."""
+    out: dict[str, tuple[str, str | None]] = {}
+    for h in table.headers:
+        name, unit = split_header(h)
+        key = "_".join(name.split())
+        if check and key in out:
+            raise InputError(
+                f"column '{key}' appears twice (as '{out[key][0]}' and '{h}')",
+                file=table.file,
+                column=h,
+            )
+        out[key] = (h, unit)
+    return out
+
+
+@dataclass
+class AmplitudeData:
+    """Validated points of one amplitude-sweep file, in internal units, by grade."""
+
+    file: str
+    # id -> n x 5 (strain [-], storage [Pa], loss factor [-], degC, Hz), by strain
+    by_material: dict[str, np.ndarray]
+    rows: int
+
+
+def _strain_unit(table: RawTable, header: str, unit: str | None) -> float:
+    """The factor that turns the strain column into a fraction."""
+    if unit is None or unit.strip() not in STRAIN_UNITS:
+        given = "no unit" if unit is None else f"unit '{unit}'"
+        raise InputError(
+            f"{given} for the strain amplitude; write 'strain_amplitude [-]' for a fraction "
+            "(0.01 for 1 %) or 'strain_amplitude [%]'",
+            file=table.file,
+            column=header,
+        )
+    return STRAIN_UNITS[unit.strip()]
+
+
+def parse_amplitude(table: RawTable, known_ids: set[str]) -> AmplitudeData:
+    """Validate a strain-amplitude sweep table against the grades in ``known_ids``.
+
+    One row per point: ``material``, ``temperature [unit]``, ``frequency [unit]``,
+    ``strain_amplitude [-]`` or ``[%]``, ``storage_modulus [unit]`` and one of
+    ``loss_factor`` or ``loss_modulus [unit]`` (docs/amplitude_sweeps.md). Each grade
+    needs at least :data:`AMPLITUDE_MIN_POINTS` points at one temperature and one
+    frequency, spanning at least one decade of strain.
+    """
+    cols = _amplitude_columns(table)
+    f = table.file
+    for name in AMPLITUDE_REQUIRED:
+        if name not in cols:
+            raise InputError(
+                f"missing required column '{name}' (an amplitude sweep needs: "
+                f"{', '.join(AMPLITUDE_REQUIRED)}, and loss_factor or loss_modulus)",
+                file=f,
+            )
+    if "loss_factor" not in cols and "loss_modulus" not in cols:
+        raise InputError(
+            "missing column: one of 'loss_factor' or 'loss_modulus [unit]' is required",
+            file=f,
+        )
+    h_id = cols["material"][0]
+    ids = table.frame[h_id]
+    blank = (ids == "").to_numpy()
+    if blank.any():
+        raise InputError("blank cell; a value is required", file=f, row=_first(blank), column=h_id)
+    unknown = ~ids.isin(known_ids).to_numpy()
+    if unknown.any():
+        row = _first(unknown)
+        raise InputError(
+            f"unknown grade id '{ids.iloc[row - 2]}': not in the catalog or the library",
+            file=f,
+            row=row,
+            column=h_id,
+        )
+    h_t, u_t = cols["temperature"]
+    h_f, u_f = cols["frequency"]
+    h_g, u_g = cols["strain_amplitude"]
+    h_s, u_s = cols["storage_modulus"]
+    t_unit = _unit(table, "temperature", h_t, u_t, TEMPERATURE_UNITS)
+    f_unit = _unit(table, "frequency", h_f, u_f, FREQUENCY_UNITS)
+    g_factor = _strain_unit(table, h_g, u_g)
+    s_unit = _unit(table, "storage_modulus", h_s, u_s, tuple(MODULUS_UNITS))
+    temperature = temperature_to_c(_numbers(table, h_t, required=True), t_unit)
+    below = temperature < ABSOLUTE_ZERO_C
+    if below.any():
+        row = _first(below)
+        raise InputError(
+            f"{table.frame[h_t].iloc[row - 2]} {t_unit} is below absolute zero",
+            file=f,
+            row=row,
+            column=h_t,
+        )
+    frequency = frequency_to_hz(_numbers(table, h_f, required=True), f_unit)
+    _positive(table, h_f, frequency, "frequencies must be positive")
+    strain = _numbers(table, h_g, required=True) * g_factor
+    _positive(table, h_g, strain, "strain amplitudes must be positive")
+    large = strain > MAX_STRAIN_AMPLITUDE
+    if large.any():
+        row = _first(large)
+        raise InputError(
+            f"{table.frame[h_g].iloc[row - 2]} is a strain amplitude above 100 %; "
+            f"is the column in percent? then write '{split_header(h_g)[0]} [%]'",
+            file=f,
+            row=row,
+            column=h_g,
+        )
+    storage = modulus_to_pa(_numbers(table, h_s, required=True), s_unit)
+    _positive(table, h_s, storage, "moduli must be positive")
+    if "loss_factor" in cols:
+        h_e, u_e = cols["loss_factor"]
+        if u_e is not None and u_e.strip() not in ("-", ""):
+            raise InputError(
+                f"unit '{u_e}' for the loss factor; it has none: write 'loss_factor' or "
+                "'loss_factor [-]'",
+                file=f,
+                column=h_e,
+            )
+        eta = _numbers(table, h_e, required=True)
+        _positive(table, h_e, eta, "loss factors of an amplitude sweep must be positive")
+    else:
+        h_l, u_l = cols["loss_modulus"]
+        l_unit = _unit(table, "loss_modulus", h_l, u_l, tuple(MODULUS_UNITS))
+        loss = modulus_to_pa(_numbers(table, h_l, required=True), l_unit)
+        _positive(table, h_l, loss, "loss moduli of an amplitude sweep must be positive")
+        eta = loss / storage
+    points = np.column_stack([strain, storage, eta, temperature, frequency])
+    codes, uniques = pd.factorize(ids)
+    by_material = {}
+    for k, mid in enumerate(uniques):
+        rows = np.nonzero(codes == k)[0]
+        first_row = int(rows[0]) + 2
+        if rows.size < AMPLITUDE_MIN_POINTS:
+            raise InputError(
+                f"grade '{mid}' has {rows.size} point(s) in the amplitude sweep; the Kraus "
+                f"fit needs at least {AMPLITUDE_MIN_POINTS}",
+                file=f,
+                row=first_row,
+                column=h_id,
+            )
+        sel = points[rows]
+        t0, f0 = sel[0, 3], sel[0, 4]
+        for col, header, off, what, unit in (
+            (3, h_t, np.abs(sel[:, 3] - t0) > AMPLITUDE_TEMPERATURE_BAND, "temperature", "degC"),
+            (4, h_f, np.abs(sel[:, 4] / f0 - 1) > AMPLITUDE_FREQUENCY_BAND, "frequency", "Hz"),
+        ):
+            if off.any():
+                i = int(rows[int(np.argmax(off))])
+                raise InputError(
+                    f"grade '{mid}' has more than one {what} in the amplitude sweep "
+                    f"({sel[0, col]:g} and {points[i, col]:g} {unit}); an amplitude sweep is "
+                    f"taken at one temperature and one frequency",
+                    file=f,
+                    row=i + 2,
+                    column=header,
+                )
+        lo, hi = sel[:, 0].min(), sel[:, 0].max()
+        if hi < 10.0 * lo:
+            i = int(rows[int(np.argmax(sel[:, 0]))])
+            raise InputError(
+                f"grade '{mid}': the amplitude sweep spans strains {lo:g} to {hi:g}, less "
+                "than one decade; the Kraus fit needs at least one decade",
+                file=f,
+                row=i + 2,
+                column=h_g,
+            )
+        by_material[str(mid)] = sel[np.argsort(sel[:, 0], kind="stable")]
+    return AmplitudeData(f, by_material, table.frame.shape[0])
 
 
 # -- arbitrary instrument exports ---------------------------------------------------------

@@ -10,7 +10,7 @@ accept.
 Examples
 --------
 >>> [(m.number, m.description) for m in MIGRATIONS]
-[(2, 'add the bulk_modulus column to materials')]
+[(2, 'add the bulk_modulus column to materials'), (3, 'add the amplitude_sweeps table')]
 >>> import sqlalchemy as sa
 >>> add_column_ddl(sa.create_engine("sqlite://").dialect, "materials",
 ...                sa.Column("bulk_modulus", sa.Float))
@@ -49,8 +49,30 @@ def _add_bulk_modulus(conn: sa.Connection) -> None:
     add_column(conn, "materials", sa.Column("bulk_modulus", sa.Float))  # [MPa]
 
 
+def _add_amplitude_sweeps(conn: sa.Connection) -> None:
+    """The table of strain-amplitude sweeps, as schema version 3 defines it."""
+    metadata = sa.MetaData()
+    # The imports table as it stands at version 3, only so that the foreign key resolves.
+    sa.Table("imports", metadata, sa.Column("import_id", sa.Integer, primary_key=True))
+    table = sa.Table(
+        "amplitude_sweeps",
+        metadata,
+        sa.Column("sweep_id", sa.Integer, primary_key=True, autoincrement=True),
+        sa.Column("material_id", sa.String(200), nullable=False, index=True),
+        sa.Column("import_id", sa.Integer, sa.ForeignKey("imports.import_id"), nullable=False),
+        sa.Column("data_hash", sa.String(64), nullable=False),
+        sa.Column("n_points", sa.Integer, nullable=False),
+        # float64 little-endian, n x 5: strain [-], storage modulus [Pa], loss factor [-],
+        # temperature [degC], frequency [Hz]
+        sa.Column("points", sa.LargeBinary, nullable=False),
+        sa.Column("created_at", sa.String(32), nullable=False),
+    )
+    table.create(conn, checkfirst=True)
+
+
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(2, "add the bulk_modulus column to materials", _add_bulk_modulus),
+    Migration(3, "add the amplitude_sweeps table", _add_amplitude_sweeps),
 )
 
 

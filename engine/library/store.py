@@ -3,7 +3,9 @@
 SQLAlchemy 2 Core over SQLite by default (a file path), or any database URL. Measured
 points of a data set are kept as one binary column (float64, little-endian, columns
 temperature [degC], frequency [Hz], storage modulus [Pa], loss factor [-]) so that a
-large import is one insert per data set.
+large import is one insert per data set. A strain-amplitude sweep is kept the same way
+in its own table (columns strain amplitude [-], storage modulus [Pa], loss factor [-],
+temperature [degC], frequency [Hz]).
 
 The catalog columns come from the one table of catalog fields,
 :mod:`engine.base.fields`. A library written by an older quietgrade is brought up to
@@ -34,7 +36,7 @@ from engine.library import migrations
 
 log = logging.getLogger(__name__)
 
-SCHEMA_VERSION = 2  # the last of engine.library.migrations.MIGRATIONS
+SCHEMA_VERSION = 3  # the last of engine.library.migrations.MIGRATIONS
 
 CATALOG_FIELDS = fields.FIELD_NAMES  # the catalog columns, in table order
 MODES = fields.MODES
@@ -104,6 +106,21 @@ datasets_table = sa.Table(
     sa.Column("deleted_at", sa.String(32)),
 )
 
+# Strain-amplitude sweeps (docs/amplitude_sweeps.md), one row per grade and import; the
+# newest of a grade is the one used. Created for older libraries by migration 3.
+amplitude_table = sa.Table(
+    "amplitude_sweeps",
+    _metadata,
+    sa.Column("sweep_id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("material_id", sa.String(200), nullable=False, index=True),
+    sa.Column("import_id", sa.Integer, sa.ForeignKey("imports.import_id"), nullable=False),
+    sa.Column("data_hash", sa.String(64), nullable=False),
+    sa.Column("n_points", sa.Integer, nullable=False),
+    sa.Column("points", sa.LargeBinary, nullable=False),  # n x AMPLITUDE_COLUMNS
+    sa.Column("created_at", sa.String(32), nullable=False),
+)
+AMPLITUDE_COLUMNS = 5  # strain [-], storage modulus [Pa], loss factor [-], degC, Hz
+
 fits_table = sa.Table(
     "fits",
     _metadata,
@@ -143,8 +160,8 @@ def points_to_blob(points: np.ndarray) -> bytes:
     return np.ascontiguousarray(points, dtype="<f8").tobytes()
 
 
-def blob_to_points(blob: bytes) -> np.ndarray:
-    return np.frombuffer(blob, dtype="<f8").reshape(-1, 4).copy()
+def blob_to_points(blob: bytes, columns: int = 4) -> np.ndarray:
+    return np.frombuffer(blob, dtype="<f8").reshape(-1, columns).copy()
 
 
 def _checked_catalog_changes(material_id: str, changes: dict, old: dict) -> dict:
@@ -252,18 +269,23 @@ class DataSet:
 
 @dataclass
 class ImportSummary:
-    """What an import did: materials added or updated, data sets added, files skipped."""
+    """What an import did: materials added or updated, data sets and amplitude sweeps
+    added, files skipped."""
 
     materials_added: list[str] = field(default_factory=list)
     materials_updated: list[str] = field(default_factory=list)
     datasets_added: list[tuple[str, int]] = field(default_factory=list)  # (material, points)
     files_skipped: list[str] = field(default_factory=list)
+    amplitude_sweeps_added: list[tuple[str, int]] = field(default_factory=list)
 
     def to_dict(self) -> dict:
         return {
             "materials_added": self.materials_added,
             "materials_updated": self.materials_updated,
             "datasets_added": [{"material": m, "points": n} for m, n in self.datasets_added],
+            "amplitude_sweeps_added": [
+                {"material": m, "points": n} for m, n in self.amplitude_sweeps_added
+            ],
             "files_skipped": self.files_skipped,
         }
 
@@ -503,6 +525,45 @@ class Library:
             ).scalar_one()
         return newest, blob_to_points(blob)
 
+    def amplitude_sweeps(self, ids: Iterable[str] | None = None) -> dict[str, np.ndarray]:
+        """The newest strain-amplitude sweep of each grade that has one.
+
+        Parameters
+        ----------
+        ids : iterable of str, optional
+            Grade ids to read; by default every grade of the library. Deleted grades and
+            grades without a sweep are left out.
+
+        Returns
+        -------
+        dict of str to ndarray
+            Grade id -> n x 5 array, columns strain amplitude [-], storage modulus [Pa]
+            (in the grade's mode), loss factor [-], temperature [degC], frequency [Hz],
+            in order of strain.
+        """
+        a, m = amplitude_table, materials_table
+        query = (
+            sa.select(a.c.material_id, a.c.points)
+            .join(m, m.c.id == a.c.material_id)
+            .where(m.c.deleted_at.is_(None))
+            .order_by(a.c.material_id, a.c.sweep_id)
+        )
+        blobs: dict[str, bytes] = {}
+        with self.engine.connect() as conn:
+            if ids is None:
+                blobs.update({mid: blob for mid, blob in conn.execute(query)})
+            else:
+                wanted = sorted(set(ids))
+                for start in range(0, len(wanted), 500):
+                    chunk = wanted[start : start + 500]
+                    rows = conn.execute(query.where(a.c.material_id.in_(chunk)))
+                    blobs.update({mid: blob for mid, blob in rows})
+        out = {}
+        for mid, blob in blobs.items():
+            points = blob_to_points(blob, AMPLITUDE_COLUMNS)
+            out[mid] = points[np.argsort(points[:, 0], kind="stable")]
+        return out
+
     def imports(self) -> list[dict]:
         with self.engine.connect() as conn:
             rows = conn.execute(sa.select(imports_table).order_by(imports_table.c.import_id))
@@ -539,6 +600,13 @@ class Library:
             the history table.
         datasets : list of dict
             ``{"material_id", "file_key", "data_hash", "points"}`` (points n x 4).
+
+        Notes
+        -----
+        A file of kind ``"amplitude"`` carries its validated strain-amplitude sweeps
+        under ``"sweeps"``: ``{"material_id", "data_hash", "points"}`` each (points
+        n x 5, see the module doc). A grade's sweep is added unless its newest stored
+        sweep holds the same points.
         """
         summary = ImportSummary()
         now = _now()
@@ -625,9 +693,61 @@ class Library:
                 summary.datasets_added.append((d["material_id"], int(d["points"].shape[0])))
             if new_sets:
                 conn.execute(datasets_table.insert(), new_sets)
-            if summary.materials_added or summary.materials_updated or summary.datasets_added:
+            self._write_amplitude(conn, files, import_ids, now, summary)
+            if (
+                summary.materials_added
+                or summary.materials_updated
+                or summary.datasets_added
+                or summary.amplitude_sweeps_added
+            ):
                 self._bump(conn)
         return summary
+
+    @staticmethod
+    def _write_amplitude(conn, files, import_ids, now, summary: ImportSummary) -> None:
+        """Insert the amplitude sweeps the ``"amplitude"`` files of an import carry."""
+        sweeps = [
+            (import_ids[f["key"]], s)
+            for f in files
+            if f["kind"] == "amplitude"
+            for s in f.get("sweeps", ())
+        ]
+        if not sweeps:
+            return
+        a = amplitude_table
+        wanted = sorted({s["material_id"] for _, s in sweeps})
+        newest: dict[str, str] = {}
+        for start in range(0, len(wanted), 500):
+            rows = conn.execute(
+                sa.select(a.c.material_id, a.c.data_hash)
+                .where(a.c.material_id.in_(wanted[start : start + 500]))
+                .order_by(a.c.sweep_id)
+            )
+            newest.update({mid: h for mid, h in rows})
+        inserts = []
+        for import_id, s in sweeps:
+            if newest.get(s["material_id"]) == s["data_hash"]:
+                continue
+            newest[s["material_id"]] = s["data_hash"]
+            points = np.asarray(s["points"], dtype=float)
+            if points.ndim != 2 or points.shape[1] != AMPLITUDE_COLUMNS:
+                raise LibraryError(
+                    f"amplitude sweep of '{s['material_id']}': points must be n x "
+                    f"{AMPLITUDE_COLUMNS}, not {points.shape}"
+                )
+            inserts.append(
+                {
+                    "material_id": s["material_id"],
+                    "import_id": import_id,
+                    "data_hash": s["data_hash"],
+                    "n_points": int(points.shape[0]),
+                    "points": points_to_blob(points),
+                    "created_at": now,
+                }
+            )
+            summary.amplitude_sweeps_added.append((s["material_id"], int(points.shape[0])))
+        if inserts:
+            conn.execute(a.insert(), inserts)
 
     def update_catalog(self, material_id: str, changes: dict, reason: str = "edited") -> None:
         """Change catalog fields of one grade; the previous row goes to the history."""

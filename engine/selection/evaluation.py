@@ -134,12 +134,18 @@ class Evaluation:
     mount: MountResult | None
 
 
-def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criteria) -> Evaluation:
+def evaluate_grades(
+    bank: CurveBank,
+    materials: list[Material],
+    criteria: Criteria,
+    amplitude_sweeps: Mapping[str, np.ndarray] | None = None,
+) -> Evaluation:
     """Window properties, index values and the mount check of every grade in ``bank``.
 
     ``materials`` are the catalog rows of the bank's grades, in its order (an id may
     appear more than once: only the catalog fields are read). Every figure of a grade
-    depends on that grade alone.
+    depends on that grade alone. ``amplitude_sweeps`` (by bank id) carry the mount check
+    to the design's working strain amplitude.
     """
     n = len(bank.ids)
     window = criteria.window
@@ -157,6 +163,7 @@ def evaluate_grades(bank: CurveBank, materials: list[Material], criteria: Criter
             catalog["poisson_ratio"],
             catalog["hardness"],
             bulk_modulus=catalog["bulk_modulus"],
+            amplitude_sweeps=amplitude_sweeps,
         )
     whole = {
         "storage_modulus": props.storage.reshape(n, -1),

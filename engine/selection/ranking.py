@@ -62,24 +62,27 @@ def rank(
     criteria: Criteria,
     fit_errors: dict[str, str] | None = None,
     bank: CurveBank | None = None,
+    amplitude_sweeps: dict[str, np.ndarray] | None = None,
 ) -> RankResult:
     """Evaluate, constrain, score and order every grade with a master curve.
 
     ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
+    ``amplitude_sweeps`` (``Library.amplitude_sweeps``) carry the mount check to the
+    mount design's working strain amplitude; they are kept on the result.
     The rank intervals from the draws of the fits are a further step,
     :func:`engine.selection.spread.rank_spread`.
     """
     with collector_paused():
-        return _rank(curves, materials, criteria, fit_errors, bank)
+        return _rank(curves, materials, criteria, fit_errors, bank, amplitude_sweeps or {})
 
 
-def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
+def _rank(curves, materials, criteria, fit_errors, bank, sweeps) -> RankResult:
     ids = [i for i in curves if i in materials]
     if bank is None or bank.ids != ids:
         bank = CurveBank.from_curves({i: curves[i] for i in ids})
     mats = [materials[i] for i in ids]
     n = len(ids)
-    ev = evaluate_grades(bank, mats, criteria)
+    ev = evaluate_grades(bank, mats, criteria, sweeps)
     specs, values, mres = ev.specs, ev.values, ev.mount
 
     # -- constraints -----------------------------------------------------------------
@@ -154,6 +157,7 @@ def _rank(curves, materials, criteria, fit_errors, bank) -> RankResult:
         mount=mres,
         created_at=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         fit_errors=dict(fit_errors or {}),
+        amplitude_sweeps=sweeps,
     )
     write_reasons(result)
     return result

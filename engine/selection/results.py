@@ -96,6 +96,8 @@ class RankResult:
     engine_version: str = __version__
     fit_errors: dict[str, str] = field(default_factory=dict)
     spread: RankSpread | None = None  # how the intervals were made (engine.selection.spread)
+    # The strain-amplitude sweeps the mount check used (grade id -> array), if any.
+    amplitude_sweeps: dict = field(default_factory=dict)
 
     @property
     def shortlist(self) -> list[GradeResult]:

@@ -221,13 +221,15 @@ def rank_spread(
     if not lead or k_draws == 0:
         return out
     n = len(lead)
-    stacked, rows = {}, []
+    stacked, rows, sweeps = {}, [], {}
     for k in range(k_draws):
         for gid, draws in zip(ids, draw_lists, strict=True):
             stacked[f"{k}:{gid}"] = draws[k % len(draws)] if draws else curves[gid]
             rows.append(materials[gid])
+            if gid in result.amplitude_sweeps:
+                sweeps[f"{k}:{gid}"] = result.amplitude_sweeps[gid]
     criteria = out.criteria
-    ev = evaluate_grades(CurveBank.from_curves(stacked), rows, criteria)
+    ev = evaluate_grades(CurveBank.from_curves(stacked), rows, criteria, sweeps)
     raw = raw_scores(ev.values, criteria).reshape(k_draws, n)
     failures = constraint_failures(criteria, ev)
     passes = np.array([not f for f in failures]).reshape(k_draws, n)
