@@ -17,8 +17,10 @@ from engine.output.rows import (
     PROVENANCE_COLUMNS,
     RANK_INTERVAL_COLUMNS,
     WINDOW_COLUMNS,
+    comment_line,
     criteria_rows,
     finite,
+    formula_safe,
     index_columns,
     interval_columns,
     interval_heading,
@@ -44,7 +46,12 @@ def write_shortlist(
 ) -> Path:
     """Write the shortlist to ``path``; the extension (.csv, .xlsx, .html) picks the format.
 
-    The parent folder is created when missing. Every format carries the caution.
+    The parent folder is created when missing. Every format carries the caution. Text
+    from data is never live in the file: in the CSV a text cell or a field of a ``#``
+    line that a spreadsheet would run as a formula gets a leading ``'``
+    (:func:`~engine.output.rows.formula_safe`, :func:`~engine.output.rows.comment_line`);
+    the workbook stores text as text; the report escapes it for HTML and for the
+    charts' labels (:func:`engine.output.mapfigure.plot_text`).
 
     Parameters
     ----------
@@ -114,8 +121,10 @@ __all__ = [
     "PROVENANCE_COLUMNS",
     "WINDOW_COLUMNS",
     "RANK_INTERVAL_COLUMNS",
+    "comment_line",
     "criteria_rows",
     "finite",
+    "formula_safe",
     "index_columns",
     "interval_columns",
     "interval_heading",

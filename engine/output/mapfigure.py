@@ -14,7 +14,6 @@ here are axis geometry (the guide lines, their labels and the feasible region).
 
 from __future__ import annotations
 
-import html
 from collections.abc import Collection, Mapping, Sequence
 
 import numpy as np
@@ -50,10 +49,23 @@ READING = (
 )
 
 
+_PLOT_ENTITIES = str.maketrans(
+    {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&#34;", "'": "&#39;", "%": "&#37;", "$": "&#36;"}
+)
+
+
 def plot_text(value) -> str:
-    """Text from data for a Plotly label or hover template: HTML-escaped (Plotly reads
-    labels as HTML-like markup) with ``%`` written as an entity (a template's marker)."""
-    return html.escape("" if value is None else str(value), quote=True).replace("%", "&#37;")
+    """Text from data for a Plotly label or hover template, shown as it is written.
+
+    On one line (runs of white space, line breaks included, become one space, as Plotly
+    shows them), with ``& < >`` written as entities (Plotly reads labels as HTML-like
+    markup: ``<b>``, ``<a href>``, ``<br>``...), and quotes, ``%`` (so ``%{x}`` is not a
+    template's placeholder) and ``$`` (Plotly typesets ``$...$`` as LaTeX where MathJax
+    is on the page) too. Plotly shows the entities as the characters: ``&amp;``,
+    ``&lt;``, ``&gt;`` and numeric ones (it knows no ``&quot;``).
+    """
+    text = " ".join(("" if value is None else str(value)).split())
+    return text.translate(_PLOT_ENTITIES)
 
 
 def ranking_colours(result: RankResult) -> dict[str, str]:

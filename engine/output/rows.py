@@ -21,15 +21,21 @@ text cells always quoted, and after the data a few lines that start with ``#``: 
 quietgrade version and date, how the intervals were made (or that they were not),
 grades that could not be ranked, and last the caution.
 ``pandas.read_csv(path, comment="#")`` reads the file back to exactly the grade rows; a
-spreadsheet shows the ``#`` lines below the table. Text cells that begin with ``=``,
-``+``, ``-``, ``@``, a tab or a carriage return get a leading ``'`` so that no
-spreadsheet runs them as a formula (common practice).
+spreadsheet shows the ``#`` lines below the table. No text becomes a live formula in a
+spreadsheet (:func:`formula_safe`, :func:`comment_line`; common practice): a text cell
+that begins with ``=``, ``+``, ``-``, ``@``, a tab, a carriage return or a NUL, at once or
+after white space, gets a leading ``'``, and so does each part of it after a semicolon, a
+tab or a line break (where a spreadsheet that splits at semicolons or tabs starts a new
+cell); a plain number (``-20``, ``-1.5e-3``) is left as it is. A ``#`` line is one line,
+and each field a spreadsheet splits out of it at a comma or a semicolon is defused the
+same way.
 """
 
 from __future__ import annotations
 
 import io
 import math
+import re
 
 import numpy as np
 from scipy.interpolate import make_interp_spline
@@ -39,7 +45,12 @@ from engine.library.store import Library
 from engine.selection.criteria import SCREENING_NOTE
 from engine.selection.ranking import RankResult
 
-FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\0")
+_PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*")
+# Where a spreadsheet may start a new cell inside a quoted text cell (one that splits at
+# semicolons or tabs reads the quotes as text), and inside an unquoted "#" line.
+_CELL_BREAK = re.compile(r"([;\t\r\n]+)")
+_FIELD_BREAK = re.compile(r"([,;])")
 
 
 # -- rows --------------------------------------------------------------------------------
@@ -543,10 +554,54 @@ def csv_cell(value) -> str:
         return str(value)
     if isinstance(value, float):
         return "" if not math.isfinite(value) else f"{value:.6g}"
-    text = str(value)
-    if text.startswith(FORMULA_START):
-        text = "'" + text
+    text = formula_safe(str(value))
     return '"' + text.replace('"', '""') + '"'
+
+
+def _starts_formula(text: str) -> bool:
+    """Whether a spreadsheet could run ``text`` as a formula: it begins with one of
+    :data:`FORMULA_START`, at once or after white space, and is not a plain number."""
+    opens = text.startswith(FORMULA_START) or text.lstrip().startswith(FORMULA_START)
+    return opens and not _PLAIN_NUMBER.fullmatch(text)
+
+
+def _defused(field: str, quote: bool = False) -> str:
+    """A field a spreadsheet splits out, with a ``'`` after its leading white space where
+    it would begin a formula (or, with ``quote``, a quoted field)."""
+    body = field.lstrip()
+    if _starts_formula(body) or (quote and body.startswith('"')):
+        return field[: len(field) - len(body)] + "'" + body
+    return field
+
+
+def formula_safe(text: str) -> str:
+    """A text cell that no spreadsheet runs as a formula (common practice).
+
+    A leading ``'`` where the text begins a formula (one of :data:`FORMULA_START`, at
+    once or after white space, and not a plain number such as ``-20`` or ``-1.5e-3``),
+    and the same after each semicolon, tab or line break inside it, where a spreadsheet
+    that splits at semicolons or tabs starts a new cell. Other text is unchanged.
+    """
+    if _starts_formula(text):
+        text = "'" + text
+    pieces = _CELL_BREAK.split(text)
+    for k in range(2, len(pieces), 2):  # the parts after a break
+        pieces[k] = _defused(pieces[k])
+    return "".join(pieces)
+
+
+def comment_line(text: str) -> str:
+    """``text`` as one ``# ...`` line after the CSV table, safe in a spreadsheet.
+
+    The line is one line (runs of white space, line breaks included, become one space),
+    and each field a spreadsheet splits out of it at a comma or a semicolon gets a ``'``
+    after its leading spaces where it would begin a formula (as in :func:`formula_safe`)
+    or a quoted field (a ``"``, which could swallow the lines after it).
+    """
+    pieces = _FIELD_BREAK.split(_one_line(text))
+    for k in range(2, len(pieces), 2):  # the fields after the first, which starts "#"
+        pieces[k] = _defused(pieces[k], quote=True)
+    return "# " + "".join(pieces)
 
 
 def shortlist_csv(result: RankResult) -> bytes:
@@ -558,5 +613,5 @@ def shortlist_csv(result: RankResult) -> bytes:
     for row in rows:
         out.write(",".join(csv_cell(row[h]) for h in header) + "\r\n")
     for line in _trailer_lines(result):
-        out.write(f"# {line}\r\n")
+        out.write(comment_line(line) + "\r\n")
     return ("\ufeff" + out.getvalue()).encode("utf-8")

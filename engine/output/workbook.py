@@ -6,7 +6,9 @@ Built on the rows of :mod:`engine.output.export` (see its notes for the layers o
 Layout: on every sheet row 1 holds the sheet note and the caution, row 2 the bold frozen
 headers and the data start in row 3 (``pandas.read_excel(path, sheet, header=1)``).
 Numbers stay numbers, shown to about three significant figures; text is always stored
-as text, never as a formula.
+as text, never as a formula, on every sheet: a text that a spreadsheet would read as a
+formula (:func:`engine.output.rows.formula_safe`) is also marked with the cell style's
+quote prefix, so that editing the cell keeps it text.
 """
 
 from __future__ import annotations
@@ -26,6 +28,7 @@ from engine.output.rows import (
     WINDOW_COLUMNS,
     criteria_rows,
     finite,
+    formula_safe,
     intervals_note,
     provenance_rows,
     shortlist_header,
@@ -67,8 +70,7 @@ def _sheet(wb: Workbook, title: str, header: list[str], rows: list[dict], note: 
     for j in range(ncol + 1, span + 1):
         ws.column_dimensions[get_column_letter(j)].width = 14
         widths.append(14)
-    first = ws.cell(row=1, column=1, value=_text(preface))
-    first.data_type = "s"
+    first = _put(ws, 1, 1, preface)
     first.alignment = Alignment(wrap_text=True, vertical="top")
     first.font = _NOTE_FONT
     ws.merge_cells(start_row=1, start_column=1, end_row=1, end_column=span)
@@ -76,8 +78,7 @@ def _sheet(wb: Workbook, title: str, header: list[str], rows: list[dict], note: 
     lines = sum(math.ceil(max(len(part), 1) / per_line) for part in preface.split("\n"))
     ws.row_dimensions[1].height = 15.0 * lines + 4
     for j, h in enumerate(header, start=1):
-        cell = ws.cell(row=2, column=j, value=_text(h))
-        cell.data_type = "s"
+        cell = _put(ws, 2, j, h)
         cell.font = _HEAD_FONT
         cell.fill = _HEAD_FILL
         cell.alignment = Alignment(wrap_text=True, vertical="bottom")
@@ -91,9 +92,11 @@ def _text(value) -> str:
     return ILLEGAL_CHARACTERS_RE.sub(" ", str(value))
 
 
-def _put(ws, row: int, col: int, value, wrap: bool = False) -> None:
+def _put(ws, row: int, col: int, value, wrap: bool = False):
+    """Write one cell (nothing for None): a number as a number, anything else as text,
+    never as a formula. Returns the cell, or None."""
     if value is None:
-        return
+        return None
     if isinstance(value, bool):
         value = yes_no(value)
     if isinstance(value, int | float):
@@ -101,10 +104,26 @@ def _put(ws, row: int, col: int, value, wrap: bool = False) -> None:
         if isinstance(value, float) and math.isfinite(value):
             cell.number_format = _number_format(value)
     else:
-        cell = ws.cell(row=row, column=col, value=_text(value))
+        text = _text(value)
+        cell = ws.cell(row=row, column=col, value=text)
         cell.data_type = "s"  # text stays text, even when it begins with "="
+        if formula_safe(text)[:1] == "'" != text[:1]:  # text that begins a formula
+            cell.quotePrefix = True  # as a spreadsheet marks text typed after a "'"
     if wrap:
         cell.alignment = Alignment(wrap_text=True, vertical="top")
+    return cell
+
+
+def _number_or_text(value):
+    """A failure's value: a number where it is one, its text written as a number
+    ("0.0512"), else the text ("T = 1.4 at 20 °C")."""
+    if not isinstance(value, str):
+        return finite(value)
+    try:
+        number = float(value)
+    except ValueError:
+        return value
+    return number if math.isfinite(number) else value
 
 
 def shortlist_xlsx(result: RankResult, library: Library | None = None) -> bytes:
@@ -140,7 +159,7 @@ def shortlist_xlsx(result: RankResult, library: Library | None = None) -> bytes:
                     "family": g.family,
                     "price [per kg]": finite(g.price),
                     "constraint": f.constraint,
-                    "value": f.value if isinstance(f.value, str) else finite(f.value),
+                    "value": _number_or_text(f.value),
                     "limit needed": f.limit,
                 }
             )
