@@ -21,6 +21,7 @@ BENCHES = [
     "bench.bench_library",
     "bench.bench_rank",
     "bench.bench_dashboard",
+    "bench.fuzz_import",
 ]
 
 

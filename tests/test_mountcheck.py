@@ -32,8 +32,8 @@ from engine.curves.mountcheck import (
     SLENDER_SHAPE_FACTOR,
     STATIC_LOAD_TIME_S,
     MountDesign,
-    _k_factors,
     check_mounts,
+    grade_k_factors,
 )
 from engine.library.fits import fit_library
 from engine.physics import mount
@@ -169,7 +169,7 @@ def test_k_factor_from_hardness_and_its_notes():
 def test_k_factor_falls_back_when_neither_hardness_nor_modulus_is_known():
     # 0.73 (the Gent & Lindley row at 50 Shore A, from memory) with a note.
     notes: dict = {}
-    k = _k_factors(np.array([np.nan]), None, ["X"], notes, lambda: np.array([np.nan]))
+    k = grade_k_factors(np.array([np.nan]), None, ["X"], notes, lambda: np.array([np.nan]))
     assert FALLBACK_K_FACTOR == 0.73 and k[0] == FALLBACK_K_FACTOR
     assert any("hardness unknown" in n for n in notes["X"])
 

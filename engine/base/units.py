@@ -100,3 +100,56 @@ def modulus_to_pa(values, unit: str) -> np.ndarray:
 def c_to_k(temperature_c):
     """degC to kelvin."""
     return np.asarray(temperature_c, dtype=float) - ABSOLUTE_ZERO_C
+
+
+# -- catalog units ------------------------------------------------------------------------
+
+POUND_IN_KG = 0.45359237  # international avoirdupois pound (NIST SP 811, exact)
+FOOT_IN_M = 0.3048  # international foot (NIST SP 811, exact)
+# Density to kg/m3: the factor per unit
+DENSITY_UNITS = {"kg/m3": 1.0, "g/cm3": 1000.0, "lb/ft3": POUND_IN_KG / FOOT_IN_M**3}
+# Price basis to "per kg": the factor that turns a price per unit into a price per kg
+PRICE_UNITS = {"per kg": 1.0, "per tonne": 1e-3, "per lb": 1.0 / POUND_IN_KG}
+HARDNESS_UNITS = ("Shore A",)
+
+_DENSITY_ALIASES = {
+    "kg/m3": "kg/m3",
+    "kg/m^3": "kg/m3",
+    "kg/m³": "kg/m3",
+    "kg m-3": "kg/m3",
+    "g/cm3": "g/cm3",
+    "g/cm^3": "g/cm3",
+    "g/cm³": "g/cm3",
+    "g/cc": "g/cm3",
+    "g/ml": "g/cm3",
+    "g cm-3": "g/cm3",
+    "lb/ft3": "lb/ft3",
+    "lb/ft^3": "lb/ft3",
+    "lb/ft³": "lb/ft3",
+    "lb/cu ft": "lb/ft3",
+    "pcf": "lb/ft3",
+}
+_PRICE_BASIS = {"kg": "per kg", "tonne": "per tonne", "t": "per tonne", "lb": "per lb"}
+# "per kg", "/kg", "EUR/kg", "USD per tonne", "$/lb": an optional currency, then the basis
+_PRICE = re.compile(r"^\s*(?:[^\s/\d]{1,4}\s*)?(?:/|per\s+)\s*(?P<basis>[a-z]+)\s*$")
+
+
+def density_unit(unit: str) -> str | None:
+    """Canonical density unit (a key of DENSITY_UNITS), or None when unknown."""
+    return _DENSITY_ALIASES.get(unit.strip().lower().replace(" / ", "/"))
+
+
+def price_unit(unit: str) -> str | None:
+    """Canonical price basis (a key of PRICE_UNITS), or None when unknown.
+
+    >>> price_unit("EUR/kg"), price_unit("per tonne"), price_unit("per m")
+    ('per kg', 'per tonne', None)
+    """
+    match = _PRICE.match(unit.strip().lower())
+    return _PRICE_BASIS.get(match.group("basis")) if match else None
+
+
+def hardness_unit(unit: str) -> str | None:
+    """Canonical hardness scale (one of HARDNESS_UNITS), or None for any other scale."""
+    key = "".join(unit.replace("_", "").replace("-", "").split()).lower()
+    return "Shore A" if key in ("shorea", "sha") else None

@@ -454,7 +454,7 @@ HARDNESS_READ_FREQ_HZ = 1.0 / (2.0 * np.pi * 3.0)
 HARDNESS_MISMATCH_POINTS = 15.0
 
 
-def _k_factors(
+def grade_k_factors(
     hardness: np.ndarray,
     given: float | None,
     ids: list[str],
@@ -663,7 +663,7 @@ def check_mounts(
             own, _, _ = bank.evaluate(*at, loss=False)
             return own[:, 0] * to_layout  # to_layout is the tensile basis here
 
-        k_fac = _k_factors(hardness, design.k_factor, ids, notes, read_modulus)
+        k_fac = grade_k_factors(hardness, design.k_factor, ids, notes, read_modulus)
         blank = np.full(n, np.nan) if bulk_modulus is None else np.asarray(bulk_modulus, float)
         bulk, bulk_source = _bulk(blank, np.asarray(poisson, float), to_layout, ids, notes)
         scales = bulk_source == mount.BULK_FROM_POISSON  # K per unit own modulus

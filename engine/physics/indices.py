@@ -53,6 +53,9 @@ WINDOW_QUANTITIES = (
     "eta_threshold",
     "natural_frequency",
     "transmissibility",
+    "system_highest_mode",
+    "system_worst_transmissibility",
+    "system_mode_drift",
 )
 AGGREGATES = ("worst", "mean", "weighted", "best")
 
@@ -81,6 +84,7 @@ class IndexSpec:
     formula: Formula | None = None
     window: Callable[[Mapping], np.ndarray] | None = None
     needs_mount: bool = False  # a window index of the checked mount
+    needs_system: bool = False  # a window index of the checked mount system (6 dof)
 
 
 def _q(q, name):
@@ -194,6 +198,49 @@ _register(
         "disturbing force the mount keeps from the structure (common practice).",
         window=lambda w: 1.0 - _row_max(w["transmissibility"]),
         needs_mount=True,
+    )
+)
+_register(
+    IndexSpec(
+        "system_highest_mode",
+        "highest system mode",
+        "Hz",
+        False,
+        "window",
+        (),
+        "The highest of the six rigid-body modes of the mount system over the window's "
+        "temperatures: isolation starts at sqrt(2) times it (Harris & Piersol 2002).",
+        window=lambda w: w["system_highest_mode"],
+        needs_system=True,
+    )
+)
+_register(
+    IndexSpec(
+        "system_worst_transmissibility",
+        "worst system transmissibility",
+        "-",
+        False,
+        "window",
+        (),
+        "The largest ratio of the force the mounts pass to the ground to the disturbing "
+        "force, over the window's temperatures and the disturbances, from the six-degree-"
+        "of-freedom forced response (Harris & Piersol 2002).",
+        window=lambda w: w["system_worst_transmissibility"],
+        needs_system=True,
+    )
+)
+_register(
+    IndexSpec(
+        "system_mode_drift",
+        "system mode drift",
+        "-",
+        False,
+        "window",
+        (),
+        "The largest, over the six modes tracked by shape, of max f / min f over the "
+        "window's temperatures: how far the system's modes wander with temperature.",
+        window=lambda w: w["system_mode_drift"],
+        needs_system=True,
     )
 )
 _register(

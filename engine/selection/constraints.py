@@ -321,3 +321,32 @@ def _mount_extrapolation(c: Checks) -> None:
         lambda k: Failure("extrapolation", f"{MOUNT_EXTRAPOLATION} (not allowed)", ""),
         "mount",
     )
+
+
+@constraint("mount_system")
+def _mount_system(c: Checks) -> None:
+    """The mount system's verdict (six degrees of freedom): every mode at least the
+    case's frequency ratio below each disturbance, no transmissibility of 1 or more, and
+    no extrapolated modulus unless allowed; each failure in plain words."""
+    systems = c.ev.system
+    if systems is None:
+        return
+    allow = c.criteria.constraints.allow_extrapolation
+    reasons: list[list[str]] = []
+    for s in systems:
+        if isinstance(s, str):
+            reasons.append([s])
+            continue
+        found = s.failures()
+        if not allow and s.extrapolated.any() and not found:
+            found = ["mount system: the moduli it needs leave the measured data (not allowed)"]
+        reasons.append(found)
+
+    def plain(text: str) -> Callable[[int], Failure]:
+        return lambda k: Failure(text, "", "")
+
+    for k, texts in enumerate(reasons):
+        only = np.zeros(len(reasons), dtype=bool)
+        only[k] = True
+        for text in texts:
+            c.fail(only, plain(text), "mount")

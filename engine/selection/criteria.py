@@ -28,6 +28,7 @@ import numpy as np
 
 from engine.base.errors import CriteriaError, reject_unknown
 from engine.curves.mountcheck import MountDesign, default_mount
+from engine.curves.system import MountSystem
 from engine.curves.window import OperatingWindow
 from engine.physics.indices import AGGREGATES, IndexSpec, custom_index, resolve
 
@@ -44,6 +45,12 @@ DEFAULT_INDICES = {
     "damping_layer": [("loss_modulus", 1.0, "worst"), ("damping_span", 1.0, "worst")],
     "general": [("loss_factor", 1.0, "mean"), ("stiffness_drift", 1.0, "worst")],
 }
+# An isolation design checked as a whole mount system (six degrees of freedom).
+SYSTEM_INDICES = [
+    ("loss_factor", 1.0, "worst"),
+    ("system_mode_drift", 1.0, "worst"),
+    ("system_worst_transmissibility", 1.0, "worst"),
+]
 # An isolation design without a mount is a material screening: no mount figures.
 SCREENING_INDICES = [("loss_factor", 1.0, "worst"), ("stiffness_drift", 1.0, "worst")]
 SCREENING_NOTE = "material screening only: no mount was checked, so isolation is not shown"
@@ -184,6 +191,9 @@ class Criteria:
         Limits a grade must meet.
     mount : MountDesign, optional
         The mount checked at every window temperature.
+    system : MountSystem, optional
+        A machine on N mounts checked in six degrees of freedom (isolation mounts
+        only); it takes the place of the one-pad default mount.
     pareto : (str, str), optional
         Two chosen indices whose Pareto front is flagged.
     eta_threshold : float
@@ -211,6 +221,7 @@ class Criteria:
     pareto: tuple[str, str] | None = None
     eta_threshold: float = 0.2  # for the damping temperature span
     screening_only: bool = False  # an isolation design ranked without a mount
+    system: MountSystem | None = None
 
     def __post_init__(self) -> None:
         if self.design not in DESIGN_TYPES:
@@ -222,10 +233,16 @@ class Criteria:
             if self.design != "isolation_mount":
                 raise CriteriaError("screening_only applies to the isolation-mount design")
             object.__setattr__(self, "mount", None)
+            object.__setattr__(self, "system", None)
+        elif self.system is not None:
+            if self.design != "isolation_mount":
+                raise CriteriaError("a mount system applies to the isolation-mount design")
         elif self.design == "isolation_mount" and self.mount is None:
             object.__setattr__(self, "mount", default_mount())  # a mount is part of the case
         if not self.indices:
             defaults = SCREENING_INDICES if self.screening_only else DEFAULT_INDICES[self.design]
+            if self.system is not None and self.mount is None:
+                defaults = SYSTEM_INDICES
             object.__setattr__(self, "indices", tuple(IndexChoice(n, w, a) for n, w, a in defaults))
         names = [c.name for c in self.indices]
         if len(set(names)) != len(names):
@@ -241,6 +258,8 @@ class Criteria:
             spec = c.spec()  # unknown names and bad formulas fail here
             if spec.needs_mount and self.mount is None:
                 raise CriteriaError(f"index '{c.name}' needs a mount design")
+            if spec.needs_system and self.system is None:
+                raise CriteriaError(f"index '{c.name}' needs a mount system")
             if c.aggregate == "weighted" and not self.window.duty_points:
                 raise CriteriaError(
                     f"index '{c.name}': the 'weighted' aggregation needs duty points"
@@ -283,6 +302,7 @@ class Criteria:
             "pareto": None if self.pareto is None else list(self.pareto),
             "eta_threshold": self.eta_threshold,
             "screening_only": self.screening_only,
+            "system": None if self.system is None else self.system.to_dict(),
         }
 
     @classmethod
@@ -298,6 +318,7 @@ class Criteria:
             "pareto",
             "eta_threshold",
             "screening_only",
+            "system",
         }
         reject_unknown(data, known, "criteria setting(s)")
         entries = data.get("indices", [])
@@ -326,6 +347,8 @@ class Criteria:
             given["eta_threshold"] = _number(data["eta_threshold"], "eta_threshold")
         if "screening_only" in data:
             given["screening_only"] = data["screening_only"]
+        if data.get("system") is not None:
+            given["system"] = MountSystem.from_dict(data["system"])
         return cls(
             window=OperatingWindow.from_dict(window),
             indices=tuple(indices),
@@ -343,7 +366,15 @@ class Criteria:
         p = Path(path)
         if not p.exists():
             raise CriteriaError(f"{p}: file not found")
-        text = p.read_text(encoding="utf-8-sig")
+        try:
+            text = p.read_bytes().decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise CriteriaError(
+                f"{p}: not UTF-8 text (byte {exc.start + 1} cannot be read); save the "
+                "criteria file as UTF-8"
+            ) from None
+        except OSError as exc:
+            raise CriteriaError(f"{p}: cannot read the file ({exc.strerror or exc})") from None
         try:
             data = tomllib.loads(text) if p.suffix.lower() == ".toml" else json.loads(text)
         except (json.JSONDecodeError, tomllib.TOMLDecodeError) as exc:

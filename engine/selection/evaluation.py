@@ -13,6 +13,7 @@ from engine.base.errors import CriteriaError
 from engine.base.fields import number_fields
 from engine.curves.bank import CurveBank
 from engine.curves.mountcheck import MountResult, check_mounts
+from engine.curves.system import solve_systems
 from engine.curves.window import WindowProps, evaluate_window
 from engine.library.store import Material
 from engine.physics.indices import IndexSpec, aggregate
@@ -132,6 +133,7 @@ class Evaluation:
     eta_worst: np.ndarray  # worst loss factor over the window grid
     extrapolated: np.ndarray  # any window point (or duty point) leaves the data
     mount: MountResult | None
+    system: list | None = None  # per grade: a SystemResult, or the reason it failed
 
 
 def evaluate_grades(
@@ -175,6 +177,17 @@ def evaluate_grades(
     if mres is not None:
         whole["natural_frequency"] = mres.natural_frequency
         whole["transmissibility"] = mres.transmissibility
+    systems = None
+    if criteria.system is not None:
+        systems = solve_systems(bank, catalog, criteria.system, window.temperatures)
+        solved = [s if not isinstance(s, str) else None for s in systems]
+
+        def figure(get) -> np.ndarray:
+            return np.array([np.nan if s is None else get(s) for s in solved], dtype=float)
+
+        whole["system_highest_mode"] = figure(lambda s: s.highest_mode)
+        whole["system_worst_transmissibility"] = figure(lambda s: s.worst_transmissibility)
+        whole["system_mode_drift"] = figure(lambda s: float(np.nanmax(s.mode_drift())))
     for c in criteria.indices:
         spec = specs[c.name]
         if spec.kind == "window":
@@ -182,12 +195,16 @@ def evaluate_grades(
                 raise CriteriaError(f"window index '{c.name}' has no evaluation")
             if spec.needs_mount and mres is None:
                 raise CriteriaError(f"index '{c.name}' needs a mount design")
+            if spec.needs_system and systems is None:
+                raise CriteriaError(f"index '{c.name}' needs a mount system")
             with np.errstate(invalid="ignore", divide="ignore"):
                 values[c.name] = np.asarray(spec.window(whole), dtype=float)
     extrap_any = np.asarray(props.extrapolated.reshape(n, -1).any(axis=1))
     if props.duty_extrapolated is not None:
         extrap_any |= props.duty_extrapolated.any(axis=1)
-    return Evaluation(list(bank.ids), catalog, props, specs, values, eta_worst, extrap_any, mres)
+    return Evaluation(
+        list(bank.ids), catalog, props, specs, values, eta_worst, extrap_any, mres, systems
+    )
 
 
 def raw_scores(values: dict[str, np.ndarray], criteria: Criteria) -> np.ndarray:
