@@ -40,6 +40,7 @@ from engine.physics import rigidbody as rb
 
 __all__ = [
     "DEFAULT_SYSTEM_DISTURBANCE_HZ",
+    "EXAMPLE_CASE",
     "MODE_NAMES",
     "Disturbance",
     "SystemMount",
@@ -57,6 +58,28 @@ MAX_ITERATIONS = 50
 FREQUENCY_TOLERANCE = 1e-7  # relative change of every mode's frequency between passes
 MAX_MOUNTS = 64
 MODES_NAMED = 2  # modes named in a failing system's reasons, the closest first
+
+
+# An example case: a 180 kg skid, centre of gravity 250 mm above four pads at its corners,
+# excited by an out-of-balance force at its shaft, 1480 rpm and twice that.
+EXAMPLE_CASE = {
+    "mass_kg": 180.0,
+    "inertia_kgm2": [[12.0, 0.0, 0.0], [0.0, 18.0, 0.0], [0.0, 0.0, 25.0]],
+    "cg_m": [0.0, 0.0, 0.25],
+    "mounts": [
+        {"position_m": [x, y, 0.0], "area_mm2": 600.0, "thickness_mm": 25.0}
+        for x in (-0.4, 0.4)
+        for y in (-0.3, 0.3)
+    ],
+    "disturbances": [
+        {
+            "force_N": [0.0, 0.0, 100.0],
+            "point_m": [0.1, 0.0, 0.3],
+            "rpm": [1480.0],
+            "harmonics": [1, 2],
+        }
+    ],
+}
 
 
 def _vector(value, name: str, size: int = 3) -> tuple[float, ...]:
@@ -337,6 +360,7 @@ class SystemResult:
     mount_forces: list[np.ndarray]  # per disturbance: (T, F, N mounts) amplitude [N]
     transmissibility: list[np.ndarray]  # per disturbance: (T, F)
     extrapolated: np.ndarray  # (T,)
+    elastic_centres: np.ndarray | None = None  # (T, 3) [m], in the case's axes
     notes: list[str] = field(default_factory=list)
     min_frequency_ratio: float = float(np.sqrt(2.0))
 
@@ -540,6 +564,7 @@ def solve_system(
     extrap = np.zeros(n_t, dtype=bool)
     reference: np.ndarray | None = None
     unconverged = []
+    centres = np.zeros((n_t, 3))
 
     bases = rb.mount_bases(pos, axes)
 
@@ -571,6 +596,10 @@ def solve_system(
         if not converged:
             unconverged.append(temp)
         extrap[i] = x0 or x
+        # the mounts' elastic centre at this temperature, the storage stiffness taken at
+        # the mean mode frequency
+        a_c, s_c, _ = pads.stiffness(temp, np.array([float(np.mean(guess_f))]))
+        centres[i] = rb.elastic_centre(pos, axes, a_c[0].real, s_c[0].real) + system.cg_m
         order = np.argsort(guess_f)
         freqs[i] = guess_f[order]
         shapes[i] = guess_shapes[:, order]
@@ -626,6 +655,7 @@ def solve_system(
         mount_forces=forces,
         transmissibility=trans,
         extrapolated=extrap,
+        elastic_centres=centres,
         notes=notes,
         min_frequency_ratio=system.min_frequency_ratio,
     )
