@@ -2,6 +2,10 @@
 
 import sys
 
-from engine.cli import main
+try:
+    from engine.cli import main
+except ImportError as exc:  # a dependency missing: one line, not a traceback
+    sys.stderr.write(f"error: quietgrade cannot start: {exc}; install its requirements\n")
+    sys.exit(2)
 
 sys.exit(main())

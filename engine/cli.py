@@ -1,7 +1,9 @@
 """Command line: ``python -m engine COMMAND``.
 
 Temperatures in degC, frequencies in Hz, moduli in MPa on the command line and in JSON.
-Exit status 0 on success, 2 on bad input with a one-line reason on stderr.
+Exit status 0 on success, 2 on bad input with a one-line reason on stderr. No traceback
+and no warning reaches the user: an unexpected failure is one line too (``--verbose``
+adds the traceback), and warnings are logged (shown under ``--verbose``), not printed.
 """
 
 from __future__ import annotations
@@ -10,7 +12,10 @@ import argparse
 import json
 import logging
 import math
+import re
 import sys
+import traceback
+import warnings
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -22,6 +27,9 @@ from engine.base.fields import CATALOG
 from engine.base.version import __version__
 from engine.library.store import Library, default_location
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K
+
+log = logging.getLogger(__name__)
+MAX_MESSAGE_CHARS = 2000  # an error line is cut here
 
 
 class _Parser(argparse.ArgumentParser):
@@ -154,6 +162,9 @@ def cmd_fit(args) -> int:
     for key, label in (("wlf", "at the reference"), ("wlf_at_tg", "at Tg")):
         if key in data:
             w = data[key]
+            if w["C1"] is None or w["C2_K"] is None:  # the reference is below the divergence
+                lines.append(f"  WLF {label}: no constants there ({w['reference_C']:.1f} °C)")
+                continue
             lines.append(
                 f"  WLF C1 = {w['C1']:.3g}{band(w, 'C1', '.3g')}, C2 = {w['C2_K']:.1f} K"
                 f"{band(w, 'C2_K', '.1f')} {label}, {w['reference_C']:.1f} °C"
@@ -191,14 +202,13 @@ def cmd_fit(args) -> int:
 
 
 def cmd_props(args) -> int:
+    from engine.curves.window import check_frequencies, check_temperatures
     from engine.library.fits import master_curve
 
+    t = check_temperatures(args.temp, "--temp")[:, None]
+    f = check_frequencies(args.freq, "--freq")[None, :]
     lib = _library(args)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
-    t = np.asarray(args.temp, dtype=float)[:, None]
-    f = np.asarray(args.freq, dtype=float)[None, :]
-    if (f <= 0).any():
-        raise QuietgradeError("--freq: frequencies must be positive")
     p = curve.evaluate(t, f)
     b = curve.interval(t, f)
     out = []
@@ -267,8 +277,10 @@ def cmd_demo(args) -> int:
 def cmd_mount(args) -> int:
     from engine.curves.bank import CurveBank
     from engine.curves.mountcheck import MountDesign, check_mounts
+    from engine.curves.window import check_temperatures
     from engine.library.fits import master_curve
 
+    check_temperatures(args.temp, "--temp")
     lib = _library(args)
     material = lib.material(args.id)
     curve = master_curve(lib, args.id)
@@ -455,7 +467,12 @@ def cmd_rank(args) -> int:
     criteria = _criteria_from_args(args)
     curves, errors = fit_library(lib)
     if not curves:
-        raise QuietgradeError(f"no fitted grades in the library {lib.location}")
+        failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
+        more = f" and {len(errors) - 3} more" if len(errors) > 3 else ""
+        raise QuietgradeError(
+            f"no fitted grades in the library {lib.location}"
+            + (f"; the fit failed for {len(errors)} grade(s): {failed}{more}" if errors else "")
+        )
     materials = {m.id: m for m in lib.materials()}
     sweeps = working_sweeps(lib, criteria)
     ranked = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)
@@ -513,6 +530,7 @@ def cmd_rank(args) -> int:
     lines = [
         f"window {lo:g} to {hi:g} °C, {flo:g} to {fhi:g} Hz; "
         f"{len(result.shortlist)} of {len(result.grades)} grade(s) pass"
+        + (f"; {len(errors)} not ranked (master curve failed)" if errors else "")
     ]
     design = criteria.mount
     if design is not None:
@@ -529,6 +547,8 @@ def cmd_rank(args) -> int:
         lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f} {span:>10}  {g.reason}")
     for g in result.excluded:
         lines.append(f"    - {g.id:<14} {g.reason}")
+    for gid, why in sorted(errors.items()):
+        lines.append(f"    - {_one_line(gid):<14} not ranked: master curve failed: {why}")
     if args.out:
         lines.append(f"shortlist written to {args.out}")
     _emit(args, data, lines)
@@ -672,15 +692,77 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _one_line(text: object, limit: int = MAX_MESSAGE_CHARS) -> str:
+    """``text`` on one line: line breaks and other control characters written as escapes."""
+    out = "".join(c if c.isprintable() else repr(c)[1:-1] for c in str(text).strip())
+    return out if len(out) <= limit else out[: limit - 3] + "..."
+
+
+def _masked(location: str) -> str:
+    """A library location with any password of a database URL masked."""
+    return re.sub(r"(://[^/:@]*:)[^/@]*@", r"\1***@", location)
+
+
+def _busy(exc: BaseException) -> bool:
+    """True when ``exc`` (or what caused it) is SQLite's refusal of a held write lock."""
+    seen: set[int] = set()
+    current: BaseException | None = exc
+    while current is not None and id(current) not in seen:
+        seen.add(id(current))
+        text = str(current).lower()
+        if "database is locked" in text or "database table is locked" in text:
+            return True
+        current = current.__cause__ or current.__context__
+    return False
+
+
+def _failure_line(args, exc: BaseException) -> str:
+    """The one line that reports ``exc`` (after ``error: ``)."""
+    if _busy(exc):
+        try:
+            where = _masked(str(args.db or default_location()))
+        except Exception:  # noqa: BLE001 - the message must not fail in its turn
+            where = "file"
+        return f"the library {where} is busy: another program holds its write lock; try again"
+    if isinstance(exc, QuietgradeError):
+        return _one_line(exc)
+    if isinstance(exc, MemoryError):
+        return f"not enough memory for the {args.command} command; ask for less at once"
+    if isinstance(exc, ModuleNotFoundError) and exc.name:
+        return (
+            f"the {args.command} command needs the Python module '{exc.name}', which is not "
+            "installed; install it and try again"
+        )
+    detail = _one_line(exc, 300)
+    hint = "" if args.verbose else "; run it again with --verbose for the details"
+    return (
+        f"the {args.command} command failed unexpectedly ({type(exc).__name__}"
+        + (f": {detail}" if detail else "")
+        + f"){hint}"
+    )
+
+
+def _log_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Where a warning goes: the log (shown under --verbose), never straight to stderr."""
+    log.info("%s: %s (%s:%s)", category.__name__, _one_line(message), filename, lineno)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.verbose:
         logging.basicConfig(level=logging.INFO, format="%(name)s: %(message)s")
-    try:
-        return args.func(args)
-    except QuietgradeError as exc:
-        sys.stderr.write(f"error: {exc}\n")
-        return 2
-    except BrokenPipeError:
-        return 0
+    with warnings.catch_warnings():
+        warnings.showwarning = _log_warning  # put back on leaving the block
+        try:
+            return args.func(args)
+        except BrokenPipeError:
+            return 0
+        except KeyboardInterrupt:
+            sys.stderr.write("error: interrupted\n")
+            return 130
+        except Exception as exc:  # noqa: BLE001 - every failure is one line on stderr
+            if args.verbose and not isinstance(exc, QuietgradeError):
+                traceback.print_exception(exc, file=sys.stderr)
+            sys.stderr.write(f"error: {_failure_line(args, exc)}\n")
+            return 2

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from engine.base.errors import FitError
-from engine.base.units import c_to_k
+from engine.base.units import ABSOLUTE_ZERO_C, c_to_k
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
 from engine.physics.jointfit import N_DRAWS, LawTemplate, fit_jointly, robust_variance
 from engine.physics.prony import PronySeries, fit_prony, tau_grid
@@ -62,6 +62,12 @@ SERIAL_CORRELATION_LIMIT = 0.35
 # faster than the storage modulus (a project choice, set on the synthetic round trips).
 EXTRAPOLATION_SD = (0.3, 1.5)
 MAX_FREQUENCY_DECADES = 12  # wider than any DMA or resonance instrument covers
+# Physical range of a measured point, checked before the fit (common practice: dynamic
+# tests of solids span about 1e-5 to 1e7 Hz; no solid polymer is measured above
+# 4000 degC, above the melting point of every solid). The importer refuses the same.
+MIN_SWEEP_FREQUENCY_HZ = 1e-9
+MAX_SWEEP_FREQUENCY_HZ = 1e9
+MAX_SWEEP_TEMPERATURE_C = 4000.0
 LOG_SHIFT_LIMIT = 30.0  # decades: a law followed far outside its range is held here
 Z95 = 1.959964  # two-sided 95 % point of the normal distribution (scipy.stats.norm.ppf)
 # (the three limits are common practice values of this project, a few times the 1-2 %
@@ -331,12 +337,13 @@ class MasterCurve:
         start = np.floor((lo - TABLE_MARGIN) / step) * step
         grid = np.arange(start, hi + TABLE_MARGIN + step, step)
         omega = 2.0 * np.pi * 10.0**grid
-        out = (
-            float(start),
-            step,
-            np.log10(self.prony.storage(omega)),
-            np.log10(np.maximum(self.prony.loss(omega), 1e-30)),
-        )
+        with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
+            out = (
+                float(start),
+                step,
+                np.log10(self.prony.storage(omega)),
+                np.log10(np.maximum(self.prony.loss(omega), 1e-30)),
+            )
         self._tables[step] = out
         return out
 
@@ -618,6 +625,85 @@ def _model_tg(curve: MasterCurve, frequency: float) -> list[dict]:
     return best
 
 
+def check_points(points: np.ndarray) -> np.ndarray:
+    """``points`` as a float (n, 4) array, refused with a plain reason where a master curve
+    cannot be fitted to them (raises FitError).
+
+    Every value finite; frequencies spanning at most :data:`MAX_FREQUENCY_DECADES` and
+    within :data:`MIN_SWEEP_FREQUENCY_HZ` to :data:`MAX_SWEEP_FREQUENCY_HZ`;
+    temperatures from absolute zero to :data:`MAX_SWEEP_TEMPERATURE_C`; storage moduli
+    positive.
+    """
+    points = np.asarray(points, dtype=float)
+    if points.ndim != 2 or points.shape[1] != 4 or points.shape[0] < 2:
+        raise FitError("a master curve needs at least two measured points")
+    if not np.all(np.isfinite(points)):
+        raise FitError("a master curve needs finite values in every point")
+    temperature, frequency, storage = points[:, 0], points[:, 1], points[:, 2]
+    if np.any(temperature < ABSOLUTE_ZERO_C):
+        raise FitError(
+            f"a temperature of {temperature.min():g} degC lies below absolute zero "
+            f"({ABSOLUTE_ZERO_C:g} degC): check the temperature column and its unit"
+        )
+    if np.any(temperature > MAX_SWEEP_TEMPERATURE_C):
+        raise FitError(
+            f"a temperature of {temperature.max():g} degC lies above "
+            f"{MAX_SWEEP_TEMPERATURE_C:g} degC, where no solid is measured: check the "
+            "temperature column and its unit"
+        )
+    if np.any(frequency <= 0) or np.any(storage <= 0):
+        raise FitError("frequencies and storage moduli must be positive")
+    f_lo, f_hi = float(frequency.min()), float(frequency.max())
+    span = float(np.log10(f_hi) - np.log10(f_lo))  # no overflow, subnormal values too
+    if span > MAX_FREQUENCY_DECADES:
+        raise FitError(
+            f"the frequencies span {span:.0f} decades ({f_lo:.3g} to {f_hi:.3g} Hz); a "
+            f"dynamic mechanical sweep spans at most {MAX_FREQUENCY_DECADES} — check the "
+            "frequency column and its unit"
+        )
+    if f_lo < MIN_SWEEP_FREQUENCY_HZ or f_hi > MAX_SWEEP_FREQUENCY_HZ:
+        bad = f_lo if f_lo < MIN_SWEEP_FREQUENCY_HZ else f_hi
+        raise FitError(
+            f"a frequency of {bad:.3g} Hz lies outside {MIN_SWEEP_FREQUENCY_HZ:g} to "
+            f"{MAX_SWEEP_FREQUENCY_HZ:g} Hz, where dynamic tests are made: check the "
+            "frequency column and its unit"
+        )
+    return points
+
+
+def check_curve(curve: MasterCurve) -> None:
+    """Refuse a master curve that cannot be evaluated (raises FitError naming what).
+
+    A usable curve has finite, positive relaxation times, finite non-negative weights and
+    equilibrium modulus with a positive glassy modulus, a finite reference temperature,
+    finite shift factors and covered range, and a finite tabulated curve.
+    """
+
+    def finite(values) -> bool:  # NaN or an infinity makes the sum non-finite
+        return bool(np.isfinite(np.sum(values)))
+
+    prony = curve.prony
+    tau, weights = np.asarray(prony.tau, float), np.asarray(prony.weights, float)
+    if not (tau.size and tau.min() > 0 and finite(tau)):
+        raise FitError("the fitted spectrum has relaxation times that are not finite and positive")
+    if not (weights.size == 0 or (weights.min() >= 0 and finite(weights))):
+        raise FitError("the fitted spectrum has weights that are not finite and non-negative")
+    glassy = float(prony.equilibrium) + float(weights.sum())
+    if not (np.isfinite(prony.equilibrium) and prony.equilibrium >= 0 and np.isfinite(glassy)):
+        raise FitError("the fitted spectrum has an equilibrium modulus that is not finite")
+    if glassy <= 0:
+        raise FitError("the fitted spectrum has no stiffness (all its weights are zero)")
+    if not np.isfinite(curve.reference_C):
+        raise FitError("the fitted master curve has no finite reference temperature")
+    if not finite(curve.shift.log_shift):
+        raise FitError("the fitted shift factors are not finite")
+    if not finite(curve.log_fr_range):
+        raise FitError("the reduced frequencies the data cover are not finite")
+    _, _, log_storage, log_loss = curve.table()
+    if not (finite(log_storage) and finite(log_loss)):
+        raise FitError("the fitted master curve is not finite over its reduced frequencies")
+
+
 def build_master_curve(
     points: np.ndarray,
     mode: str,
@@ -626,7 +712,35 @@ def build_master_curve(
     temperature_tolerance_K: float = DEFAULT_TOLERANCE_K,
     intervals: bool = True,
 ) -> MasterCurve:
-    """Fit a master curve to measured points.
+    """Fit a master curve to measured points (raises FitError with a plain reason).
+
+    The points are checked first (:func:`check_points`) and the fitted curve last
+    (:func:`check_curve`); floating-point overflow and underflow inside the fit are
+    silenced (a fit they spoil is refused by the last check). Parameters and steps:
+    :func:`fit_master_curve`.
+    """
+    points = check_points(points)
+    if reference_C is not None and not (
+        np.isfinite(reference_C) and ABSOLUTE_ZERO_C < reference_C <= MAX_SWEEP_TEMPERATURE_C
+    ):
+        raise FitError(f"reference temperature {reference_C:g} degC is not a usable temperature")
+    with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
+        curve = fit_master_curve(
+            points, mode, reference_C, vertical_shift, temperature_tolerance_K, intervals
+        )
+        check_curve(curve)
+    return curve
+
+
+def fit_master_curve(
+    points: np.ndarray,
+    mode: str,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+    temperature_tolerance_K: float = DEFAULT_TOLERANCE_K,
+    intervals: bool = True,
+) -> MasterCurve:
+    """Fit a master curve to measured points (checked by :func:`check_points`).
 
     Parameters
     ----------
@@ -658,19 +772,6 @@ def build_master_curve(
     check; Tg of the fitted curve with its interval.
     """
     points = np.asarray(points, dtype=float)
-    if points.ndim != 2 or points.shape[1] != 4 or points.shape[0] < 2:
-        raise FitError("a master curve needs at least two measured points")
-    if not np.all(np.isfinite(points)):
-        raise FitError("a master curve needs finite values in every point")
-    if np.any(points[:, 1] <= 0) or np.any(points[:, 2] <= 0):
-        raise FitError("frequencies and storage moduli must be positive")
-    span = np.log10(points[:, 1].max() / points[:, 1].min())
-    if span > MAX_FREQUENCY_DECADES:
-        raise FitError(
-            f"the frequencies span {span:.0f} decades ({points[:, 1].min():.3g} to "
-            f"{points[:, 1].max():.3g} Hz); a dynamic mechanical sweep spans at most "
-            f"{MAX_FREQUENCY_DECADES} — check the frequency column and its unit"
-        )
     grouping = group_temperatures(points[:, 0], temperature_tolerance_K)
     isotherms = split_isotherms(
         points[:, 0],
@@ -724,14 +825,18 @@ def build_master_curve(
         )
     try:
         start = shift_isotherms(isotherms, reference_C, candidates or [None], glassy)
-    except FitError:
-        # Too few overlapping pairs (a sparse sheet): start from a universal law and let
-        # the joint fit find the grade's own.
+    except FitError as exc:
+        # Too few overlapping pairs (a sparse sheet), or no law of the pairs finite at the
+        # reference: start from a universal law and let the joint fit find the grade's own.
         law = _start_law(temps, reference_C, split, glassy)
         start = ShiftResult(temps, law.log_shift(temps), np.ones(temps.size, bool), law)
+        why = (
+            "too few overlapping isotherm pairs for the pairwise shifts"
+            if "pair" in str(exc)
+            else "the pairwise shifts give no shift law finite at the reference"
+        )
         notes.append(
-            "too few overlapping isotherm pairs for the pairwise shifts: the shift law was "
-            "fitted to all points together from a universal start"
+            f"{why}: the shift law was fitted to all points together from a universal start"
         )
     split = start.law.split_C if start.law.split_C is not None else split
     for note in [*start.notes, *start.law.notes]:

@@ -20,6 +20,65 @@ from engine.curves.bank import CurveBank
 
 DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
 
+# Limits on what a user may ask for, refused before anything is allocated (common practice
+# for polymer DMA: instruments cool to about -150 degC with liquid nitrogen, and
+# elastomers and damping polymers decompose well below 400 degC; 1e-6 Hz is a period of
+# about 12 days, 1e9 Hz far beyond any dynamic test of a solid polymer).
+MIN_TEMPERATURE_C = -150.0
+MAX_TEMPERATURE_C = 400.0
+MIN_FREQUENCY_HZ = 1e-6
+MAX_FREQUENCY_HZ = 1e9
+MAX_WINDOW_TEMPERATURES = 2001  # temperatures of one window (2000 steps)
+MAX_WINDOW_FREQUENCIES = 500  # frequencies of one band
+MAX_QUERY_POINTS = 2001  # temperatures or frequencies of one property query
+# Grades x window points evaluated in one pass (each array of that size is 8 bytes per
+# value, and the evaluation holds several): about 0.4 GB per array at the limit.
+MAX_WINDOW_VALUES = 50_000_000
+
+
+def check_temperatures(values, what: str = "temperature") -> np.ndarray:
+    """``values`` [degC] as a float array, refused unless finite and within the limits.
+
+    Raises
+    ------
+    CriteriaError
+        Naming ``what``, the first bad value and the accepted range
+        (:data:`MIN_TEMPERATURE_C` to :data:`MAX_TEMPERATURE_C`).
+    """
+    t = np.atleast_1d(np.asarray(values, dtype=float)).reshape(-1)
+    if t.size > MAX_QUERY_POINTS:
+        raise CriteriaError(f"{what}: {t.size:,} values; at most {MAX_QUERY_POINTS:,} are accepted")
+    for v in t.tolist():
+        if not np.isfinite(v):
+            raise CriteriaError(f"{what}: {v:g} is not a number of degC")
+        if v < ABSOLUTE_ZERO_C:
+            raise CriteriaError(f"{what}: {v:g} degC is below absolute zero")
+        if not MIN_TEMPERATURE_C <= v <= MAX_TEMPERATURE_C:
+            raise CriteriaError(
+                f"{what}: {v:g} degC is outside {MIN_TEMPERATURE_C:g} to "
+                f"{MAX_TEMPERATURE_C:g} degC, the temperatures quietgrade evaluates"
+            )
+    return t
+
+
+def check_frequencies(values, what: str = "frequency") -> np.ndarray:
+    """``values`` [Hz] as a float array, refused unless finite and within the limits
+    (:data:`MIN_FREQUENCY_HZ` to :data:`MAX_FREQUENCY_HZ`); raises CriteriaError."""
+    f = np.atleast_1d(np.asarray(values, dtype=float)).reshape(-1)
+    if f.size > MAX_QUERY_POINTS:
+        raise CriteriaError(f"{what}: {f.size:,} values; at most {MAX_QUERY_POINTS:,} are accepted")
+    for v in f.tolist():
+        if not np.isfinite(v):
+            raise CriteriaError(f"{what}: {v:g} is not a number of Hz")
+        if v <= 0:
+            raise CriteriaError(f"{what}: {v:g} Hz; frequencies must be positive")
+        if not MIN_FREQUENCY_HZ <= v <= MAX_FREQUENCY_HZ:
+            raise CriteriaError(
+                f"{what}: {v:g} Hz is outside {MIN_FREQUENCY_HZ:g} to {MAX_FREQUENCY_HZ:g} Hz, "
+                "the frequencies quietgrade evaluates"
+            )
+    return f
+
 
 def _pair(values: Iterable[Any]) -> tuple[float, float]:
     """A (low, high) setting as two floats; ValueError or TypeError if it is not two numbers."""
@@ -96,10 +155,23 @@ class OperatingWindow:
             raise CriteriaError(f"frequency range {flo:g} to {fhi:g} Hz is inverted")
         if self.freq_points < 1:
             raise CriteriaError("the frequency band needs at least one point")
-        if (hi - lo) / self.temp_step > 2000:
-            raise CriteriaError("temperature step too fine: more than 2000 temperatures")
-        if self.freq_points > 500:
-            raise CriteriaError("more than 500 frequencies in the band")
+        # Every limit is checked here, before a grid is made (each check is arithmetic).
+        for end in (lo, hi):
+            check_temperatures(end, "window temperature")
+        for end in (flo, fhi):
+            check_frequencies(end, "window frequency")
+        steps = (hi - lo) / self.temp_step
+        if steps > MAX_WINDOW_TEMPERATURES - 1:
+            raise CriteriaError(
+                f"temperature step too fine: more than 2000 temperatures after the first "
+                f"({lo:g} to {hi:g} degC in steps of {self.temp_step:g} K); a window holds "
+                f"at most {MAX_WINDOW_TEMPERATURES:,}"
+            )
+        if self.freq_points > MAX_WINDOW_FREQUENCIES:
+            raise CriteriaError(
+                f"more than {MAX_WINDOW_FREQUENCIES} frequencies in the band "
+                f"({self.freq_points:,} asked)"
+            )
         for p in self.duty_points:
             if not np.isfinite([p.temperature_C, p.frequency_Hz, p.share]).all():
                 raise CriteriaError(
@@ -111,12 +183,20 @@ class OperatingWindow:
                     "duty points need a temperature above absolute zero, a positive "
                     "frequency and a non-negative share"
                 )
+            check_temperatures(p.temperature_C, "duty-point temperature")
+            check_frequencies(p.frequency_Hz, "duty-point frequency")
+        if len(self.duty_points) > MAX_QUERY_POINTS:
+            raise CriteriaError(
+                f"{len(self.duty_points):,} duty points; at most {MAX_QUERY_POINTS:,} are accepted"
+            )
         if self.duty_points and sum(p.share for p in self.duty_points) <= 0:
             raise CriteriaError("duty-point shares add up to zero")
         if self.design_frequency_Hz is not None and not (
             np.isfinite(self.design_frequency_Hz) and self.design_frequency_Hz > 0
         ):
             raise CriteriaError("design frequency must be positive and finite")
+        if self.design_frequency_Hz is not None:
+            check_frequencies(self.design_frequency_Hz, "design frequency")
 
     @property
     def temperatures(self) -> np.ndarray:
@@ -256,6 +336,16 @@ def evaluate_window(
     """
     t = window.temperatures
     f = window.frequencies
+    lo, hi = window.temp_range
+    n_path = int((hi - lo) / path_step) + 2
+    values = len(bank.ids) * (t.size * f.size + len(window.duty_points) + n_path)
+    if values > MAX_WINDOW_VALUES:
+        raise CriteriaError(
+            f"the window of {t.size:,} temperatures x {f.size:,} frequencies over "
+            f"{len(bank.ids):,} grades asks for {values:,} values, more than the "
+            f"{MAX_WINDOW_VALUES:,} evaluated at once; use a coarser temperature step or "
+            "fewer frequencies"
+        )
     storage, loss, extrap = bank.evaluate(t[:, None], f[None, :])
     to_e = tensile_factor(bank.modes, poisson)
     if (to_e != 1.0).any():
@@ -280,7 +370,6 @@ def evaluate_window(
         share = np.array([p.share for p in window.duty_points])
         props.duty_share = share / share.sum()
         props.duty_temperatures, props.duty_frequencies = dt, df
-    lo, hi = window.temp_range
     pt = np.arange(lo, hi + path_step / 2, path_step) if hi > lo else np.array([lo])
     s, l, x = bank.evaluate(pt, window.design_frequency)
     props.path_temperatures = pt

@@ -3,6 +3,11 @@
 A fit is keyed by the data set's hash, the engine version and the fit options, so a
 grade is refitted only when its data, the engine or the options change.
 
+Failures stay local: whatever goes wrong in one grade's fit (a refusal of its data, a
+numerical failure, a fitted curve that is not finite) becomes that grade's one-line fit
+error, and the other grades are fitted as before. A cache entry that cannot be used is
+fitted again; a cache that cannot be written is skipped.
+
 The module logs (``logging``, logger ``engine.library.fits``) how many fits came from
 the cache and how many ran, at INFO, and the seconds each fit took, at DEBUG.
 """
@@ -15,12 +20,13 @@ import os
 import time
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from pathlib import Path
 
 import numpy as np
 
 from engine.base import units
-from engine.base.errors import FitError
+from engine.base.errors import FitError, QuietgradeError
 from engine.curves import mastercurve
 from engine.curves.mastercurve import MasterCurve, build_master_curve
 from engine.library.store import Library
@@ -31,7 +37,20 @@ from engine.physics.shift import wlf_change_reference
 log = logging.getLogger(__name__)
 
 Progress = Callable[[int, int], None]
-NUMERIC_FAILURES = (ValueError, ArithmeticError, np.linalg.LinAlgError, StopIteration)
+# Failures of the numerics on bad data, named in plain words in a grade's fit error.
+_FAILURE_WORDS = {
+    "StopIteration": "no candidate was left to choose from",
+    "FloatingPointError": "a floating-point overflow or invalid operation",
+    "OverflowError": "a number too large to hold",
+    "ZeroDivisionError": "a division by zero",
+    "LinAlgError": "a singular or ill-conditioned linear system",
+    "MemoryError": "not enough memory",
+    "RuntimeWarning": "a numerical warning",
+}
+MAX_REASON_CHARS = 300  # a grade's fit error is one line of at most this many characters
+# Failures that depend on the machine or the warnings filter rather than on the data:
+# reported, but not cached as the grade's fit error (the next run fits it again).
+TRANSIENT_FAILURES = (MemoryError, Warning)
 
 # The fit code itself is part of the cache key, so that a change to the fitting
 # chain refits even where the version number was not raised.
@@ -51,23 +70,63 @@ def options_key(
     return f"ref={ref};vertical={int(bool(vertical_shift))}{tol};code={FIT_FINGERPRINT}"
 
 
-def _fit_one(args) -> tuple[str, dict | str]:
+def one_line(text: str, limit: int = MAX_REASON_CHARS) -> str:
+    """``text`` on one line (line breaks and other control characters written as escapes),
+    cut to ``limit`` characters."""
+    out = "".join(c if c.isprintable() else repr(c)[1:-1] for c in str(text).strip())
+    return out if len(out) <= limit else out[: limit - 3] + "..."
+
+
+def failure_reason(exc: BaseException) -> str:
+    """A grade's fit failure as one plain line: the engine's own reason for a
+    :class:`QuietgradeError`, else what failed in words and the exception's message."""
+    if isinstance(exc, QuietgradeError):
+        return one_line(str(exc))
+    name = type(exc).__name__
+    words = _FAILURE_WORDS.get(name, f"an unexpected {name}")
+    detail = one_line(str(exc), 160)
+    return one_line(f"the fit failed on these data ({words}{': ' + detail if detail else ''})")
+
+
+def _fit_result(args) -> tuple[str, dict | str, bool]:
+    """(grade id, the fitted curve's dict or ``"error: <reason>"``, whether the result may
+    be cached)."""
     material_id, points, mode, reference_C, vertical, tolerance = args
     try:
         curve = build_master_curve(points, mode, reference_C, vertical, tolerance)
-    except FitError as exc:
-        return material_id, f"error: {exc}"
-    except NUMERIC_FAILURES as exc:
-        # One grade whose numbers defeat the fit must not take the library down with it.
-        return material_id, f"error: the fit failed on these data ({type(exc).__name__}: {exc})"
-    return material_id, curve.to_dict()
+        result = curve.to_dict()
+    except Exception as exc:  # noqa: BLE001 - one grade never takes the library down
+        log.debug("fit of %s failed", material_id, exc_info=True)
+        return material_id, f"error: {failure_reason(exc)}", not isinstance(exc, TRANSIENT_FAILURES)
+    return material_id, result, True
 
 
-def _timed_fit(args) -> tuple[str, dict | str, float]:
-    """:func:`_fit_one` and the seconds it took (measured where it ran)."""
+def _fit_one(args) -> tuple[str, dict | str]:
+    """(grade id, the fitted curve's dict or ``"error: <reason>"``): any failure of the
+    grade's fit is its own error."""
+    material_id, result, _ = _fit_result(args)
+    return material_id, result
+
+
+def _decoded(material_id: str, data: dict) -> MasterCurve | None:
+    """A cached fit as a master curve, or None where it cannot be used (it is refitted).
+
+    The spectrum is checked as it is rebuilt (:class:`PronySeries` refuses relaxation
+    times and weights that are not finite); the rest was checked when it was fitted.
+    """
+    try:
+        curve = MasterCurve.from_dict(data)
+    except Exception as exc:  # noqa: BLE001 - a cache entry that fails is fitted again
+        log.info("cached fit of %s not usable (%s): fitting again", material_id, exc)
+        return None
+    return curve
+
+
+def _timed_fit(args) -> tuple[str, dict | str, float, bool]:
+    """:func:`_fit_result` with the seconds it took (measured where it ran)."""
     start = time.perf_counter()
-    material_id, result = _fit_one(args)
-    return material_id, result, time.perf_counter() - start
+    material_id, result, cacheable = _fit_result(args)
+    return material_id, result, time.perf_counter() - start, cacheable
 
 
 def master_curve(
@@ -86,18 +145,33 @@ def master_curve(
     key = options_key(reference_C, vertical_shift, tolerance_K)
     cached = library.cached_fit(dataset.data_hash, key)
     if cached is not None and "error" not in cached:
-        log.debug("master curve of %s: from the cache", material_id)
-        return MasterCurve.from_dict(cached)
+        curve = _decoded(material_id, cached)
+        if curve is not None:
+            log.debug("master curve of %s: from the cache", material_id)
+            return curve
     start = time.perf_counter()
     try:
         curve = build_master_curve(points, material.mode, reference_C, vertical_shift, tolerance_K)
-    except NUMERIC_FAILURES as exc:
-        raise FitError(
-            f"grade {material_id!r}: the fit failed on these data ({type(exc).__name__}: {exc})"
-        ) from exc
-    library.store_fits({dataset.data_hash: curve.to_dict()}, key)
+        result = curve.to_dict()
+    except AssertionError:  # a broken invariant of the code, not of the data
+        raise
+    except Exception as exc:  # noqa: BLE001 - reported as this grade's fit error
+        log.debug("fit of %s failed", material_id, exc_info=True)
+        raise FitError(f"grade {material_id!r}: {failure_reason(exc)}") from exc
+    _store(library, {dataset.data_hash: result}, key)
     log.debug("master curve of %s: fitted in %.3f s", material_id, time.perf_counter() - start)
     return curve
+
+
+def _store(library: Library, results: dict[str, dict], key: str) -> None:
+    """Write fits to the cache; a cache that cannot be written (a library another program
+    holds locked, a read-only role) costs a refit next time, never the fits themselves."""
+    if not results:
+        return
+    try:
+        library.store_fits(results, key)
+    except Exception as exc:  # noqa: BLE001 - the cache is an optimisation
+        log.info("fit cache not written (%s)", one_line(str(exc)))
 
 
 def fit_library(
@@ -154,11 +228,12 @@ def fit_library(
     errors: dict[str, str] = {}
     todo = []
     for mid, h in hashes.items():
-        if h in cached:
-            if "error" in cached[h]:
-                errors[mid] = cached[h]["error"]
-            else:
-                curves[mid] = MasterCurve.from_dict(cached[h])
+        if h in cached and "error" in cached[h]:
+            errors[mid] = one_line(str(cached[h]["error"]))
+            continue
+        curve = _decoded(mid, cached[h]) if h in cached else None
+        if curve is not None:
+            curves[mid] = curve
         else:
             todo.append(
                 (
@@ -186,7 +261,7 @@ def fit_library(
     new: dict[str, dict] = {}
     start = time.perf_counter()
 
-    def take(mid, result, seconds):
+    def take(mid, result, seconds, cacheable):
         nonlocal done
         log.debug(
             "fit_library: %s fitted in %.3f s%s",
@@ -194,28 +269,43 @@ def fit_library(
             seconds,
             " (failed)" if isinstance(result, str) else "",
         )
+        if not isinstance(result, str):
+            try:
+                curves[mid] = MasterCurve.from_dict(result)
+            except Exception as exc:  # noqa: BLE001 - this grade's failure alone
+                result = f"error: {failure_reason(exc)}"
         if isinstance(result, str):
             errors[mid] = result[len("error: ") :]
-            new[hashes[mid]] = {"error": errors[mid]}
+            if cacheable:
+                new[hashes[mid]] = {"error": errors[mid]}
         else:
-            curves[mid] = MasterCurve.from_dict(result)
             new[hashes[mid]] = result
         done += 1
         if progress and (done % 50 == 0 or done == total):
             progress(done, total)
 
     serial = workers <= 1 or len(todo) < 8
+    if not serial:
+        try:
+            with ProcessPoolExecutor(max_workers=workers) as pool:
+                for outcome in pool.map(
+                    _timed_fit,
+                    todo,
+                    chunksize=max(1, min(chunk, len(todo) // (4 * workers) or 1)),
+                ):
+                    take(*outcome)
+        except (BrokenProcessPool, OSError) as exc:
+            # A worker that died (out of memory, killed) or could not start: the fits it
+            # left undone run here, one at a time.
+            log.info("fit_library: worker processes failed (%s); fitting the rest here", exc)
+            serial = True
     if serial:
         for args in todo:
-            take(*_timed_fit(args))
-    else:
-        with ProcessPoolExecutor(max_workers=workers) as pool:
-            for mid, result, seconds in pool.map(
-                _timed_fit, todo, chunksize=max(1, min(chunk, len(todo) // (4 * workers) or 1))
-            ):
-                take(mid, result, seconds)
-    library.store_fits(new, key)
-    failed = sum(1 for mid in errors if hashes[mid] in new)
+            if args[0] not in curves and args[0] not in errors:
+                take(*_timed_fit(args))
+    _store(library, new, key)
+    fitted_now = {args[0] for args in todo}
+    failed = sum(1 for mid in errors if mid in fitted_now)
     log.info(
         "fit_library: %d fit(s) in %.2f s (%s), %d failed",
         len(todo),

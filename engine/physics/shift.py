@@ -619,10 +619,19 @@ def _best_law(pairs, reference, splits, glassy_without_transition) -> ShiftLaw:
         except FitError as exc:
             errors.append(exc)
             continue
-        resid = (delta - (law.log_shift(hi) - law.log_shift(lo))) / sigma
-        fitted.append((float(np.sum(np.log1p(resid**2))), law))
+        with np.errstate(invalid="ignore", over="ignore"):
+            resid = (delta - (law.log_shift(hi) - law.log_shift(lo))) / sigma
+            cost = float(np.sum(np.log1p(resid**2)))
+        if np.isfinite(cost):  # a law that is not finite at the pairs' temperatures fails
+            fitted.append((cost, law))
     if not fitted:
-        raise errors[0]
+        if errors:
+            raise errors[0]
+        raise FitError(
+            f"no shift law fitted to the isotherms is finite both there and at the reference "
+            f"temperature {reference:g} degC (WLF diverges C2 below its reference): choose "
+            "a reference nearer the measured temperatures"
+        )
     best_cost = min(cost for cost, _ in fitted)
     tolerance = max(2.0, 0.1 * best_cost)
     return next(law for cost, law in fitted if cost <= best_cost + tolerance)
