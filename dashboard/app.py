@@ -12,9 +12,10 @@ from pathlib import Path
 import streamlit as st
 
 from dashboard import case, data, sidebar
-from dashboard.common import CONTEXT_KEY, Context
+from dashboard.common import CONTEXT_KEY, Context, plain
 from engine.base.caution import CAUTION
 from engine.base.errors import LibraryError, QuietgradeError
+from engine.library.fits import one_line
 from engine.library.store import default_location
 from engine.output.palette import grade_colours
 
@@ -23,6 +24,7 @@ PAGES = (
     ("map.py", "Map", "map"),
     ("curves.py", "Curves", "curves"),
     ("mount.py", "Mount", "mount"),
+    ("system.py", "Machine", "machine"),
     ("shortlist.py", "Shortlist", "shortlist"),
     ("library.py", "Library", "library"),
 )
@@ -52,6 +54,14 @@ def _comparison_set(ids: list[str], shortlist: list[str]) -> list[str]:
     return current
 
 
+def _failure(what: str, exc: Exception) -> str:
+    """A failure of the fit or ranking step as one line: the engine's reason, or what
+    failed and its message."""
+    if isinstance(exc, QuietgradeError):
+        return one_line(f"{what}: {exc}")
+    return one_line(f"{what}: an unexpected {type(exc).__name__} ({one_line(str(exc), 160)})")
+
+
 def main() -> None:
     st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state=340)
     location = default_location()
@@ -59,11 +69,16 @@ def main() -> None:
         library = data.library_at(location)
         if data.load_demo_if_empty(library):
             st.session_state["_demo_loaded"] = True
-        curves, fit_errors = data.fits(library)
     except (LibraryError, QuietgradeError) as exc:
-        st.error(f"cannot open the library: {exc}")
+        st.error(f"cannot open the library: {plain(exc)}")
         st.caption(CAUTION)
         st.stop()
+    fit_problem = None
+    try:
+        curves, fit_errors = data.fits(library)
+    except Exception as exc:  # noqa: BLE001 - the Library page must stay open to mend it
+        curves, fit_errors = {}, {}
+        fit_problem = _failure("the master curves could not be fitted", exc)
 
     sidebar.init_state()
     criteria, problem = sidebar.render()
@@ -79,19 +94,23 @@ def main() -> None:
         st.caption("**Caution.** " + CAUTION)
     if st.session_state.get("_demo_loaded"):
         st.info(
-            f"The library at {library.location} was empty: the invented demo grades "
+            f"The library at {plain(library.location)} was empty: the invented demo grades "
             "(demo_materials/) were loaded. They are no real products."
         )
     for note in st.session_state.get("_link_notes", []):
-        st.warning(f"link parameter ignored: {note}")
+        st.warning(f"link parameter ignored: {plain(note)}")
 
     result, result_key = None, None
-    if criteria is not None and curves:
+    if fit_problem is not None:
+        problem = fit_problem
+    elif criteria is not None and curves:
         try:
             result = data.ranked(library, criteria)
             result_key = data.ranking_key(library, criteria)
         except QuietgradeError as exc:
             problem = str(exc)
+        except Exception as exc:  # noqa: BLE001 - every page but the ranking's keeps working
+            problem = _failure("no ranking", exc)
     elif criteria is not None:
         problem = "the library holds no fitted grade: import data on the Library page"
 
@@ -103,7 +122,7 @@ def main() -> None:
         else [g for g in st.session_state.get("compare", []) if g in ids]
     )
     if problem:
-        st.error(problem)
+        st.error(plain(problem))
 
     st.session_state[CONTEXT_KEY] = Context(
         library=library,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -16,11 +17,66 @@ from engine.selection.ranking import Criteria, RankResult
 CONTEXT_KEY = "_context"
 MISSING = "–"  # shown in tables where a value is unknown or not computed
 SHOWN_LIMIT = 8  # grades of the comparison set drawn on the Curves and Mount pages
+# Characters Streamlit's markdown reads as markup wherever they stand, written with a
+# backslash by plain(): the CommonMark punctuation of emphasis and code spans, tables,
+# strike-through, math ($), attribute braces, and the mailbox sign of e-mail autolinks.
+_MARKDOWN_SPECIALS = re.compile(r"([\\`*_{}|~$@])")
+# A link or image needs its text's closing "]" before "(" (inline) or "[" (a full
+# reference): that "]" is escaped, and so is a "[" at the start (a definition "[a]: url"
+# or a footnote); "speeds [rpm]" stays as it is.
+_LINK_CLOSE = re.compile(r"\](?=[(\[])")
+# Where a colon would start a Streamlit directive (:red[...], :material/icon:, :small[...])
+# or a bare web address becomes a link (http://...), or www. a link.
+_COLON_DIRECTIVE = re.compile(r":(?=[A-Za-z/])")
+_WWW = re.compile(r"(?i)\b(www)\.")
+# Icons and the logo Streamlit finds in the text itself, escapes resolved: ":material/x:"
+# (its slash escaped, so Streamlit does not rewrite it to ":material_x:") and
+# ":streamlit:" (a word joiner, U+2060, before its last colon).
+_ICON = re.compile(r"(\\:material)/")
+_LOGO = re.compile(r"(\\:streamlit):")
+# What starts a block at the start of a line: a heading, list item or rule marker, a link
+# definition or footnote ("[" at the start), and the number of a numbered item (its "." or
+# ")" is escaped); a quote's ">" is an entity.
+_BLOCK_START = re.compile(r"^[#+\-=\[]")
+_NUMBERED = re.compile(r"^(\d+)([.)])")
+# HTML: "<" where it would open a tag, a comment or an autolink, "&" where it would start
+# a character reference, ">" at the start (a quote), written as entities; elsewhere they
+# are plain text ("needs < 1", "f/fn >= 1.41", "Gent & Lindley").
+_TAG_OPEN = re.compile(r"<(?=[A-Za-z/!?])")
+_REFERENCE = re.compile(r"&(?=[#A-Za-z0-9])")
+_QUOTE = re.compile(r"^>")
+
 SCREENING_CAPTION = (
     "**Material screening only.** No mount is checked, so this ranking says nothing about "
     "isolation (transmissibility, resonance, the drift of the natural frequency). Switch on "
     "'Check a mount' in the sidebar (Mount) to rank the grades as mounts."
 )
+
+
+def plain(value) -> str:
+    """Text from data (an id, a name, a note, a reason quoting a file's cell, a link
+    parameter) for a markdown element, shown as it is written and never as markup.
+
+    On one line (runs of white space, line breaks included, become one space); markdown
+    specials written with a backslash; ``<`` and ``&`` as entities where they would open
+    a tag, an autolink (``<http://...>``) or a character reference; a colon before a
+    letter or a slash escaped, so no colour, icon or other directive (``:red[...]``,
+    ``:material/...:``) forms and no bare web address becomes a link; a heading, list,
+    quote or numbered-item marker at the start escaped. Rendered, the text reads as it
+    was written (invisibly, a word joiner stops ``:streamlit:`` becoming the logo).
+    """
+    text = " ".join(("" if value is None else str(value)).split())
+    text = _REFERENCE.sub("&amp;", text)
+    text = _TAG_OPEN.sub("&lt;", text)
+    text = _QUOTE.sub("&gt;", text)
+    text = _MARKDOWN_SPECIALS.sub(r"\\\1", text)
+    text = _LINK_CLOSE.sub(r"\\]", text)
+    text = _COLON_DIRECTIVE.sub(r"\\:", text)
+    text = _WWW.sub(r"\1\\.", text)
+    text = _ICON.sub(r"\1\\/", text)
+    text = _LOGO.sub("\\1\u2060:", text)
+    text = _BLOCK_START.sub(r"\\\g<0>", text)
+    return _NUMBERED.sub(r"\1\\\2", text)
 
 
 @dataclass
@@ -77,7 +133,9 @@ def context() -> Context:
 def need_result(ctx: Context) -> RankResult | None:
     """The ranking, or a message saying why there is none (and None)."""
     if ctx.result is None:
-        st.error(ctx.problem or "no ranking: the library holds no fitted grade")
+        st.error(
+            plain(ctx.problem) if ctx.problem else "no ranking: the library holds no fitted grade"
+        )
         return None
     return ctx.result
 

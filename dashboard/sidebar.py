@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import case
+from dashboard.common import plain
 from engine.base.errors import CriteriaError
 from engine.curves.mountcheck import LAYOUTS, SHAPES
 from engine.physics.indices import AGGREGATES, BUILT_IN
@@ -353,7 +354,7 @@ def _disturbances(off: bool) -> None:
     )
     msg = st.session_state.get(MOUNT_MSG)
     if msg:
-        st.warning(msg)
+        st.warning(plain(msg))  # quotes what was typed
     st.number_input(
         "Working strain amplitude [-]",
         min_value=case.LOWER["c_work"],
@@ -479,5 +480,5 @@ def render() -> tuple[Criteria | None, str | None]:
             st.file_uploader("Load a case", type=["json"], key="case_file", on_change=_on_case_file)
             msg = st.session_state.get("_case_msg")
             if msg:
-                (st.error if msg[0] == "error" else st.success)(msg[1])
+                (st.error if msg[0] == "error" else st.success)(plain(msg[1]))
     return criteria, problem

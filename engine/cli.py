@@ -274,6 +274,62 @@ def cmd_demo(args) -> int:
     return 0
 
 
+def _json_file(name: str) -> Any:
+    """The JSON in file ``name``, or a one-line refusal naming the file."""
+    path = Path(name)
+    if not path.exists():
+        raise QuietgradeError(f"{path}: file not found")
+    try:
+        return json.loads(path.read_text(encoding="utf-8-sig"))
+    except UnicodeDecodeError:
+        raise QuietgradeError(f"{path}: not UTF-8 text") from None
+    except json.JSONDecodeError as exc:
+        raise QuietgradeError(f"{path}: not valid JSON: {exc}") from None
+
+
+def _system_case(name: str):
+    from engine.base.errors import CriteriaError
+    from engine.curves.system import MountSystem
+
+    try:
+        return MountSystem.from_dict(_json_file(name))
+    except CriteriaError as exc:
+        raise QuietgradeError(f"{name}: {exc}") from None
+
+
+def cmd_system(args) -> int:
+    from engine.curves.system import solve_system
+    from engine.curves.window import OperatingWindow, check_temperatures
+    from engine.library.fits import master_curve
+
+    temps = check_temperatures(args.temp, "--temp") if args.temp else OperatingWindow().temperatures
+    system = _system_case(args.case)
+    lib = _library(args)
+    material = lib.material(args.id)
+    curve = master_curve(lib, args.id)
+    row = {
+        "poisson_ratio": material.poisson_ratio,
+        "hardness": material.hardness,
+        "bulk_modulus": material.bulk_modulus,
+    }
+    res = solve_system(curve, row, system, temps)
+    data = {"id": args.id, **res.to_dict()}
+    fails = res.failures()
+    head = f"{args.id}: passes" if not fails else f"{args.id}: fails — " + "; ".join(fails)
+    lines = [
+        head,
+        f"  {system.mass_kg:g} kg on {len(system.mounts)} mounts; highest mode "
+        f"{res.highest_mode:.3g} Hz; worst transmissibility {res.worst_transmissibility:.3g}",
+    ]
+    for i, t in enumerate(res.temperatures):
+        modes = ", ".join(f"{res.names[i][j]} {res.frequencies[i, j]:.3g}" for j in range(6))
+        worst = max((float(tm[i].max()) for tm in res.transmissibility if tm.size), default=0.0)
+        lines.append(f"  {t:6.1f} °C: {modes} Hz; worst T {worst:.3g}")
+    lines += [f"  note: {n}" for n in res.notes]
+    _emit(args, data, lines)
+    return 0
+
+
 def cmd_mount(args) -> int:
     from engine.curves.bank import CurveBank
     from engine.curves.mountcheck import MountDesign, check_mounts
@@ -451,6 +507,12 @@ def _criteria_from_args(args):
         except json.JSONDecodeError as exc:
             raise QuietgradeError(f"{path}: not valid JSON: {exc}") from None
         changes["mount"] = MountDesign.from_dict(mount)
+    if args.system:
+        changes["system"] = _system_case(args.system)
+        if not args.mount:
+            changes["mount"] = None  # the system takes the place of the one-pad mount
+        if not args.index and not args.criteria:
+            changes["indices"] = ()  # the mount system's default indices
     if args.pareto:
         changes["pareto"] = tuple(args.pareto)
     return replace(criteria, **changes)
@@ -628,6 +690,18 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("demo", parents=[common], help="load the invented demo grades")
     p.set_defaults(func=cmd_demo)
 
+    p = sub.add_parser(
+        "system",
+        parents=[common],
+        help="a machine on N mounts of one grade, six degrees of freedom",
+    )
+    p.add_argument("id")
+    p.add_argument("--case", required=True, help="mount-system case JSON file (README)")
+    p.add_argument(
+        "--temp", type=float, nargs="+", help="[degC]; omitted: the default window's temperatures"
+    )
+    p.set_defaults(func=cmd_system)
+
     p = sub.add_parser("mount", parents=[common], help="check a mount made of one grade")
     p.add_argument("id")
     p.add_argument("--layout", choices=("shear", "compression"), required=True)
@@ -685,6 +759,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--allow-extrapolation", action="store_true")
     p.add_argument("--ignore-service-range", action="store_true")
     p.add_argument("--mount", help="mount design JSON file")
+    p.add_argument(
+        "--system", help="mount-system case JSON file: check each grade as the whole machine"
+    )
     p.add_argument("--pareto", nargs=2, metavar=("INDEX_A", "INDEX_B"))
     p.add_argument("--out", help="shortlist.csv, .xlsx or .html")
     p.set_defaults(func=cmd_rank)

@@ -12,6 +12,7 @@ import numpy as np
 import plotly.graph_objects as go
 
 from engine.curves.mastercurve import MasterCurve
+from engine.output.mapfigure import plot_text
 from engine.output.palette import TEMPLATE_NAME, band_colours, log_span, tidy_log_axes
 
 TEMPLATE = TEMPLATE_NAME
@@ -93,7 +94,9 @@ def with_interval(what: str) -> str:
 def empty_figure(message: str) -> go.Figure:
     """A blank figure carrying ``message`` in its middle."""
     fig = go.Figure()
-    fig.add_annotation(text=message, showarrow=False, xref="paper", yref="paper", x=0.5, y=0.5)
+    fig.add_annotation(
+        text=plot_text(message), showarrow=False, xref="paper", yref="paper", x=0.5, y=0.5
+    )
     fig.update_layout(template=TEMPLATE, height=260, xaxis_visible=False, yaxis_visible=False)
     return fig
 

@@ -21,6 +21,7 @@ from dashboard.charts.common import (
     with_interval,
 )
 from engine.curves.mastercurve import MasterCurve
+from engine.output.mapfigure import plot_text
 from engine.output.palette import (
     ACCENT,
     FREQUENCY_DASHES,
@@ -90,7 +91,7 @@ def temperature_figure(
                     high,
                     x,
                     colour,
-                    f"{gid} {what} {f:g} Hz",
+                    f"{plot_text(gid)} {what} {f:g} Hz",
                     legendgroup=f"{gid}-{j}",
                     showlegend=False,
                 ):
@@ -101,7 +102,7 @@ def temperature_figure(
                             x=grid,
                             y=np.where(mask, values, np.nan),
                             mode="lines",
-                            name=f"{gid} {f:g} Hz",
+                            name=f"{plot_text(gid)} {f:g} Hz",
                             legendgroup=f"{gid}-{j}",
                             showlegend=row == 1 and not part,
                             line={
@@ -111,7 +112,8 @@ def temperature_figure(
                             },
                             customdata=np.column_stack([low, high]),
                             hovertemplate=(
-                                f"{gid} {what}{part}<br>T = %{{x:.1f}} °C, f = {f:g} Hz<br>"
+                                f"{plot_text(gid)} {what}{part}<br>"
+                                f"T = %{{x:.1f}} °C, f = {f:g} Hz<br>"
                                 + with_interval("")
                                 + "<extra></extra>"
                             ),
@@ -136,7 +138,7 @@ def temperature_figure(
                         x=sel[:, 0],
                         y=values,
                         mode="markers",
-                        name=f"{gid} measured {fm:.3g} Hz",
+                        name=f"{plot_text(gid)} measured {fm:.3g} Hz",
                         legendgroup=f"{gid}-{j}",
                         showlegend=row == 1,
                         marker={
@@ -146,7 +148,7 @@ def temperature_figure(
                             "line": {"width": 1.2},
                         },
                         hovertemplate=(
-                            f"{gid} measured at {fm:.3g} Hz<br>T = %{{x:.1f}} °C<br>"
+                            f"{plot_text(gid)} measured at {fm:.3g} Hz<br>T = %{{x:.1f}} °C<br>"
                             "%{y:.3g}<extra></extra>"
                         ),
                     ),
@@ -297,7 +299,10 @@ def master_curve_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.
     fig.update_layout(
         template=TEMPLATE,
         height=640,
-        title=f"Master curve of {gid} at the reference temperature {curve.reference_C:.1f} °C",
+        title=(
+            f"Master curve of {plot_text(gid)} at the reference temperature "
+            f"{curve.reference_C:.1f} °C"
+        ),
         legend={"orientation": "h", "y": -0.14, "font": {"size": 10}},
     )
     return tidy_log_axes(fig)
@@ -399,8 +404,8 @@ def shift_figure(gid: str, curve: MasterCurve, window_range: tuple[float, float]
         template=TEMPLATE,
         height=440,
         title=(
-            f"Shift factors of {gid} (reference {curve.reference_C:.1f} °C; bars and shading: "
-            "95 % interval)"
+            f"Shift factors of {plot_text(gid)} (reference {curve.reference_C:.1f} °C; bars "
+            "and shading: 95 % interval)"
         ),
         xaxis_title="temperature [°C]",
         yaxis_title="log10 aT [-]",
@@ -541,7 +546,7 @@ def nomogram_figure(
     fig.update_layout(
         template=TEMPLATE,
         height=620,
-        title=f"Reduced-frequency nomogram of {gid} (ISO 10112 layout)",
+        title=f"Reduced-frequency nomogram of {plot_text(gid)} (ISO 10112 layout)",
         xaxis={
             "type": "log",
             "range": [xa, xb],
@@ -697,7 +702,7 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray | None) 
     fig.update_layout(
         template=TEMPLATE,
         height=500 if strip else 460,
-        title=f"Glass transition of {gid} at {f_tg:g} Hz",
+        title=f"Glass transition of {plot_text(gid)} at {f_tg:g} Hz",
         xaxis={"title": {"text": "temperature [°C]"}, "range": [t_lo - 2.0, t_hi + 2.0]},
         yaxis={
             "type": "log",
@@ -792,7 +797,7 @@ def relaxation_figure(
     fig.update_layout(
         template=TEMPLATE,
         height=440,
-        title=f"Relaxation modulus of {gid}",
+        title=f"Relaxation modulus of {plot_text(gid)}",
         xaxis={"type": "log", "range": [-3, 9], "title": {"text": "time t [s]"}},
         yaxis={"type": "log", "title": {"text": f"relaxation modulus {m}(t) [MPa]"}},
     )
@@ -825,7 +830,7 @@ def residual_figure(gid: str, curve: MasterCurve) -> go.Figure:
         template=TEMPLATE,
         height=380,
         barmode="group",
-        title=f"Fit residual per isotherm of {gid} (hatched: bridged isotherm)",
+        title=f"Fit residual per isotherm of {plot_text(gid)} (hatched: bridged isotherm)",
         xaxis_title="isotherm temperature [°C]",
         yaxis_title="rms residual [decades]",
         legend={"orientation": "h", "y": -0.25},
@@ -861,7 +866,7 @@ def collapse_figure(gid: str, curve: MasterCurve, points: np.ndarray) -> go.Figu
         template=TEMPLATE,
         height=380,
         title=(
-            f"tan δ against {mode_symbol(curve)}' of {gid}: scatter {text}, "
+            f"tan δ against {mode_symbol(curve)}' of {plot_text(gid)}: scatter {text}, "
             + ("one curve (superposition holds)" if ok else "does not collapse onto one curve")
         ),
         xaxis={"type": "log", "title": {"text": f"storage modulus {mode_symbol(curve)}' [MPa]"}},

@@ -55,6 +55,14 @@ def crowd_traces(result, rows, chosen: bool = False) -> list:
         custom[:, :, 0] = np.array([props.ids[k] for k in ks], dtype=object)[:, None]
         custom[:, :, 1] = np.array(temps.tolist(), dtype=object)[None, :]
         custom[:, :, 2] = np.array(states, dtype=object)[:, None]
+        # The hover shows the id and the state as Plotly labels (mapfigure.plot_text), from
+        # text and hovertext; customdata keeps them as they are (a selection reads the id).
+        shown_id = np.empty((ks.size, n_t), dtype=object)
+        shown_id[:] = np.array([mapfigure.plot_text(props.ids[k]) for k in ks], dtype=object)[
+            :, None
+        ]
+        shown_state = np.empty((ks.size, n_t), dtype=object)
+        shown_state[:] = np.array([mapfigure.plot_text(s) for s in states], dtype=object)[:, None]
         state = "passing" if passed else "excluded"
         if chosen:
             alpha = 0.85 if passed else 0.6
@@ -88,9 +96,11 @@ def crowd_traces(result, rows, chosen: bool = False) -> list:
                 # WebGL draws a mark's colour at full strength: the fading is an opacity.
                 marker={"size": size, "color": INK, "opacity": alpha},
                 customdata=custom.reshape(-1, 3),  # grade, temperature, state
+                text=shown_id.ravel(),
+                hovertext=shown_state.ravel(),
                 hovertemplate=(
-                    "<b>%{customdata[0]}</b><br>T = %{customdata[1]:.0f} °C<br>"
-                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>%{customdata[2]}<extra></extra>"
+                    "<b>%{text}</b><br>T = %{customdata[1]:.0f} °C<br>"
+                    "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>%{hovertext}<extra></extra>"
                 ),
             )
         )
@@ -189,7 +199,7 @@ def path_band_trace(
         fill="toself",
         fillcolor=fill,
         line={"color": edge, "width": 0},
-        name=f"{gid} {BAND_SUFFIX}",
+        name=f"{mapfigure.plot_text(gid)} {BAND_SUFFIX}",
         meta=gid,  # no legend group: a trace with one stands for a grade's path on the map
         showlegend=False,
         hoverinfo="skip",

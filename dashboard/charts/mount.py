@@ -9,6 +9,7 @@ import plotly.graph_objects as go
 
 from dashboard.charts.common import TEMPLATE, tidy_log_axes
 from engine.curves.mountcheck import MAX_STATIC_STRAIN
+from engine.output.mapfigure import plot_text
 from engine.output.palette import FREQUENCY_DASHES, GUIDE, INK, WARN, WINDOW_BAND
 from engine.selection.ranking import RankResult
 
@@ -143,10 +144,12 @@ def mount_figures(
                 x=temps,
                 y=mres.natural_frequency[k],
                 mode="lines+markers",
-                name=gid,
+                name=plot_text(gid),
                 line={"color": colour, "width": 2},
                 marker={"size": 5},
-                hovertemplate=f"{gid}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>",
+                hovertemplate=(
+                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>"
+                ),
             )
         )
         trans = mres.transmissibility[k]
@@ -157,13 +160,13 @@ def mount_figures(
                         x=temps,
                         y=trans[:, j],
                         mode="lines+markers",
-                        name=gid,
+                        name=plot_text(gid),
                         legendgroup=gid,
                         showlegend=j == 0,
                         line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
                         marker={"size": 5},
                         hovertemplate=(
-                            f"{gid} at {label}<br>T = %{{x:g}} °C<br>transmissibility "
+                            f"{plot_text(gid)} at {label}<br>T = %{{x:g}} °C<br>transmissibility "
                             "%{y:.3g}<extra></extra>"
                         ),
                     )
@@ -177,13 +180,13 @@ def mount_figures(
                     x=temps,
                     y=worst,
                     mode="lines+markers",
-                    name=gid,
+                    name=plot_text(gid),
                     legendgroup=gid,
                     line={"color": colour, "width": 2},
                     marker={"size": 5},
                     customdata=[labels[j] for j in at],
                     hovertemplate=(
-                        f"{gid}<br>T = %{{x:g}} °C<br>worst transmissibility %{{y:.3g}} "
+                        f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>worst transmissibility %{{y:.3g}} "
                         "at %{customdata}<extra></extra>"
                     ),
                 )
@@ -193,13 +196,13 @@ def mount_figures(
                 x=temps,
                 y=mres.amplification[k],
                 mode="lines+markers",
-                name=gid,
+                name=plot_text(gid),
                 legendgroup=gid,
                 line={"color": colour, "width": 2},
                 marker={"size": 5},
                 customdata=mres.natural_frequency[k],
                 hovertemplate=(
-                    f"{gid}<br>T = %{{x:g}} °C<br>amplification %{{y:.3g}} at fn "
+                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>amplification %{{y:.3g}} at fn "
                     "%{customdata:.3g} Hz<extra></extra>"
                 ),
             )
@@ -209,13 +212,13 @@ def mount_figures(
                 x=temps,
                 y=mres.static_strain[k],
                 mode="lines+markers",
-                name=gid,
+                name=plot_text(gid),
                 legendgroup=gid,
                 line={"color": colour, "width": 2},
                 marker={"size": 5},
                 customdata=mres.static_deflection[k] * 1e3,
                 hovertemplate=(
-                    f"{gid}<br>T = %{{x:g}} °C<br>static strain %{{y:.3g}} "
+                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>static strain %{{y:.3g}} "
                     "(%{customdata:.3g} mm)<extra></extra>"
                 ),
             )
@@ -227,12 +230,12 @@ def mount_figures(
                 x=[temps.max()],
                 y=[strain_top if off_scale else sag],
                 mode="markers+text" if off_scale else "markers",
-                text=[f"{gid}: {sag:.3g}, off the scale"] if off_scale else None,
+                text=[f"{plot_text(gid)}: {sag:.3g}, off the scale"] if off_scale else None,
                 textposition="bottom left",
                 textfont={"size": 10, "color": colour},
                 legendgroup=gid,
                 showlegend=False,
-                name=f"{gid} with sag after {design.service_life_h:g} h",
+                name=f"{plot_text(gid)} with sag after {design.service_life_h:g} h",
                 marker={
                     "color": colour,
                     "size": 11,
@@ -241,7 +244,8 @@ def mount_figures(
                 },
                 customdata=[[sag, mres.sag[k] * 1e3]],
                 hovertemplate=(
-                    f"{gid}: strain %{{customdata[0]:.3g}} (%{{customdata[1]:.3g}} mm) after "
+                    f"{plot_text(gid)}: strain %{{customdata[0]:.3g}} "
+                    "(%{customdata[1]:.3g} mm) after "
                     f"{design.service_life_h:g} h at {temps.max():g} °C<extra></extra>"
                 ),
             )

@@ -22,7 +22,7 @@ from dashboard.charts.curves import (
     temperature_figure,
     transitions_figure,
 )
-from dashboard.common import MISSING, SHOWN_LIMIT, context
+from dashboard.common import MISSING, SHOWN_LIMIT, context, plain
 from engine.base.errors import CriteriaError, QuietgradeError
 from engine.curves.window import OperatingWindow
 from engine.library.fits import summary
@@ -53,7 +53,7 @@ else:
     shown = in_set[:SHOWN_LIMIT]
     c2.caption(
         "Grades: "
-        + ", ".join(shown)
+        + ", ".join(plain(g) for g in shown)
         + (
             f" (the first {len(shown)} of the {len(in_set)} in the comparison set)"
             if len(in_set) > len(shown)
@@ -69,7 +69,7 @@ try:
     if not frequencies:
         raise CriteriaError("frequencies: give at least one positive number")
 except CriteriaError as exc:
-    st.error(str(exc))
+    st.error(plain(exc))  # quotes what was typed
     frequencies = [design_f]
 
 # The reference outlives the page: Streamlit forgets a widget's value in a run that does
@@ -108,8 +108,8 @@ def _page_curves(ids: list[str]) -> dict:
                 )
             except QuietgradeError as exc:
                 st.error(
-                    f"{gid}: no master curve at {reference:.1f} °C ({exc}); the automatic "
-                    "reference is shown"
+                    f"{plain(gid)}: no master curve at {reference:.1f} °C ({plain(exc)}); "
+                    "the automatic reference is shown"
                 )
                 out[gid] = ctx.curves[gid]
     return out
@@ -164,7 +164,7 @@ def _reference_caption() -> str:
             )
     description = (curve.grouping or {}).get("description")
     if description:
-        text += f". Points: {description}"
+        text += f". Points: {plain(description)}"
     return text + "."
 
 
@@ -374,7 +374,7 @@ def _quality_tab() -> None:
     if pts is not None:
         st.plotly_chart(collapse_figure(focus, curve, pts), theme=None, key="collapse")
     for note in curve.notes:
-        st.caption("Note: " + note)
+        st.caption("Note: " + plain(note))
 
 
 # Only the open tab is drawn: the others would cost every rerun and not be seen.

@@ -7,17 +7,17 @@ import pandas as pd
 import streamlit as st
 
 from dashboard import data, importing
-from dashboard.common import MISSING, context
+from dashboard.common import MISSING, context, plain
 from engine.base.errors import LibraryError
 
 ctx = context()
 lib = ctx.library
 st.header("Library")
-st.caption(f"Library: {lib.location} (version {lib.version()})")
+st.caption(f"Library: {plain(lib.location)} (version {lib.version()})")
 
 message = st.session_state.pop("_library_msg", None)
 if message:
-    st.success(message)
+    st.success(plain(message))  # names grades and files
 
 
 def _rev(name: str) -> int:
@@ -74,7 +74,7 @@ def _import_format() -> None:
         importing.plan_uploads, lib, [(f.name, f.getvalue()) for f in files]
     )
     if preview is None:
-        st.error(error)
+        st.error(plain(error))
         st.caption("Nothing was written.")
         return
     _show_preview(preview, "format")
@@ -97,7 +97,7 @@ def _import_mapped() -> None:
     export = (upload.name, upload.getvalue())
     table, error = importing.try_plan(importing.read_export, *export)
     if table is None:
-        st.error(error)
+        st.error(plain(error))
         st.caption("Nothing was written.")
         return
     st.markdown("**First rows of the export**")
@@ -167,7 +167,7 @@ def _import_mapped() -> None:
         importing.plan_mapped, lib, export, mapping, units, material_id, catalogs
     )
     if preview is None:
-        st.error(error)
+        st.error(plain(error))
         st.caption("Nothing was written.")
         return
     _show_preview(preview, "mapped")
@@ -295,7 +295,7 @@ def _provenance() -> None:
     if ctx.fit_errors:
         st.markdown("**Fits that failed**")
         for gid, reason in sorted(ctx.fit_errors.items()):
-            st.error(f"{gid}: {reason}")
+            st.error(f"{plain(gid)}: {plain(reason)}")
 
 
 def _delete() -> None:
@@ -306,14 +306,14 @@ def _delete() -> None:
         if ids:
             gid = st.selectbox("Grade", ids, key="delete_grade")
             sure = st.checkbox(
-                f"Yes, hide {gid} and its data sets (they can be restored)",
+                f"Yes, hide {plain(gid)} and its data sets (they can be restored)",
                 key=f"delete_sure_{_rev('delete')}",
             )
             if st.button("Delete grade", disabled=not sure, key="delete_go"):
                 try:
                     lib.delete_material(gid)
                 except LibraryError as exc:
-                    st.error(str(exc))
+                    st.error(plain(exc))
                 else:
                     _bump("delete")
                     st.session_state["_library_msg"] = f"{gid} deleted (restore it below)."

@@ -7,7 +7,7 @@ import streamlit as st
 
 from dashboard import tables
 from dashboard.charts.mount import mount_figures
-from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result
+from dashboard.common import MISSING, SHOWN_LIMIT, context, need_result, plain
 from engine.curves.mountcheck import MountDesign, MountResult
 from engine.physics.mount import BUCKLING_LOAD_SHARE, STANDARD_GRAVITY
 from engine.selection.ranking import GradeResult, RankResult
@@ -108,9 +108,9 @@ def verdict_text(gid: str, g: GradeResult, result: RankResult, k: int) -> str:
     assert mres is not None
     word = mres.verdict[k]
     place = f"rank {g.rank} of {len(result.shortlist)}" if g.passed else "excluded"
-    line = f"**{gid}** · mount verdict: :{VERDICT_COLOURS[word]}[**{word}**] · {place}"
+    line = f"**{plain(gid)}** · mount verdict: :{VERDICT_COLOURS[word]}[**{word}**] · {place}"
     reasons = list(dict.fromkeys(mres.reasons(k)))
-    return "\n".join([line, *(f"- {r}" for r in reasons)])
+    return "\n".join([line, *(f"- {plain(r)}" for r in reasons)])
 
 
 def beyond_verdict(g: GradeResult, result: RankResult, k: int) -> list[str]:
@@ -146,7 +146,7 @@ def others_line(g: GradeResult, result: RankResult, k: int) -> str | None:
         return None
     assert result.mount is not None
     lead = "Also outside" if not result.mount.passes[k] else "Excluded by"
-    return f"{lead} the case's other limits: " + "; ".join(others)
+    return f"{lead} the case's other limits: " + "; ".join(plain(o) for o in others)
 
 
 def grade_verdict(gid: str, g: GradeResult, result: RankResult, design: MountDesign) -> None:
@@ -163,8 +163,8 @@ def grade_verdict(gid: str, g: GradeResult, result: RankResult, design: MountDes
         # from an extrapolated curve), folded together.
         notes = mres.notes.get(gid, [])
         if notes:
-            with st.expander(f"Notes on {gid} ({len(notes)})"):
-                st.markdown("\n".join(f"- {n}" for n in notes))
+            with st.expander(f"Notes on {plain(gid)} ({len(notes)})"):
+                st.markdown("\n".join(f"- {plain(n)}" for n in notes))
 
 
 ctx = context()

@@ -8,7 +8,7 @@ downloads all show them.
 import streamlit as st
 
 from dashboard import tables
-from dashboard.common import MISSING, context, need_result, screening_caption
+from dashboard.common import MISSING, context, need_result, plain, screening_caption
 from engine.base.errors import QuietgradeError
 from engine.output.export import intervals_note
 from engine.selection.spread import rank_spread
@@ -30,7 +30,7 @@ def _exports(result, library, curves):
     try:
         from engine.output import export, report, workbook
     except ImportError as exc:
-        st.warning(f"exports are not available in this installation ({exc})")
+        st.warning(f"exports are not available in this installation ({plain(exc)})")
         return
     c1, c2, c3, _ = st.columns([1, 1, 1, 2])
     c1.download_button(
@@ -61,12 +61,13 @@ if result is not None:
         if result.spread is None:  # not yet made by whoever ranked
             result = _with_intervals(ctx.ranking_name(), result, ctx.curves, ctx.library)
     except QuietgradeError as exc:
-        st.warning(f"rank intervals are not available: {exc}")
+        st.warning(f"rank intervals are not available: {plain(exc)}")
     n = len(result.grades)
     screening_caption(result)
     st.caption(
         f"{len(result.shortlist)} of {n} grade(s) meet every limit. Score: weighted log10 "
-        "index values, 100 for the best passing grade and 0 for the last. " + intervals_note(result)
+        "index values, 100 for the best passing grade and 0 for the last. "
+        + plain(intervals_note(result))
     )
     _exports(result, ctx.library, ctx.curves)
     frame = tables.shortlist_frame(result)
@@ -90,25 +91,27 @@ if result is not None:
             },
         )
         with st.expander("Reasons, in full", expanded=True):
-            st.markdown("\n".join(f"- **{g.id}** {g.reason}" for g in result.shortlist))
+            st.markdown(
+                "\n".join(f"- **{plain(g.id)}** {plain(g.reason)}" for g in result.shortlist)
+            )
     st.subheader("Excluded")
     if not result.excluded:
         st.caption("None.")
     else:
         st.markdown(
             "\n".join(
-                f"- **{g.id}** ({g.name}"
-                + (f", {g.family}" if g.family else "")
+                f"- **{plain(g.id)}** ({plain(g.name)}"
+                + (f", {plain(g.family)}" if g.family else "")
                 + "): "
-                + "; ".join(f.text() for f in g.failures)
+                + "; ".join(plain(f.text()) for f in g.failures)
                 for g in result.excluded
             )
         )
     if result.fit_errors:
         st.subheader("Grades without a master curve")
         for gid, reason in sorted(result.fit_errors.items()):
-            st.error(f"{gid}: {reason}")
+            st.error(f"{plain(gid)}: {plain(reason)}")
     with st.expander("Notes on individual grades"):
         for g in result.grades:
             for note in g.notes:
-                st.caption(f"{g.id}: {note}")
+                st.caption(f"{plain(g.id)}: {plain(note)}")
