@@ -20,7 +20,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import elementwise
 
 from engine.base.blocks import in_blocks
 from engine.physics.prony import PronySeries
@@ -271,6 +270,8 @@ def retardation_spectrum(series: PronySeries) -> RetardationSpectrum:
     # (a pole term too weak to register, or rounding at the midpoint) sits at that end.
     below_lo = np.where(from_left, g_lo >= 0.0, g_lo <= 0.0)
     beyond_hi = np.where(from_left, g_hi <= 0.0, g_hi >= 0.0)
+    from scipy.optimize import elementwise  # imported when a compliance is solved
+
     result = elementwise.find_root(
         scaled_f,
         (log_lo, log_hi),
@@ -541,6 +542,8 @@ def _roots(tau, ew, e_inf, j, count, eta0):
     # midpoint) sits at that end.
     below_lo = rising * g_lo >= 0.0
     beyond_hi = rising * g_hi <= 0.0
+    from scipy.optimize import elementwise  # imported when a compliance is solved
+
     result = elementwise.find_root(
         scaled_f,
         (log_lo, log_hi),

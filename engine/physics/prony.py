@@ -11,7 +11,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import nnls
 
 from engine.base.errors import FitError
 
@@ -391,6 +390,8 @@ def fit_prony(
         scaled = np.vstack([scaled, d2_scaled])
         rhs = np.concatenate([rhs, np.zeros(m - 2)])
     try:
+        from scipy.optimize import nnls  # imported when a fit needs it
+
         solution, _ = nnls(scaled, rhs, maxiter=50 * (tau.size + 1))
     except RuntimeError as exc:  # iteration limit
         raise FitError(f"Prony fit: the non-negative least-squares solver failed ({exc})") from exc

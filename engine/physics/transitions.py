@@ -13,7 +13,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.signal import find_peaks
 
 from engine.base.errors import InputError
 
@@ -331,6 +330,8 @@ def secondary_transition(
     temperature, loss_factor = _sweep(temperature, loss_factor=loss_factor)
     if tg_c is None:
         return None
+    from scipy.signal import find_peaks  # here: scipy.signal takes ~0.5 s to import
+
     peaks, props = find_peaks(loss_factor, prominence=min_prominence)
     keep = temperature[peaks] <= float(tg_c) - min_separation_k
     if not np.any(keep):
