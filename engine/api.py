@@ -103,7 +103,7 @@ def rank_library(
     criteria = Criteria() if criteria is None else criteria
     curves, errors = fit_library(library, processes=processes)
     if not curves:
-        raise FitError(f"no fitted grades in the library {library.location}")
+        raise FitError(f"no fitted grades in the library {library.display_location}")
     materials = {m.id: m for m in library.materials()}
     sweeps = working_sweeps(library, criteria)
     result = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)

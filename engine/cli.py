@@ -117,7 +117,7 @@ def cmd_list(args) -> int:
             ],
         }
         rows.append(entry)
-    lines = [f"{len(rows)} grade(s) in {lib.location}"]
+    lines = [f"{len(rows)} grade(s) in {lib.display_location}"]
     for r in rows:
         n = len(r["datasets"])
         pts = r["datasets"][-1]["points"] if n else 0
@@ -257,9 +257,10 @@ def cmd_demo(args) -> int:
     curves, errors = fit_library(lib)
     data = {**summary.to_dict(), "fitted": sorted(curves), "fit_errors": errors}
     if summary.materials_added or summary.datasets_added:
-        head = f"demo library loaded into {lib.location}: {len(summary.materials_added)} grade(s)"
+        added = len(summary.materials_added)
+        head = f"demo library loaded into {lib.display_location}: {added} grade(s)"
     else:
-        head = f"demo library already in {lib.location}: nothing changed"
+        head = f"demo library already in {lib.display_location}: nothing changed"
     lines = [head]
     for mid in sorted(curves):
         c = curves[mid]
@@ -532,7 +533,7 @@ def cmd_rank(args) -> int:
         failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
         more = f" and {len(errors) - 3} more" if len(errors) > 3 else ""
         raise QuietgradeError(
-            f"no fitted grades in the library {lib.location}"
+            f"no fitted grades in the library {lib.display_location}"
             + (f"; the fit failed for {len(errors)} grade(s): {failed}{more}" if errors else "")
         )
     materials = {m.id: m for m in lib.materials()}
