@@ -89,6 +89,7 @@ def cmd_load(args) -> int:
     lines += [f"  data set for {m}: {n} points" for m, n in summary.datasets_added]
     lines += [f"  amplitude sweep for {m}: {n} points" for m, n in summary.amplitude_sweeps_added]
     lines += [f"  unchanged (already imported): {f}" for f in summary.files_skipped]
+    lines += [f"  note: {n}" for n in summary.notes]
     _emit(args, summary.to_dict(), lines)
     return 0
 

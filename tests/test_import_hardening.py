@@ -293,6 +293,14 @@ def test_near_repeated_points_are_averaged_with_a_note(tmp_path, lib):
     ]
     plan = plan_import(lib, [read_table(write(tmp_path, "cat.csv", CATALOG))], [table])
     assert plan.notes == sweep.notes
+    # ... and the import's summary (what `load` prints and its JSON holds) says it too
+    summary = import_files(
+        lib, [write(tmp_path, "cat.csv", CATALOG)], [write(tmp_path, "sw.csv", text)]
+    )
+    assert [n.split(": ", 1)[1] for n in summary.notes] == [
+        n.split(": ", 1)[1] for n in sweep.notes
+    ]
+    assert summary.to_dict()["notes"] == summary.notes
 
 
 # -- one line, always --------------------------------------------------------------------

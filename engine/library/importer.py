@@ -1093,6 +1093,7 @@ def import_files(
     amp = [a if isinstance(a, RawTable) else read_table(a) for a in amplitude]
     plan = plan_import(library, cat, swp, amp)
     summary = library.write_import(plan.files, plan.materials, plan.datasets)
+    summary.notes = list(plan.notes)
     summary.files_skipped.extend(plan.skipped)
     return summary
 

@@ -359,9 +359,11 @@ class ImportSummary:
     datasets_added: list[tuple[str, int]] = field(default_factory=list)  # (material, points)
     files_skipped: list[str] = field(default_factory=list)
     amplitude_sweeps_added: list[tuple[str, int]] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)  # e.g. repeated points averaged
 
     def to_dict(self) -> dict:
         return {
+            "notes": self.notes,
             "materials_added": self.materials_added,
             "materials_updated": self.materials_updated,
             "datasets_added": [{"material": m, "points": n} for m, n in self.datasets_added],
