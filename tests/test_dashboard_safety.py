@@ -42,6 +42,7 @@ from engine.library.fits import fit_library  # noqa: E402
 from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
 from engine.output.mapfigure import plot_text  # noqa: E402
+from tests.offloop import off_the_event_loop  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
@@ -376,37 +377,44 @@ def test_browser_dom_holds_no_image_or_link_from_the_data(tmp_path):
                 time.sleep(0.3)
         requested: list[str] = []
         ids = ",".join((SAFE_ID, *HOSTILE_IDS))
-        with playwright.sync_playwright() as p:
-            browser = p.chromium.launch(
-                executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
-            )
-            page = browser.new_page(viewport={"width": 1280, "height": 900})
-            page.set_default_timeout(60_000)
-            page.on("request", lambda req: requested.append(req.url))
-            # Each page is read once its last element is drawn.
-            for path, last in (("shortlist", "Notes on individual grades"), ("library", "Imports")):
-                query = urllib.parse.urlencode({"g": ids})
-                page.goto(f"{url}/{path}?{query}")
-                page.wait_for_selector('[data-testid="stMain"] [data-testid="stHeading"]')
-                if path == "library":
-                    page.get_by_role("tab", name="Data sets").click()
-                page.get_by_text(last, exact=True).first.wait_for()
-                page.wait_for_timeout(500)
-                text = page.inner_text('[data-testid="stMain"]')
-                assert not page.query_selector('[data-testid="stException"]'), path
-                images = page.eval_on_selector_all(
-                    "img", "els => els.map(e => e.getAttribute('src') || '')"
+
+        def drive() -> None:
+            with playwright.sync_playwright() as p:
+                browser = p.chromium.launch(
+                    executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
                 )
-                links = page.eval_on_selector_all(
-                    "a", "els => els.map(e => e.getAttribute('href') || '')"
-                )
-                assert not [s for s in images if "127.0.0.1:9" in s or s == "x"], path
-                assert not [h for h in links if h.startswith((EVIL, "http://x"))], path
-                assert not page.query_selector("h1:has-text('Session expired')"), path
-                # The texts are there, as written.
-                if path == "shortlist":
-                    assert HOSTILE_IDS[0] in text, "the shortlist page names no hostile grade"
-            browser.close()
+                page = browser.new_page(viewport={"width": 1280, "height": 900})
+                page.set_default_timeout(60_000)
+                page.on("request", lambda req: requested.append(req.url))
+                # Each page is read once its last element is drawn.
+                for path, last in (
+                    ("shortlist", "Notes on individual grades"),
+                    ("library", "Imports"),
+                ):
+                    query = urllib.parse.urlencode({"g": ids})
+                    page.goto(f"{url}/{path}?{query}")
+                    page.wait_for_selector('[data-testid="stMain"] [data-testid="stHeading"]')
+                    if path == "library":
+                        page.get_by_role("tab", name="Data sets").click()
+                    page.get_by_text(last, exact=True).first.wait_for()
+                    page.wait_for_timeout(500)
+                    text = page.inner_text('[data-testid="stMain"]')
+                    assert not page.query_selector('[data-testid="stException"]'), path
+                    images = page.eval_on_selector_all(
+                        "img", "els => els.map(e => e.getAttribute('src') || '')"
+                    )
+                    links = page.eval_on_selector_all(
+                        "a", "els => els.map(e => e.getAttribute('href') || '')"
+                    )
+                    assert not [s for s in images if "127.0.0.1:9" in s or s == "x"], path
+                    assert not [h for h in links if h.startswith((EVIL, "http://x"))], path
+                    assert not page.query_selector("h1:has-text('Session expired')"), path
+                    # The texts are there, as written.
+                    if path == "shortlist":
+                        assert HOSTILE_IDS[0] in text, "the shortlist page names no hostile grade"
+                browser.close()
+
+        off_the_event_loop(drive)
         assert not [r for r in requested if r.startswith(("http://127.0.0.1:9", EVIL))]
     finally:
         proc.terminate()

@@ -100,6 +100,9 @@ def test_built_in_directions_kinds_and_needs():
         "plate_damping": (True, "point", ("density",)),
         "beam_damping_per_cost": (True, "point", ("density", "price")),
         "plate_damping_per_cost": (True, "point", ("density", "price")),
+        "system_highest_mode": (False, "window", ()),
+        "system_worst_transmissibility": (False, "window", ()),
+        "system_mode_drift": (False, "window", ()),
     }
     assert set(BUILT_IN) == set(expected)
     for name, (higher, kind, needs) in expected.items():
@@ -108,6 +111,7 @@ def test_built_in_directions_kinds_and_needs():
         assert spec.needs_mount == (
             name in ("frequency_drift", "worst_transmissibility", "isolation_efficiency")
         )
+        assert spec.needs_system == name.startswith("system_")
         assert spec.doc and spec.label
         assert (spec.point is None) == (kind == "window"), name
 

@@ -38,6 +38,7 @@ from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
 from tests.helpers import DEMO
+from tests.offloop import off_the_event_loop
 
 # Demo grade -> (hostile id, hostile name). The first three pass the criteria below,
 # the others are excluded, so both tables and both charts carry hostile text.
@@ -437,36 +438,43 @@ def test_report_hover_labels_show_names_as_written_in_a_browser(dressed, hostile
     sync_api = _browser_ready()
     path = write_shortlist(dressed, tmp_path / "report.html", hostile[0], hostile[1])
     dialogs, requests = [], []
-    with sync_api.sync_playwright() as p:
-        browser = p.chromium.launch(
-            executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
-        )
-        try:
-            page = browser.new_page()
-            page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
-            page.on("request", lambda r: requests.append(r.url))
-            page.goto(path.as_uri())
-            page.wait_for_function(
-                "document.querySelectorAll('.js-plotly-plot .hoverlayer').length === 2"
+
+    def drive():
+        with sync_api.sync_playwright() as p:
+            browser = p.chromium.launch(
+                executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
             )
-            seen = {
-                (fig, gid): page.evaluate(HOVER_JS, [fig, gid])
-                for fig, gid in [
-                    (0, "=2+3"),
-                    (1, "=2+3"),
-                    (0, '=HYPERLINK("http://x","y")'),
-                    (0, "-1+1"),
-                    (0, "@SUM(1)"),
-                ]
-            }
-            legend = page.evaluate(
-                "document.querySelectorAll('.js-plotly-plot')[0].querySelector('.legend')"
-                ".textContent"
-            )
-            links = page.evaluate("[...document.querySelectorAll('a[href*=\"http://x\"]')].length")
-            images = page.evaluate("document.querySelectorAll('img, image').length")
-        finally:
-            browser.close()
+            try:
+                page = browser.new_page()
+                page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+                page.on("request", lambda r: requests.append(r.url))
+                page.goto(path.as_uri())
+                page.wait_for_function(
+                    "document.querySelectorAll('.js-plotly-plot .hoverlayer').length === 2"
+                )
+                seen = {
+                    (fig, gid): page.evaluate(HOVER_JS, [fig, gid])
+                    for fig, gid in [
+                        (0, "=2+3"),
+                        (1, "=2+3"),
+                        (0, '=HYPERLINK("http://x","y")'),
+                        (0, "-1+1"),
+                        (0, "@SUM(1)"),
+                    ]
+                }
+                legend = page.evaluate(
+                    "document.querySelectorAll('.js-plotly-plot')[0].querySelector('.legend')"
+                    ".textContent"
+                )
+                links = page.evaluate(
+                    "[...document.querySelectorAll('a[href*=\"http://x\"]')].length"
+                )
+                images = page.evaluate("document.querySelectorAll('img, image').length")
+            finally:
+                browser.close()
+        return seen, legend, links, images
+
+    seen, legend, links, images = off_the_event_loop(drive)
     for out in seen.values():
         assert out["text"], "no hover label"
         assert not set(out["tags"]) & {"a", "img", "image", "foreignobject"}
