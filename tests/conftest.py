@@ -1,7 +1,9 @@
+import os
+
 import pytest
 
 from engine.library.store import Library
-from tests.helpers import DEMO, Run, call_main
+from tests.helpers import DEMO, SERVER_URL_VARIABLE, Run, call_main, drop_library, empty_library
 
 
 @pytest.fixture
@@ -36,3 +38,46 @@ def run_cli(capsys, monkeypatch):
         return Run(tuple(map(str, args)), code, out, err)
 
     return run
+
+
+def pytest_configure(config):
+    config.addinivalue_line(
+        "markers",
+        "sqlite_only: a library test about SQLite's files (bytes, backups, WAL, permissions, "
+        "migration copies) that has no PostgreSQL case",
+    )
+
+
+@pytest.fixture(scope="session")
+def _server_database():
+    """The PostgreSQL database of the library tests, its library tables dropped at the
+    start and at the end of the session (None when no server is named)."""
+    url = os.environ.get(SERVER_URL_VARIABLE)
+    if url:
+        drop_library(url)
+    yield url
+    if url:
+        drop_library(url)
+
+
+@pytest.fixture(params=["sqlite", "postgresql"])
+def library_url(request, tmp_path):
+    """Where a library test keeps its library, once per database: a new SQLite file, then
+    the PostgreSQL database named by QUIETGRADE_TEST_DATABASE_URL (skipped when it is not
+    set), emptied before the test (and its tables dropped at the end of the session)."""
+    if request.param == "sqlite":
+        yield str(tmp_path / "lib.sqlite")
+        return
+    url = request.getfixturevalue("_server_database")
+    if not url:
+        pytest.skip(f"{SERVER_URL_VARIABLE} is not set: no PostgreSQL server")
+    empty_library(url)
+    yield url
+
+
+@pytest.fixture
+def any_library(library_url):
+    """A new, empty library on each database (see :func:`library_url`)."""
+    lib = Library(library_url)
+    yield lib
+    lib.engine.dispose()  # no idle server connections left behind by each test

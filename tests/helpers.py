@@ -152,3 +152,60 @@ def kk_storage_minus_equilibrium(loss, omega: float, tau: np.ndarray) -> float:
     left, _ = integrate.quad(regular, lo, -1.0, **accuracy)
     right, _ = integrate.quad(regular, 1.0, hi, **accuracy)
     return 2.0 / np.pi * (left + core + right)
+
+
+# ------------------------------------------------------------------ a library on a server
+
+# An empty PostgreSQL database the role may create tables in (``.ci/run`` starts a server
+# on 127.0.0.1 and sets it); without it the server cases of the library tests are skipped.
+SERVER_URL_VARIABLE = "QUIETGRADE_TEST_DATABASE_URL"
+
+
+def drop_library(url: str) -> None:
+    """Drop the library's tables from the database at ``url`` (the next Library() there
+    starts from an empty database), in one statement on a kept connection."""
+    import sqlalchemy as sa
+
+    from engine.library import store
+
+    names = ", ".join(f'"{t.name}"' for t in store._metadata.sorted_tables)
+    with _reset_engine(url).begin() as conn:
+        conn.execute(sa.text(f"DROP TABLE IF EXISTS {names} CASCADE"))
+
+
+def empty_library(url: str) -> None:
+    """Leave the database at ``url`` as a new library: every row of the library's tables
+    removed and its version counter back at 0 when today's schema is there (a TRUNCATE,
+    much cheaper than creating the schema again for each test), the tables dropped
+    otherwise (another schema version, a part of it, or none)."""
+    import sqlalchemy as sa
+
+    from engine.library import store
+
+    with _reset_engine(url).begin() as conn:
+        present = set(sa.inspect(conn).get_table_names())
+        current = present == set(store._metadata.tables) and conn.execute(
+            sa.text("SELECT value FROM meta WHERE key = 'schema_version'")
+        ).scalar() == str(store.SCHEMA_VERSION)
+        if current:
+            names = ", ".join(
+                f'"{t.name}"' for t in store._metadata.sorted_tables if t.name != "meta"
+            )
+            conn.execute(sa.text(f"TRUNCATE {names} RESTART IDENTITY CASCADE"))
+            conn.execute(sa.text("UPDATE meta SET value = '0' WHERE key = 'library_version'"))
+    if not current:
+        drop_library(url)
+
+
+_reset_engines: dict = {}
+
+
+def _reset_engine(url: str):
+    """One engine per URL for the resets, kept for the session (one login, not one a test)."""
+    import sqlalchemy as sa
+
+    from engine.library import store
+
+    if url not in _reset_engines:
+        _reset_engines[url] = sa.create_engine(store._url(url), pool_size=1)
+    return _reset_engines[url]

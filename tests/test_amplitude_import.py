@@ -69,17 +69,17 @@ def snapshot(lib: Library):
 # ---------------------------------------------------------------- a good file
 
 
-def test_good_file_is_stored_in_internal_units(tmp_path, library):
+def test_good_file_is_stored_in_internal_units(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
     amp = write(tmp_path, "amp.csv", GOOD)
-    summary = import_files(library, [cat], [amp])  # recognised among the sweep files
+    summary = import_files(any_library, [cat], [amp])  # recognised among the sweep files
     assert summary.amplitude_sweeps_added == [("A1", 7), ("S1", 7)]
     assert summary.datasets_added == []
     assert summary.to_dict()["amplitude_sweeps_added"] == [
         {"material": "A1", "points": 7},
         {"material": "S1", "points": 7},
     ]
-    sweeps = library.amplitude_sweeps()
+    sweeps = any_library.amplitude_sweeps()
     assert sorted(sweeps) == ["A1", "S1"]
     a1 = sweeps["A1"]
     assert a1.shape == (7, 5)
@@ -88,8 +88,8 @@ def test_good_file_is_stored_in_internal_units(tmp_path, library):
     np.testing.assert_allclose(a1[:, 2], [float(n) for n in LOSS])
     assert set(a1[:, 3]) == {23.0} and set(a1[:, 4]) == {10.0}
     assert set(sweeps["S1"][:, 3]) == {40.0} and set(sweeps["S1"][:, 4]) == {1.0}
-    assert library.amplitude_sweeps(["S1", "NOPE"]).keys() == {"S1"}
-    assert [i["kind"] for i in library.imports()] == ["catalog", "amplitude"]
+    assert any_library.amplitude_sweeps(["S1", "NOPE"]).keys() == {"S1"}
+    assert [i["kind"] for i in any_library.imports()] == ["catalog", "amplitude"]
 
 
 def test_file_is_recognised_by_its_header(tmp_path):
@@ -102,8 +102,8 @@ def test_file_is_recognised_by_its_header(tmp_path):
     assert not looks_like_amplitude(sweep) and not looks_like_catalog(amp)
 
 
-def test_the_load_command_imports_it_without_being_told(run_cli, tmp_path):
-    db = tmp_path / "cli.sqlite"
+def test_the_load_command_imports_it_without_being_told(run_cli, tmp_path, library_url):
+    db = library_url
     cat = write(tmp_path, "cat.csv", CATALOG)
     amp = write(tmp_path, "amp.csv", GOOD)
     run = run_cli(db, "load", cat, amp, "--json")
@@ -118,8 +118,8 @@ def test_the_load_command_imports_it_without_being_told(run_cli, tmp_path):
     assert len(again.json()["files_skipped"]) == 2
 
 
-def test_percent_and_other_units_are_converted(tmp_path, library):
-    import_files(library, [write(tmp_path, "cat.csv", CATALOG)])
+def test_percent_and_other_units_are_converted(tmp_path, any_library):
+    import_files(any_library, [write(tmp_path, "cat.csv", CATALOG)])
     text = (
         "material,temperature [K],frequency [rad/s],Strain Amplitude [%],"
         "storage modulus [kPa],loss modulus [GPa]\n"
@@ -135,8 +135,8 @@ def test_percent_and_other_units_are_converted(tmp_path, library):
             ]
         )
     )
-    import_files(library, [], [], [write(tmp_path, "pct.csv", text)])
-    a1 = library.amplitude_sweeps()["A1"]
+    import_files(any_library, [], [], [write(tmp_path, "pct.csv", text)])
+    a1 = any_library.amplitude_sweeps()["A1"]
     np.testing.assert_allclose(a1[:, 0], [1e-4, 5e-4, 2e-3, 1e-2, 5e-2, 0.2])  # 1 % = 0.01
     np.testing.assert_allclose(a1[:, 1], [6.0e6, 5.9e6, 5.5e6, 4.5e6, 3.0e6, 2.4e6])  # kPa
     np.testing.assert_allclose(a1[:, 2], np.array([0.6, 0.65, 0.8, 0.9, 0.6, 0.4]) * 1e6 / a1[:, 1])
@@ -144,41 +144,47 @@ def test_percent_and_other_units_are_converted(tmp_path, library):
     np.testing.assert_allclose(a1[:, 4], 10.0)  # 62.83 rad/s / 2 pi
 
 
-def test_newest_import_of_a_grade_wins(tmp_path, library):
-    import_files(library, [write(tmp_path, "cat.csv", CATALOG)], [write(tmp_path, "a.csv", GOOD)])
-    first = library.amplitude_sweeps()["A1"]
+def test_newest_import_of_a_grade_wins(tmp_path, any_library):
+    import_files(
+        any_library, [write(tmp_path, "cat.csv", CATALOG)], [write(tmp_path, "a.csv", GOOD)]
+    )
+    first = any_library.amplitude_sweeps()["A1"]
     newer = HEADER + rows(storage=tuple(f"{float(e) * 1.1:.4g}" for e in STORAGE))
-    summary = import_files(library, [], [write(tmp_path, "b.csv", newer)])
+    summary = import_files(any_library, [], [write(tmp_path, "b.csv", newer)])
     assert summary.amplitude_sweeps_added == [("A1", 7)]
-    np.testing.assert_allclose(library.amplitude_sweeps()["A1"][:, 1], first[:, 1] * 1.1)
+    np.testing.assert_allclose(any_library.amplitude_sweeps()["A1"][:, 1], first[:, 1] * 1.1)
     # The first data again, from a file of other bytes: back in use.
     again = HEADER.replace("\n", "\r\n") + rows().replace("\n", "\r\n")
-    summary = import_files(library, [], [write(tmp_path, "c.csv", again)])
+    summary = import_files(any_library, [], [write(tmp_path, "c.csv", again)])
     assert summary.amplitude_sweeps_added == [("A1", 7)]
-    np.testing.assert_array_equal(library.amplitude_sweeps()["A1"], first)
+    np.testing.assert_array_equal(any_library.amplitude_sweeps()["A1"], first)
     # The same points as the grade's newest sweep add nothing.
     same = HEADER + rows() + "\n"
-    assert import_files(library, [], [write(tmp_path, "d.csv", same)]).amplitude_sweeps_added == []
-    with library.engine.connect() as conn:
+    assert (
+        import_files(any_library, [], [write(tmp_path, "d.csv", same)]).amplitude_sweeps_added == []
+    )
+    with any_library.engine.connect() as conn:
         count = conn.execute(sa.select(sa.func.count()).select_from(store.amplitude_table))
         assert count.scalar() == 4  # A1 three times, S1 once
 
 
-def test_deleted_grades_are_left_out(tmp_path, library):
-    import_files(library, [write(tmp_path, "cat.csv", CATALOG)], [write(tmp_path, "a.csv", GOOD)])
-    library.delete_material("S1")
-    assert sorted(library.amplitude_sweeps()) == ["A1"]
-    library.restore_material("S1")
-    assert sorted(library.amplitude_sweeps()) == ["A1", "S1"]
+def test_deleted_grades_are_left_out(tmp_path, any_library):
+    import_files(
+        any_library, [write(tmp_path, "cat.csv", CATALOG)], [write(tmp_path, "a.csv", GOOD)]
+    )
+    any_library.delete_material("S1")
+    assert sorted(any_library.amplitude_sweeps()) == ["A1"]
+    any_library.restore_material("S1")
+    assert sorted(any_library.amplitude_sweeps()) == ["A1", "S1"]
 
 
-def test_documented_example_imports(tmp_path, library):
+def test_documented_example_imports(tmp_path, any_library):
     text = (ROOT / "docs" / "amplitude_sweeps.md").read_text(encoding="utf-8")
     example = text.split("### Example", 1)[1].split("```", 2)[1].strip() + "\n"
-    import_files(library, [write(tmp_path, "cat.csv", "id,name,mode\nNR-60,Example,tensile\n")])
-    summary = import_files(library, [], [], [write(tmp_path, "example.csv", example)])
+    import_files(any_library, [write(tmp_path, "cat.csv", "id,name,mode\nNR-60,Example,tensile\n")])
+    summary = import_files(any_library, [], [], [write(tmp_path, "example.csv", example)])
     assert summary.amplitude_sweeps_added == [("NR-60", 7)]
-    assert library.amplitude_sweeps()["NR-60"][0, 0] == pytest.approx(1e-4)  # 0.01 %
+    assert any_library.amplitude_sweeps()["NR-60"][0, 0] == pytest.approx(1e-4)  # 0.01 %
 
 
 # ---------------------------------------------------------------- bad files
@@ -260,20 +266,20 @@ BAD_CASES = [
 
 @pytest.mark.parametrize(("change", "row", "column", "reason"), BAD_CASES)
 def test_bad_cell_is_refused_with_file_row_and_column(
-    tmp_path, library, change, row, column, reason
+    tmp_path, any_library, change, row, column, reason
 ):
-    import_files(library, [write(tmp_path, "first.csv", CATALOG)])
-    before = snapshot(library)
+    import_files(any_library, [write(tmp_path, "first.csv", CATALOG)])
+    before = snapshot(any_library)
     old, new = change
     assert GOOD.count(old) == 1
     bad = write(tmp_path, "bad.csv", GOOD.replace(old, new))
     cat = write(tmp_path, "cat2.csv", "id,name,mode\nZ9,Not written,tensile\n")
     with pytest.raises(InputError) as caught:
-        import_files(library, [cat], [bad])
+        import_files(any_library, [cat], [bad])
     line = str(caught.value)
     assert "\n" not in line
     assert line.startswith(f"{bad}, row {row}, column '{column}': {reason}")
-    assert snapshot(library) == before  # the catalog of the same import was not written
+    assert snapshot(any_library) == before  # the catalog of the same import was not written
 
 
 @pytest.mark.parametrize(
@@ -307,38 +313,38 @@ def test_bad_cell_is_refused_with_file_row_and_column(
         ),
     ],
 )
-def test_bad_header_is_refused_with_file_and_column(tmp_path, library, text, column, reason):
-    import_files(library, [write(tmp_path, "first.csv", CATALOG)])
-    before = snapshot(library)
+def test_bad_header_is_refused_with_file_and_column(tmp_path, any_library, text, column, reason):
+    import_files(any_library, [write(tmp_path, "first.csv", CATALOG)])
+    before = snapshot(any_library)
     bad = write(tmp_path, "bad.csv", text)
     with pytest.raises(InputError) as caught:
-        import_files(library, [], [], [bad])
+        import_files(any_library, [], [], [bad])
     assert str(caught.value).startswith(f"{bad}, column '{column}': {reason}")
-    assert snapshot(library) == before
+    assert snapshot(any_library) == before
 
 
-def test_missing_columns_are_named(tmp_path, library):
-    import_files(library, [write(tmp_path, "first.csv", CATALOG)])
+def test_missing_columns_are_named(tmp_path, any_library):
+    import_files(any_library, [write(tmp_path, "first.csv", CATALOG)])
     text = GOOD.replace(",frequency [Hz]", "").replace(",10,", ",").replace(",1,", ",")
     bad = write(tmp_path, "nofreq.csv", text)
     with pytest.raises(InputError, match=r"nofreq\.csv: missing required column 'frequency'"):
-        import_files(library, [], [bad])
+        import_files(any_library, [], [bad])
     text = HEADER.replace(",loss_factor", "") + "A1,23,10,0.001,5\n"
     bad = write(tmp_path, "noloss.csv", text)
     with pytest.raises(InputError, match="one of 'loss_factor' or 'loss_modulus"):
-        import_files(library, [], [], [bad])
+        import_files(any_library, [], [], [bad])
 
 
-def test_too_few_points_and_a_narrow_sweep_are_refused(tmp_path, library):
-    import_files(library, [write(tmp_path, "first.csv", CATALOG)])
-    before = snapshot(library)
+def test_too_few_points_and_a_narrow_sweep_are_refused(tmp_path, any_library):
+    import_files(any_library, [write(tmp_path, "first.csv", CATALOG)])
+    before = snapshot(any_library)
     few = write(
         tmp_path,
         "few.csv",
         HEADER + rows() + rows("S1", strains=STRAINS[:4], storage=STORAGE[:4], loss=LOSS[:4]),
     )
     with pytest.raises(InputError) as caught:
-        import_files(library, [], [few])
+        import_files(any_library, [], [few])
     assert str(caught.value) == (
         f"{few}, row 9, column 'material': grade 'S1' has 4 point(s) in the amplitude sweep; "
         "the Kraus fit needs at least 5"
@@ -346,16 +352,16 @@ def test_too_few_points_and_a_narrow_sweep_are_refused(tmp_path, library):
     narrow = tuple(f"{0.01 + 0.01 * k:g}" for k in range(7))  # 0.01 to 0.07
     bad = write(tmp_path, "narrow.csv", HEADER + rows(strains=narrow))
     with pytest.raises(InputError) as caught:
-        import_files(library, [], [bad])
+        import_files(any_library, [], [bad])
     assert str(caught.value) == (
         f"{bad}, row 8, column 'strain_amplitude [-]': grade 'A1': the amplitude sweep spans "
         "strains 0.01 to 0.07, less than one decade; the Kraus fit needs at least one decade"
     )
-    assert snapshot(library) == before
+    assert snapshot(any_library) == before
 
 
-def test_a_bad_amplitude_file_stops_the_whole_import(tmp_path, library):
-    before = snapshot(library)
+def test_a_bad_amplitude_file_stops_the_whole_import(tmp_path, any_library):
+    before = snapshot(any_library)
     cat = write(tmp_path, "cat.csv", CATALOG)
     sweep = write(
         tmp_path,
@@ -365,28 +371,30 @@ def test_a_bad_amplitude_file_stops_the_whole_import(tmp_path, library):
     )
     bad = write(tmp_path, "bad.csv", GOOD.replace("A1,23,10,0.1,", "A1,23,10,x,"))
     with pytest.raises(InputError, match=r"bad\.csv, row 8, column 'strain_amplitude \[-\]'"):
-        import_files(library, [cat], [sweep, bad])
-    assert snapshot(library) == before and library.materials() == []
+        import_files(any_library, [cat], [sweep, bad])
+    assert snapshot(any_library) == before and any_library.materials() == []
 
 
-def test_plan_carries_the_sweeps_for_a_later_write(tmp_path, library):
+def test_plan_carries_the_sweeps_for_a_later_write(tmp_path, any_library):
     # The dashboard validates first and writes the plan later: the plan's file entries
     # carry the amplitude sweeps, so write_import of (files, materials, datasets) stores them.
     plan = plan_import(
-        library,
+        any_library,
         [read_table(write(tmp_path, "cat.csv", CATALOG))],
         [read_table(write(tmp_path, "amp.csv", GOOD))],
     )
     assert [s["material_id"] for s in plan.amplitude_sweeps] == ["A1", "S1"]
-    assert library.amplitude_sweeps() == {}
-    summary = library.write_import(plan.files, plan.materials, plan.datasets)
+    assert any_library.amplitude_sweeps() == {}
+    summary = any_library.write_import(plan.files, plan.materials, plan.datasets)
     assert [m for m, _ in summary.amplitude_sweeps_added] == ["A1", "S1"]
-    assert sorted(library.amplitude_sweeps()) == ["A1", "S1"]
+    assert sorted(any_library.amplitude_sweeps()) == ["A1", "S1"]
 
 
 # ---------------------------------------------------------------- migration
 
 V1_FIXTURE = Path(__file__).resolve().parent / "data" / "library_v1.sql"
+# The migration tests are sqlite_only: they build old libraries with sqlite3 and compare
+# the file's tables and its backup copy (the server upgrade: tests/test_migrations.py).
 
 
 def sqlite_tables(path: Path) -> dict[str, list[tuple]]:
@@ -414,6 +422,7 @@ def test_schema_version_is_the_migration_that_adds_the_table():
     assert store.migrations.MIGRATIONS[-1].description == "add the amplitude_sweeps table"
 
 
+@pytest.mark.sqlite_only
 def test_version_1_library_gets_the_table_and_keeps_its_data(tmp_path):
     path = tmp_path / "v1.sqlite"
     with closing(sqlite3.connect(path)) as conn:
@@ -430,6 +439,7 @@ def test_version_1_library_gets_the_table_and_keeps_its_data(tmp_path):
     assert columns(lib.engine) == columns(fresh.engine)
 
 
+@pytest.mark.sqlite_only
 def test_version_2_library_is_upgraded_with_nothing_lost(tmp_path):
     # A library as schema version 2 left it: today's tables without amplitude_sweeps.
     path = tmp_path / "v2.sqlite"
@@ -480,8 +490,8 @@ def test_version_2_library_is_upgraded_with_nothing_lost(tmp_path):
 # ---------------------------------------------------------------- the demo
 
 
-def test_demo_loads_its_amplitude_sweeps(tmp_path):
-    lib = Library(str(tmp_path / "demo.sqlite"))
+def test_demo_loads_its_amplitude_sweeps(any_library):
+    lib = any_library
     summary = load_demo(lib)
     assert [m for m, _ in summary.amplitude_sweeps_added] == [
         "LAB-NR55",

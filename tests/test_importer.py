@@ -31,25 +31,25 @@ def snapshot(lib):
     )
 
 
-def test_good_import_converts_to_si(tmp_path, library):
+def test_good_import_converts_to_si(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
     sw = write(tmp_path, "sw.csv", HEADER + GOOD_ROWS)
-    summary = import_files(library, [cat], [sw])
+    summary = import_files(any_library, [cat], [sw])
     assert summary.materials_added == ["G1"]
-    _, pts = library.latest_points("G1")
+    _, pts = any_library.latest_points("G1")
     assert pts.shape == (4, 4)
     assert pts[0, 2] == pytest.approx(5.0e6)  # MPa -> Pa (SI prefix)
 
 
-def test_units_kelvin_rad_per_s_psi_and_loss_modulus(tmp_path, library):
+def test_units_kelvin_rad_per_s_psi_and_loss_modulus(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
     text = (
         "material,temperature [K],frequency [rad/s],storage_modulus [psi],loss_modulus [psi]\n"
         "G1,293.15,6.283185307179586,1000,100\nG1,303.15,62.83185307179586,1000,50\n"
     )
     sw = write(tmp_path, "sw.csv", text)
-    import_files(library, [cat], [sw])
-    _, pts = library.latest_points("G1")
+    import_files(any_library, [cat], [sw])
+    _, pts = any_library.latest_points("G1")
     assert pts[0, 0] == pytest.approx(20.0)
     assert pts[0, 1] == pytest.approx(1.0)
     assert pts[0, 2] == pytest.approx(1000 * PSI_IN_PA)
@@ -57,21 +57,21 @@ def test_units_kelvin_rad_per_s_psi_and_loss_modulus(tmp_path, library):
     assert pts[0, 3] == pytest.approx(0.1)
 
 
-def test_semicolon_decimal_comma_bom_and_degf(tmp_path, library):
+def test_semicolon_decimal_comma_bom_and_degf(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
     text = (
         "\ufeffmaterial;temperature [degF];frequency [Hz];storage_modulus [kPa];loss_factor\n"
         "G1;68;1;5000,5;0,1\nG1;86;1;4000;0,2\n"
     )
     sw = write(tmp_path, "sw.csv", text)
-    import_files(library, [cat], [sw])
-    _, pts = library.latest_points("G1")
+    import_files(any_library, [cat], [sw])
+    _, pts = any_library.latest_points("G1")
     assert pts[0, 0] == pytest.approx(20.0)  # 68 degF = 20 degC
     assert pts[0, 2] == pytest.approx(5000.5e3)
     assert pts[0, 3] == pytest.approx(0.1)
 
 
-def test_xlsx_with_the_same_columns(tmp_path, library):
+def test_xlsx_with_the_same_columns(tmp_path, any_library):
     openpyxl = pytest.importorskip("openpyxl")
     wb = openpyxl.Workbook()
     ws = wb.active
@@ -81,37 +81,37 @@ def test_xlsx_with_the_same_columns(tmp_path, library):
     path = tmp_path / "sw.xlsx"
     wb.save(path)
     cat = write(tmp_path, "cat.csv", CATALOG)
-    import_files(library, [cat], [path])
-    _, pts = library.latest_points("G1")
+    import_files(any_library, [cat], [path])
+    _, pts = any_library.latest_points("G1")
     assert pts.shape == (4, 4)
 
 
-def test_same_files_twice_change_nothing(tmp_path, library):
+def test_same_files_twice_change_nothing(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
     sw = write(tmp_path, "sw.csv", HEADER + GOOD_ROWS)
-    import_files(library, [cat], [sw])
-    before = snapshot(library)
-    summary = import_files(library, [cat], [sw])
-    assert snapshot(library) == before
+    import_files(any_library, [cat], [sw])
+    before = snapshot(any_library)
+    summary = import_files(any_library, [cat], [sw])
+    assert snapshot(any_library) == before
     assert len(summary.files_skipped) == 2
 
 
-def test_new_data_adds_a_data_set_and_keeps_the_old(tmp_path, library):
+def test_new_data_adds_a_data_set_and_keeps_the_old(tmp_path, any_library):
     cat = write(tmp_path, "cat.csv", CATALOG)
-    import_files(library, [cat], [write(tmp_path, "a.csv", HEADER + GOOD_ROWS)])
+    import_files(any_library, [cat], [write(tmp_path, "a.csv", HEADER + GOOD_ROWS)])
     newer = GOOD_ROWS.replace("5.0,0.1", "5.2,0.1")
-    import_files(library, [], [write(tmp_path, "b.csv", HEADER + newer)])
-    sets = library.datasets("G1")
+    import_files(any_library, [], [write(tmp_path, "b.csv", HEADER + newer)])
+    sets = any_library.datasets("G1")
     assert [d.file_name for d in sets] == ["a.csv", "b.csv"]
-    newest, pts = library.latest_points("G1")
+    newest, pts = any_library.latest_points("G1")
     assert newest.file_name == "b.csv" and pts[0, 2] == pytest.approx(5.2e6)
 
 
-def test_catalog_update_keeps_history(tmp_path, library):
-    import_files(library, [write(tmp_path, "a.csv", CATALOG)])
-    import_files(library, [write(tmp_path, "b.csv", CATALOG.replace("1100", "1150"))])
-    assert library.material("G1").density == 1150
-    assert "1100" in library.history("G1")[0]["previous"]
+def test_catalog_update_keeps_history(tmp_path, any_library):
+    import_files(any_library, [write(tmp_path, "a.csv", CATALOG)])
+    import_files(any_library, [write(tmp_path, "b.csv", CATALOG.replace("1100", "1150"))])
+    assert any_library.material("G1").density == 1150
+    assert "1100" in any_library.history("G1")[0]["previous"]
 
 
 BAD_SWEEPS = [
@@ -191,14 +191,14 @@ BAD_SWEEPS = [
 
 
 @pytest.mark.parametrize("case,text,message", BAD_SWEEPS, ids=[c[0] for c in BAD_SWEEPS])
-def test_bad_sweep_is_refused_and_library_unchanged(tmp_path, library, case, text, message):
-    import_files(library, [write(tmp_path, "first.csv", CATALOG)])
-    before = snapshot(library)
+def test_bad_sweep_is_refused_and_library_unchanged(tmp_path, any_library, case, text, message):
+    import_files(any_library, [write(tmp_path, "first.csv", CATALOG)])
+    before = snapshot(any_library)
     cat2 = write(tmp_path, "cat2.csv", CATALOG.replace("G1,", "G2,").replace("Grade one", "Two"))
     sw = write(tmp_path, "sw.csv", text)
     with pytest.raises(InputError, match=message):
-        import_files(library, [cat2], [sw])
-    assert snapshot(library) == before  # G2 of the good catalog was not written either
+        import_files(any_library, [cat2], [sw])
+    assert snapshot(any_library) == before  # G2 of the good catalog was not written either
 
 
 BAD_CATALOGS = [
@@ -238,11 +238,11 @@ BAD_CATALOGS = [
 
 
 @pytest.mark.parametrize("case,text,message", BAD_CATALOGS, ids=[c[0] for c in BAD_CATALOGS])
-def test_bad_catalog_is_refused(tmp_path, library, case, text, message):
-    before = snapshot(library)
+def test_bad_catalog_is_refused(tmp_path, any_library, case, text, message):
+    before = snapshot(any_library)
     with pytest.raises(InputError, match=message):
-        import_files(library, [write(tmp_path, "cat.csv", text)])
-    assert snapshot(library) == before
+        import_files(any_library, [write(tmp_path, "cat.csv", text)])
+    assert snapshot(any_library) == before
 
 
 def test_missing_file(tmp_path):
@@ -250,14 +250,14 @@ def test_missing_file(tmp_path):
         read_table(tmp_path / "nowhere.csv")
 
 
-def test_blank_optional_cell_means_unknown_and_extra_columns_kept(tmp_path, library):
+def test_blank_optional_cell_means_unknown_and_extra_columns_kept(tmp_path, any_library):
     text = "id,name,mode,price [per kg],colour\nG1,A,shear,,black\n"
-    import_files(library, [write(tmp_path, "cat.csv", text)])
-    m = library.material("G1")
+    import_files(any_library, [write(tmp_path, "cat.csv", text)])
+    m = any_library.material("G1")
     assert m.price is None and m.extra == {"colour": "black"} and m.mode == "shear"
 
 
-def test_large_import_is_vectorised(tmp_path, library):
+def test_large_import_is_vectorised(tmp_path, any_library):
     # 20 000 points parse and validate in one pass; the last bad row is still named.
     n = 20_000
     t = np.repeat(np.arange(n // 10), 10)
@@ -267,17 +267,17 @@ def test_large_import_is_vectorised(tmp_path, library):
     lines[-1] = "G1,1,1,5,x"
     with pytest.raises(InputError, match=rf"row {n + 1}, column 'loss_factor'"):
         import_files(
-            library,
+            any_library,
             [write(tmp_path, "c.csv", CATALOG)],
             [write(tmp_path, "s.csv", "\n".join(lines))],
         )
 
 
-def test_single_point_data_set_is_refused(tmp_path, library):
+def test_single_point_data_set_is_refused(tmp_path, any_library):
     # A data set of one point cannot be fitted; refusing it keeps the richer one in use.
-    import_files(library, [write(tmp_path, "cat.csv", CATALOG)])
-    before = snapshot(library)
+    import_files(any_library, [write(tmp_path, "cat.csv", CATALOG)])
+    before = snapshot(any_library)
     sw = write(tmp_path, "one.csv", HEADER + "G1,20,1,5,0.1\n")
     with pytest.raises(InputError, match=r"one\.csv, row 2, column 'material': grade 'G1' has a"):
-        import_files(library, [], [sw])
-    assert snapshot(library) == before
+        import_files(any_library, [], [sw])
+    assert snapshot(any_library) == before

@@ -40,8 +40,13 @@ def load_grades(library: Library, folder, ids, temperatures=synthetic.TEMPERATUR
 
 
 # ---------------------------------------------------------------- opening a library
+#
+# The tests marked sqlite_only read or write the library's file itself (sqlite3, its
+# bytes, the data folder); every test taking ``any_library`` or ``library_url`` runs on
+# SQLite and on the PostgreSQL server of QUIETGRADE_TEST_DATABASE_URL (tests/conftest.py).
 
 
+@pytest.mark.sqlite_only
 def test_new_library_records_schema_version(tmp_path):
     path = tmp_path / "new.sqlite"
     lib = Library(str(path))
@@ -51,6 +56,7 @@ def test_new_library_records_schema_version(tmp_path):
     assert found == (str(SCHEMA_VERSION),)
 
 
+@pytest.mark.sqlite_only
 def test_other_schema_version_is_refused(tmp_path):
     path = tmp_path / "old.sqlite"
     Library(str(path))
@@ -64,6 +70,7 @@ def test_other_schema_version_is_refused(tmp_path):
         Library(str(path))
 
 
+@pytest.mark.sqlite_only
 def test_non_database_file_is_refused(tmp_path):
     path = tmp_path / "notes.sqlite"
     path.write_text("these are notes, not a database\n" * 40)
@@ -71,6 +78,7 @@ def test_non_database_file_is_refused(tmp_path):
         Library(str(path))
 
 
+@pytest.mark.sqlite_only
 def test_folder_is_refused(tmp_path):
     with pytest.raises(LibraryError, match="not a quietgrade library"):
         Library(str(tmp_path))
@@ -81,6 +89,7 @@ def test_bad_url_is_refused():
         Library("nosuchdialect://host/db")
 
 
+@pytest.mark.sqlite_only
 def test_newer_schema_version_is_refused_with_a_reason(tmp_path):
     path = tmp_path / "newer.sqlite"
     Library(str(path))
@@ -98,6 +107,7 @@ def test_newer_schema_version_is_refused_with_a_reason(tmp_path):
     assert left == [path]
 
 
+@pytest.mark.sqlite_only
 def test_schema_version_that_is_not_a_number_is_refused(tmp_path):
     path = tmp_path / "odd.sqlite"
     Library(str(path))
@@ -107,6 +117,7 @@ def test_schema_version_that_is_not_a_number_is_refused(tmp_path):
         Library(str(path))
 
 
+@pytest.mark.sqlite_only
 def test_default_location_honours_environment(tmp_path, monkeypatch):
     target = tmp_path / "env" / "lib.sqlite"
     monkeypatch.setenv("QUIETGRADE_DB", str(target))
@@ -155,6 +166,7 @@ def test_user_data_dir_per_platform(tmp_path, monkeypatch, platform, env, expect
     assert not tmp_path.joinpath("home").exists()  # asking creates nothing
 
 
+@pytest.mark.sqlite_only
 def test_data_folder_is_created_only_when_a_library_is_opened(tmp_path, monkeypatch):
     monkeypatch.delenv("QUIETGRADE_DB", raising=False)
     monkeypatch.setattr(sys, "platform", "darwin")
@@ -203,51 +215,51 @@ def test_material_and_table_follow_the_field_table():
     assert isinstance(columns["notes"].type, sa.Text)
 
 
-def test_bulk_modulus_is_stored_and_edited(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
-    assert library.material("G1").bulk_modulus is None
-    library.update_catalog("G1", {"bulk_modulus": 1900})
-    m = library.material("G1")
+def test_bulk_modulus_is_stored_and_edited(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
+    assert any_library.material("G1").bulk_modulus is None
+    any_library.update_catalog("G1", {"bulk_modulus": 1900})
+    m = any_library.material("G1")
     assert m.bulk_modulus == 1900.0 and isinstance(m.bulk_modulus, float)
-    assert '"bulk_modulus": null' in library.history("G1")[0]["previous"]
-    library.update_catalog("G1", {"bulk_modulus": None})
-    assert library.material("G1").bulk_modulus is None
+    assert '"bulk_modulus": null' in any_library.history("G1")[0]["previous"]
+    any_library.update_catalog("G1", {"bulk_modulus": None})
+    assert any_library.material("G1").bulk_modulus is None
 
 
 # ---------------------------------------------------------------- edits and history
 
 
-def test_update_catalog_keeps_history_and_bumps_version(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
-    before = library.version()
-    library.update_catalog("G1", {"density": 1150.0, "notes": "checked"}, reason="datasheet")
-    m = library.material("G1")
+def test_update_catalog_keeps_history_and_bumps_version(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
+    before = any_library.version()
+    any_library.update_catalog("G1", {"density": 1150.0, "notes": "checked"}, reason="datasheet")
+    m = any_library.material("G1")
     assert m.density == 1150.0 and m.notes == "checked"
-    assert library.version() == before + 1
-    history = library.history("G1")
+    assert any_library.version() == before + 1
+    history = any_library.history("G1")
     assert [h["reason"] for h in history] == ["datasheet"]
     assert '"density": 1100.0' in history[0]["previous"]
-    library.update_catalog("G1", {"density": 1200.0})
-    assert len(library.history("G1")) == 2 and library.version() == before + 2
+    any_library.update_catalog("G1", {"density": 1200.0})
+    assert len(any_library.history("G1")) == 2 and any_library.version() == before + 2
 
 
-def test_unknown_field_edit_is_refused(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
-    before = library.version()
+def test_unknown_field_edit_is_refused(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
+    before = any_library.version()
     with pytest.raises(LibraryError, match=r"cannot edit colour; editable fields: name, mode"):
-        library.update_catalog("G1", {"colour": "black"})
-    assert library.version() == before and library.history("G1") == []
+        any_library.update_catalog("G1", {"colour": "black"})
+    assert any_library.version() == before and any_library.history("G1") == []
 
 
-def test_edit_of_unknown_grade_is_refused(library):
+def test_edit_of_unknown_grade_is_refused(any_library):
     with pytest.raises(LibraryError, match="no grade 'G9'"):
-        library.update_catalog("G9", {"density": 1000.0})
+        any_library.update_catalog("G9", {"density": 1000.0})
 
 
-def test_edit_with_invalid_mode_is_refused(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
+def test_edit_with_invalid_mode_is_refused(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
     with pytest.raises(LibraryError, match="mode"):
-        library.update_catalog("G1", {"mode": "bending"})
+        any_library.update_catalog("G1", {"mode": "bending"})
 
 
 @pytest.mark.parametrize(
@@ -278,104 +290,104 @@ def test_edit_with_invalid_mode_is_refused(tmp_path, library):
         ({"bulk_modulus": -2000.0}, "give a positive bulk modulus [MPa] or None"),
     ],
 )
-def test_edit_with_invalid_value_is_refused(tmp_path, library, changes, message):
-    load_grades(library, tmp_path, ("G1",))
-    before = library.version()
+def test_edit_with_invalid_value_is_refused(tmp_path, any_library, changes, message):
+    load_grades(any_library, tmp_path, ("G1",))
+    before = any_library.version()
     with pytest.raises(LibraryError, match="grade 'G1'.*" + re.escape(message)):
-        library.update_catalog("G1", changes)
-    assert library.version() == before and library.history("G1") == []
+        any_library.update_catalog("G1", changes)
+    assert any_library.version() == before and any_library.history("G1") == []
 
 
-def test_service_range_edit_is_checked_against_the_stored_end(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
-    library.update_catalog("G1", {"service_min": -40.0, "service_max": 80.0})
+def test_service_range_edit_is_checked_against_the_stored_end(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
+    any_library.update_catalog("G1", {"service_min": -40.0, "service_max": 80.0})
     with pytest.raises(LibraryError, match="service_min 90 degC is not below service_max 80"):
-        library.update_catalog("G1", {"service_min": 90.0})
+        any_library.update_catalog("G1", {"service_min": 90.0})
     with pytest.raises(LibraryError, match="service_min -40 degC is not below service_max -50"):
-        library.update_catalog("G1", {"service_max": -50.0})
+        any_library.update_catalog("G1", {"service_max": -50.0})
     # Clearing one end lifts the check; the edge values of the ranges are accepted.
-    library.update_catalog("G1", {"service_max": None, "service_min": 90.0})
-    library.update_catalog("G1", {"mode": "Shear", "hardness": 100, "poisson_ratio": 0.5})
-    m = library.material("G1")
+    any_library.update_catalog("G1", {"service_max": None, "service_min": 90.0})
+    any_library.update_catalog("G1", {"mode": "Shear", "hardness": 100, "poisson_ratio": 0.5})
+    m = any_library.material("G1")
     assert (m.service_min, m.service_max, m.mode) == (90.0, None, "shear")
     assert (m.hardness, m.poisson_ratio) == (100.0, 0.5)
 
 
-def test_edit_of_deleted_grade_is_refused(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",))
-    library.delete_material("G1")
-    before = library.version()
+def test_edit_of_deleted_grade_is_refused(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",))
+    any_library.delete_material("G1")
+    before = any_library.version()
     with pytest.raises(LibraryError, match="grade 'G1' is deleted; restore it before editing"):
-        library.update_catalog("G1", {"density": 1000.0})
-    assert library.version() == before
+        any_library.update_catalog("G1", {"density": 1000.0})
+    assert any_library.version() == before
 
 
-def test_delete_and_restore_are_recoverable(tmp_path, library):
-    load_grades(library, tmp_path, ("G1", "G2"))
-    sets_before = [d.data_hash for d in library.datasets("G1")]
-    v0 = library.version()
-    library.delete_material("G1")
-    assert [m.id for m in library.materials()] == ["G2"]
-    assert [m.id for m in library.materials(include_deleted=True)] == ["G1", "G2"]
-    assert library.deleted_ids() == ["G1"]
-    assert library.datasets("G1") == []
+def test_delete_and_restore_are_recoverable(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1", "G2"))
+    sets_before = [d.data_hash for d in any_library.datasets("G1")]
+    v0 = any_library.version()
+    any_library.delete_material("G1")
+    assert [m.id for m in any_library.materials()] == ["G2"]
+    assert [m.id for m in any_library.materials(include_deleted=True)] == ["G1", "G2"]
+    assert any_library.deleted_ids() == ["G1"]
+    assert any_library.datasets("G1") == []
     with pytest.raises(LibraryError, match="no grade 'G1'"):
-        library.material("G1")
+        any_library.material("G1")
     with pytest.raises(LibraryError, match="has no measured data"):
-        library.latest_points("G1")
-    assert "G1" not in library.all_latest_points()
-    library.restore_material("G1")
-    assert [m.id for m in library.materials()] == ["G1", "G2"]
-    assert [d.data_hash for d in library.datasets("G1")] == sets_before
-    assert library.deleted_ids() == []
-    assert library.version() == v0 + 2
+        any_library.latest_points("G1")
+    assert "G1" not in any_library.all_latest_points()
+    any_library.restore_material("G1")
+    assert [m.id for m in any_library.materials()] == ["G1", "G2"]
+    assert [d.data_hash for d in any_library.datasets("G1")] == sets_before
+    assert any_library.deleted_ids() == []
+    assert any_library.version() == v0 + 2
 
 
-def test_delete_unknown_grade_is_refused(library):
+def test_delete_unknown_grade_is_refused(any_library):
     with pytest.raises(LibraryError, match="no grade 'G9'"):
-        library.delete_material("G9")
+        any_library.delete_material("G9")
 
 
 # ---------------------------------------------------------------- fit cache
 
 
-def test_master_curve_is_cached(tmp_path, library, monkeypatch):
-    load_grades(library, tmp_path, ("G1",))
-    dataset, _ = library.latest_points("G1")
+def test_master_curve_is_cached(tmp_path, any_library, monkeypatch):
+    load_grades(any_library, tmp_path, ("G1",))
+    dataset, _ = any_library.latest_points("G1")
     key = options_key()
-    assert library.cached_fit(dataset.data_hash, key) is None
-    first = master_curve(library, "G1")
-    stored = library.cached_fit(dataset.data_hash, key)
+    assert any_library.cached_fit(dataset.data_hash, key) is None
+    first = master_curve(any_library, "G1")
+    stored = any_library.cached_fit(dataset.data_hash, key)
     assert stored == first.to_dict()
 
     def refuse(*args, **kwargs):
         raise AssertionError("build_master_curve called although the fit is cached")
 
     monkeypatch.setattr(fits, "build_master_curve", refuse)
-    second = master_curve(library, "G1")
+    second = master_curve(any_library, "G1")
     t, f = np.array([[-30.0], [20.0], [70.0]]), np.array([[0.5, 5.0, 50.0]])
     np.testing.assert_array_equal(
         second.evaluate(t, f).storage_modulus, first.evaluate(t, f).storage_modulus
     )
     # Other options are another cache entry: this one must fit again.
     with pytest.raises(AssertionError, match="although the fit is cached"):
-        master_curve(library, "G1", reference_C=0.0)
+        master_curve(any_library, "G1", reference_C=0.0)
 
 
-def test_fit_of_unknown_grade_is_refused(library):
+def test_fit_of_unknown_grade_is_refused(any_library):
     with pytest.raises(LibraryError, match="no grade 'G9'"):
-        master_curve(library, "G9")
+        master_curve(any_library, "G9")
 
 
-def test_fit_error_is_cached_and_reported(tmp_path, library):
-    load_grades(library, tmp_path, ("G1",), temperatures=np.array([20.0]))
+def test_fit_error_is_cached_and_reported(tmp_path, any_library):
+    load_grades(any_library, tmp_path, ("G1",), temperatures=np.array([20.0]))
     # One point only: the importer refuses such a data set, so write it to the store by
     # hand, as an older library or another tool might have.
     catalog = tmp_path / "cat2.csv"
     synthetic.write_catalog(catalog, ids=("G2",))
-    import_files(library, [catalog])
+    import_files(any_library, [catalog])
     point = np.array([[20.0, 1.0, 5e6, 0.1]])
-    library.write_import(
+    any_library.write_import(
         [
             {
                 "key": "k",
@@ -389,16 +401,19 @@ def test_fit_error_is_cached_and_reported(tmp_path, library):
         [],
         [{"material_id": "G2", "file_key": "k", "data_hash": "1" * 64, "points": point}],
     )
-    curves, errors = fit_library(library, processes=1)
+    curves, errors = fit_library(any_library, processes=1)
     assert list(curves) == ["G1"] and "at least two measured points" in errors["G2"]
-    dataset, _ = library.latest_points("G2")
-    assert library.cached_fit(dataset.data_hash, options_key()) == {"error": errors["G2"]}
-    again_curves, again_errors = fit_library(library, processes=1)
+    dataset, _ = any_library.latest_points("G2")
+    assert any_library.cached_fit(dataset.data_hash, options_key()) == {"error": errors["G2"]}
+    again_curves, again_errors = fit_library(any_library, processes=1)
     assert again_errors == errors and list(again_curves) == ["G1"]
     with pytest.raises(FitError, match="at least two measured points"):
-        master_curve(library, "G2")
+        master_curve(any_library, "G2")
 
 
+# SQLite only: it needs two libraries side by side (the server case has one database),
+# and it is this file's slowest test (a 12-grade fit, twice).
+@pytest.mark.sqlite_only
 def test_fit_library_in_parallel_matches_serial(tmp_path):
     ids = tuple(f"SYN-{k:02d}" for k in range(12))
     libs = {}
@@ -426,10 +441,10 @@ def test_fit_library_in_parallel_matches_serial(tmp_path):
     assert cached["SYN-00"].to_dict() == serial["SYN-00"].to_dict()
 
 
-def test_fit_library_logs_cache_hits_and_misses(tmp_path, library, caplog):
-    load_grades(library, tmp_path, ("G1", "G2"))
+def test_fit_library_logs_cache_hits_and_misses(tmp_path, any_library, caplog):
+    load_grades(any_library, tmp_path, ("G1", "G2"))
     caplog.set_level(logging.DEBUG, logger="engine.library.fits")
-    fit_library(library, processes=1)
+    fit_library(any_library, processes=1)
     first = [r.getMessage() for r in caplog.records if r.name == "engine.library.fits"]
     assert "fit_library: 2 grade(s) with data, 0 cache hit(s), 2 cache miss(es)" in first
     assert any(re.fullmatch(r"fit_library: G1 fitted in \d+\.\d{3} s", m) for m in first)
@@ -438,14 +453,14 @@ def test_fit_library_logs_cache_hits_and_misses(tmp_path, library, caplog):
         for m in first
     )
     caplog.clear()
-    fit_library(library, processes=1)
+    fit_library(any_library, processes=1)
     second = [r.getMessage() for r in caplog.records if r.name == "engine.library.fits"]
     assert second == ["fit_library: 2 grade(s) with data, 2 cache hit(s), 0 cache miss(es)"]
     assert [r.levelno for r in caplog.records] == [logging.INFO]
 
 
-def test_fits_print_nothing(tmp_path, library, capsys):
-    load_grades(library, tmp_path, ("G1",))
-    fit_library(library, processes=1)
-    master_curve(library, "G1", reference_C=0.0)
+def test_fits_print_nothing(tmp_path, any_library, capsys):
+    load_grades(any_library, tmp_path, ("G1",))
+    fit_library(any_library, processes=1)
+    master_curve(any_library, "G1", reference_C=0.0)
     assert capsys.readouterr() == ("", "")
