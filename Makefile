@@ -13,9 +13,12 @@ $(STAMP): requirements.txt requirements-dev.txt pyproject.toml setup.py
 	$(BIN)/pip install -q --disable-pip-version-check --no-deps -e .
 	touch $(STAMP)
 
+# `make run PORT=8600` serves the dashboard on another port.
+PORT ?= 8501
+
 run: $(STAMP)
 	$(BIN)/quietgrade demo
-	$(BIN)/streamlit run dashboard/app.py --server.address 127.0.0.1 --server.port 8501 \
+	$(BIN)/streamlit run dashboard/app.py --server.address 127.0.0.1 --server.port $(PORT) \
 		--server.headless true --browser.gatherUsageStats false
 
 test: $(STAMP)

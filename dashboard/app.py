@@ -7,21 +7,29 @@ caution, the comparison set), ranks the library and then runs the chosen page fr
 
 from __future__ import annotations
 
+import runpy
 from pathlib import Path
 
 import streamlit as st
 
 from dashboard import case, data, sidebar
 from dashboard.common import CONTEXT_KEY, Context, plain
-from engine.base.caution import CAUTION
+from engine.base.caution import CAUTION, CAUTION_LINE
 from engine.base.errors import LibraryError, QuietgradeError
 from engine.library.fits import one_line
 from engine.library.store import default_location
-from engine.output.palette import grade_colours
+from engine.output.palette import grade_colours, with_set_colours
 
+# The caution's one line, above every page; the expander under it holds the whole text.
+
+# Less empty space above the page's first line, so its chart starts higher.
+COMPACT_STYLE = """<style>
+[data-testid="stMainBlockContainer"] { padding-top: 3.6rem; padding-bottom: 2rem; }
+[data-testid="stMainBlockContainer"] h2 { padding-top: 0.2rem; padding-bottom: 0.3rem; }
+</style>"""
 VIEWS = Path(__file__).resolve().parent / "views"
 PAGES = (
-    ("map.py", "Map", "map"),
+    ("map.py", "Map", "grades-map"),  # served at / (and /map, below)
     ("curves.py", "Curves", "curves"),
     ("mount.py", "Mount", "mount"),
     ("system.py", "Machine", "machine"),
@@ -30,12 +38,19 @@ PAGES = (
 )
 
 
+def _map_at_its_name() -> None:
+    """The Map page at ``/map`` as well as at ``/`` (the default page has no name of its
+    own in the address; a hidden page runs the same script under the name)."""
+    runpy.run_path(str(VIEWS / "map.py"), run_name="__page__")
+
+
 def _take_compare_pick() -> None:
     st.session_state["compare"] = list(st.session_state.get("compare_pick", []))
 
 
-def _comparison_set(ids: list[str], shortlist: list[str]) -> list[str]:
-    """The comparison set widget above every page; returns the current set."""
+def _comparison_set(ids: list[str], shortlist: list[str], where) -> list[str]:
+    """The comparison set widget above every page (one line, in ``where``); returns the
+    current set."""
     if "compare" not in st.session_state or not st.session_state.get("_compare_seeded"):
         st.session_state["_compare_seeded"] = True
         if not st.session_state.get("compare"):
@@ -43,13 +58,15 @@ def _comparison_set(ids: list[str], shortlist: list[str]) -> list[str]:
     current = [g for g in st.session_state.get("compare", []) if g in ids]
     st.session_state["compare"] = current
     st.session_state["compare_pick"] = current
-    st.multiselect(
+    where.multiselect(
         "Comparison set",
         options=ids,
         key="compare_pick",
         on_change=_take_compare_pick,
-        placeholder="choose grades, or draw a box or lasso on the map",
-        help="Highlighted on every chart; the Curves and Mount pages show these grades.",
+        placeholder="comparison set: choose grades, or draw a box or lasso on the map",
+        help="The comparison set: highlighted on every chart; the Curves and Mount pages "
+        "show these grades.",
+        label_visibility="collapsed",
     )
     return current
 
@@ -63,7 +80,9 @@ def _failure(what: str, exc: Exception) -> str:
 
 
 def main() -> None:
-    st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state=340)
+    # "auto": open on a wide window, folded away on a narrow one (a phone, half a screen).
+    st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state="auto")
+    st.html(COMPACT_STYLE)
     location = default_location()
     try:
         library = data.library_at(location)
@@ -85,16 +104,20 @@ def main() -> None:
 
     navigation = st.navigation(
         [
-            st.Page(str(VIEWS / file), title=title, url_path=path, default=path == "map")
+            st.Page(str(VIEWS / file), title=title, url_path=path, default=path == "grades-map")
             for file, title, path in PAGES
-        ],
+        ]
+        + [st.Page(_map_at_its_name, title="Map", url_path="map", visibility="hidden")],
         position="top",
     )
-    with st.container(border=True):
+    # One line above every page: the comparison set and the caution, its full text one
+    # click away (the README and every exported file carry it whole).
+    pick, warn = st.columns([5, 4], vertical_alignment="top")
+    with warn.expander(CAUTION_LINE):
         st.caption("**Caution.** " + CAUTION)
     if st.session_state.get("_demo_loaded"):
         st.info(
-            f"The library at {plain(library.location)} was empty: the invented demo grades "
+            f"The library at {plain(library.display_location)} was empty: the invented demo grades "
             "(demo_materials/) were loaded. They are no real products."
         )
     for note in st.session_state.get("_link_notes", []):
@@ -117,7 +140,7 @@ def main() -> None:
     ids = sorted(result.window_props.ids) if result is not None else sorted(curves)
     shortlist = [g.id for g in result.shortlist] if result is not None else []
     compare = (
-        _comparison_set(ids, shortlist)
+        _comparison_set(ids, shortlist, pick)
         if navigation.url_path != "library"
         else [g for g in st.session_state.get("compare", []) if g in ids]
     )
@@ -133,8 +156,9 @@ def main() -> None:
         result_key=result_key,
         problem=problem,
         compare=compare,
-        # The ranked grades' colours, as the HTML report gives them (engine.output.palette).
-        colours=grade_colours(curves),
+        # The ranked grades' colours, as the HTML report gives them, and the comparison
+        # set's own colour-blind-safe ones (engine.output.palette).
+        colours=with_set_colours(grade_colours(curves), compare),
     )
     try:
         query = case.to_query({**st.session_state.to_dict(), "compare": compare})

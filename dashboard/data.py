@@ -105,6 +105,7 @@ def map_figure(
     _colours: dict[str, str],
     banded: tuple[str, ...] = (),
     _curves: dict[str, MasterCurve] | None = None,
+    guides: str = "ticks",
 ) -> go.Figure:
     """The map of a ranking (:func:`dashboard.charts.map.map_figure`), kept per view.
 
@@ -120,6 +121,7 @@ def map_figure(
         list(chosen),
         show_excluded=show_excluded,
         bands={g: curves[g] for g in banded if g in curves},
+        guides=guides,
     )
 
 

@@ -22,7 +22,7 @@ from typing import Any
 
 import numpy as np
 
-from engine.base.errors import QuietgradeError
+from engine.base.errors import LibraryError, QuietgradeError
 from engine.base.fields import CATALOG
 from engine.base.version import __version__
 from engine.library.store import Library, default_location
@@ -119,16 +119,45 @@ def cmd_list(args) -> int:
         }
         rows.append(entry)
     lines = [f"{len(rows)} grade(s) in {lib.display_location}"]
+    # Columns as wide as their longest entry: ids, names and suppliers are never cut.
+    wide = {
+        key: max([len(_one_line(r[key] or "-")) for r in rows] + [1])
+        for key in ("id", "name", "supplier")
+    }
     for r in rows:
         n = len(r["datasets"])
         pts = r["datasets"][-1]["points"] if n else 0
         lines.append(
-            f"  {r['id']:<14} {r['name'][:30]:<30} {r['mode']:<8} "
-            f"{(r['supplier'] or '-')[:22]:<22} "
+            f"  {_one_line(r['id']):<{wide['id']}}  {_one_line(r['name']):<{wide['name']}}  "
+            f"{r['mode']:<8} {_one_line(r['supplier'] or '-'):<{wide['supplier']}}  "
             f"{n} data set(s), newest {pts} points"
         )
     _emit(args, rows, lines)
     return 0
+
+
+def _grade_id(lib: Library, given: str) -> str:
+    """The library's id for ``given``: as written, else the one id equal to it when case
+    is ignored; else the library's own error (``Library.material``) with the nearest ids
+    as a suggestion."""
+    ids = [m.id for m in lib.materials()]
+    if given in ids:
+        return given
+    same = [g for g in ids if g.casefold() == given.casefold()]
+    if len(same) == 1:
+        return same[0]
+    try:
+        lib.material(given)  # the store's own message (and its check of the text)
+    except LibraryError as exc:
+        import difflib
+
+        folded = {g.casefold(): g for g in ids}
+        near = difflib.get_close_matches(given.casefold(), list(folded), n=3, cutoff=0.5)
+        if not near:
+            raise
+        shown = " or ".join(f"'{folded[g]}'" for g in near)
+        raise LibraryError(f"{exc}; did you mean {shown}?") from None
+    return given
 
 
 def _tolerance(args) -> float:
@@ -142,6 +171,7 @@ def cmd_fit(args) -> int:
     from engine.library.fits import master_curve, summary
 
     lib = _library(args)
+    args.id = _grade_id(lib, args.id)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
     data = {"id": args.id, **summary(curve)}
     if args.out:
@@ -209,6 +239,7 @@ def cmd_props(args) -> int:
     t = check_temperatures(args.temp, "--temp")[:, None]
     f = check_frequencies(args.freq, "--freq")[None, :]
     lib = _library(args)
+    args.id = _grade_id(lib, args.id)
     curve = master_curve(lib, args.id, args.reference, args.vertical_shift, _tolerance(args))
     p = curve.evaluate(t, f)
     b = curve.interval(t, f)
@@ -307,6 +338,7 @@ def cmd_system(args) -> int:
     temps = check_temperatures(args.temp, "--temp") if args.temp else OperatingWindow().temperatures
     system = _system_case(args.case)
     lib = _library(args)
+    args.id = _grade_id(lib, args.id)
     material = lib.material(args.id)
     curve = master_curve(lib, args.id)
     row = {
@@ -340,6 +372,7 @@ def cmd_mount(args) -> int:
 
     check_temperatures(args.temp, "--temp")
     lib = _library(args)
+    args.id = _grade_id(lib, args.id)
     material = lib.material(args.id)
     curve = master_curve(lib, args.id)
     optional = {
@@ -646,7 +679,13 @@ def _global_options(parser: _Parser, suppress: bool) -> _Parser:
     return parser
 
 
+ID_HELP = "grade id as `list` shows it (case does not matter)"
+
+
 def build_parser() -> argparse.ArgumentParser:
+    from engine.curves.window import OperatingWindow
+    from engine.physics.indices import AGGREGATES, BUILT_IN
+
     common = _global_options(_Parser(add_help=False), suppress=True)
     parser = _global_options(
         _Parser(
@@ -659,15 +698,19 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     p = sub.add_parser("load", parents=[common], help="import a catalog and sweep files")
-    p.add_argument("catalog")
-    p.add_argument("sweeps", nargs="*")
+    p.add_argument("catalog", help="catalog CSV or XLSX, one row per grade (README)")
+    p.add_argument("sweeps", nargs="*", help="sweep files (CSV or XLSX), one point a row")
     p.set_defaults(func=cmd_load)
 
     p = sub.add_parser("list", parents=[common], help="the grades in the library")
     p.set_defaults(func=cmd_list)
 
     fit_opts = _Parser(add_help=False)
-    fit_opts.add_argument("--reference", type=float, help="reference temperature [degC]")
+    fit_opts.add_argument(
+        "--reference",
+        type=float,
+        help="reference temperature [degC] (default: automatic, near the tan δ peak at 1 Hz)",
+    )
     fit_opts.add_argument(
         "--vertical-shift", action="store_true", help="apply the T0/T vertical factor"
     )
@@ -675,18 +718,18 @@ def build_parser() -> argparse.ArgumentParser:
         "--temperature-tolerance",
         type=float,
         default=DEFAULT_TOLERANCE_K,
-        help="logged temperatures closer than this [K] form one isotherm",
+        help="logged temperatures closer than this [K] form one isotherm (default: %(default)g)",
     )
 
     p = sub.add_parser("fit", parents=[common, fit_opts], help="master curve of one grade")
-    p.add_argument("id")
+    p.add_argument("id", help=ID_HELP)
     p.add_argument("--out", help="write the fitted model: model.json or .csv")
     p.set_defaults(func=cmd_fit)
 
     p = sub.add_parser("props", parents=[common, fit_opts], help="properties at T and f")
-    p.add_argument("id")
-    p.add_argument("--temp", type=float, nargs="+", required=True, help="[degC]")
-    p.add_argument("--freq", type=float, nargs="+", required=True, help="[Hz]")
+    p.add_argument("id", help=ID_HELP)
+    p.add_argument("--temp", type=float, nargs="+", required=True, help="temperatures [degC]")
+    p.add_argument("--freq", type=float, nargs="+", required=True, help="frequencies [Hz]")
     p.set_defaults(func=cmd_props)
 
     p = sub.add_parser("demo", parents=[common], help="load the invented demo grades")
@@ -697,7 +740,7 @@ def build_parser() -> argparse.ArgumentParser:
         parents=[common],
         help="a machine on N mounts of one grade, six degrees of freedom",
     )
-    p.add_argument("id")
+    p.add_argument("id", help=ID_HELP)
     p.add_argument("--case", required=True, help="mount-system case JSON file (README)")
     p.add_argument(
         "--temp", type=float, nargs="+", help="[degC]; omitted: the default window's temperatures"
@@ -705,20 +748,32 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_system)
 
     p = sub.add_parser("mount", parents=[common], help="check a mount made of one grade")
-    p.add_argument("id")
-    p.add_argument("--layout", choices=("shear", "compression"), required=True)
+    p.add_argument("id", help=ID_HELP)
+    p.add_argument(
+        "--layout", choices=("shear", "compression"), required=True, help="how the pads work"
+    )
     p.add_argument("--mass", type=float, required=True, help="total supported mass [kg]")
     p.add_argument(
         "--mounts",
         type=int,
         help="identical pads sharing the mass (omitted: the mount design's default, 4)",
     )
-    p.add_argument("--area-mm2", type=float, required=True, help="loaded area of one pad")
-    p.add_argument("--thickness-mm", type=float, required=True, help="rubber thickness")
+    p.add_argument("--area-mm2", type=float, required=True, help="loaded area of one pad [mm²]")
+    p.add_argument(
+        "--thickness-mm", type=float, required=True, help="rubber thickness of one pad [mm]"
+    )
     p.add_argument("--shape", choices=("disc", "square"), help="omitted: disc")
-    p.add_argument("--shape-factor", type=float, help="loaded / force-free area")
-    p.add_argument("--k-factor", type=float, help="compression coefficient k")
-    p.add_argument("--temp", type=float, nargs="+", required=True, help="[degC]")
+    p.add_argument(
+        "--shape-factor",
+        type=float,
+        help="shape factor S = loaded / force-free area [-] (default: from the pad's shape)",
+    )
+    p.add_argument(
+        "--k-factor",
+        type=float,
+        help="Gent & Lindley compression coefficient k [-] (default: from the hardness)",
+    )
+    p.add_argument("--temp", type=float, nargs="+", required=True, help="temperatures [degC]")
     p.add_argument("--disturbance-hz", type=float, nargs="+", help="disturbance frequencies [Hz]")
     p.add_argument("--rpm", type=float, nargs="+", help="disturbance shaft speeds [rev/min]")
     p.add_argument(
@@ -738,16 +793,53 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_mount)
 
     p = sub.add_parser("rank", parents=[common], help="the ranked shortlist")
+    window = OperatingWindow()
     p.add_argument("--criteria", help="criteria file (JSON or TOML) as the dashboard saves")
-    p.add_argument("--temp-range", type=float, nargs=2, metavar=("LO", "HI"))
-    p.add_argument("--temp-step", type=float)
-    p.add_argument("--freq-range", type=float, nargs=2, metavar=("LO", "HI"))
-    p.add_argument("--freq-points", type=int)
-    p.add_argument("--design", choices=("isolation_mount", "damping_layer", "general"))
-    p.add_argument("--index", nargs="+", help="merit indices (equal weights)")
-    p.add_argument("--aggregate", choices=("worst", "mean", "weighted", "best"), default="worst")
-    p.add_argument("--min-loss-factor", type=float)
-    p.add_argument("--max-price", type=float)
+    p.add_argument(
+        "--temp-range",
+        type=float,
+        nargs=2,
+        metavar=("LO", "HI"),
+        help="service temperatures [degC] (default: {:g} {:g})".format(*window.temp_range),
+    )
+    p.add_argument(
+        "--temp-step",
+        type=float,
+        help=f"step of the temperatures checked [K] (default: {window.temp_step:g})",
+    )
+    p.add_argument(
+        "--freq-range",
+        type=float,
+        nargs=2,
+        metavar=("LO", "HI"),
+        help="excitation band [Hz] (default: {:g} {:g})".format(*window.freq_range),
+    )
+    p.add_argument(
+        "--freq-points",
+        type=int,
+        help=f"frequencies checked in the band, log-spaced (default: {window.freq_points})",
+    )
+    p.add_argument(
+        "--design",
+        choices=("isolation_mount", "damping_layer", "general"),
+        help="the kind of part; picks the default indices and limits",
+    )
+    p.add_argument(
+        "--index",
+        nargs="+",
+        metavar="NAME",
+        help="merit indices, equal weights; one of: " + ", ".join(sorted(BUILT_IN)),
+    )
+    p.add_argument(
+        "--aggregate",
+        choices=AGGREGATES,
+        default="worst",
+        help="how a point index is taken over the window (default: %(default)s)",
+    )
+    p.add_argument(
+        "--min-loss-factor", type=float, help="lowest loss factor in the window [-] (default: none)"
+    )
+    p.add_argument("--max-price", type=float, help="highest price [per kg] (default: none)")
     p.add_argument("--max-transmissibility", type=float, help="default 1 with a mount")
     p.add_argument("--min-isolation-efficiency", type=float, help="e.g. 0.8 for 80 %%")
     p.add_argument("--min-frequency-ratio", type=float, help="f/fn; default sqrt(2)")
@@ -757,15 +849,37 @@ def build_parser() -> argparse.ArgumentParser:
         action="store_true",
         help="isolation design without a mount: a material screening only",
     )
-    p.add_argument("--max-static-strain", type=float)
-    p.add_argument("--allow-extrapolation", action="store_true")
-    p.add_argument("--ignore-service-range", action="store_true")
-    p.add_argument("--mount", help="mount design JSON file")
+    p.add_argument(
+        "--max-static-strain",
+        type=float,
+        help="largest static strain of a pad [-] (default: the mount check's limit)",
+    )
+    p.add_argument(
+        "--allow-extrapolation",
+        action="store_true",
+        help="rank grades whose master curve is extrapolated in the window (default: exclude)",
+    )
+    p.add_argument(
+        "--ignore-service-range",
+        action="store_true",
+        help="do not exclude grades whose catalog service range misses the window",
+    )
+    p.add_argument(
+        "--mount",
+        help="mount design JSON file: the keys of the mount command's options, e.g. "
+        '{"layout": "compression", "mass_kg": 180, "mounts": 4, "thickness_mm": 25, '
+        '"target_fn_Hz": 10, "disturbance_Hz": [24.7]} (README)',
+    )
     p.add_argument(
         "--system", help="mount-system case JSON file: check each grade as the whole machine"
     )
-    p.add_argument("--pareto", nargs=2, metavar=("INDEX_A", "INDEX_B"))
-    p.add_argument("--out", help="shortlist.csv, .xlsx or .html")
+    p.add_argument(
+        "--pareto",
+        nargs=2,
+        metavar=("INDEX_A", "INDEX_B"),
+        help="flag the grades no other beats on both indices",
+    )
+    p.add_argument("--out", help="write the shortlist: shortlist.csv, .xlsx or .html")
     p.set_defaults(func=cmd_rank)
 
     return parser

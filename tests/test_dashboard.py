@@ -35,6 +35,7 @@ from engine.library.fits import fit_library, master_curve  # noqa: E402
 from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
 from engine.output import mapfigure  # noqa: E402
+from engine.output.palette import SET_COLOURS, grade_colours  # noqa: E402
 from engine.output.report import report_html  # noqa: E402
 from engine.selection.criteria import SCREENING_INDICES, SCREENING_NOTE  # noqa: E402
 from engine.selection.ranking import Constraints, Criteria, rank  # noqa: E402
@@ -686,11 +687,19 @@ def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_d
     report_map = mapfigure.map_figure(ctx.result)  # the map of the HTML report
     report = {t.legendgroup: t.line.color for t in report_map.data if t.mode == mapfigure.PATH_MODE}
     assert set(page) == set(report) == set(ctx.result.window_props.ids)
+    # Outside the comparison set a grade has the report's colour; the set's grades take the
+    # colour-blind-safe set colours (Okabe & Ito 2008), in the set's order.
     for gid in page:
-        assert _rgb(page[gid]) == _rgb(report[gid]) == _rgb(ctx.colours[gid]), gid
+        assert _rgb(page[gid]) == _rgb(ctx.colours[gid]), gid
+        if gid in ctx.compare:
+            assert ctx.colours[gid] == SET_COLOURS[ctx.compare.index(gid)], gid
+        else:
+            assert _rgb(page[gid]) == _rgb(report[gid]), gid
     text = report_html(ctx.result, ctx.library, ctx.curves)
     for g in ctx.result.shortlist:  # the swatch beside each grade of the report's table
-        swatch = f'<span class="swatch" style="background:{ctx.colours[g.id]}"></span>'
+        swatch = (
+            f'<span class="swatch" style="background:{grade_colours(ctx.curves)[g.id]}"></span>'
+        )
         assert swatch + html.escape(g.name) in text, g.id
 
 

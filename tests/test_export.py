@@ -137,7 +137,7 @@ def test_csv_reads_back_with_pandas(ranked):
     lines = data.decode("utf-8-sig").strip().splitlines()
     assert lines[-1] == f"# caution: {CAUTION}"
     assert lines[-2] == f"# {ranked.spread.describe()}"
-    assert lines[-3].startswith(f"# quietgrade {ranked.engine_version}, ranked ")
+    assert lines[-3].startswith(f"# quietgrade {ranked.engine_version}, written ")
 
 
 def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):

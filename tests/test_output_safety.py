@@ -375,9 +375,13 @@ def test_report_shows_hostile_text_as_text(dressed, hostile):
     assert tags.count("strong") == 2
     assert not [a for _, a in page.tags if any("onerror" in k for k in a)]
     assert not any("http://x" in v for _, a in page.tags for v in a.values() if v)
-    # Scripts: Plotly's set-up and library, and one per figure; data never closes one.
+    # Scripts: Plotly's set-up and its (packed) library, and one per figure; data never
+    # closes one.
     scripts = [t for t, _ in page.tags if t == "script"]
-    assert len(scripts) == 4
+    figures = [
+        a for t, a in page.tags if t == "div" and "plotly-graph-div" in (a.get("class") or "")
+    ]
+    assert figures and len(scripts) == 2 + len(figures)
     markup = [s for pair in RENAMED.values() for s in pair if "<" in s]
     assert len(markup) == 3 and not [s for s in markup if s in text]  # not even in scripts
     # Every hostile text is on the page as text, as written (markdown is not rendered).

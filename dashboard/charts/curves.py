@@ -49,6 +49,10 @@ def _nearest_measured(points: np.ndarray, frequency: float) -> tuple[float, np.n
     return float(10.0**level), rows
 
 
+# Said on the axes of moduli on the tensile-equivalent basis.
+TENSILE_NOTE = "tensile equivalent: E = 2(1+ν)G for shear data"
+
+
 def temperature_figure(
     ids: list[str],
     curves: dict[str, MasterCurve],
@@ -56,8 +60,14 @@ def temperature_figure(
     frequencies: list[float],
     window_range: tuple[float, float],
     colours: dict[str, str],
+    tensile: dict[str, float] | None = None,
 ) -> go.Figure:
-    """E', E'' and tan delta against temperature at chosen frequencies, with measurements."""
+    """E', E'' and tan delta against temperature at chosen frequencies, with measurements.
+
+    ``tensile`` (grade id -> 1 for tensile data, 2(1 + nu) for shear data): the moduli on
+    the tensile-equivalent basis the map and the ranking use, E = 2(1 + nu) G, said on the
+    axes; without it each grade in its own mode (E' or G').
+    """
     fig = make_subplots(rows=3, cols=1, shared_xaxes=True, vertical_spacing=0.035)
     t_lo = min([window_range[0]] + [curves[g].temperature_range[0] for g in ids])
     t_hi = max([window_range[1]] + [curves[g].temperature_range[1] for g in ids])
@@ -69,7 +79,8 @@ def temperature_figure(
     for gid in ids:
         curve = curves[gid]
         colour = colours.get(gid, INK)
-        m = mode_symbol(curve)
+        factor = 1.0 if tensile is None else float(tensile.get(gid, 1.0))
+        m = "E" if tensile is not None else mode_symbol(curve)
         pts = points.get(gid)
         # One pass of the posterior draws for every temperature and frequency of the grade.
         band = curve.interval(grid[:, None], np.asarray(frequencies, dtype=float)[None, :])
@@ -78,8 +89,22 @@ def temperature_figure(
             x = np.asarray(p.extrapolated, dtype=bool)
             dash = FREQUENCY_DASHES[j % len(FREQUENCY_DASHES)]
             series = (
-                (1, p.storage_modulus / 1e6, f"{m}'", band.storage_low, band.storage_high, 1e6),
-                (2, p.loss_modulus / 1e6, f"{m}''", band.loss_low, band.loss_high, 1e6),
+                (
+                    1,
+                    p.storage_modulus * factor / 1e6,
+                    f"{m}'",
+                    band.storage_low * factor,
+                    band.storage_high * factor,
+                    1e6,
+                ),
+                (
+                    2,
+                    p.loss_modulus * factor / 1e6,
+                    f"{m}''",
+                    band.loss_low * factor,
+                    band.loss_high * factor,
+                    1e6,
+                ),
                 (3, p.loss_factor, "tan δ", band.loss_factor_low, band.loss_factor_high, 1.0),
             )
             for row, values, what, low, high, unit in series:
@@ -127,8 +152,8 @@ def temperature_figure(
             sel = pts[rows]
             symbol = FREQUENCY_SYMBOLS[j % len(FREQUENCY_SYMBOLS)]
             measured = (
-                (1, sel[:, 2] / 1e6),
-                (2, sel[:, 2] * sel[:, 3] / 1e6),
+                (1, sel[:, 2] * factor / 1e6),
+                (2, sel[:, 2] * sel[:, 3] * factor / 1e6),
                 (3, sel[:, 3]),
             )
             for row, values in measured:
@@ -183,8 +208,12 @@ def temperature_figure(
             lo, hi = np.log10(v.min()), np.log10(v.max())
             pad = max(0.15 * (hi - lo), 0.15)
             fig.update_yaxes(range=[lo - pad, hi + pad], row=row, col=1)
-    fig.update_yaxes(title_text="storage modulus E' or G' [MPa]", row=1, col=1)
-    fig.update_yaxes(title_text="loss modulus E'' or G'' [MPa]", row=2, col=1)
+    if tensile is None:
+        fig.update_yaxes(title_text="storage modulus E' or G' [MPa] (own mode)", row=1, col=1)
+        fig.update_yaxes(title_text="loss modulus E'' or G'' [MPa] (own mode)", row=2, col=1)
+    else:
+        fig.update_yaxes(title_text="E' [MPa], tensile equivalent", row=1, col=1)
+        fig.update_yaxes(title_text="E'' [MPa], tensile equivalent", row=2, col=1)
     fig.update_yaxes(title_text="loss factor tan δ [-]", row=3, col=1)
     fig.update_xaxes(title_text="temperature [°C]", row=3, col=1)
     fig.update_layout(
@@ -193,6 +222,7 @@ def temperature_figure(
         title=(
             "Stiffness and damping against temperature (lines: master curve, shaded: its 95 % "
             "interval; marks: measured)"
+            + ("" if tensile is None else f"<br><sup>Moduli {TENSILE_NOTE}</sup>")
         ),
         legend={"orientation": "h", "y": -0.07, "font": {"size": 10}},
         hovermode="closest",

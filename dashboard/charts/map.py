@@ -11,9 +11,11 @@ from dashboard.charts.common import BAND_SUFFIX
 from engine.curves.mastercurve import MasterCurve
 from engine.curves.window import tensile_factor
 from engine.output import mapfigure
-from engine.output.palette import INK, band_colours, faded
+from engine.output.palette import INK, band_colours, faded, loss_modulus_guides
 from engine.selection.ranking import RankResult
 
+# Sides of a path's end labels, one per grade of the comparison set in turn.
+LABEL_SIDES = ("top right", "bottom left", "top left", "bottom right")
 CROWD_LIMIT = 40  # more grades than this on the map: the rest share a few traces
 CROWD_TOP = 10  # passing grades always drawn on their own
 CROWD_CHOSEN = 20  # grades of the comparison set drawn on their own; more share traces
@@ -113,6 +115,7 @@ def map_figure(
     chosen: list[str],
     show_excluded: bool = True,
     bands: dict[str, MasterCurve] | None = None,
+    guides: str = "ticks",
 ) -> go.Figure:
     """The engine's map of ``result`` (:func:`engine.output.mapfigure.map_figure`) for the
     Map page: box and lasso select grades, and the grades of ``bands`` (id -> the master
@@ -122,6 +125,12 @@ def map_figure(
     A large library: apart from the top ranks and the first grades of the comparison
     set, grades share a few traces (passing or excluded, in the set or not), which keeps
     a rerun quick.
+
+    The page's own look: lines of constant E'' as ``guides``
+    (:func:`engine.output.palette.loss_modulus_guides`), the end temperatures labelled on
+    the comparison set's paths only (on the best grade's when the set is empty), each
+    grade's labels on another side so that neighbours do not write over each other, and
+    the legend in rows under the plot, where no id is cut.
     """
     props = result.window_props
     shown = mapfigure.shown_rows(result, show_excluded)
@@ -160,7 +169,28 @@ def map_figure(
         unselected={"marker": {"opacity": 1.0}},
         selector={"type": "scatter", "mode": mapfigure.PATH_MODE},
     )
-    fig.update_layout(dragmode="select")
+    labelled = [g for g in chosen if g in props.ids] or [g.id for g in result.shortlist[:1]]
+    for trace in fig.data:
+        if trace.mode != mapfigure.PATH_MODE or trace.text is None:
+            continue
+        if trace.legendgroup in labelled:
+            trace.textposition = LABEL_SIDES[labelled.index(trace.legendgroup) % len(LABEL_SIDES)]
+        else:
+            trace.text = None
+    loss_modulus_guides(fig, guides)
+    fig.update_layout(
+        dragmode="select",
+        height=600,
+        legend={
+            "orientation": "h",
+            "x": 0.0,
+            "xanchor": "left",
+            "y": -0.12,
+            "yanchor": "top",
+            "title": {"text": "grade", "side": "left"},
+        },
+        margin={"b": 40},
+    )
     return fig
 
 

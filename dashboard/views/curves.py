@@ -7,6 +7,7 @@ The page may show the master curves at a reference temperature of the user's cho
 import json
 import math
 
+import numpy as np
 import pandas as pd
 import streamlit as st
 
@@ -24,7 +25,7 @@ from dashboard.charts.curves import (
 )
 from dashboard.common import MISSING, SHOWN_LIMIT, context, plain
 from engine.base.errors import CriteriaError, QuietgradeError
-from engine.curves.window import OperatingWindow
+from engine.curves.window import OperatingWindow, tensile_factor
 from engine.library.fits import summary
 from engine.output.palette import GRADE_COLOURS
 
@@ -40,7 +41,7 @@ window_range = (window.temp_range[0], window.temp_range[1])
 band = (window.freq_range[0], window.freq_range[1])
 design_f = window.design_frequency
 
-c1, c2, c3, c4 = st.columns([1.2, 1.5, 1.4, 1.1])
+c1, c2, c3, c4, c5 = st.columns([1.2, 1.5, 1.2, 1.1, 1.3])
 which = c1.radio("Show", ("comparison set", "one grade"), key="curves_which", horizontal=True)
 if which == "one grade" or not ctx.compare:
     default = ctx.compare[0] if ctx.compare else available[0]
@@ -123,18 +124,42 @@ def _view(*parts) -> str:
 
 curves = _page_curves(shown)
 points = {gid: ctx.points(gid) for gid in shown}
+# One basis with the Map and the ranking by default: tensile-equivalent moduli.
+BASES = ("tensile equivalent (as the Map)", "each grade's own mode")
+basis = c5.selectbox(
+    "Moduli",
+    BASES,
+    key="curves_basis",
+    help="Tensile-equivalent (E = 2(1 + ν)G for shear data), as the Map and the ranking, "
+    "or E' and G' as each grade was measured.",
+)
+own_mode = basis == BASES[1]
+tensile = None
+if not own_mode:
+    poisson = {m.id: m.poisson_ratio for m in ctx.library.materials()}
+    tensile = {
+        gid: float(tensile_factor([curves[gid].mode], [poisson.get(gid) or np.nan])[0])
+        for gid in shown
+    }
 st.plotly_chart(
     data.kept_figure(
-        _view("temperature", shown, frequencies, list(window_range)),
-        lambda: temperature_figure(shown, curves, points, frequencies, window_range, ctx.colours),
+        _view("temperature", shown, frequencies, list(window_range), own_mode),
+        lambda: temperature_figure(
+            shown, curves, points, frequencies, window_range, ctx.colours, tensile
+        ),
     ),
     theme=None,
     key="curves_temperature",
 )
 st.caption(
-    "Moduli in each grade's own mode: E' for tensile data, G' for shear data. Faint "
-    "line parts are extrapolated; marks are the measurements at the measured frequency "
-    "nearest each chosen one. Shaded: " + INTERVAL_NOTE + "."
+    (
+        "Moduli in each grade's own mode: E' for tensile data, G' for shear data. "
+        if own_mode
+        else "Moduli tensile-equivalent, as on the Map: shear data as E = 2(1 + ν)G (ν = 0.5 "
+        "unless the catalog gives it). "
+    )
+    + "Faint line parts are extrapolated; marks are the measurements at the measured "
+    "frequency nearest each chosen one. Shaded: " + INTERVAL_NOTE + "."
 )
 
 st.subheader("One grade in detail")

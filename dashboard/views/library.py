@@ -13,7 +13,11 @@ from engine.base.errors import LibraryError
 ctx = context()
 lib = ctx.library
 st.header("Library")
-st.caption(f"Library: {plain(lib.location)} (version {lib.version()})")
+access = "read and write" if lib.can_write else "read only: import, edit and delete are refused"
+st.caption(
+    f"Library: {plain(lib.display_location)} (version {lib.version()}); connected as "
+    f"{plain(lib.role)}, {access}"
+)
 
 message = st.session_state.pop("_library_msg", None)
 if message:

@@ -13,21 +13,42 @@ from dashboard.common import (
     take_map_selection,
 )
 from engine.output.mapfigure import READING
+from engine.output.palette import GUIDE_STYLES
+
+# The menu of how lines of constant E'' show, in the order of palette.GUIDE_STYLES.
+GUIDE_CHOICES = ("E'' ticks on the frame", "E'' as a colour field", "no E'' guides")
+GRID_SENTENCE = "Grey dotted diagonals are lines of constant loss modulus E'' = η E'. "
+GUIDE_SENTENCE = (
+    "Loss modulus E'' = η E' is constant along diagonals: its decades are marked on the "
+    "top and right edges, or shown as a faint field (the menu beside). "
+)
 
 ctx = context()
 st.header("Map")
 result = need_result(ctx)
 if result is not None:
     screening_caption(result)
-    c1, c2 = st.columns([3, 1])
-    c1.caption(
-        READING + " Draw a box or a lasso to put grades in the comparison set. Shaded tubes around "
-        "the grades of the comparison set"
-        + (f" (the first {SHOWN_LIMIT})" if len(ctx.compare) > SHOWN_LIMIT else "")
-        + f": at each temperature of the path, E' and η within their {INTERVAL_NOTE}."
+    c1, c2, c3 = st.columns([1, 1, 1.3], vertical_alignment="center")
+    show_excluded = c1.toggle(
+        "Excluded",
+        value=True,
+        key="map_show_excluded",
+        help="Draw the grades that fail a limit too (dotted, faded; hover for the reasons).",
     )
-    show_excluded = c2.toggle("Show excluded grades", value=True, key="map_show_excluded")
-    c2.toggle("Selection adds to the set", key="map_adds")
+    c2.toggle(
+        "Adds to set",
+        key="map_adds",
+        help="A box or lasso on the map adds its grades to the comparison set instead of "
+        "replacing it.",
+    )
+    guides = c3.selectbox(
+        "Loss modulus E''",
+        GUIDE_CHOICES,
+        key="map_guides",
+        label_visibility="collapsed",
+        help="Lines of constant loss modulus E'' = η E': not drawn, as ticks along the "
+        "frame, or as a faint colour field behind the paths.",
+    )
     fig = data.map_figure(
         ctx.ranking_name(),
         tuple(ctx.compare),
@@ -36,6 +57,7 @@ if result is not None:
         ctx.colours,
         banded=tuple(ctx.compare[:SHOWN_LIMIT]),
         _curves=ctx.curves,
+        guides=GUIDE_STYLES[GUIDE_CHOICES.index(guides)],
     )
     st.plotly_chart(
         fig,
@@ -45,6 +67,15 @@ if result is not None:
         theme=None,
         config={"displaylogo": False},
     )
+    # How to read it, folded under the chart: the chart comes first.
+    with st.expander("How to read the map"):
+        st.caption(
+            READING.replace(GRID_SENTENCE, GUIDE_SENTENCE)
+            + " Draw a box or a lasso to put grades in the comparison set. Shaded tubes "
+            "around the grades of the comparison set"
+            + (f" (the first {SHOWN_LIMIT})" if len(ctx.compare) > SHOWN_LIMIT else "")
+            + f": at each temperature of the path, E' and η within their {INTERVAL_NOTE}."
+        )
     st.subheader("Comparison set")
     frame = tables.comparison_frame(result, ctx.compare)
     if frame.empty:

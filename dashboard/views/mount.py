@@ -181,23 +181,27 @@ if result is not None:
             st.caption("The comparison set is empty: showing the first grades of the shortlist.")
         st.caption(design_caption(design))
         grades = {g.id: g for g in result.grades}
-        st.subheader("Verdict")
-        for gid in ids:
-            grade_verdict(gid, grades[gid], result, design)
         drawn = ids[:SHOWN_LIMIT]
+        fn_fig, tr_fig, am_fig, sd_fig = mount_figures(result, drawn, ctx.colours)
+        # The answer first: natural frequency and transmissibility on the first screen,
+        # then each grade's verdict, then amplification and static strain. Two charts a
+        # row, each drawn with st.plotly_chart inside its column.
+        first = [(fn_fig, "mount_fn"), (tr_fig, "mount_tr")]
+        second = [(am_fig, "mount_am"), (sd_fig, "mount_sd")]
+        for column, (fig, key) in zip(st.columns(2), first, strict=True):
+            with column:
+                st.plotly_chart(fig, theme=None, key=key)
         if len(drawn) < len(ids):
             st.caption(
                 f"The charts show the first {len(drawn)} of the {len(ids)} grades in the "
-                "comparison set; the verdicts above and the table below list them all."
+                "comparison set; the verdicts and the table below list them all."
             )
-        fn_fig, tr_fig, am_fig, sd_fig = mount_figures(result, drawn, ctx.colours)
-        # Two charts a row; drawn with st.plotly_chart inside each column.
-        charts = [(fn_fig, "mount_fn"), (tr_fig, "mount_tr"), (am_fig, "mount_am")]
-        charts.append((sd_fig, "mount_sd"))
-        for pair in (charts[:2], charts[2:]):
-            for column, (fig, key) in zip(st.columns(2), pair, strict=True):
-                with column:
-                    st.plotly_chart(fig, theme=None, key=key)
+        st.subheader("Verdict")
+        for gid in ids:
+            grade_verdict(gid, grades[gid], result, design)
+        for column, (fig, key) in zip(st.columns(2), second, strict=True):
+            with column:
+                st.plotly_chart(fig, theme=None, key=key)
         st.subheader("Pads")
         st.dataframe(
             tables.mount_frame(result, ids),

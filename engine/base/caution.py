@@ -7,3 +7,5 @@ CAUTION = (
     "resistance, fire ratings and bonding; follow the applicable local codes and standards "
     "and the judgement of a qualified engineer."
 )
+# The one line the dashboard shows above every page; it opens to CAUTION in full.
+CAUTION_LINE = "⚠ Caution: screening only, verify on the part"

@@ -53,6 +53,22 @@ GRADE_COLOURS = (
     "#B36B7E",  # dusty rose
 )
 
+# The comparison set: the colour-blind-safe set of Okabe & Ito (2008, "Color Universal
+# Design", jfly.uni-koeln.de/color), told apart under the common colour-vision
+# deficiencies; yellow last and darkened to ochre, which reads on white.
+SET_COLOURS = (
+    "#0072B2",  # blue
+    "#D55E00",  # vermillion
+    "#009E73",  # bluish green
+    "#CC79A7",  # reddish purple
+    "#E69F00",  # orange
+    "#56B4E9",  # sky blue
+    "#000000",  # black
+    "#B59F00",  # yellow, darkened
+)
+# Loss modulus E'' behind the map: a faint field, light to a little darker.
+LOSS_FIELD_SCALE = ((0.0, "#FFFFFF"), (1.0, "#C9D6DC"))
+
 # Cold to warm, for colouring measured points by temperature.
 TEMPERATURE_SCALE = (
     (0.0, "#2F4F7F"),
@@ -74,6 +90,15 @@ def grade_colours(ids: Iterable[str]) -> dict[str, str]:
     the dashboard and in the report alike.
     """
     return {gid: GRADE_COLOURS[k % len(GRADE_COLOURS)] for k, gid in enumerate(sorted(ids))}
+
+
+def with_set_colours(colours: dict[str, str], chosen: Iterable[str]) -> dict[str, str]:
+    """``colours`` with the grades of the comparison set ``chosen`` in :data:`SET_COLOURS`,
+    in the set's order (beyond eight grades the set's colours repeat)."""
+    out = dict(colours)
+    for k, gid in enumerate(chosen):
+        out[gid] = SET_COLOURS[k % len(SET_COLOURS)]
+    return out
 
 
 def faded(colour: str, alpha: float) -> str:
@@ -176,4 +201,107 @@ def tidy_log_axes(fig: go.Figure) -> go.Figure:
             ticks = [m * 10.0**d for d in decades for m in (1, 2, 5)]
             ticks = [v for v in ticks if lo - 1e-9 <= np.log10(v) <= hi + 1e-9]
             axis.update(tickvals=ticks, ticktext=[f"{v:g}" for v in ticks])
+    return fig
+
+
+# -- lines of constant loss modulus on the map ----------------------------------------------
+
+GUIDE_STYLES = ("ticks", "field", "none")  # how the map shows constant E'' = eta E'
+
+
+def _is_guide(trace) -> bool:
+    """A dotted grey diagonal of constant E'' as the map figure draws it."""
+    line = getattr(trace, "line", None)
+    return (
+        getattr(trace, "type", None) == "scatter"
+        and getattr(trace, "mode", None) == "lines"
+        and line is not None
+        and line.color == GUIDE
+        and line.dash == "dot"
+    )
+
+
+def loss_modulus_guides(fig: go.Figure, style: str = "ticks") -> go.Figure:
+    """The map's lines of constant loss modulus E'' = eta E' [MPa] drawn as ``style``.
+
+    ``"ticks"``: a short mark with the value where each decade of E'' meets the top and the
+    right edge of the frame; ``"field"``: a faint colour field of log10 E'' behind the
+    paths (its scale beside the plot); ``"none"``: not drawn. The plot's diagonals and
+    their labels in the plot are taken away in every style, so the paths stand alone.
+    The axes must be log axes with their ranges set (as the map sets them).
+    """
+    if style not in GUIDE_STYLES:
+        raise ValueError(f"guide style {style!r}: use one of {', '.join(GUIDE_STYLES)}")
+    fig.data = tuple(t for t in fig.data if not _is_guide(t))
+    fig.layout.annotations = tuple(
+        a for a in fig.layout.annotations if not str(a.text or "").startswith("E'' =")
+    )
+    xa, xb = fig.layout.xaxis.range
+    ya, yb = fig.layout.yaxis.range
+    if style == "ticks":
+        for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
+            label = f"{10.0**d:g}"
+            if xa < d - yb < xb:  # where log E'' = d meets the top edge
+                fig.add_annotation(
+                    x=d - yb,
+                    y=yb,
+                    text=f"{label}",
+                    showarrow=True,
+                    arrowhead=0,
+                    arrowcolor=GUIDE_TEXT,
+                    ax=0,
+                    ay=-9,
+                    yanchor="bottom",
+                    font={"size": 10, "color": GUIDE_TEXT},
+                )
+            if ya < d - xb < yb:  # ... and the right edge
+                fig.add_annotation(
+                    x=xb,
+                    y=d - xb,
+                    text=f"{label}",
+                    showarrow=True,
+                    arrowhead=0,
+                    arrowcolor=GUIDE_TEXT,
+                    ax=9,
+                    ay=0,
+                    xanchor="left",
+                    font={"size": 10, "color": GUIDE_TEXT},
+                )
+        fig.add_annotation(
+            x=1.0,
+            y=1.0,
+            xref="paper",
+            yref="paper",
+            xanchor="left",
+            yanchor="bottom",
+            text="E'' [MPa]",
+            showarrow=False,
+            xshift=4,
+            yshift=4,
+            font={"size": 10, "color": GUIDE_TEXT},
+        )
+        fig.update_layout(margin={"r": 60})
+    elif style == "field":
+        gx = np.linspace(xa, xb, 60)
+        gy = np.linspace(ya, yb, 60)
+        field = go.Heatmap(
+            x=10.0**gx,
+            y=10.0**gy,
+            z=gy[:, None] + gx[None, :],
+            colorscale=[list(stop) for stop in LOSS_FIELD_SCALE],
+            showscale=True,
+            colorbar={
+                "title": {"text": "E'' [MPa]", "side": "right"},
+                "thickness": 10,
+                "len": 0.6,
+                "tickvals": list(range(int(np.ceil(xa + ya)), int(np.floor(xb + yb)) + 1)),
+                "ticktext": [
+                    f"{10.0**d:g}" for d in range(int(np.ceil(xa + ya)), int(np.floor(xb + yb)) + 1)
+                ],
+            },
+            hoverinfo="skip",
+            name="loss modulus E''",
+        )
+        fig.add_trace(field)
+        fig.data = (fig.data[-1], *fig.data[:-1])  # the field under everything
     return fig

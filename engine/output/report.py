@@ -11,11 +11,16 @@ those with the import format's unit name ``[degC]``).
 
 from __future__ import annotations
 
+import base64
+import functools
+import gzip
 import html
 
 import numpy as np
 import plotly.graph_objects as go
 import plotly.io as pio
+from plotly.offline import get_plotlyjs
+from plotly.offline import get_plotlyjs_version as plotly_js_version
 from plotly.subplots import make_subplots
 
 from engine.base.caution import CAUTION
@@ -26,7 +31,9 @@ from engine.output.palette import TEMPLATE_NAME, tidy_log_axes
 from engine.output.rows import (
     RANK_INTERVAL_COLUMNS,
     criteria_rows,
+    exported_at,
     finite,
+    index_columns,
     interval_columns,
     intervals_note,
     provenance_rows,
@@ -56,9 +63,12 @@ th, td { border-bottom: 1px solid var(--rule); padding: 5px 9px; text-align: lef
          vertical-align: top; }
 th { background: var(--head); font-weight: 600; white-space: nowrap; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-td.reason { min-width: 300px; }
-td.grade { min-width: 170px; }
-td.notes { min-width: 240px; font-size: 12.5px; color: var(--muted); }
+td.reason { min-width: 220px; max-width: 340px; font-size: 12.5px; }
+td.grade { min-width: 130px; }
+td.notes { font-size: 12.5px; color: var(--muted); }
+td.notes details { max-width: 320px; }
+td.notes summary { cursor: pointer; }
+th { white-space: normal; min-width: 60px; max-width: 150px; }
 td small, li small { color: var(--muted); }
 tr.excluded td { color: var(--muted); }
 ul.fails { margin: 0; padding-left: 18px; }
@@ -66,6 +76,20 @@ ul.fails { margin: 0; padding-left: 18px; }
           margin-right: 6px; vertical-align: baseline; }
 .figure { border: 1px solid var(--rule); border-radius: 4px; padding: 6px; margin: 8px 0; }
 code { font-size: 12.5px; }
+@media print {
+  @page { size: A4 landscape; margin: 12mm; }
+  body { font-size: 10.5px; }
+  main { max-width: none; padding: 0; }
+  h2 { margin: 16px 0 6px; break-after: avoid; }
+  table { font-size: 9.5px; }
+  th, td { padding: 2px 5px; }
+  thead { display: table-header-group; }
+  tr { break-inside: avoid; }
+  .scroll { overflow: visible; }
+  .figure { break-inside: avoid; border: none; }
+  td.notes details > *, td.notes details { display: block; }
+  .modebar { display: none !important; }
+}
 """.replace("$font", FONT_STACK)
 
 
@@ -169,14 +193,47 @@ def curves_figure(result: RankResult) -> go.Figure:
     return tidy_log_axes(fig)
 
 
-def _figure_html(fig, first: bool) -> str:
-    return pio.to_html(
+# A figure's drawing script waits for the chart library: its type is this, and the
+# loader (_plotly_loader) runs it once Plotly is unpacked.
+FIGURE_SCRIPT = "text/x-quietgrade-figure"
+
+
+@functools.lru_cache(maxsize=1)
+def _plotly_loader() -> str:
+    """Plotly's script once in the page, gzip-compressed and base64-encoded (about 1.9 MB
+    instead of 4.8 MB), unpacked by the browser's own DecompressionStream (every current
+    browser) and then run, followed by each figure's drawing script. Still one file
+    that opens offline."""
+    packed = base64.b64encode(gzip.compress(get_plotlyjs().encode("utf-8"), 9, mtime=0))
+    return (
+        # Plotly's own set-up line, as it writes it before its library.
+        "<script>window.PlotlyConfig = {MathJaxConfig: 'local'};</script>\n"
+        f"<script>/* plotly.js v{plotly_js_version()} (MIT licence), gzip + base64; "
+        "unpacked below */\n"
+        f'window.quietgradePlotly = (async () => {{ const packed = "{packed.decode()}";\n'
+        "const bytes = Uint8Array.from(atob(packed), (c) => c.charCodeAt(0));\n"
+        "const stream = new Blob([bytes]).stream()"
+        '.pipeThrough(new DecompressionStream("gzip"));\n'
+        "const code = await new Response(stream).text();\n"
+        "const lib = document.createElement('script'); lib.text = code;\n"
+        "document.head.appendChild(lib);\n"
+        f"document.querySelectorAll('script[type=\"{FIGURE_SCRIPT}\"]')"
+        ".forEach((s) => (0, eval)(s.text)); })();</script>"
+    )
+
+
+def _figure_html(fig, first: bool = False) -> str:
+    """A figure's div and its drawing script, run by the loader once Plotly is there."""
+    out = pio.to_html(
         fig,
-        include_plotlyjs=bool(first),
+        include_plotlyjs=False,
         full_html=False,
         default_height=f"{fig.layout.height}px",
         config={"displaylogo": False, "responsive": True},
     )
+    # Plotly writes each figure's drawing script as a bare "<script>" (and so does no
+    # text from data: it is escaped).
+    return out.replace("<script>", f'<script type="{FIGURE_SCRIPT}">')
 
 
 def _table(header: list[str], rows: list[list[str]], row_class: str = "") -> str:
@@ -202,6 +259,30 @@ def _celsius(setting: str) -> str:
     return setting.replace("[degC]", "[°C]")
 
 
+# The figures purchasing reads first, in this order after rank and grade (when the
+# ranking has them), with the heading the report gives each; the rest follow, notes last.
+KEY_COLUMNS = (
+    ("score", "score"),
+    ("fn min [Hz]", "fn min [Hz]"),
+    ("fn max [Hz]", "fn max [Hz]"),
+    ("worst transmissibility [-]", "worst T"),
+    ("long-term sag [mm]", "sag [mm]"),
+)
+
+
+def index_headings(result: RankResult) -> dict[str, str]:
+    """Readable heading of each chosen index column: the index's label, how it is taken
+    over the window and its unit, e.g. ``"loss factor (worst)"`` for the file heading
+    ``"loss_factor (worst) [-]"``."""
+    out = {}
+    for choice in result.criteria.indices:
+        spec = result.specs[choice.name]
+        how = choice.aggregate if spec.kind == "point" else "window"
+        unit = f" [{spec.unit}]" if spec.unit and spec.unit != "-" else ""
+        out[index_columns(result)[choice.name]] = f"{spec.label} ({how}){unit}"
+    return out
+
+
 def _ranked_html(result: RankResult) -> str:
     rows = shortlist_rows(result)
     passing = [r for r in rows if r["passed"] == "pass"]
@@ -213,31 +294,39 @@ def _ranked_html(result: RankResult) -> str:
     skip |= set(RANK_INTERVAL_COLUMNS) | {h for pair in spread.values() for h in pair}
     if result.criteria.pareto is None:
         skip.add("pareto")
-    middle = [h for h in passing[0] if h not in skip]
-    header = ["rank", "grade", *middle, "reason", "notes"]
+    headings = {h: h for h in passing[0]} | dict(KEY_COLUMNS) | index_headings(result)
+    key = [h for h, _ in KEY_COLUMNS if h in passing[0] and h not in skip]
+    middle = [h for h in passing[0] if h not in skip and h not in key]
+    header = ["rank", "grade", *(headings[h] for h in key), "reason"]
+    header += [headings[h] for h in middle] + ["notes"]
     best, worst = RANK_INTERVAL_COLUMNS
+
+    def cells(r: dict, names: list[str]) -> list[str]:
+        return [
+            _cell_interval(r[h], r[spread[h][0]], r[spread[h][1]]) if h in spread else _cell(r[h])
+            for h in names
+        ]
+
     body = []
     for r in passing:
         swatch = f'<span class="swatch" style="background:{colours[r["id"]]}"></span>'
+        notes = r["notes"] or ""
+        folded = f"<details><summary>notes</summary>{_e(notes)}</details>" if notes else ""
         body.append(
             [
                 _cell_interval(r["rank"], r[best], r[worst]),
                 f'<td class="grade">{swatch}{_e(r["name"])}<br><small>{_e(r["id"])}</small></td>',
-                *[
-                    _cell_interval(r[h], r[spread[h][0]], r[spread[h][1]])
-                    if h in spread
-                    else _cell(r[h])
-                    for h in middle
-                ],
+                *cells(r, key),
                 f'<td class="reason">{_e(r["reason"])}</td>',
-                f'<td class="notes">{_e(r["notes"] or "")}</td>',
+                *cells(r, middle),
+                f'<td class="notes">{folded}</td>',
             ]
         )
     hint = (
         '<p class="hint">Under a rank or a figure: its 95 % interval on the data. '
         f"{_e(intervals_note(result))}</p>"
     )
-    return hint + _table(header, body)
+    return hint + _table(header, body, row_class="ranked")
 
 
 def _excluded_html(result: RankResult) -> str:
@@ -361,10 +450,12 @@ def report_html(
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         "<title>quietgrade shortlist</title>",
         f"<style>{_CSS}</style></head><body><main>",
+        _plotly_loader(),
         "<h1>quietgrade shortlist</h1>",
         f'<p class="meta">{len(result.shortlist)} of {len(result.grades)} grade(s) meet every '
         f"constraint over {lo:g} to {hi:g} °C and {w.freq_range[0]:g} to "
-        f"{w.freq_range[1]:g} Hz. Ranked {_e(result.created_at)} (UTC) with quietgrade "
+        f"{w.freq_range[1]:g} Hz. Written {_e(exported_at())} (UTC); ranked "
+        f"{_e(result.created_at)} (UTC) with quietgrade "
         f"{_e(result.engine_version)}.</p>",
         caution,
         "<h2>Ranked shortlist</h2>",

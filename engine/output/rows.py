@@ -36,6 +36,7 @@ from __future__ import annotations
 import io
 import math
 import re
+from datetime import UTC, datetime
 
 import numpy as np
 from scipy.interpolate import make_interp_spline
@@ -238,10 +239,19 @@ def intervals_note(result: RankResult) -> str:
     return result.spread.describe()
 
 
+def exported_at() -> str:
+    """Now, as the stamp of a file being written [UTC, ISO 8601 to the second]: a file
+    says when it was made, which may be long after the (cached) ranking."""
+    return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%S")
+
+
 def _trailer_lines(result: RankResult) -> list[str]:
-    """Lines after the table: version and date, the intervals, grades not ranked, the
+    """Lines after the table: version and dates, the intervals, grades not ranked, the
     caution last."""
-    lines = [f"quietgrade {result.engine_version}, ranked {result.created_at} (UTC)"]
+    lines = [
+        f"quietgrade {result.engine_version}, written {exported_at()} (UTC), "
+        f"ranked {result.created_at} (UTC)"
+    ]
     lines.append(intervals_note(result))
     if result.criteria.screening_only:
         lines.append(SCREENING_NOTE)
@@ -302,6 +312,7 @@ def criteria_rows(result: RankResult) -> list[tuple[str, str, object]]:
     c = result.criteria
     w = c.window
     rows: list[tuple[str, str, object]] = [
+        ("report", "written at (UTC)", exported_at()),
         ("report", "ranked at (UTC)", result.created_at),
         ("report", "quietgrade version", result.engine_version),
         ("report", "grades ranked", len(result.grades)),

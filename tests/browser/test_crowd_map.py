@@ -119,7 +119,7 @@ def test_hovering_an_excluded_shared_mark_shows_its_reasons(crowd):
     everything = np.vstack(list(points.values()))
     owner = np.repeat(list(points), [len(p) for p in points.values()])
 
-    def isolated(gid: str, px: float, py: float, gap: float = 12.0) -> bool:
+    def isolated(gid: str, px: float, py: float, gap: float = 8.0) -> bool:
         """Inside the plot by ``gap`` [px] and farther than that from other grades' marks
         (the nearest mark under the pointer is the one Plotly labels)."""
         inside = box["x"] + gap < px < box["x"] + box["w"] - gap
