@@ -496,6 +496,26 @@ def _first(mask: np.ndarray) -> int:
     return int(np.argmax(mask)) + 2
 
 
+def _refuse_first(file: str, mask, column: str, say: Callable[[int], str]) -> None:
+    """Refuse the first row where ``mask`` holds, naming ``file``, that row (as a
+    spreadsheet counts it) and ``column``: InputError(``say(i)``), ``i`` the row's index
+    among the data rows. Nothing where the mask holds nowhere."""
+    mask = np.asarray(mask, dtype=bool)
+    if mask.any():
+        row = _first(mask)
+        raise InputError(say(row - 2), file=file, row=row, column=column)
+
+
+def _known_grades(file: str, ids: pd.Series, known_ids: set[str], column: str) -> None:
+    """Every grade id of a sweep file names a grade of the catalog or the library."""
+    _refuse_first(
+        file,
+        ~ids.isin(known_ids).to_numpy(),
+        column,
+        lambda i: f"unknown grade id '{_show(ids.iloc[i])}': not in the catalog or the library",
+    )
+
+
 def _catalog_factor(
     table: RawTable, name: str, header: str, unit: str | None, expected: str | None
 ) -> float:
@@ -545,23 +565,19 @@ def _check_ids(table: RawTable, ids: pd.Series, header: str) -> None:
     """Grade ids are one line of at most :data:`MAX_ID_CHARS` characters."""
     broken = ids.str.contains(r"[\r\n\x0b\x0c\x1c-\x1e\x85\u2028\u2029]", regex=True)
     broken = broken.to_numpy(dtype=bool)
-    if broken.any():
-        row = _first(broken)
-        raise InputError(
-            f"grade id '{_show(ids.iloc[row - 2])}' holds a line break; an id is one line",
-            file=table.file,
-            row=row,
-            column=header,
-        )
+    _refuse_first(
+        table.file,
+        broken,
+        header,
+        lambda i: f"grade id '{_show(ids.iloc[i])}' holds a line break; an id is one line",
+    )
     long = (ids.str.len() > MAX_ID_CHARS).to_numpy()
-    if long.any():
-        row = _first(long)
-        raise InputError(
-            f"grade id '{_show(ids.iloc[row - 2])}' is longer than {MAX_ID_CHARS} characters",
-            file=table.file,
-            row=row,
-            column=header,
-        )
+    _refuse_first(
+        table.file,
+        long,
+        header,
+        lambda i: f"grade id '{_show(ids.iloc[i])}' is longer than {MAX_ID_CHARS} characters",
+    )
 
 
 @_one_line
@@ -594,24 +610,17 @@ def parse_catalog(table: RawTable) -> list[Material]:
             )
     _check_ids(table, text["id"], cols["id"][0])
     dup = text["id"].duplicated().to_numpy()
-    if dup.any():
-        row = _first(dup)
-        raise InputError(
-            f"duplicate id '{_show(text['id'].iloc[row - 2])}'",
-            file=table.file,
-            row=row,
-            column=cols["id"][0],
-        )
+    _refuse_first(
+        table.file, dup, cols["id"][0], lambda i: f"duplicate id '{_show(text['id'].iloc[i])}'"
+    )
     modes = text["mode"].str.lower()
     bad_mode = ~modes.isin(MODES).to_numpy()
-    if bad_mode.any():
-        row = _first(bad_mode)
-        raise InputError(
-            f"mode '{_show(text['mode'].iloc[row - 2])}' is not one of {', '.join(MODES)}",
-            file=table.file,
-            row=row,
-            column=cols["mode"][0],
-        )
+    _refuse_first(
+        table.file,
+        bad_mode,
+        cols["mode"][0],
+        lambda i: f"mode '{_show(text['mode'].iloc[i])}' is not one of {', '.join(MODES)}",
+    )
     numbers: dict[str, np.ndarray] = {}
     for name, (expected, kind) in CATALOG_OPTIONAL.items():
         if name not in cols or kind != "number":
@@ -629,25 +638,17 @@ def parse_catalog(table: RawTable) -> list[Material]:
         numbers[name] = values
     for name, values in numbers.items():
         header = cols[name][0]
-        finite = ~np.isinf(values)  # blanks (NaN) pass; overflow in conversion does not
-        if not finite.all():
-            row = _first(~finite)
-            raise InputError(
-                f"{_show(table.frame[header].iloc[row - 2])} is beyond the range of numbers "
-                f"once converted to {FIELDS[name].unit}",
-                file=table.file,
-                row=row,
-                column=header,
-            )
-        bad = ~FIELDS[name].accepts(values)
-        if bad.any():
-            row = _first(bad)
-            raise InputError(
-                f"{_show(table.frame[header].iloc[row - 2])}: {FIELDS[name].rule}",
-                file=table.file,
-                row=row,
-                column=header,
-            )
+        cells, field = table.frame[header], FIELDS[name]
+
+        def beyond(i: int, cells: pd.Series = cells, unit: str | None = field.unit) -> str:
+            return f"{_show(cells.iloc[i])} is beyond the range of numbers once converted to {unit}"
+
+        def refused(i: int, cells: pd.Series = cells, rule: str = field.rule) -> str:
+            return f"{_show(cells.iloc[i])}: {rule}"
+
+        # blanks (NaN) pass; an overflow in the conversion does not
+        _refuse_first(table.file, np.isinf(values), header, beyond)
+        _refuse_first(table.file, ~field.accepts(values), header, refused)
         if name == "density":
             _in_range(
                 table,
@@ -674,14 +675,12 @@ def parse_catalog(table: RawTable) -> list[Material]:
             )
     if "service_min" in numbers and "service_max" in numbers:
         inverted = numbers["service_min"] >= numbers["service_max"]
-        if inverted.any():
-            row = _first(inverted)
-            raise InputError(
-                "service_min is not below service_max",
-                file=table.file,
-                row=row,
-                column=cols["service_min"][0],
-            )
+        _refuse_first(
+            table.file,
+            inverted,
+            cols["service_min"][0],
+            lambda i: "service_min is not below service_max",
+        )
     known = set(CATALOG_REQUIRED) | set(CATALOG_OPTIONAL)
     extra_headers = [cols[n][0] for n in cols if n not in known]
     out = []
@@ -755,15 +754,7 @@ def parse_sweeps(table: RawTable, known_ids: set[str]) -> SweepData:
         raise InputError(
             "blank cell; a value is required", file=f, row=_first(blank), column=cols["material"][0]
         )
-    unknown = ~ids.isin(known_ids).to_numpy()
-    if unknown.any():
-        row = _first(unknown)
-        raise InputError(
-            f"unknown grade id '{_show(ids.iloc[row - 2])}': not in the catalog or the library",
-            file=f,
-            row=row,
-            column=cols["material"][0],
-        )
+    _known_grades(f, ids, known_ids, cols["material"][0])
     h_t, u_t = cols["temperature"]
     h_f, u_f = cols["frequency"]
     h_s, u_s = cols["storage_modulus"]
@@ -779,28 +770,24 @@ def parse_sweeps(table: RawTable, known_ids: set[str]) -> SweepData:
         h_e = cols["loss_factor"][0]
         eta = _numbers(table, h_e, required=True)
         neg = eta < 0
-        if neg.any():
-            row = _first(neg)
-            raise InputError(
-                f"{_show(table.frame[h_e].iloc[row - 2])} is negative; loss factors must be >= 0",
-                file=f,
-                row=row,
-                column=h_e,
-            )
+        _refuse_first(
+            f,
+            neg,
+            h_e,
+            lambda i: f"{_show(table.frame[h_e].iloc[i])} is negative; loss factors must be >= 0",
+        )
         _in_range(table, h_e, eta, 0.0, MAX_LOSS_FACTOR, LOSS_FACTOR_WHY)
     else:
         h_l, u_l = cols["loss_modulus"]
         l_unit = _unit(table, "loss_modulus", h_l, u_l, tuple(MODULUS_UNITS))
         loss = modulus_to_pa(_numbers(table, h_l, required=True), l_unit)
         neg = loss < 0
-        if neg.any():
-            row = _first(neg)
-            raise InputError(
-                f"{_show(table.frame[h_l].iloc[row - 2])} is negative; moduli must be >= 0",
-                file=f,
-                row=row,
-                column=h_l,
-            )
+        _refuse_first(
+            f,
+            neg,
+            h_l,
+            lambda i: f"{_show(table.frame[h_l].iloc[i])} is negative; moduli must be >= 0",
+        )
         _in_range(table, h_l, loss, 0.0, MAX_MODULUS_PA, MODULUS_WHY, "Pa")
         eta = loss / storage
         _derived_loss_factor(table, h_l, eta)
@@ -833,14 +820,12 @@ def _temperatures(table: RawTable, header: str, unit: str) -> np.ndarray:
     """A temperature column in degC, checked against absolute zero and the upper limit."""
     temperature = temperature_to_c(_numbers(table, header, required=True), unit)
     below = temperature < ABSOLUTE_ZERO_C
-    if below.any():
-        row = _first(below)
-        raise InputError(
-            f"{_show(table.frame[header].iloc[row - 2])} {unit} is below absolute zero",
-            file=table.file,
-            row=row,
-            column=header,
-        )
+    _refuse_first(
+        table.file,
+        below,
+        header,
+        lambda i: f"{_show(table.frame[header].iloc[i])} {unit} is below absolute zero",
+    )
     _in_range(
         table,
         header,
@@ -872,15 +857,15 @@ def _frequencies(table: RawTable, header: str, unit: str) -> np.ndarray:
 def _derived_loss_factor(table: RawTable, header: str, eta: np.ndarray) -> None:
     """The loss factor E''/E' computed from two moduli must be finite and physical."""
     bad = ~((eta >= 0) & (eta <= MAX_LOSS_FACTOR))
-    if bad.any():
-        row = _first(bad)
-        raise InputError(
-            f"loss modulus / storage modulus = {eta[row - 2]:.4g}, outside 0 to "
-            f"{MAX_LOSS_FACTOR:g}; {LOSS_FACTOR_WHY}",
-            file=table.file,
-            row=row,
-            column=header,
-        )
+    _refuse_first(
+        table.file,
+        bad,
+        header,
+        lambda i: (
+            f"loss modulus / storage modulus = {eta[i]:.4g}, outside 0 to "
+            f"{MAX_LOSS_FACTOR:g}; {LOSS_FACTOR_WHY}"
+        ),
+    )
 
 
 def _merge_repeats(
@@ -952,14 +937,12 @@ def _merge_repeats(
 
 def _positive(table: RawTable, header: str, values: np.ndarray, reason: str) -> None:
     bad = values <= 0
-    if bad.any():
-        row = _first(bad)
-        raise InputError(
-            f"{_show(table.frame[header].iloc[row - 2])} is not positive; {reason}",
-            file=table.file,
-            row=row,
-            column=header,
-        )
+    _refuse_first(
+        table.file,
+        bad,
+        header,
+        lambda i: f"{_show(table.frame[header].iloc[i])} is not positive; {reason}",
+    )
 
 
 def data_hash(points: np.ndarray) -> str:
@@ -1180,15 +1163,7 @@ def parse_amplitude(table: RawTable, known_ids: set[str]) -> AmplitudeData:
     blank = (ids == "").to_numpy()
     if blank.any():
         raise InputError("blank cell; a value is required", file=f, row=_first(blank), column=h_id)
-    unknown = ~ids.isin(known_ids).to_numpy()
-    if unknown.any():
-        row = _first(unknown)
-        raise InputError(
-            f"unknown grade id '{_show(ids.iloc[row - 2])}': not in the catalog or the library",
-            file=f,
-            row=row,
-            column=h_id,
-        )
+    _known_grades(f, ids, known_ids, h_id)
     h_t, u_t = cols["temperature"]
     h_f, u_f = cols["frequency"]
     h_g, u_g = cols["strain_amplitude"]
@@ -1203,15 +1178,15 @@ def parse_amplitude(table: RawTable, known_ids: set[str]) -> AmplitudeData:
     _positive(table, h_g, strain, "strain amplitudes must be positive")
     _in_range(table, h_g, strain, MIN_STRAIN, np.inf, "no instrument resolves a smaller strain")
     large = strain > MAX_STRAIN_AMPLITUDE
-    if large.any():
-        row = _first(large)
-        raise InputError(
-            f"{_show(table.frame[h_g].iloc[row - 2])} is a strain amplitude above 100 %; "
-            f"is the column in percent? then write '{split_header(h_g)[0]} [%]'",
-            file=f,
-            row=row,
-            column=h_g,
-        )
+    _refuse_first(
+        f,
+        large,
+        h_g,
+        lambda i: (
+            f"{_show(table.frame[h_g].iloc[i])} is a strain amplitude above 100 %; "
+            f"is the column in percent? then write '{split_header(h_g)[0]} [%]'"
+        ),
+    )
     storage = modulus_to_pa(_numbers(table, h_s, required=True), s_unit)
     _positive(table, h_s, storage, "moduli must be positive")
     _in_range(table, h_s, storage, MIN_MODULUS_PA, MAX_MODULUS_PA, MODULUS_WHY, "Pa")
