@@ -534,14 +534,7 @@ def _criteria_from_args(args):
     if args.index:
         changes["indices"] = tuple(IndexChoice(n, 1.0, args.aggregate) for n in args.index)
     if args.mount:
-        path = Path(args.mount)
-        if not path.exists():
-            raise QuietgradeError(f"{path}: file not found")
-        try:
-            mount = json.loads(path.read_text(encoding="utf-8-sig"))
-        except json.JSONDecodeError as exc:
-            raise QuietgradeError(f"{path}: not valid JSON: {exc}") from None
-        changes["mount"] = MountDesign.from_dict(mount)
+        changes["mount"] = MountDesign.from_dict(_json_file(args.mount))
     if args.system:
         changes["system"] = _system_case(args.system)
         if not args.mount:

@@ -11,6 +11,7 @@
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import io
 import json
 from dataclasses import dataclass
@@ -21,7 +22,9 @@ from scipy import integrate
 
 from engine.cli import main
 from engine.curves.bank import CurveBank
-from engine.library.store import Material
+from engine.library.importer import data_hash
+from engine.library.store import Library, Material
+from tests import synthetic
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_materials"
@@ -209,3 +212,40 @@ def _reset_engine(url: str):
     if url not in _reset_engines:
         _reset_engines[url] = sa.create_engine(store._url(url), pool_size=1)
     return _reset_engines[url]
+
+
+# --- grades written straight into a library (tests/test_reliability_*.py) -------------
+
+
+def good_sweep(seed: int) -> np.ndarray:
+    """A full sweep of the known model with its glass transition moved by the seed."""
+    tg = float(np.random.default_rng(seed).uniform(-30.0, -10.0))
+    law = dataclasses.replace(synthetic.TRUE_LAW, wlf_reference_C=tg, split_C=tg)
+    return synthetic.sweep(noise=0.01, seed=seed, law=law)
+
+
+def with_value(points: np.ndarray, row: int, column: int, value: float) -> np.ndarray:
+    out = points.copy()
+    out[row, column] = value
+    return out
+
+
+def add_grades(lib: Library, grades: dict[str, np.ndarray]) -> Library:
+    """``lib`` with ``grades`` (id -> points in internal units) added in one transaction
+    straight into the store (no file, no importer: points the importer would refuse)."""
+    files = [
+        {
+            "key": "f",
+            "file_name": "generated.csv",
+            "sha256": "0" * 64,
+            "size_bytes": 0,
+            "rows": sum(len(p) for p in grades.values()),
+            "kind": "sweep",
+        }
+    ]
+    datasets = [
+        {"material_id": gid, "file_key": "f", "data_hash": data_hash(p), "points": p}
+        for gid, p in grades.items()
+    ]
+    lib.write_import(files, [material(gid) for gid in grades], datasets)
+    return lib

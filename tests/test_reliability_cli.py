@@ -12,7 +12,6 @@ absolute zero is -273.15 degC (SI Brochure, 9th ed., 2019).
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import os
 import shutil
@@ -31,44 +30,10 @@ from engine.library.fits import fit_library, options_key
 from engine.library.importer import data_hash
 from engine.library.store import Library
 from tests import synthetic
-from tests.helpers import ROOT, material
+from tests.helpers import ROOT, add_grades, good_sweep, with_value
 
 WINDOW = ["--temp-range", "-20", "45", "--freq-range", "10", "100", "--screening"]
 GOOD = ("GOOD-1", "GOOD-2", "GOOD-3")
-
-
-def good_sweep(seed: int) -> np.ndarray:
-    """A full sweep of the known model with its glass transition moved by the seed."""
-    tg = float(np.random.default_rng(seed).uniform(-30.0, -10.0))
-    law = dataclasses.replace(synthetic.TRUE_LAW, wlf_reference_C=tg, split_C=tg)
-    return synthetic.sweep(noise=0.01, seed=seed, law=law)
-
-
-def with_value(points: np.ndarray, row: int, column: int, value: float) -> np.ndarray:
-    out = points.copy()
-    out[row, column] = value
-    return out
-
-
-def add_grades(lib: Library, grades: dict[str, np.ndarray]) -> Library:
-    """``lib`` with ``grades`` (id -> points in internal units) written straight into the
-    store in one transaction."""
-    files = [
-        {
-            "key": "f",
-            "file_name": "generated.csv",
-            "sha256": "0" * 64,
-            "size_bytes": 0,
-            "rows": sum(len(p) for p in grades.values()),
-            "kind": "sweep",
-        }
-    ]
-    datasets = [
-        {"material_id": gid, "file_key": "f", "data_hash": data_hash(p), "points": p}
-        for gid, p in grades.items()
-    ]
-    lib.write_import(files, [material(gid) for gid in grades], datasets)
-    return lib
 
 
 @pytest.fixture(scope="module")

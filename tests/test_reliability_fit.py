@@ -48,7 +48,7 @@ from engine.physics.isotherms import group_temperatures
 from engine.physics.prony import PronySeries
 from engine.physics.shift import shift_isotherms, split_isotherms
 from tests import synthetic
-from tests.helpers import flat_bank, material
+from tests.helpers import add_grades, flat_bank, good_sweep, with_value
 
 ABSOLUTE_ZERO_C = -273.15  # SI Brochure (2019)
 # Nine points: three isotherms of three frequencies each, of the known model.
@@ -58,40 +58,6 @@ NINE_FREQUENCIES = (0.1, 0.3, 30.0)
 
 def nine_point_sweep() -> np.ndarray:
     return synthetic.sweep(NINE_TEMPERATURES, NINE_FREQUENCIES)
-
-
-def good_sweep(seed: int) -> np.ndarray:
-    """A full sweep of the known model with its glass transition moved by the seed."""
-    tg = float(np.random.default_rng(seed).uniform(-30.0, -10.0))
-    law = dataclasses.replace(synthetic.TRUE_LAW, wlf_reference_C=tg, split_C=tg)
-    return synthetic.sweep(noise=0.01, seed=seed, law=law)
-
-
-def with_value(points: np.ndarray, row: int, column: int, value: float) -> np.ndarray:
-    out = points.copy()
-    out[row, column] = value
-    return out
-
-
-def add_grades(lib: Library, grades: dict[str, np.ndarray]) -> Library:
-    """``lib`` with ``grades`` (id -> points in internal units) added in one transaction
-    straight into the store."""
-    files = [
-        {
-            "key": "f",
-            "file_name": "generated.csv",
-            "sha256": "0" * 64,
-            "size_bytes": 0,
-            "rows": sum(len(p) for p in grades.values()),
-            "kind": "sweep",
-        }
-    ]
-    datasets = [
-        {"material_id": gid, "file_key": "f", "data_hash": data_hash(p), "points": p}
-        for gid, p in grades.items()
-    ]
-    lib.write_import(files, [material(gid) for gid in grades], datasets)
-    return lib
 
 
 @pytest.fixture(scope="module")
