@@ -11,32 +11,30 @@ ON CONFLICT behave as its manual describes (chapters "Explicit Locking", "Privil
 from __future__ import annotations
 
 import logging
-import multiprocessing
 import os
 
 import pytest
 import sqlalchemy as sa
 
 from engine.base.errors import LibraryError
-from engine.library import store
 from engine.library.store import Library, Material, ReadOnlyLibraryError, masked
 from tests import synthetic
+from tests.concurrency import (
+    PROCESSES,
+    bump_many,
+    catalog_file,
+    open_at_once,
+    store_same_fits,
+    together,
+)
+from tests.helpers import drop_library
 
 SERVER_URL = os.environ.get("QUIETGRADE_TEST_DATABASE_URL")
 READONLY_URL = os.environ.get("QUIETGRADE_TEST_READONLY_URL")
 pytestmark = pytest.mark.skipif(
     not SERVER_URL, reason="QUIETGRADE_TEST_DATABASE_URL is not set: no PostgreSQL server"
 )
-CTX = multiprocessing.get_context("fork")
-PROCESSES = 4
 ROUNDS = 20
-
-
-def drop_library(url: str) -> None:
-    engine = sa.create_engine(store._url(url))
-    with engine.begin() as conn:
-        store._metadata.drop_all(conn)
-    engine.dispose()
 
 
 @pytest.fixture
@@ -45,27 +43,6 @@ def server():
     drop_library(SERVER_URL)
     yield SERVER_URL
     drop_library(SERVER_URL)
-
-
-def catalog_file(key: str = "k") -> dict:
-    return {
-        "key": key,
-        "file_name": "c.csv",
-        "sha256": "d" * 64,
-        "size_bytes": 1,
-        "rows": 1,
-        "kind": "catalog",
-    }
-
-
-def _open_at_once(args) -> str:
-    url, barrier = args
-    barrier.wait()
-    try:
-        Library(url).engine.dispose()
-        return "ok"
-    except Exception as exc:  # noqa: BLE001 - every failure is counted and shown
-        return f"{type(exc).__name__}: {exc}"
 
 
 def test_store_basics_on_the_server(server):
@@ -100,9 +77,7 @@ def test_concurrent_first_use_of_an_empty_database(server):
     failures = []
     for _ in range(ROUNDS):
         drop_library(server)
-        barrier = CTX.Manager().Barrier(PROCESSES)
-        with CTX.Pool(PROCESSES) as pool:
-            results = pool.map(_open_at_once, [(server, barrier)] * PROCESSES)
+        results = together(open_at_once, [(server,)] * PROCESSES)
         failures += [r for r in results if r != "ok"]
         lib = Library(server)
         assert lib.version() == 0  # one set of version rows, never reset
@@ -112,43 +87,12 @@ def test_concurrent_first_use_of_an_empty_database(server):
     assert failures == []  # 20 rounds x 4 processes
 
 
-def _store_same_fits(args) -> str:
-    url, barrier = args
-    lib = Library(url)
-    barrier.wait()
-    try:
-        for k in range(10):
-            lib.store_fits({f"{j:064d}": {"round": k} for j in range(20)}, "opts")
-        return "ok"
-    except Exception as exc:  # noqa: BLE001
-        return f"{type(exc).__name__}: {exc}"
-    finally:
-        lib.engine.dispose()
-
-
 def test_concurrent_fit_cache_writes_all_succeed(server):
     Library(server).engine.dispose()
-    barrier = CTX.Manager().Barrier(PROCESSES)
-    with CTX.Pool(PROCESSES) as pool:
-        results = pool.map(_store_same_fits, [(server, barrier)] * PROCESSES)
+    results = together(store_same_fits, [(server,)] * PROCESSES)
     assert results == ["ok"] * PROCESSES
     cached = Library(server).cached_fits([f"{j:064d}" for j in range(20)], "opts")
     assert len(cached) == 20 and {v["round"] for v in cached.values()} == {9}
-
-
-def _bump_many(args) -> str:
-    url, material_id, rounds, barrier = args
-    lib = Library(url)
-    barrier.wait()
-    try:
-        for _ in range(rounds):
-            lib.delete_material(material_id)
-            lib.restore_material(material_id)
-        return "ok"
-    except Exception as exc:  # noqa: BLE001
-        return f"{type(exc).__name__}: {exc}"
-    finally:
-        lib.engine.dispose()
 
 
 def test_version_counter_loses_no_update(server):
@@ -157,9 +101,7 @@ def test_version_counter_loses_no_update(server):
         [catalog_file()], [Material("A", "a", "shear"), Material("B", "b", "shear")], []
     )
     before = lib.version()
-    barrier = CTX.Manager().Barrier(2)
-    with CTX.Pool(2) as pool:
-        results = pool.map(_bump_many, [(server, "A", 25, barrier), (server, "B", 25, barrier)])
+    results = together(bump_many, [(server, "A", 25), (server, "B", 25)])
     assert results == ["ok", "ok"]
     assert lib.version() == before + 100  # 2 writers x 25 x (delete + restore)
 

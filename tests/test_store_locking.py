@@ -8,7 +8,6 @@ that the library relies on them as intended.
 
 from __future__ import annotations
 
-import multiprocessing
 import sqlite3
 import time
 from contextlib import closing
@@ -18,39 +17,21 @@ import pytest
 from engine.base.errors import LibraryError
 from engine.library import store
 from engine.library.store import Library, Material, ReadOnlyLibraryError
+from tests.concurrency import (
+    PROCESSES,
+    bump_many,
+    catalog_file,
+    open_at_once,
+    store_same_fits,
+    together,
+)
 
-PROCESSES = 4
 ROUNDS = 10
-CTX = multiprocessing.get_context("fork")
-
-
-def catalog_file(key: str = "k") -> dict:
-    return {
-        "key": key,
-        "file_name": "c.csv",
-        "sha256": "c" * 64,
-        "size_bytes": 1,
-        "rows": 1,
-        "kind": "catalog",
-    }
-
-
-def _open_at_once(args) -> str:
-    location, barrier = args
-    barrier.wait()
-    try:
-        lib = Library(location)
-        lib.engine.dispose()
-        return "ok"
-    except Exception as exc:  # noqa: BLE001 - every failure is counted and shown
-        return f"{type(exc).__name__}: {exc}"
 
 
 def open_concurrently(location: str, n: int = PROCESSES) -> list[str]:
     """``n`` processes open ``location`` at the same moment; what each one got."""
-    barrier = CTX.Manager().Barrier(n)
-    with CTX.Pool(n) as pool:
-        return pool.map(_open_at_once, [(location, barrier)] * n)
+    return together(open_at_once, [(location,)] * n)
 
 
 def test_concurrent_creation_of_a_new_library(tmp_path):
@@ -106,21 +87,6 @@ def test_busy_timeout_comes_from_the_environment(tmp_path, monkeypatch):
     assert Library(str(tmp_path / "lib.sqlite")).busy_timeout == store.BUSY_TIMEOUT_S
 
 
-def _bump_many(args) -> str:
-    location, material_id, rounds, barrier = args
-    lib = Library(location)
-    barrier.wait()
-    try:
-        for _ in range(rounds):
-            lib.delete_material(material_id)
-            lib.restore_material(material_id)
-        return "ok"
-    except Exception as exc:  # noqa: BLE001
-        return f"{type(exc).__name__}: {exc}"
-    finally:
-        lib.engine.dispose()
-
-
 def test_version_counter_loses_no_update(tmp_path):
     path = str(tmp_path / "lib.sqlite")
     lib = Library(path)
@@ -128,33 +94,15 @@ def test_version_counter_loses_no_update(tmp_path):
         [catalog_file()], [Material("A", "a", "shear"), Material("B", "b", "shear")], []
     )
     before = lib.version()
-    barrier = CTX.Manager().Barrier(2)
-    with CTX.Pool(2) as pool:
-        results = pool.map(_bump_many, [(path, "A", 25, barrier), (path, "B", 25, barrier)])
+    results = together(bump_many, [(path, "A", 25), (path, "B", 25)])
     assert results == ["ok", "ok"]
     assert lib.version() == before + 2 * 2 * 25  # each delete and restore counts once
-
-
-def _store_same_fits(args) -> str:
-    location, barrier = args
-    lib = Library(location)
-    barrier.wait()
-    try:
-        for k in range(10):
-            lib.store_fits({f"{j:064d}": {"round": k, "fit": j} for j in range(20)}, "opts")
-        return "ok"
-    except Exception as exc:  # noqa: BLE001
-        return f"{type(exc).__name__}: {exc}"
-    finally:
-        lib.engine.dispose()
 
 
 def test_concurrent_fit_cache_writes_all_succeed(tmp_path):
     path = str(tmp_path / "lib.sqlite")
     Library(path).engine.dispose()
-    barrier = CTX.Manager().Barrier(PROCESSES)
-    with CTX.Pool(PROCESSES) as pool:
-        results = pool.map(_store_same_fits, [(path, barrier)] * PROCESSES)
+    results = together(store_same_fits, [(path,)] * PROCESSES)
     assert results == ["ok"] * PROCESSES
     cached = Library(path).cached_fits([f"{j:064d}" for j in range(20)], "opts")
     assert sorted(cached) == [f"{j:064d}" for j in range(20)]
