@@ -22,6 +22,20 @@ LINES_PER_DISTURBANCE = 3
 STRAIN_AXIS_TOP = 1.2 * MAX_STATIC_STRAIN
 
 
+def _grade_line(temps, y, gid: str, colour: str, hover: str, dash: str, **extra) -> go.Scatter:
+    """One grade's line against temperature; ``hover`` follows the grade's id."""
+    return go.Scatter(
+        x=temps,
+        y=y,
+        mode="lines+markers",
+        name=plot_text(gid),
+        line={"color": colour, "width": 2, "dash": dash},
+        marker={"size": 5},
+        hovertemplate=f"{plot_text(gid)}{hover}<extra></extra>",
+        **extra,
+    )
+
+
 def mount_figures(
     result: RankResult, ids: list[str], colours: dict[str, str]
 ) -> tuple[go.Figure, go.Figure, go.Figure, go.Figure]:
@@ -139,36 +153,24 @@ def mount_figures(
             continue
         k = rows[gid]
         colour = colours.get(gid, INK)
+
+        def grade_line(y, hover: str, dash: str = "solid", **extra) -> go.Scatter:
+            # called within this iteration only, so its gid and colour are this grade's
+            return _grade_line(temps, y, gid, colour, hover, dash, **extra)  # noqa: B023
+
         fn_fig.add_trace(
-            go.Scatter(
-                x=temps,
-                y=mres.natural_frequency[k],
-                mode="lines+markers",
-                name=plot_text(gid),
-                line={"color": colour, "width": 2},
-                marker={"size": 5},
-                hovertemplate=(
-                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>fn = %{{y:.3g}} Hz<extra></extra>"
-                ),
-            )
+            grade_line(mres.natural_frequency[k], "<br>T = %{x:g} °C<br>fn = %{y:.3g} Hz")
         )
         trans = mres.transmissibility[k]
         if each:
             for j, label in enumerate(labels):
                 tr_fig.add_trace(
-                    go.Scatter(
-                        x=temps,
-                        y=trans[:, j],
-                        mode="lines+markers",
-                        name=plot_text(gid),
+                    grade_line(
+                        trans[:, j],
+                        f" at {label}<br>T = %{{x:g}} °C<br>transmissibility %{{y:.3g}}",
+                        FREQUENCY_DASHES[j % 5],
                         legendgroup=gid,
                         showlegend=j == 0,
-                        line={"color": colour, "width": 2, "dash": FREQUENCY_DASHES[j % 5]},
-                        marker={"size": 5},
-                        hovertemplate=(
-                            f"{plot_text(gid)} at {label}<br>T = %{{x:g}} °C<br>transmissibility "
-                            "%{y:.3g}<extra></extra>"
-                        ),
                     )
                 )
         else:
@@ -176,51 +178,27 @@ def mount_figures(
             at = np.argmax(np.where(np.isfinite(trans), trans, -np.inf), axis=1)
             worst = np.where(finite, trans[np.arange(temps.size), at], np.nan)
             tr_fig.add_trace(
-                go.Scatter(
-                    x=temps,
-                    y=worst,
-                    mode="lines+markers",
-                    name=plot_text(gid),
+                grade_line(
+                    worst,
+                    "<br>T = %{x:g} °C<br>worst transmissibility %{y:.3g} at %{customdata}",
                     legendgroup=gid,
-                    line={"color": colour, "width": 2},
-                    marker={"size": 5},
                     customdata=[labels[j] for j in at],
-                    hovertemplate=(
-                        f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>worst transmissibility %{{y:.3g}} "
-                        "at %{customdata}<extra></extra>"
-                    ),
                 )
             )
         am_fig.add_trace(
-            go.Scatter(
-                x=temps,
-                y=mres.amplification[k],
-                mode="lines+markers",
-                name=plot_text(gid),
+            grade_line(
+                mres.amplification[k],
+                "<br>T = %{x:g} °C<br>amplification %{y:.3g} at fn %{customdata:.3g} Hz",
                 legendgroup=gid,
-                line={"color": colour, "width": 2},
-                marker={"size": 5},
                 customdata=mres.natural_frequency[k],
-                hovertemplate=(
-                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>amplification %{{y:.3g}} at fn "
-                    "%{customdata:.3g} Hz<extra></extra>"
-                ),
             )
         )
         sd_fig.add_trace(
-            go.Scatter(
-                x=temps,
-                y=mres.static_strain[k],
-                mode="lines+markers",
-                name=plot_text(gid),
+            grade_line(
+                mres.static_strain[k],
+                "<br>T = %{x:g} °C<br>static strain %{y:.3g} (%{customdata:.3g} mm)",
                 legendgroup=gid,
-                line={"color": colour, "width": 2},
-                marker={"size": 5},
                 customdata=mres.static_deflection[k] * 1e3,
-                hovertemplate=(
-                    f"{plot_text(gid)}<br>T = %{{x:g}} °C<br>static strain %{{y:.3g}} "
-                    "(%{customdata:.3g} mm)<extra></extra>"
-                ),
             )
         )
         sag = float(mres.sag_strain[k])
