@@ -31,6 +31,20 @@ def synthetic_grade(k: int) -> np.ndarray:
     return synthetic.sweep(noise=0.01, seed=k, law=law)
 
 
+def bench_file(rows: int) -> list[dict]:
+    """The one import-file record that written bench grades point to (key ``"f"``)."""
+    return [
+        {
+            "key": "f",
+            "file_name": "bench.csv",
+            "sha256": "0" * 64,
+            "size_bytes": 0,
+            "rows": rows,
+            "kind": "sweep",
+        }
+    ]
+
+
 def fill_library(library: Library, n: int) -> None:
     """Write n synthetic grades straight into the library (one transaction)."""
     materials, datasets = [], []
@@ -41,17 +55,7 @@ def fill_library(library: Library, n: int) -> None:
         datasets.append(
             {"material_id": mid, "file_key": "f", "data_hash": data_hash(points), "points": points}
         )
-    files = [
-        {
-            "key": "f",
-            "file_name": "bench.csv",
-            "sha256": "0" * 64,
-            "size_bytes": 0,
-            "rows": n,
-            "kind": "sweep",
-        }
-    ]
-    library.write_import(files, materials, datasets)
+    library.write_import(bench_file(n), materials, datasets)
 
 
 def bench_fit_library(folder: Path, n: int) -> list[Figure]:

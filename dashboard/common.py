@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -82,7 +83,7 @@ def plain(value) -> str:
 @dataclass
 class Context:
     library: Library
-    curves: dict[str, MasterCurve]
+    curves: Mapping[str, MasterCurve]  # decoded on first use
     fit_errors: dict[str, str]
     criteria: Criteria | None
     result: RankResult | None

@@ -10,20 +10,19 @@ here, which Streamlit only reads when it sends them.
 from __future__ import annotations
 
 import json
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 
 import numpy as np
 import plotly.graph_objects as go
 import streamlit as st
 
 from dashboard.charts.map import map_figure as draw_map
-from engine.api import working_sweeps
 from engine.curves.mastercurve import MasterCurve
 from engine.library.demo import DEMO_DIR
-from engine.library.fits import fit_library, master_curve
+from engine.library.fits import FittedLibrary, fitted_library, master_curve
 from engine.library.importer import import_files
 from engine.library.store import Library
-from engine.selection.ranking import Criteria, RankResult, rank
+from engine.selection.ranking import Criteria, RankResult, rank, working_sweeps
 
 
 @st.cache_resource(show_spinner=False)
@@ -50,8 +49,16 @@ def _fit_store() -> dict:
     return {}
 
 
-def fits(library: Library) -> tuple[dict[str, MasterCurve], dict[str, str]]:
-    """Master curves and fit errors of every grade; shows a progress bar while fitting."""
+def fits(library: Library) -> tuple[Mapping[str, MasterCurve], dict[str, str]]:
+    """Master curves (decoded on first use) and fit errors of every grade; shows a
+    progress bar while fitting."""
+    found = fitted(library)
+    return found.curves, found.errors
+
+
+def fitted(library: Library) -> FittedLibrary:
+    """The library's fits with their curve bank (:func:`engine.library.fits.fitted_library`),
+    kept per library version."""
     key = (library.location, library.version())
     store = _fit_store()
     if key in store:
@@ -64,7 +71,7 @@ def fits(library: Library) -> tuple[dict[str, MasterCurve], dict[str, str]]:
         )
 
     try:
-        result = fit_library(library, progress=progress)
+        result = fitted_library(library, progress=progress)
     finally:
         bar.empty()
     for old in [k for k in store if k[0] == library.location]:
@@ -77,11 +84,17 @@ def fits(library: Library) -> tuple[dict[str, MasterCurve], dict[str, str]]:
 def _ranked(location: str, version: int, criteria_key: str, _criteria: Criteria) -> RankResult:
     """The ranking under ``_criteria``, kept per ``criteria_key`` (their file form)."""
     library = library_at(location)
-    found = _fit_store().get((location, version))
-    curves, errors = found if found is not None else fit_library(library)
+    found = _fit_store().get((location, version)) or fitted_library(library)
     materials = {m.id: m for m in library.materials()}
     sweeps = working_sweeps(library, _criteria)
-    return rank(curves, materials, _criteria, errors, amplitude_sweeps=sweeps)
+    return rank(
+        found.curves,
+        materials,
+        _criteria,
+        found.errors,
+        bank=found.bank,
+        amplitude_sweeps=sweeps,
+    )
 
 
 def ranking_key(library: Library, criteria: Criteria) -> str:
@@ -104,7 +117,7 @@ def map_figure(
     _result: RankResult,
     _colours: dict[str, str],
     banded: tuple[str, ...] = (),
-    _curves: dict[str, MasterCurve] | None = None,
+    _curves: Mapping[str, MasterCurve] | None = None,
     guides: str = "ticks",
 ) -> go.Figure:
     """The map of a ranking (:func:`dashboard.charts.map.map_figure`), kept per view.

@@ -1,7 +1,8 @@
 """quietgrade engine: records, physics, ranking and export for damping-polymer selection.
 
 The names of :mod:`engine.api` (``Library``, ``Criteria``, ``OperatingWindow``,
-``MountDesign``, ``fit_library``, ``rank_library``, ``write_shortlist``) are loaded on
+``MountDesign``, ``fit_library``, ``fitted_library``, ``rank_library``,
+``write_shortlist``) are loaded on
 first use, so that ``import engine`` and a command line that needs none of them stay
 quick. Nothing in this package imports Streamlit; the dashboard calls it.
 """
@@ -15,6 +16,7 @@ __all__ = [
     "OperatingWindow",
     "__version__",
     "fit_library",
+    "fitted_library",
     "rank_library",
     "write_shortlist",
 ]

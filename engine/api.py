@@ -1,9 +1,9 @@
 """The engine for scripts: open a library, fit it, rank it, write the shortlist.
 
 ``import engine`` gives these names (and the installed package the same): ``Library``,
-``Criteria``, ``OperatingWindow``, ``MountDesign``, ``fit_library``, ``rank_library`` and
-``write_shortlist``. The command line (``quietgrade``, ``python -m engine``) is built on
-them.
+``Criteria``, ``OperatingWindow``, ``MountDesign``, ``fit_library``, ``fitted_library``,
+``rank_library`` and ``write_shortlist``. The command line (``quietgrade``,
+``python -m engine``) is built on them.
 
 Examples
 --------
@@ -35,11 +35,11 @@ from __future__ import annotations
 from engine.base.errors import FitError
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import OperatingWindow
-from engine.library.fits import fit_library
+from engine.library.fits import fit_library, fitted_library
 from engine.library.store import Library
 from engine.output.export import write_shortlist
 from engine.selection.criteria import Criteria
-from engine.selection.ranking import rank
+from engine.selection.ranking import rank, working_sweeps
 from engine.selection.results import RankResult
 from engine.selection.spread import rank_spread
 
@@ -49,6 +49,7 @@ __all__ = [
     "MountDesign",
     "OperatingWindow",
     "fit_library",
+    "fitted_library",
     "rank_library",
     "write_shortlist",
 ]
@@ -101,18 +102,11 @@ def rank_library(
     no fitted grades in the library ...empty.sqlite
     """
     criteria = Criteria() if criteria is None else criteria
-    curves, errors = fit_library(library, processes=processes)
+    fitted = fitted_library(library, processes=processes)
+    curves, errors = fitted.curves, fitted.errors
     if not curves:
         raise FitError(f"no fitted grades in the library {library.display_location}")
     materials = {m.id: m for m in library.materials()}
     sweeps = working_sweeps(library, criteria)
-    result = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)
+    result = rank(curves, materials, criteria, errors, bank=fitted.bank, amplitude_sweeps=sweeps)
     return rank_spread(result, curves, materials) if intervals else result
-
-
-def working_sweeps(library: Library, criteria: Criteria, ids=None) -> dict | None:
-    """The library's strain-amplitude sweeps (of ``ids``, default all) when the case's
-    mount works at a given strain amplitude; None otherwise (nothing is read)."""
-    if criteria.mount is None or criteria.mount.working_strain is None:
-        return None
-    return library.amplitude_sweeps(ids)

@@ -57,8 +57,9 @@ def _clean(value):
 
 
 def _emit(args, data, text_lines):
+    """Print ``data`` as JSON (``--json``; a callable is called for it) or the lines."""
     if args.json:
-        json.dump(_clean(data), sys.stdout, indent=1)
+        json.dump(_clean(data() if callable(data) else data), sys.stdout, indent=1)
         sys.stdout.write("\n")
     else:
         for line in text_lines:
@@ -546,31 +547,10 @@ def _criteria_from_args(args):
     return replace(criteria, **changes)
 
 
-def cmd_rank(args) -> int:
-    from engine.api import working_sweeps
-    from engine.library.fits import fit_library
-    from engine.selection.criteria import SCREENING_NOTE
-    from engine.selection.ranking import rank
-    from engine.selection.spread import MOUNT_SERIES, rank_spread
+def _rank_json(result, criteria, errors: dict, out) -> dict:
+    """The ``rank --json`` document of ``result``."""
+    from engine.selection.spread import MOUNT_SERIES
 
-    lib = _library(args)
-    criteria = _criteria_from_args(args)
-    curves, errors = fit_library(lib)
-    if not curves:
-        failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
-        more = f" and {len(errors) - 3} more" if len(errors) > 3 else ""
-        raise QuietgradeError(
-            f"no fitted grades in the library {lib.display_location}"
-            + (f"; the fit failed for {len(errors)} grade(s): {failed}{more}" if errors else "")
-        )
-    materials = {m.id: m for m in lib.materials()}
-    sweeps = working_sweeps(lib, criteria)
-    ranked = rank(curves, materials, criteria, errors, amplitude_sweeps=sweeps)
-    result = rank_spread(ranked, curves, materials)
-    if args.out:
-        from engine.output.export import write_shortlist
-
-        write_shortlist(result, args.out, lib, curves)
     rows = []
     for g in result.grades:
         mount = g.mount
@@ -613,8 +593,40 @@ def cmd_rank(args) -> int:
             "leading": list(spread.leading),
             "note": spread.describe(),
         },
-        "out": args.out,
+        "out": out,
     }
+    return data
+
+
+def cmd_rank(args) -> int:
+    from engine.library.fits import fitted_library
+    from engine.selection.criteria import SCREENING_NOTE
+    from engine.selection.ranking import rank, working_sweeps
+    from engine.selection.spread import rank_spread
+
+    lib = _library(args)
+    criteria = _criteria_from_args(args)
+    fitted = fitted_library(lib)
+    curves, errors = fitted.curves, fitted.errors
+    if not curves:
+        failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
+        more = f" and {len(errors) - 3} more" if len(errors) > 3 else ""
+        raise QuietgradeError(
+            f"no fitted grades in the library {lib.display_location}"
+            + (f"; the fit failed for {len(errors)} grade(s): {failed}{more}" if errors else "")
+        )
+    materials = {m.id: m for m in lib.materials()}
+    sweeps = working_sweeps(lib, criteria)
+    ranked = rank(curves, materials, criteria, errors, bank=fitted.bank, amplitude_sweeps=sweeps)
+    result = rank_spread(ranked, curves, materials)
+    if args.out:
+        from engine.output.export import write_shortlist
+
+        write_shortlist(result, args.out, lib, curves)
+
+    def data() -> dict:  # the JSON form, made only for --json
+        return _rank_json(result, criteria, errors, args.out)
+
     lo, hi = criteria.window.temp_range
     flo, fhi = criteria.window.freq_range
     lines = [

@@ -13,14 +13,15 @@ def library(tmp_path):
 
 @pytest.fixture(scope="session")
 def demo_library(tmp_path_factory):
-    """A library with the demo grades loaded and fitted (shared, read-only use)."""
-    from engine.library.fits import fit_library
+    """A library with the demo grades loaded and fitted, its curve bank stored (shared,
+    read-only use)."""
+    from engine.library.fits import fitted_library
     from engine.library.importer import import_files
 
     path = tmp_path_factory.mktemp("demo") / "demo.sqlite"
     lib = Library(str(path))
     import_files(lib, [DEMO / "catalog.csv"], [DEMO / "sweeps.csv"])
-    fit_library(lib, processes=1)
+    fitted_library(lib, processes=1)
     return lib
 
 

@@ -20,10 +20,11 @@ def _imported_after(code: str) -> set[str]:
 
 
 def test_reading_a_fitted_curve_needs_no_heavy_scipy_module():
-    # props, fit (cached) and list read stored curves: the fitting and peak-finding
-    # modules of scipy (about 1.5 s to import on two cores) stay unloaded.
+    # props, fit (cached), list and rank read stored curves: the fitting and
+    # peak-finding modules of scipy (about 1.5 s to import on two cores) stay unloaded.
     loaded = _imported_after(
-        "import engine.cli, engine.curves.mastercurve, engine.curves.bank, engine.library.fits"
+        "import engine.cli, engine.curves.mastercurve, engine.curves.bank, engine.library.fits, "
+        "engine.selection.ranking, engine.selection.spread"
     )
     assert not {m for m in loaded if m.startswith(HEAVY)}, sorted(
         m for m in loaded if m.startswith(HEAVY)

@@ -21,7 +21,7 @@ from __future__ import annotations
 import threading
 import weakref
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, fields, replace
 
 import numpy as np
 
@@ -93,6 +93,33 @@ def compliance_table(series: Sequence[PronySeries]) -> ComplianceTable:
     return table
 
 
+def _joined(arrays: Sequence[np.ndarray]) -> np.ndarray:
+    """Arrays joined along the grade axis; 2-D tables widened to the widest with each
+    row's last value."""
+    if arrays[0].ndim < 2:
+        return np.concatenate(arrays)
+    width = max(a.shape[1] for a in arrays)
+    wide = [
+        a if a.shape[1] == width else np.pad(a, ((0, 0), (0, width - a.shape[1])), mode="edge")
+        for a in arrays
+    ]
+    return np.concatenate(wide)
+
+
+def _joined_gaps(gaps: Sequence[np.ndarray | None], sizes: Sequence[int]) -> np.ndarray | None:
+    """Gap arrays joined along the grade axis, NaN padded (None: a bank without gaps)."""
+    width = max((g.shape[1] for g in gaps if g is not None), default=0)
+    if width == 0:
+        return None
+    out = np.full((sum(sizes), width, 2), np.nan)
+    row = 0
+    for g, size in zip(gaps, sizes, strict=True):
+        if g is not None:
+            out[row : row + size, : g.shape[1]] = g
+        row += size
+    return out
+
+
 def _gap_array(gap_lists) -> np.ndarray | None:
     width = max((len(g) for g in gap_lists), default=0)
     if width == 0:
@@ -131,6 +158,7 @@ class CurveBank:
     correction: np.ndarray | None = None  # (grades, 1 K nodes): measured minus law log aT
     n_correction: np.ndarray | None = None
     compliance: ComplianceTable | None = None  # creep compliance on log10 reduced time
+    notes: list[list[str]] | None = None  # each grade's fit notes (MasterCurve.notes)
 
     @classmethod
     def from_curves(cls, curves: dict[str, MasterCurve]) -> CurveBank:
@@ -190,7 +218,71 @@ class CurveBank:
         )
         bank.correction, bank.n_correction = bank._corrections(temps, measured)
         bank.compliance = compliance_table([curves[i].prony for i in ids]) if n else None
+        bank.notes = [list(curves[i].notes) for i in ids]
         return bank
+
+    def take(self, rows: Sequence[int] | np.ndarray) -> CurveBank:
+        """The bank of grades ``rows`` (positions, in that order)."""
+        k = np.asarray(rows, dtype=np.intp).reshape(-1)
+        changes: dict = {}
+        for f in fields(self):
+            value = getattr(self, f.name)
+            if isinstance(value, np.ndarray):
+                changes[f.name] = value[k]
+        changes["ids"] = [self.ids[i] for i in k.tolist()]
+        if self.notes is not None:
+            changes["notes"] = [self.notes[i] for i in k.tolist()]
+        if self.compliance is not None:
+            c = self.compliance
+            rows_of: dict = {
+                f.name: getattr(c, f.name)[k]
+                for f in fields(c)
+                if isinstance(getattr(c, f.name), np.ndarray)
+            }
+            changes["compliance"] = replace(c, **rows_of)
+        return replace(self, **changes)
+
+    @classmethod
+    def concat(cls, banks: Sequence[CurveBank]) -> CurveBank:
+        """One bank of the grades of ``banks`` in turn (tables of the same step).
+
+        Padded tables are widened to the widest with their last value (the gaps with
+        NaN), which the evaluation never reads beyond each grade's own nodes.
+        """
+        parts = [b for b in banks if len(b)]
+        if not parts:
+            return banks[0] if banks else cls.from_curves({})
+        if len(parts) == 1:
+            return parts[0]
+        steps = {b.step for b in parts}
+        if len(steps) != 1:
+            raise ValueError(f"banks of different table steps cannot be joined: {sorted(steps)}")
+        changes: dict = {"ids": [i for b in parts for i in b.ids]}
+        for f in fields(cls):
+            values = [getattr(b, f.name) for b in parts]
+            if f.name == "gaps":
+                changes[f.name] = _joined_gaps(values, [len(b) for b in parts])
+            elif all(isinstance(v, np.ndarray) for v in values):
+                changes[f.name] = _joined(values)
+        notes = [b.notes for b in parts]
+        changes["notes"] = (
+            [row for n in notes if n is not None for row in n]
+            if all(n is not None for n in notes)
+            else None
+        )
+        tables = [b.compliance for b in parts]
+        if any(t is None for t in tables):
+            changes["compliance"] = None
+        else:
+            first = tables[0]
+            assert first is not None  # all present (checked above)
+            joined: dict = {
+                f.name: _joined([getattr(t, f.name) for t in tables])
+                for f in fields(first)
+                if isinstance(getattr(first, f.name), np.ndarray)
+            }
+            changes["compliance"] = replace(first, **joined)
+        return replace(parts[0], **changes)
 
     def _corrections(self, temps, measured):
         """Measured minus law log10 aT of every grade on a 1 K grid over its measured

@@ -342,6 +342,16 @@ class MountResult:
         fails = [name for name, mask in self.failing.items() if mask[k]]
         return [self.reason(name, k) for name in fails]
 
+    @cached_property
+    def _largest_static(self) -> np.ndarray:
+        """Per grade, the column of its largest static strain (NaN aside; 0 for a grade
+        without a finite one), as ``numpy.nanargmax`` row by row."""
+        static = self.static_strain
+        if static.shape[1] == 0:
+            return np.zeros(len(static), dtype=np.intp)
+        largest = np.argmax(np.where(np.isnan(static), -np.inf, static), axis=1)  # nanargmax
+        return np.where(np.isfinite(static).any(axis=1), largest, 0)
+
     def strain_text(self, k: int, bound: float | None = None) -> str:
         """Grade k's static strain that breaks ``bound`` (default: the layout's limit)
         and where: under the load at a window temperature if that breaks it already,
@@ -350,10 +360,10 @@ class MountResult:
         strain_word = "static strain"
         if self.design is not None and self.design.layout == "shear":
             strain_word = "static shear strain"
-        static = self.static_strain[k]
-        j = int(np.nanargmax(static)) if np.isfinite(static).any() else 0
-        if not static[j] <= bound:  # the strain under the load itself (NaN included)
-            return f"{strain_word} {static[j]:.3g} at {self.temperatures[j]:g} °C"
+        j = int(self._largest_static[k])
+        value = float(self.static_strain[k, j])
+        if not value <= bound:  # the strain under the load itself (NaN included)
+            return f"{strain_word} {value:.3g} at {self.temperatures[j]:g} °C"
         life = DEFAULT_SERVICE_LIFE_H if self.design is None else self.design.service_life_h
         return (
             f"long-term sag strain {self.sag_strain[k]:.3g} after {life:g} h at "

@@ -17,20 +17,25 @@ from __future__ import annotations
 import hashlib
 import logging
 import os
+import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator, Mapping
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from engine.base import units
 from engine.base.errors import FitError, QuietgradeError
-from engine.curves import mastercurve
+from engine.curves import bank as bank_module
+from engine.curves import bankfile, mastercurve
+from engine.curves.bank import CurveBank
+from engine.curves.bankfile import BankFileError, read_bank, write_bank
 from engine.curves.mastercurve import MasterCurve, build_master_curve
 from engine.library.store import Library
-from engine.physics import isotherms, jointfit, prony, shift, transitions
+from engine.physics import creep, isotherms, jointfit, prony, shift, transitions
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K
 from engine.physics.shift import wlf_change_reference
 
@@ -206,6 +211,10 @@ def fit_library(
     errors : dict of str
         Why a grade could not be fitted, by grade id.
 
+    See Also
+    --------
+    fitted_library : the same fits with their curve bank, read from one stored record.
+
     Examples
     --------
     >>> import tempfile
@@ -219,14 +228,31 @@ def fit_library(
     >>> curves["BW-NR40"].reference_C is not None
     True
     """
-    materials = {m.id: m for m in library.materials()}
-    latest = library.all_latest_points()
+    live = library.existing_ids()
+    hashes = {mid: h for mid, h in library.latest_hashes().items() if mid in live}
+    return _fit_grades(
+        library, hashes, reference_C, vertical_shift, processes, progress, chunk, len(hashes)
+    )
+
+
+def _fit_grades(
+    library: Library,
+    hashes: dict[str, str],
+    reference_C: float | None,
+    vertical_shift: bool,
+    processes: int | None,
+    progress: Progress | None,
+    chunk: int,
+    total: int,
+) -> tuple[dict[str, MasterCurve], dict[str, str]]:
+    """Master curves of the grades ``hashes`` names (id -> data hash of its newest data
+    set): from the fit cache, else fitted (in parallel) and cached. ``total`` is the
+    count ``progress`` reports against (grades settled before count as done)."""
     key = options_key(reference_C, vertical_shift)
-    hashes = {mid: ds.data_hash for mid, (ds, _) in latest.items() if mid in materials}
     cached = library.cached_fits(set(hashes.values()), key)
     curves: dict[str, MasterCurve] = {}
     errors: dict[str, str] = {}
-    todo = []
+    missing = []
     for mid, h in hashes.items():
         if h in cached and "error" in cached[h]:
             errors[mid] = one_line(str(cached[h]["error"]))
@@ -235,28 +261,25 @@ def fit_library(
         if curve is not None:
             curves[mid] = curve
         else:
-            todo.append(
-                (
-                    mid,
-                    latest[mid][1],
-                    materials[mid].mode,
-                    reference_C,
-                    vertical_shift,
-                    DEFAULT_TOLERANCE_K,
-                )
-            )
-    total = len(hashes)
-    done = total - len(todo)
+            missing.append(mid)
+    done = total - len(missing)
     log.info(
         "fit_library: %d grade(s) with data, %d cache hit(s), %d cache miss(es)",
         total,
         done,
-        len(todo),
+        len(missing),
     )
     if progress:
         progress(done, total)
-    if not todo:
+    if not missing:
         return curves, errors
+    modes = {m.id: m.mode for m in library.materials() if m.id in set(missing)}
+    points = library.latest_points_of(missing)
+    todo = [
+        (mid, points[mid][1], modes[mid], reference_C, vertical_shift, DEFAULT_TOLERANCE_K)
+        for mid in missing
+        if mid in points and mid in modes
+    ]
     workers = processes or min(os.cpu_count() or 1, 2)
     new: dict[str, dict] = {}
     start = time.perf_counter()
@@ -314,6 +337,206 @@ def fit_library(
         failed,
     )
     return curves, errors
+
+
+# -- the fitted bank, stored -------------------------------------------------------------
+
+# The stacking code is part of the bank record's key, as the fit code is of a fit's.
+_BANK_MODULES = (bank_module, bankfile, creep)
+BANK_FINGERPRINT = hashlib.sha256(
+    b"".join(Path(str(module.__file__)).read_bytes() for module in _BANK_MODULES)
+).hexdigest()[:12]
+
+
+def bank_key(reference_C: float | None = None, vertical_shift: bool = False) -> str:
+    """The key of the stored bank record: the fit options and the stacking code."""
+    return f"{options_key(reference_C, vertical_shift)};bank={BANK_FINGERPRINT}"
+
+
+class FittedCurves(Mapping[str, MasterCurve]):
+    """The master curves of a library's fitted grades, by id, decoded on first use.
+
+    The ids and their order are known at once (those of the curve bank); a curve is
+    read from the library's fit cache (or fitted again, should the cache have lost it)
+    the first time it is asked for, and kept. Ranking reads the bank and not the curves,
+    so ranking 10,000 grades decodes only the few whose draws or tables are shown.
+    """
+
+    def __init__(
+        self,
+        library: Library,
+        hashes: dict[str, str],
+        decoded: dict[str, MasterCurve],
+        reference_C: float | None = None,
+        vertical_shift: bool = False,
+    ) -> None:
+        self._library = library
+        self._hashes = hashes  # id -> data hash, in the bank's order
+        self._decoded = dict(decoded)
+        self._options = (reference_C, vertical_shift)
+        self._lock = threading.Lock()
+
+    def __len__(self) -> int:
+        return len(self._hashes)
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._hashes)
+
+    def __contains__(self, gid: object) -> bool:
+        return gid in self._hashes
+
+    def __getitem__(self, gid: str) -> MasterCurve:
+        curve = self._decoded.get(gid)
+        if curve is not None:
+            return curve
+        if gid not in self._hashes:
+            raise KeyError(gid)
+        with self._lock:
+            curve = self._decoded.get(gid)
+            if curve is None:
+                curve = self._load(gid)
+                self._decoded[gid] = curve
+        return curve
+
+    def decoded_count(self) -> int:
+        """How many curves have been decoded so far."""
+        return len(self._decoded)
+
+    def _load(self, gid: str) -> MasterCurve:
+        reference_C, vertical_shift = self._options
+        cached = self._library.cached_fit(
+            self._hashes[gid], options_key(reference_C, vertical_shift)
+        )
+        curve = None if cached is None or "error" in cached else _decoded(gid, cached)
+        if curve is None:  # the fit cache lost it since: fitted (and cached) again
+            curve = master_curve(self._library, gid, reference_C, vertical_shift)
+        return curve
+
+
+@dataclass
+class FittedLibrary:
+    """Every fitted grade of a library: lazily decoded curves, fit errors, the bank."""
+
+    curves: FittedCurves
+    errors: dict[str, str]
+    bank: CurveBank  # the grades of ``curves``, in that order
+    restacked: int = 0  # grades stacked anew in this call (the rest came from the record)
+
+
+def fitted_library(
+    library: Library,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+    processes: int | None = None,
+    progress: Progress | None = None,
+) -> FittedLibrary:
+    """The fits of every grade with data and their curve bank, from one stored record.
+
+    The library keeps the bank of its fitted grades as one binary record
+    (:mod:`engine.curves.bankfile`) beside the JSON fits. A call reads the record,
+    keeps the rows whose grade still has the same data, fits (or reads from the fit
+    cache) only the grades that are new or changed, stacks them onto the kept rows and
+    writes the record back when anything changed (a role that may only read keeps
+    nothing and pays the stacking each time). A record that cannot be read is stacked
+    again from the fits. Results equal :func:`fit_library` followed by
+    ``CurveBank.from_curves``, up to the order of the grades.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from engine.library.demo import load_demo
+    >>> lib = Library(str(Path(tempfile.mkdtemp()) / "demo.sqlite"))
+    >>> _ = load_demo(lib)
+    >>> first = fitted_library(lib)
+    >>> len(first.curves), first.restacked, first.errors
+    (14, 14, {})
+    >>> again = fitted_library(lib)
+    >>> again.restacked, again.curves.decoded_count(), again.bank.ids == list(again.curves)
+    (0, 0, True)
+    """
+    live = library.existing_ids()
+    hashes = {mid: h for mid, h in library.latest_hashes().items() if mid in live}
+    key = bank_key(reference_C, vertical_shift)
+    stored, extra = _stored_bank(library, key)
+    kept_rows: list[int] = []
+    errors: dict[str, str] = {}
+    if stored is not None:
+        row_hashes = extra.get("hashes", [])
+        kept_rows = [k for k, gid in enumerate(stored.ids) if hashes.get(gid) == row_hashes[k]]
+        errors = {
+            gid: str(why)
+            for gid, (h, why) in extra.get("errors", {}).items()
+            if hashes.get(gid) == h
+        }
+    kept_ids = {stored.ids[k] for k in kept_rows} if stored is not None else set()
+    todo = {mid: h for mid, h in hashes.items() if mid not in kept_ids and mid not in errors}
+    new_curves, new_errors = (
+        _fit_grades(
+            library,
+            todo,
+            reference_C,
+            vertical_shift,
+            processes,
+            progress,
+            256,
+            len(hashes),
+        )
+        if todo
+        else ({}, {})
+    )
+    errors.update(new_errors)
+    parts = []
+    if stored is not None and kept_rows:
+        parts.append(stored if len(kept_rows) == len(stored) else stored.take(kept_rows))
+    if new_curves:
+        parts.append(CurveBank.from_curves(new_curves))
+    bank = CurveBank.concat(parts) if parts else CurveBank.from_curves({})
+    changed = stored is None or len(kept_rows) != len(stored) or bool(todo)
+    if changed:
+        record = {
+            "hashes": [hashes[gid] for gid in bank.ids],
+            "errors": {gid: [hashes[gid], why] for gid, why in errors.items()},
+        }
+        _keep_bank(library, key, bank, record)
+    curves = FittedCurves(
+        library,
+        {gid: hashes[gid] for gid in bank.ids},
+        new_curves,
+        reference_C,
+        vertical_shift,
+    )
+    log.info(
+        "fitted_library: %d grade(s) from the stored bank, %d stacked anew",
+        len(kept_rows),
+        len(new_curves),
+    )
+    return FittedLibrary(curves, errors, bank, restacked=len(new_curves))
+
+
+def _stored_bank(library: Library, key: str) -> tuple[CurveBank | None, dict]:
+    """The stored bank record under ``key`` and its extra, or (None, {})."""
+    try:
+        blob = library.cached_bank(key)
+        if blob is None:
+            return None, {}
+        bank, extra = read_bank(blob)
+        del blob
+        hashes = extra.get("hashes")
+        if not isinstance(hashes, list) or len(hashes) != len(bank):
+            raise BankFileError("the stored curve bank has no data hash for every row")
+        return bank, extra
+    except Exception as exc:  # noqa: BLE001 - the record is a cache: stacked again
+        log.info("stored curve bank not usable (%s): stacking it again", one_line(str(exc)))
+        return None, {}
+
+
+def _keep_bank(library: Library, key: str, bank: CurveBank, record: dict) -> None:
+    """Write the bank record; one that cannot be written costs a restack next time."""
+    try:
+        library.store_bank(key, write_bank(bank, record), len(bank))
+    except Exception as exc:  # noqa: BLE001 - the record is an optimisation
+        log.info("curve bank not written (%s)", one_line(str(exc)))
 
 
 def _sig(value, digits: int = 4):

@@ -9,8 +9,11 @@ accept.
 
 Examples
 --------
->>> [(m.number, m.description) for m in MIGRATIONS]
-[(2, 'add the bulk_modulus column to materials'), (3, 'add the amplitude_sweeps table')]
+>>> for m in MIGRATIONS:
+...     print(m.number, m.description)
+2 add the bulk_modulus column to materials
+3 add the amplitude_sweeps table
+4 add the fit_banks table
 >>> import sqlalchemy as sa
 >>> add_column_ddl(sa.create_engine("sqlite://").dialect, "materials",
 ...                sa.Column("bulk_modulus", sa.Float))
@@ -70,9 +73,26 @@ def _add_amplitude_sweeps(conn: sa.Connection) -> None:
     table.create(conn, checkfirst=True)
 
 
+def _add_fit_banks(conn: sa.Connection) -> None:
+    """The table of stored curve banks, as schema version 4 defines it."""
+    table = sa.Table(
+        "fit_banks",
+        sa.MetaData(),
+        sa.Column("options", sa.String(200), primary_key=True),
+        sa.Column("engine_version", sa.String(32), primary_key=True),
+        sa.Column("grades", sa.Integer, nullable=False),
+        sa.Column("library_version", sa.Integer, nullable=False),
+        # engine.curves.bankfile: an uncompressed .npz archive, no pickled objects
+        sa.Column("bank", sa.LargeBinary, nullable=False),
+        sa.Column("created_at", sa.String(32), nullable=False),
+    )
+    table.create(conn, checkfirst=True)
+
+
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(2, "add the bulk_modulus column to materials", _add_bulk_modulus),
     Migration(3, "add the amplitude_sweeps table", _add_amplitude_sweeps),
+    Migration(4, "add the fit_banks table", _add_fit_banks),
 )
 
 

@@ -23,7 +23,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import least_squares
 
 __all__ = [
     "REFERENCE_STRAIN",
@@ -301,6 +300,8 @@ def fit_kraus(strain: ArrayLike, storage: ArrayLike, loss_factor: ArrayLike) -> 
         with np.errstate(over="ignore"):
             model_e2 = linf + (lmax - linf) / np.cosh(t)
         return np.concatenate([np.log(model_e1) - log_e1, np.log(model_e2) - log_e2])
+
+    from scipy.optimize import least_squares  # here: importing it costs ~0.7 s
 
     best = None
     for m_start in _M_STARTS:

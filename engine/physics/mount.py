@@ -20,7 +20,6 @@ from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import brentq, elementwise
 
 STANDARD_GRAVITY = 9.80665
 """Standard acceleration of gravity [m/s2] (CGPM 1901, exact by definition)."""
@@ -929,6 +928,8 @@ def natural_frequency(
             g = np.ravel(log_f) - 0.5 * (np.log10(k) - np.ravel(log_m)) + np.log10(_TWO_PI)
         return g.reshape(np.shape(log_f))
 
+    from scipy.optimize import elementwise  # here: scipy.optimize costs ~0.4 s to import
+
     result = elementwise.find_root(
         residual, (np.log10(low), np.log10(high)), args=(log_mass, index)
     )
@@ -1036,6 +1037,8 @@ def natural_frequency_reduced(
             series = np.log1p(softening[idx] * 10.0**log_e) / np.log(10.0)
             return x - 0.5 * (log_e - series) - target
 
+    from scipy.optimize import elementwise  # here: scipy.optimize costs ~0.4 s to import
+
     result = elementwise.find_root(
         residual,
         (np.log10(low) + shift, np.log10(high) + shift),
@@ -1101,6 +1104,8 @@ def natural_frequency_scalar(
         raise ValueError(
             f"no natural frequency between {low:g} Hz and {high:g} Hz; widen the bracket"
         )
+    from scipy.optimize import brentq
+
     return float(10.0 ** brentq(residual, np.log10(low), np.log10(high), xtol=1e-14))
 
 

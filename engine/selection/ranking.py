@@ -12,13 +12,14 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+from collections.abc import Mapping
 
 import numpy as np
 
 from engine.base.blocks import collector_paused
 from engine.curves.bank import CurveBank
 from engine.curves.mastercurve import MasterCurve
-from engine.library.store import Material
+from engine.library.store import Library, Material
 from engine.physics.indices import BUILT_IN, IndexSpec
 from engine.selection.constraints import MOUNT_EXTRAPOLATION
 from engine.selection.constraints import failures as constraint_failures
@@ -53,11 +54,12 @@ __all__ = [
     "pareto_optimal",
     "rank",
     "raw_scores",
+    "working_sweeps",
 ]
 
 
 def rank(
-    curves: dict[str, MasterCurve],
+    curves: Mapping[str, MasterCurve],
     materials: dict[str, Material],
     criteria: Criteria,
     fit_errors: dict[str, str] | None = None,
@@ -66,7 +68,10 @@ def rank(
 ) -> RankResult:
     """Evaluate, constrain, score and order every grade with a master curve.
 
-    ``bank`` may be given to reuse stacked curves (it must hold ``curves`` in order).
+    ``bank`` may be given to reuse stacked curves: one holding the ranked grades (those of
+    ``curves`` with a catalog row), in any order and perhaps others besides, is used
+    as it is; then ``curves`` is read only for the grades it lacks (a lazy mapping, such
+    as :class:`engine.library.fits.FittedCurves`, decodes nothing).
     ``amplitude_sweeps`` (``Library.amplitude_sweeps``) carry the mount check to the
     mount design's working strain amplitude; they are kept on the result.
     The rank intervals from the draws of the fits are a further step,
@@ -76,10 +81,20 @@ def rank(
         return _rank(curves, materials, criteria, fit_errors, bank, amplitude_sweeps or {})
 
 
+def _bank_of(ids: list[str], curves, bank: CurveBank | None) -> CurveBank:
+    """A bank of exactly ``ids`` in that order: ``bank`` itself, its rows, or stacked."""
+    if bank is not None and bank.ids == ids:
+        return bank
+    if bank is not None:
+        position = {gid: k for k, gid in enumerate(bank.ids)}
+        if all(gid in position for gid in ids):
+            return bank.take([position[gid] for gid in ids])
+    return CurveBank.from_curves({i: curves[i] for i in ids})
+
+
 def _rank(curves, materials, criteria, fit_errors, bank, sweeps) -> RankResult:
     ids = [i for i in curves if i in materials]
-    if bank is None or bank.ids != ids:
-        bank = CurveBank.from_curves({i: curves[i] for i in ids})
+    bank = _bank_of(ids, curves, bank)
     mats = [materials[i] for i in ids]
     n = len(ids)
     ev = evaluate_grades(bank, mats, criteria, sweeps)
@@ -91,8 +106,9 @@ def _rank(curves, materials, criteria, fit_errors, bank, sweeps) -> RankResult:
     eta_list = ev.eta_worst.tolist()
     extrap_list = ev.extrapolated.tolist()
     results: list[GradeResult] = []
+    fit_notes = bank.notes
     for k, m in enumerate(mats):
-        notes = list(curves[m.id].notes)
+        notes = list(fit_notes[k] if fit_notes is not None else curves[m.id].notes)
         if mres is not None:
             notes += mres.notes.get(m.id, [])
         results.append(
@@ -161,6 +177,14 @@ def _rank(curves, materials, criteria, fit_errors, bank, sweeps) -> RankResult:
     )
     write_reasons(result)
     return result
+
+
+def working_sweeps(library: Library, criteria: Criteria, ids=None) -> dict | None:
+    """The library's strain-amplitude sweeps (of ``ids``, default all) when the case's
+    mount works at a given strain amplitude; None otherwise (nothing is read)."""
+    if criteria.mount is None or criteria.mount.working_strain is None:
+        return None
+    return library.amplitude_sweeps(ids)
 
 
 def built_in_indices() -> dict[str, IndexSpec]:

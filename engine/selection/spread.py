@@ -49,8 +49,10 @@ American Statistician 50(4), 361-365 (definition 7, numpy's "linear" percentiles
 
 from __future__ import annotations
 
+import copy
 import dataclasses
 import warnings
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -171,7 +173,7 @@ def _summary(natural, transmissibility, deflection_mm) -> dict[str, np.ndarray]:
 
 def rank_spread(
     result: RankResult,
-    curves: dict[str, MasterCurve],
+    curves: Mapping[str, MasterCurve],
     materials: dict[str, Material],
     leading: int = LEADING_GRADES,
 ) -> RankResult:
@@ -204,7 +206,13 @@ def rank_spread(
     See the module notes: 2.5 and 97.5 percentiles over the draws, rank intervals among
     the leading grades, order flips in more than SWAP_SHARE of the draws.
     """
-    grades = [dataclasses.replace(g, notes=list(g.notes)) for g in result.grades]
+    # New grade objects (the reasons are rewritten below); the leading grades' notes,
+    # which grow, are their own lists.
+    leading_ids = {g.id for g in result.shortlist[:leading]}
+    grades = [
+        dataclasses.replace(g, notes=list(g.notes)) if g.id in leading_ids else copy.copy(g)
+        for g in result.grades
+    ]
     out = dataclasses.replace(result, grades=grades)
     lead = out.shortlist[:leading]
     ids = tuple(g.id for g in lead)
