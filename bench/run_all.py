@@ -20,6 +20,7 @@ BENCHES = [
     "bench.bench_fit",
     "bench.bench_library",
     "bench.bench_rank",
+    "bench.bench_cold",
     "bench.bench_dashboard",
     "bench.fuzz_import",
 ]

@@ -9,11 +9,13 @@ adds the traceback), and warnings are logged (shown under ``--verbose``), not pr
 from __future__ import annotations
 
 import argparse
+import importlib
 import json
 import logging
 import math
 import re
 import sys
+import threading
 import traceback
 import warnings
 from dataclasses import replace
@@ -121,16 +123,16 @@ def cmd_list(args) -> int:
         rows.append(entry)
     lines = [f"{len(rows)} grade(s) in {lib.display_location}"]
     # Columns as wide as their longest entry: ids, names and suppliers are never cut.
+    shown = [{key: _one_line(r[key] or "-") for key in ("id", "name", "supplier")} for r in rows]
     wide = {
-        key: max([len(_one_line(r[key] or "-")) for r in rows] + [1])
-        for key in ("id", "name", "supplier")
+        key: max([len(cells[key]) for cells in shown] + [1]) for key in ("id", "name", "supplier")
     }
-    for r in rows:
+    for r, cells in zip(rows, shown, strict=True):
         n = len(r["datasets"])
         pts = r["datasets"][-1]["points"] if n else 0
         lines.append(
-            f"  {_one_line(r['id']):<{wide['id']}}  {_one_line(r['name']):<{wide['name']}}  "
-            f"{r['mode']:<8} {_one_line(r['supplier'] or '-'):<{wide['supplier']}}  "
+            f"  {cells['id']:<{wide['id']}}  {cells['name']:<{wide['name']}}  "
+            f"{r['mode']:<8} {cells['supplier']:<{wide['supplier']}}  "
             f"{n} data set(s), newest {pts} points"
         )
     _emit(args, rows, lines)
@@ -606,7 +608,12 @@ def cmd_rank(args) -> int:
 
     lib = _library(args)
     criteria = _criteria_from_args(args)
+    # The mount check's root finder lives in scipy.optimize (~0.3 s to import): imported
+    # beside the library read, which waits on the database and leaves the GIL free.
+    warm = threading.Thread(target=importlib.import_module, args=("scipy.optimize",))
+    warm.start()
     fitted = fitted_library(lib)
+    warm.join()
     curves, errors = fitted.curves, fitted.errors
     if not curves:
         failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
@@ -892,7 +899,9 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _one_line(text: object, limit: int = MAX_MESSAGE_CHARS) -> str:
     """``text`` on one line: line breaks and other control characters written as escapes."""
-    out = "".join(c if c.isprintable() else repr(c)[1:-1] for c in str(text).strip())
+    out = str(text).strip()
+    if not out.isprintable():  # checked for the whole text first: 10,000 names at once
+        out = "".join(c if c.isprintable() else repr(c)[1:-1] for c in out)
     return out if len(out) <= limit else out[: limit - 3] + "..."
 
 

@@ -15,6 +15,7 @@ import dataclasses
 import html
 import io
 import sqlite3
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -338,3 +339,21 @@ def test_dashboard_shortlist_page_shows_the_rank_interval(demo_library, tmp_path
     ]
     assert list(frame["reason"]) == [g.reason for g in engine.shortlist]
     assert any(engine.spread.describe() in c.value for c in at.caption)
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_percentiles_of_every_column_at_once_equal_numpys_nanpercentile(seed):
+    # numpy.nanpercentile (linear method) is the reference, column by column.
+    from engine.selection.spread import PERCENTILES, nan_percentiles
+
+    rng = np.random.default_rng(seed)
+    samples = rng.lognormal(size=(32, 7, 5))
+    samples[rng.random(samples.shape) < 0.3] = np.nan
+    samples[:, 0, 0] = np.nan  # a column of NaN alone
+    samples[:-1, 1, 1] = np.nan  # a column of one value
+    samples[:, 2, 2] = np.inf
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        expected = np.nanpercentile(samples, PERCENTILES, axis=0)
+    for got, want in zip(nan_percentiles(samples, PERCENTILES), expected, strict=True):
+        np.testing.assert_array_equal(got, want)

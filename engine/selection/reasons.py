@@ -11,15 +11,18 @@ from engine.selection.results import GradeResult, RankResult, short_number
 UNCERTAIN = "within the data's uncertainty"  # of neighbours the draws cannot order (spread)
 
 
-def write_reasons(result: RankResult) -> None:
-    """Set the one-line reason of every grade of ``result`` (passing ones in rank order)."""
+def write_reasons(result: RankResult, only: set[str] | None = None) -> None:
+    """Set the one-line reason of every grade of ``result`` (passing ones in rank order),
+    or of the grades whose ids are in ``only``."""
     passing = result.shortlist
     weights = {c.name: c.weight for c in result.criteria.indices}
     reasons = _Reasons(passing, result.specs, weights)
     for r in passing:
-        r.reason = reasons.line(r, result.criteria.screening_only)
+        if only is None or r.id in only:
+            r.reason = reasons.line(r, result.criteria.screening_only)
     for r in result.excluded:
-        r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
+        if only is None or r.id in only:
+            r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
 
 
 class _Reasons:

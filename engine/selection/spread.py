@@ -49,10 +49,9 @@ American Statistician 50(4), 361-365 (definition 7, numpy's "linear" percentiles
 
 from __future__ import annotations
 
-import copy
 import dataclasses
 import warnings
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -137,12 +136,37 @@ class RankSpread:
         return text
 
 
+def nan_percentiles(samples: np.ndarray, q: Sequence[float]) -> list[np.ndarray]:
+    """``numpy.nanpercentile(samples, q, axis=0)`` (its default linear method) for every
+    column at once: NaN ignored, NaN where a column holds nothing else.
+
+    numpy's own routine takes a column at a time once any NaN is present (about 0.1 ms
+    each, a quarter of a second over the leading grades' mount figures); here the
+    columns are sorted together (NaN last) and each percentile interpolated between
+    the two order statistics around ``q / 100 * (n - 1)``, as numpy does.
+    """
+    data = np.sort(np.asarray(samples, dtype=float), axis=0)
+    count = np.count_nonzero(~np.isnan(data), axis=0)
+    last = np.maximum(count - 1, 0)
+    out = []
+    for p in q:
+        position = p / 100.0 * last
+        below = np.floor(position).astype(np.intp)
+        above = np.minimum(below + 1, last)
+        t = position - below
+        a = np.take_along_axis(data, below[None, ...], axis=0)[0]
+        b = np.take_along_axis(data, above[None, ...], axis=0)[0]
+        with np.errstate(invalid="ignore"):  # inf - inf in a column of infinities
+            diff = b - a
+            value = np.where(t >= 0.5, b - diff * (1.0 - t), a + diff * t)
+        out.append(np.where(count > 0, value, np.nan))
+    return out
+
+
 def _interval(samples: np.ndarray, fitted) -> tuple[np.ndarray, np.ndarray]:
     """Percentile interval over axis 0 of ``samples``, widened to hold ``fitted``; NaN
     where every draw is NaN."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns stay NaN
-        low, high = np.nanpercentile(samples, PERCENTILES, axis=0)
+    low, high = nan_percentiles(samples, PERCENTILES)
     fitted = np.asarray(fitted, dtype=float)
     return np.fmin(low, fitted), np.fmax(high, fitted)
 
@@ -206,11 +230,11 @@ def rank_spread(
     See the module notes: 2.5 and 97.5 percentiles over the draws, rank intervals among
     the leading grades, order flips in more than SWAP_SHARE of the draws.
     """
-    # New grade objects (the reasons are rewritten below); the leading grades' notes,
-    # which grow, are their own lists.
+    # The leading grades are new objects with notes of their own (their spread, notes
+    # and reasons are written below); the others, which nothing here changes, are shared.
     leading_ids = {g.id for g in result.shortlist[:leading]}
     grades = [
-        dataclasses.replace(g, notes=list(g.notes)) if g.id in leading_ids else copy.copy(g)
+        dataclasses.replace(g, notes=list(g.notes)) if g.id in leading_ids else g
         for g in result.grades
     ]
     out = dataclasses.replace(result, grades=grades)
@@ -306,7 +330,7 @@ def rank_spread(
                 f"near a limit, {UNCERTAIN}"
             )
         g.notes += [note for note in notes if note not in g.notes]  # once, if run again
-    write_reasons(out)
+    write_reasons(out, only=leading_ids)
     return out
 
 
