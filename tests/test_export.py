@@ -9,6 +9,9 @@ import html
 import io
 import json
 import re
+import time
+import xml.etree.ElementTree as ET
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -17,12 +20,14 @@ import pandas as pd
 import plotly.colors
 import pytest
 
-from engine.base.caution import CAUTION
+import engine.output.rows as rows_module
+from engine.base.caution import CAUTION, CAUTION_LINE
 from engine.base.errors import CriteriaError, InputError
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import OperatingWindow, tensile_factor
 from engine.library.fits import fit_library
 from engine.output.export import (
+    CSV_NOTE_COLUMNS,
     EXTENSIONS,
     RANK_INTERVAL_COLUMNS,
     interval_columns,
@@ -33,7 +38,7 @@ from engine.output.export import (
 )
 from engine.output.mapfigure import PATH_MODE, map_figure
 from engine.output.palette import GRADE_COLOURS, faded, grade_colours
-from engine.output.report import curves_figure, report_html
+from engine.output.report import curves_svg, map_svg, report_html
 from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
@@ -41,6 +46,7 @@ from engine.selection.spread import rank_spread
 ROOT = Path(__file__).resolve().parent.parent
 SHEETS = ["Shortlist", "Excluded", "Window properties", "Criteria", "Provenance"]
 MARKUP = "<script>alert(1)</script> & co"
+SVG = "{http://www.w3.org/2000/svg}"
 
 
 @pytest.fixture(scope="module")
@@ -124,9 +130,9 @@ def test_no_mount_columns_without_a_mount(demo):
 def test_csv_reads_back_with_pandas(ranked):
     data = shortlist_csv(ranked)
     assert data.startswith(b"\xef\xbb\xbf")  # UTF-8 byte-order mark
-    df = pd.read_csv(io.BytesIO(data), comment="#", encoding="utf-8-sig")
+    df = pd.read_csv(io.BytesIO(data), encoding="utf-8-sig")
     rows = shortlist_rows(ranked)
-    assert list(df.columns) == list(rows[0])
+    assert list(df.columns) == [*rows[0], *CSV_NOTE_COLUMNS]
     assert len(df) == len(ranked.grades)
     assert list(df["id"]) == [g.id for g in ranked.grades]
     n = len(ranked.shortlist)
@@ -134,10 +140,52 @@ def test_csv_reads_back_with_pandas(ranked):
     assert df["rank"][n:].isna().all()
     # Numbers are written to 6 significant figures.
     np.testing.assert_allclose(df["score"][:n], [g.score for g in ranked.shortlist], rtol=5e-6)
-    lines = data.decode("utf-8-sig").strip().splitlines()
-    assert lines[-1] == f"# caution: {CAUTION}"
-    assert lines[-2] == f"# {ranked.spread.describe()}"
-    assert lines[-3].startswith(f"# quietgrade {ranked.engine_version}, written ")
+    # The caution and the provenance in every row, each on one line.
+    assert set(df["caution"]) == {f"{CAUTION_LINE}. {CAUTION}"}
+    assert df["provenance"].nunique() == 1
+    provenance = df["provenance"][0]
+    assert "\n" not in provenance
+    assert provenance.startswith(f"quietgrade {ranked.engine_version} | library not given | ")
+    assert ranked.spread.describe() in provenance
+    assert "window -20 to 45 °C, 10 to 100 Hz, design frequency 31.62 Hz" in provenance
+
+
+def test_demo_shortlist_csv_reads_with_plain_pandas(ranked, demo, tmp_path):
+    # A plain pandas.read_csv(path), no options: exactly one row per grade, in the
+    # ranking's order, each carrying the caution and the library's location.
+    lib = demo[0]
+    path = write_shortlist(ranked, tmp_path / "shortlist.csv", lib)
+    df = pd.read_csv(path)
+    assert df.columns[0] == "rank"  # the byte-order mark is not part of the heading
+    assert list(df["id"]) == [g.id for g in ranked.grades]
+    assert len(df) == len(ranked.grades)
+    assert df["caution"].str.contains(CAUTION, regex=False).all()
+    assert df["caution"].str.startswith(CAUTION_LINE).all()
+    assert df["provenance"].str.contains(f"library {lib.display_location} |", regex=False).all()
+
+
+def test_csv_stamp_is_the_time_of_the_export(ranked, monkeypatch):
+    # The ranking was made earlier (created_at); the file says when it was written.
+    later = datetime(2031, 1, 2, 3, 4, 5, tzinfo=UTC)  # long after the ranking
+
+    class Clock(datetime):
+        @classmethod
+        def now(cls, tz=None):
+            return later if tz is None else later.astimezone(tz)
+
+    monkeypatch.setattr(rows_module, "datetime", Clock)
+    df = pd.read_csv(io.BytesIO(shortlist_csv(ranked)))
+    stamp = later.strftime("%Y-%m-%dT%H:%M:%S")
+    assert stamp != ranked.created_at[:19]
+    assert set(df["provenance"].str.extract(r"written (\S+) \(UTC\)")[0]) == {stamp}
+    assert f"ranked {ranked.created_at} (UTC)" in df["provenance"][0]
+    monkeypatch.undo()
+    # With the real clock: a second export a second later has a later stamp.
+    first = pd.read_csv(io.BytesIO(shortlist_csv(ranked)))["provenance"][0]
+    time.sleep(1.05)
+    second = pd.read_csv(io.BytesIO(shortlist_csv(ranked)))["provenance"][0]
+    written = [re.search(r"written (\S+) \(UTC\)", p)[1] for p in (first, second)]
+    assert written[0] < written[1]
 
 
 def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):
@@ -146,7 +194,7 @@ def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):
         grades[0], name='Batch #7, "soft"', supplier="=HYPERLINK(1)", family="-x"
     )
     result = dataclasses.replace(ranked, grades=grades)
-    df = pd.read_csv(io.BytesIO(shortlist_csv(result)), comment="#", encoding="utf-8-sig")
+    df = pd.read_csv(io.BytesIO(shortlist_csv(result)), encoding="utf-8-sig")
     assert len(df) == len(ranked.grades)
     assert df["name"][0] == 'Batch #7, "soft"'
     # A leading quote keeps a spreadsheet from running the cell (common practice).
@@ -160,9 +208,13 @@ def test_csv_keeps_hash_signs_and_defuses_formulas(ranked):
 
 def test_csv_lists_grades_that_could_not_be_ranked(ranked):
     result = dataclasses.replace(ranked, fit_errors={"XX-1": "too few\npoints"})
-    text = shortlist_csv(result).decode("utf-8-sig")
-    assert "# not ranked, master curve failed: XX-1: too few points\r\n" in text
-    assert text.rstrip().endswith(CAUTION)
+    df = pd.read_csv(io.BytesIO(shortlist_csv(result)))
+    assert len(df) == len(ranked.grades)  # not a row of its own
+    assert (
+        df["provenance"]
+        .str.endswith(" | not ranked, master curve failed: XX-1: too few points")
+        .all()
+    )
 
 
 # -- XLSX ----------------------------------------------------------------------------------
@@ -214,6 +266,69 @@ def test_xlsx_without_library_says_so(ranked):
     ws = wb["Provenance"]
     assert "No library was given" in ws["A1"].value
     assert ws.max_row == 2  # note and header only
+
+
+def _is_number_text(value) -> bool:
+    if not isinstance(value, str):
+        return False
+    try:
+        float(value)
+    except ValueError:
+        return False
+    return True
+
+
+# The columns of each sheet that hold numbers (the value columns of Excluded and Criteria
+# hold numbers where the ranking has one, and text beside them).
+NUMERIC = {
+    "Shortlist": ("rank", "price [per kg]", "density [kg/m3]", "score", "fn min [Hz]"),
+    "Excluded": ("price [per kg]", "value"),
+    "Window properties": (
+        "temperature [degC]",
+        "frequency [Hz]",
+        "storage modulus E' [MPa]",
+        "loss modulus E'' [MPa]",
+        "loss factor [-]",
+    ),
+    "Criteria": ("value",),
+    "Provenance": ("size [bytes]", "rows", "points"),
+}
+
+
+def test_xlsx_stores_every_number_as_a_number(ranked, demo):
+    # Office Open XML: a number cell has type n, a text cell a shared string s
+    # (ECMA-376 Part 1, 18.18.11 ST_CellType, from memory); openpyxl reads it as data_type.
+    data = shortlist_xlsx(ranked, demo[0])
+    wb = openpyxl.load_workbook(io.BytesIO(data))
+    counted = {}
+    for ws in wb.worksheets:
+        header = [c.value for c in ws[2]]
+        assert set(NUMERIC[ws.title]) <= set(header), ws.title
+        numbers = 0
+        for row in ws.iter_rows(min_row=3):
+            for heading, cell in zip(header, row, strict=False):
+                if cell.value is None:
+                    continue
+                # No number anywhere written as text.
+                assert not _is_number_text(cell.value), (ws.title, cell.coordinate, cell.value)
+                if heading in NUMERIC[ws.title] and not isinstance(cell.value, str):
+                    assert cell.data_type == "n", (ws.title, cell.coordinate)
+                    numbers += 1
+                elif isinstance(cell.value, str):
+                    assert cell.data_type == "s", (ws.title, cell.coordinate)
+        counted[ws.title] = numbers
+    assert all(counted.values()), counted
+    # Every number of the rows behind a sheet is a number cell with that value.
+    short = wb["Shortlist"]
+    header = [c.value for c in short[2]]
+    for i, row in enumerate(r for r in shortlist_rows(ranked) if r["passed"] == "pass"):
+        for heading, value in row.items():
+            if isinstance(value, int | float) and not isinstance(value, bool) and heading in header:
+                cell = short.cell(row=3 + i, column=header.index(heading) + 1)
+                assert cell.data_type == "n" and cell.value == pytest.approx(value, rel=1e-12)
+    crit = {r[1].value: r[2] for r in wb["Criteria"].iter_rows(min_row=3)}
+    assert crit["disturbance frequencies [Hz]"].data_type == "n"  # a list of one number
+    assert crit["design frequency [Hz]"].value == pytest.approx(np.sqrt(10.0 * 100.0))
 
 
 def _check_against_master_curves(result, demo, freq, storage, loss, atol_rel):
@@ -278,15 +393,20 @@ def test_html_is_self_contained_with_the_caution(ranked, demo):
     assert html.escape(CAUTION) in text and 'class="caution"' in text
     assert not re.search(r"<script[^>]*\bsrc\s*=", text, re.IGNORECASE)
     assert not re.search(r"<link[^>]*\bhref\s*=\s*[\"']?https?:", text, re.IGNORECASE)
-    # Plotly's script once, inline, and one plot per figure (map and curves).
-    assert text.count("* plotly.js v") == 1
-    assert text.count('class="plotly-graph-div"') == 2
+    # No script at all; the two charts (map and curves) as inline SVG.
+    assert not re.search(r"<\s*script", text, re.IGNORECASE)
+    assert text.count("<svg ") == 2
     for g in ranked.shortlist:
         assert html.escape(g.reason) in text
     for g in ranked.excluded:
         for f in g.failures:
-            assert f"{html.escape(f.constraint)}: {html.escape(str(f.value))}" in text
-            assert f"(needs {html.escape(f.limit)})" in text
+            shown = html.escape(f.constraint)
+            if f.value != "":
+                shown += f": {html.escape(str(f.value))}"
+            assert f"<li>{shown}" in text
+            if f.limit:
+                assert f"<small>(needs {html.escape(f.limit)})</small>" in text
+    assert "(needs )" not in text  # a statement without a limit shows none
     assert "Provenance" in text and demo[0].imports()[0]["sha256"] in text
 
 
@@ -297,12 +417,15 @@ def test_html_escapes_text_from_data(ranked, demo):
     assert html.escape(MARKUP) in text
     assert "<b>Acme</b>" not in text and "&lt;b&gt;Acme&lt;/b&gt;" in text
     assert "<i>note</i>" not in text
-    # Chart labels and hover texts carry the escaped form too, on both charts.
+    # The charts carry the escaped form too: legend and tooltip texts read back (through
+    # an XML parser) as written, and the raw markup is nowhere in the drawing.
     escaped = "&lt;script&gt;alert(1)&lt;/script&gt; &amp; co"
-    for fig in (map_figure(result), curves_figure(result)):
-        labels = [s for t in fig.data for s in (t.name, t.hovertemplate) if s]
-        assert any(escaped in s for s in labels)
-        assert not any(MARKUP in s or "<script>" in s for s in labels)
+    for svg in (map_svg(result), curves_svg(result)):
+        assert MARKUP not in svg and "<script" not in svg and escaped in svg
+        root = ET.fromstring(svg)
+        assert not root.findall(f".//{SVG}script")
+        shown = [t.text or "" for t in root.iter() if t.tag in (f"{SVG}title", f"{SVG}tspan")]
+        assert any(MARKUP in t for t in shown)
 
 
 def test_palette_is_our_own_and_the_report_takes_it(ranked):
@@ -327,8 +450,23 @@ def test_palette_is_our_own_and_the_report_takes_it(ranked):
     # The legend: the passing grades in rank order, then the excluded ones.
     order = sorted(paths.values(), key=lambda t: t.legendrank)
     assert [t.legendgroup for t in order] == [g.id for g in ranked.shortlist + ranked.excluded]
-    lines = [t for t in curves_figure(ranked).data if t.legendgroup == ranked.shortlist[0].id]
-    assert lines and {t.line.color for t in lines} == {colours[ranked.shortlist[0].id]}
+    # The report's charts draw each grade in the same colour (the first shortlisted
+    # grade's lines on the curves, every grade's path on the map).
+    first = ranked.shortlist[0]
+    root = ET.fromstring(curves_svg(ranked))
+    mine = [
+        line.get("stroke")
+        for g in root.iter(f"{SVG}g")
+        if g.findtext(f"{SVG}title") == f"{first.rank}. {first.name} ({first.id})"
+        for line in g.iter(f"{SVG}polyline")
+    ]
+    assert mine and set(mine) == {colours[first.id]}
+    drawn = ET.fromstring(map_svg(ranked))
+    for g in drawn.iter(f"{SVG}g"):
+        tip = g.findtext(f"{SVG}title") or ""
+        gid = tip.split(" ", 1)[0]
+        if gid in colours and g.find(f"{SVG}polyline") is not None:
+            assert {p.get("stroke") for p in g.iter(f"{SVG}polyline")} == {colours[gid]}
 
 
 # -- units in text ---------------------------------------------------------------------------
@@ -339,7 +477,7 @@ def test_text_writes_degrees_celsius_and_headings_keep_the_unit_name(ranked, dem
     limit = "to cover -20 to 45 °C"
     service = [f for g in ranked.excluded for f in g.failures if f.constraint == "service range"]
     assert service and all(f.limit == limit for f in service)
-    df = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), comment="#", encoding="utf-8-sig")
+    df = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), encoding="utf-8-sig")
     failed = df["failed constraints"].dropna()
     assert sum(limit in s for s in failed) == len(service)
     wb = openpyxl.load_workbook(io.BytesIO(shortlist_xlsx(ranked)))
@@ -401,7 +539,7 @@ def test_write_shortlist_to_a_path_that_cannot_be_written(ranked, tmp_path, bloc
 def test_rank_intervals_read_back_from_csv_and_xlsx(ranked):
     best, worst = RANK_INTERVAL_COLUMNS
     n = len(ranked.shortlist)
-    csv = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), comment="#", encoding="utf-8-sig")
+    csv = pd.read_csv(io.BytesIO(shortlist_csv(ranked)), encoding="utf-8-sig")
     xlsx = pd.read_excel(io.BytesIO(shortlist_xlsx(ranked)), sheet_name="Shortlist", header=1)
     for table in (csv[:n], xlsx):
         assert list(table[best]) == [g.rank_interval[0] for g in ranked.shortlist]
@@ -422,9 +560,9 @@ def test_rank_intervals_read_back_from_csv_and_xlsx(ranked):
 def test_export_without_intervals_keeps_its_columns_and_says_so(demo):
     lib, curves, materials = demo
     plain = rank(curves, materials, _criteria())
-    text = shortlist_csv(plain).decode("utf-8-sig")
-    assert "# Rank intervals and low/high values were not computed for this ranking." in text
-    df = pd.read_csv(io.StringIO(text), comment="#")
+    df = pd.read_csv(io.BytesIO(shortlist_csv(plain)))
+    note = "Rank intervals and low/high values were not computed for this ranking."
+    assert df["provenance"].str.contains(note, regex=False).all()
     assert df[RANK_INTERVAL_COLUMNS[0]].isna().all()
     assert df["fn min low [Hz]"].isna().all()
     assert "not computed" in report_html(plain)

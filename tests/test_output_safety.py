@@ -9,14 +9,17 @@ space before the character and a separator inside a text that starts a new cell,
 the OWASP CSV Injection page (from memory); the Office Open XML
 spreadsheet format (ECMA-376 Part 1: a cell, 18.3.1.4, holds a formula only in an
 ``<f>`` element, 18.3.1.40; section numbers from memory); HTML escaping as the standard library's
-HTML parser reads it; Plotly's hover templates, where ``%{...}`` is a placeholder and
-labels are read as a subset of HTML (plotly.js reference, ``hovertemplate``).
+HTML parser reads it, and the report's SVG charts as the standard library's XML parser
+reads them; Plotly's hover templates (the dashboard's map figure), where ``%{...}`` is a
+placeholder and labels are read as a subset of HTML (plotly.js reference,
+``hovertemplate``).
 """
 
 import csv
 import dataclasses
 import io
 import re
+import xml.etree.ElementTree as ET
 import zipfile
 from html.parser import HTMLParser
 from pathlib import Path
@@ -25,7 +28,7 @@ import openpyxl
 import pandas as pd
 import pytest
 
-from engine.base.caution import CAUTION
+from engine.base.caution import CAUTION, CAUTION_LINE
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import OperatingWindow
 from engine.library.fits import fit_library
@@ -33,7 +36,7 @@ from engine.library.importer import import_files
 from engine.library.store import Library
 from engine.output.export import shortlist_csv, shortlist_header, shortlist_rows, write_shortlist
 from engine.output.mapfigure import map_figure, plot_text
-from engine.output.report import curves_figure, report_html
+from engine.output.report import curves_svg, map_svg, report_html
 from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
@@ -61,16 +64,23 @@ FIT_ERRORS = {
 # of these and does not read as a number (CWE-1236; ASVS 5.0, 1.2.10; OWASP CSV
 # Injection, from memory).
 LIVE = ("=", "+", "-", "@", "\t", "\r", "\0")
-# The placeholders the export's own hover templates use; no other may appear.
-OWN_PLACEHOLDERS = {
-    "%{customdata[1]:.0f}",
-    "%{customdata[2]}",
-    "%{x:.3g}",
-    "%{y:.3g}",
-    "%{x:.4~g}",
-    "%{y:.4~g}",
-    "%{y:.3~g}",
-    "%{text}",
+# The placeholders the map figure's own hover templates use; no other may appear.
+OWN_PLACEHOLDERS = {"%{customdata[1]:.0f}", "%{customdata[2]}", "%{x:.3g}", "%{y:.3g}"}
+SVG = "{http://www.w3.org/2000/svg}"
+# The elements the report's charts are drawn with: none links, loads or runs anything.
+SVG_ELEMENTS = {
+    "svg",
+    "g",
+    "rect",
+    "clipPath",
+    "path",
+    "polyline",
+    "polygon",
+    "circle",
+    "line",
+    "text",
+    "tspan",
+    "title",
 }
 CHROMIUM = "/usr/bin/chromium"
 
@@ -171,7 +181,15 @@ def test_csv_has_no_live_cell_however_a_spreadsheet_splits_it(dressed, delimiter
     # begin a formula (CWE-1236; ASVS 5.0, 1.2.10; OWASP CSV Injection, from memory).
     text = shortlist_csv(dressed).decode("utf-8-sig")
     records = list(csv.reader(io.StringIO(text), delimiter=delimiter, skipinitialspace=trim))
-    assert len(records) >= 1 + len(dressed.grades) + 5  # header, grades, "#" lines
+    if delimiter == ",":
+        # The header and one record per grade, nothing after them; every record as wide
+        # as the header, its caution and provenance in the last two fields.
+        assert len(records) == 1 + len(dressed.grades)
+        assert {len(r) for r in records} == {len(records[0])}
+        assert records[0][-2:] == ["caution", "provenance"]
+        assert all(r[-2].startswith(CAUTION_LINE) for r in records[1:])
+    else:  # line breaks inside text cells start new records here
+        assert len(records) >= 1 + len(dressed.grades)
     fields = [f for record in records for f in record]
     live = [f for f in fields if _live(f)]
     assert live == []
@@ -179,8 +197,9 @@ def test_csv_has_no_live_cell_however_a_spreadsheet_splits_it(dressed, delimiter
 
 def test_csv_defuses_hostile_text_and_reads_back_to_the_grade_rows(dressed):
     data = shortlist_csv(dressed)
-    df = pd.read_csv(io.BytesIO(data), comment="#", encoding="utf-8-sig")
-    assert len(df) == len(dressed.grades) and list(df.columns) == shortlist_header(dressed)
+    df = pd.read_csv(io.BytesIO(data), encoding="utf-8-sig")
+    assert len(df) == len(dressed.grades)
+    assert list(df.columns) == [*shortlist_header(dressed), "caution", "provenance"]
     # Each hostile id and name reads back with one leading quote (common practice, as
     # above); text that begins no formula reads back exactly, line breaks included.
     expected_ids = [
@@ -210,7 +229,7 @@ def test_csv_numbers_stay_numbers(dressed):
     # Genuine numbers are never quoted or prefixed, negative ones included (common
     # practice: only text is defused); every numeric column reads back as numbers.
     data = shortlist_csv(dressed)
-    df = pd.read_csv(io.BytesIO(data), comment="#", encoding="utf-8-sig")
+    df = pd.read_csv(io.BytesIO(data), encoding="utf-8-sig")
     rows = shortlist_rows(dressed)
     numeric = [
         h
@@ -232,42 +251,37 @@ def test_csv_numbers_stay_numbers(dressed):
     assert ",-0.0015," in line
 
 
-def test_csv_comment_lines_are_one_line_each_and_defused(dressed):
-    text = shortlist_csv(dressed).decode("utf-8-sig")
-    lines = text.split("\r\n")
-    assert lines[-1] == ""
-    trailer = [s for s in lines if s.startswith("#")]
-    # The lines after the table: version, intervals, two grades not ranked, the caution.
-    assert len(trailer) == 5 and lines[-2] == f"# caution: {CAUTION}"
-    assert lines[-len(trailer) - 1 : -1] == trailer  # all at the end, nothing between
-    # Each field after a comma or a semicolon that would begin a formula or a quoted
-    # field gets the quote; the others are as written.
-    assert "# not ranked, master curve failed: x,'=2+3: bad;'@SUM(1), '\"quoted, '-1+1" in trailer
-    assert (
-        '# not ranked, master curve failed: =HYPERLINK("http://x",\'"y"): line break =1' in trailer
+def test_csv_note_columns_are_one_line_and_defused(dressed, hostile):
+    lib = hostile[0]
+    df = pd.read_csv(io.BytesIO(shortlist_csv(dressed, lib)), encoding="utf-8-sig")
+    assert len(df) == len(dressed.grades)  # the notes are columns, not rows
+    assert set(df["caution"]) == {f"{CAUTION_LINE}. {CAUTION}"}
+    (provenance,) = set(df["provenance"])
+    assert "\n" not in provenance and "\r" not in provenance
+    assert f"library {lib.display_location} | written " in provenance
+    # Hostile text inside it gets the quote wherever a spreadsheet that splits at
+    # semicolons would start a new cell; the rest is as written.
+    assert "not ranked, master curve failed: x,=2+3: bad;'@SUM(1), \"quoted, -1+1" in provenance
+    assert 'not ranked, master curve failed: =HYPERLINK("http://x","y"): line break =1' in (
+        provenance
     )
-    assert "Without draws (taken as exact): =2+3, a, '@b." in trailer[1]
-    # However a spreadsheet splits them, each stays one row starting "#", no cell live and
-    # no quoted field swallowing the caution (OWASP CSV Injection, from memory).
-    block = "\r\n".join(trailer) + "\r\n"
-    for delimiter in (",", ";"):
+    assert "Without draws (taken as exact): =2+3, a, @b." in provenance
+    # However a spreadsheet splits the cell, no part of it is live (OWASP CSV
+    # Injection, from memory).
+    cell = shortlist_csv(dressed, lib).decode("utf-8-sig").splitlines()[1]
+    for delimiter in (",", ";", "\t", "|"):
         for trim in (False, True):
-            rows = list(csv.reader(io.StringIO(block), delimiter=delimiter, skipinitialspace=trim))
-            assert len(rows) == len(trailer)
-            assert all(r[0].startswith("#") for r in rows)
-            assert not [f for r in rows for f in r if _live(f)]
-    # pandas still reads exactly the grade rows.
-    df = pd.read_csv(io.StringIO(text), comment="#")
-    assert len(df) == len(dressed.grades)
+            for row in csv.reader(io.StringIO(cell), delimiter=delimiter, skipinitialspace=trim):
+                assert not [f for f in row if _live(f)], (delimiter, trim)
 
 
-def test_csv_comment_lines_keep_their_own_text(hostile):
-    # The defusing changes only fields that would start a formula: the file's own lines
-    # (intervals, caution) are written as they are.
+def test_csv_note_columns_keep_their_own_text(hostile):
+    # The defusing changes only parts that would start a formula: the file's own notes
+    # (caution, intervals) are written as they are.
     result = hostile[3]
-    lines = shortlist_csv(result).decode("utf-8-sig").splitlines()
-    assert lines[-1] == f"# caution: {CAUTION}"
-    assert lines[-2] == f"# {result.spread.describe()}"
+    df = pd.read_csv(io.BytesIO(shortlist_csv(result)), encoding="utf-8-sig")
+    assert (df["caution"] == f"{CAUTION_LINE}. {CAUTION}").all()
+    assert df["provenance"].str.contains(result.spread.describe(), regex=False).all()
 
 
 # -- XLSX ----------------------------------------------------------------------------------
@@ -375,15 +389,11 @@ def test_report_shows_hostile_text_as_text(dressed, hostile):
     assert tags.count("strong") == 2
     assert not [a for _, a in page.tags if any("onerror" in k for k in a)]
     assert not any("http://x" in v for _, a in page.tags for v in a.values() if v)
-    # Scripts: Plotly's set-up and its (packed) library, and one per figure; data never
-    # closes one.
-    scripts = [t for t, _ in page.tags if t == "script"]
-    figures = [
-        a for t, a in page.tags if t == "div" and "plotly-graph-div" in (a.get("class") or "")
-    ]
-    assert figures and len(scripts) == 2 + len(figures)
+    # No script at all, so none that data could close or open; the charts are SVG.
+    assert "script" not in tags
+    assert tags.count("svg") == 2
     markup = [s for pair in RENAMED.values() for s in pair if "<" in s]
-    assert len(markup) == 3 and not [s for s in markup if s in text]  # not even in scripts
+    assert len(markup) == 3 and not [s for s in markup if s in text]  # not even in the charts
     # Every hostile text is on the page as text, as written (markdown is not rendered).
     shown = "".join(page.text)
     for gid, name in RENAMED.values():
@@ -394,11 +404,35 @@ def test_report_shows_hostile_text_as_text(dressed, hostile):
     assert "**bold** [link](http://x)" in shown
 
 
-def test_chart_labels_escape_markup_and_template_markers(dressed):
-    # In a hover template "%{...}" is a placeholder and labels are a subset of HTML
-    # (plotly.js reference, hovertemplate): names reach them only escaped.
+def test_report_charts_show_hostile_text_as_text(dressed):
+    # The report's charts are SVG read as XML: names reach them escaped, only drawing
+    # elements appear (nothing that links, loads or runs) and no attribute is an event
+    # handler; every name reads back as written, on one line.
+    for svg in (map_svg(dressed), curves_svg(dressed)):
+        root = ET.fromstring(svg)
+        tags = {e.tag.removeprefix(SVG) for e in root.iter()}
+        assert tags <= SVG_ELEMENTS, tags - SVG_ELEMENTS
+        assert not [k for e in root.iter() for k in e.attrib if k.lower().startswith("on")]
+        assert not [v for e in root.iter() for v in e.attrib.values() if "http://x" in v]
+    root = ET.fromstring(map_svg(dressed))
+    shown = " ".join(t for e in root.iter() for t in (e.text, e.tail) if t)
+    for gid, name in RENAMED.values():
+        assert gid in shown  # in the legend and the tooltips
+        assert " ".join(name.split()) in shown  # in the tooltips
+    assert "%{x} and %{customdata[0]} at $5" in shown  # no template: shown as written
+    assert "\n" not in shown
+    curves = ET.fromstring(curves_svg(dressed))
+    tips = [t.text for t in curves.iter(f"{SVG}title")]
+    rank = next(g.rank for g in dressed.shortlist if g.id == "=2+3")
+    assert f"{rank}. %{{x}} and %{{customdata[0]}} at $5 (=2+3)" in tips
+
+
+def test_map_figure_labels_escape_markup_and_template_markers(dressed):
+    # The dashboard's map figure (Plotly): in a hover template "%{...}" is a placeholder
+    # and labels are a subset of HTML (plotly.js reference, hovertemplate): names reach
+    # them only escaped.
     result = dressed
-    traces = [t for fig in (map_figure(result), curves_figure(result)) for t in fig.data]
+    traces = list(map_figure(result).data)
     named = [t for t in traces if t.hovertemplate and t.legendgroup]
     assert len(named) >= len(result.grades)
     for t in named:
@@ -422,23 +456,24 @@ def _browser_ready():
     return pytest.importorskip("playwright.sync_api")
 
 
-# Hover the first point of a grade's trace in figure ``fig`` (0 the map, 1 the curves) and
-# read the hover label: its text and the elements it is made of.
-HOVER_JS = """async ([fig, gid]) => {
-  const gd = document.querySelectorAll('.js-plotly-plot')[fig];
-  const k = gd.data.findIndex(t => t.legendgroup === gid && t.hovertemplate);
-  Plotly.Fx.hover(gd, [{curveNumber: k, pointNumber: 0}]);
-  const layer = gd.querySelector('.hoverlayer');
-  for (let i = 0; i < 50 && !layer.textContent; i++) await new Promise(r => setTimeout(r, 20));
-  const out = {text: layer.textContent,
-               tags: [...layer.querySelectorAll('*')].map(e => e.tagName.toLowerCase())};
-  Plotly.Fx.unhover(gd);
-  return out;
+# What the browser shows of the report: the charts' texts (legend, labels) and tooltips,
+# the elements the page is made of, and its scripts.
+PAGE_JS = """() => {
+  const svgs = [...document.querySelectorAll('svg')];
+  return {
+    legend: svgs[0].textContent,
+    tips: [...svgs[0].querySelectorAll('title')].map(t => t.textContent),
+    curves: svgs[1].textContent,
+    tags: [...new Set([...document.querySelectorAll('*')].map(e => e.tagName.toLowerCase()))],
+    scripts: document.scripts.length,
+    handlers: [...document.querySelectorAll('*')].flatMap(
+      e => [...e.attributes].map(a => a.name)).filter(n => n.startsWith('on')),
+  };
 }"""
 
 
 @pytest.mark.browser
-def test_report_hover_labels_show_names_as_written_in_a_browser(dressed, hostile, tmp_path):
+def test_report_charts_show_names_as_written_in_a_browser(dressed, hostile, tmp_path):
     sync_api = _browser_ready()
     path = write_shortlist(dressed, tmp_path / "report.html", hostile[0], hostile[1])
     dialogs, requests = [], []
@@ -453,44 +488,22 @@ def test_report_hover_labels_show_names_as_written_in_a_browser(dressed, hostile
                 page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
                 page.on("request", lambda r: requests.append(r.url))
                 page.goto(path.as_uri())
-                page.wait_for_function(
-                    "document.querySelectorAll('.js-plotly-plot .hoverlayer').length === 2"
-                )
-                seen = {
-                    (fig, gid): page.evaluate(HOVER_JS, [fig, gid])
-                    for fig, gid in [
-                        (0, "=2+3"),
-                        (1, "=2+3"),
-                        (0, '=HYPERLINK("http://x","y")'),
-                        (0, "-1+1"),
-                        (0, "@SUM(1)"),
-                    ]
-                }
-                legend = page.evaluate(
-                    "document.querySelectorAll('.js-plotly-plot')[0].querySelector('.legend')"
-                    ".textContent"
-                )
-                links = page.evaluate(
-                    "[...document.querySelectorAll('a[href*=\"http://x\"]')].length"
-                )
-                images = page.evaluate("document.querySelectorAll('img, image').length")
+                page.wait_for_load_state("load")
+                seen = page.evaluate(PAGE_JS)
             finally:
                 browser.close()
-        return seen, legend, links, images
+        return seen
 
-    seen, legend, links, images = off_the_event_loop(drive)
-    for out in seen.values():
-        assert out["text"], "no hover label"
-        assert not set(out["tags"]) & {"a", "img", "image", "foreignobject"}
-    # The placeholder markers in a name show literally, on both charts.
-    assert "%{x} and %{customdata[0]} at $5" in seen[0, "=2+3"]["text"]
-    assert "%{x} and %{customdata[0]} at $5" in seen[1, "=2+3"]["text"]
-    assert (
-        '<b>bold</b> & <a href="http://x">link</a>' in seen[0, '=HYPERLINK("http://x","y")']["text"]
-    )
-    assert "<img src=x onerror=alert(2)>" in seen[0, "-1+1"]["text"]
-    assert "line one line two" in seen[0, "@SUM(1)"]["text"]
-    assert "<img src=x onerror=alert(1)>" in legend  # the id, as the legend lists it
-    assert links == 0 and images == 0
+    seen = off_the_event_loop(drive)
+    assert seen["scripts"] == 0 and seen["handlers"] == []
+    assert not set(seen["tags"]) & {"a", "img", "image", "foreignobject", "iframe", "script"}
+    # The names show literally: markup as text, template markers as written.
+    assert "<img src=x onerror=alert(1)>" in seen["legend"]  # the id, as the legend lists it
+    tips = " ".join(seen["tips"])
+    assert "%{x} and %{customdata[0]} at $5" in tips
+    assert '<b>bold</b> & <a href="http://x">link</a>' in tips
+    assert "<img src=x onerror=alert(2)>" in tips
+    assert "line one line two" in tips
+    assert "%{x} and %{customdata[0]} at $5" in seen["curves"]
     assert dialogs == []  # no script from data ran
     assert requests == [path.as_uri()]  # nothing fetched: no image, no link followed

@@ -7,17 +7,18 @@ The rows and the CSV are :mod:`engine.output.rows`, the workbook
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from pathlib import Path
 
 from engine.base.errors import CriteriaError, InputError
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
 from engine.output.rows import (
+    CSV_NOTE_COLUMNS,
     MOUNT_COLUMNS,
     PROVENANCE_COLUMNS,
     RANK_INTERVAL_COLUMNS,
     WINDOW_COLUMNS,
-    comment_line,
     criteria_rows,
     finite,
     formula_safe,
@@ -25,6 +26,7 @@ from engine.output.rows import (
     interval_columns,
     interval_heading,
     intervals_note,
+    provenance_line,
     provenance_rows,
     shortlist_csv,
     shortlist_header,
@@ -42,27 +44,28 @@ def write_shortlist(
     result: RankResult,
     path: str | Path,
     library: Library | None = None,
-    curves: dict[str, MasterCurve] | None = None,
+    curves: Mapping[str, MasterCurve] | None = None,
 ) -> Path:
     """Write the shortlist to ``path``; the extension (.csv, .xlsx, .html) picks the format.
 
     The parent folder is created when missing. Every format carries the caution. Text
-    from data is never live in the file: in the CSV a text cell or a field of a ``#``
-    line that a spreadsheet would run as a formula gets a leading ``'``
-    (:func:`~engine.output.rows.formula_safe`, :func:`~engine.output.rows.comment_line`);
-    the workbook stores text as text; the report escapes it for HTML and for the
-    charts' labels (:func:`engine.output.mapfigure.plot_text`).
+    from data is never live in the file: in the CSV a text cell that a spreadsheet would
+    run as a formula gets a leading ``'`` (:func:`~engine.output.rows.formula_safe`); the
+    workbook stores text as text and numbers as numbers; the report escapes it for HTML
+    and SVG and holds no script (its charts are static SVG, :mod:`engine.output.svgchart`).
 
     Parameters
     ----------
     result : RankResult
         The ranking to write.
     path : str or Path
-        ``.csv`` (grade rows), ``.xlsx`` (workbook of five sheets) or ``.html`` (a
+        ``.csv`` (one row per grade, the caution and the provenance in the last two
+        columns of every row), ``.xlsx`` (workbook of five sheets) or ``.html`` (a
         self-contained report with its charts).
     library : Library, optional
-        Adds the provenance of each grade's data (files, hashes, import dates).
-    curves : dict of MasterCurve, optional
+        Adds the provenance of each grade's data (files, hashes, import dates; in the
+        CSV the library's location).
+    curves : mapping of grade id to MasterCurve, optional
         Master curves for the report's charts.
 
     Returns
@@ -96,7 +99,7 @@ def write_shortlist(
             f"extensions: {', '.join(EXTENSIONS)}"
         )
     if suffix == ".csv":
-        data = shortlist_csv(result)
+        data = shortlist_csv(result, library)
     elif suffix == ".xlsx":
         from engine.output.workbook import shortlist_xlsx
 
@@ -116,12 +119,12 @@ def write_shortlist(
 
 
 __all__ = [
+    "CSV_NOTE_COLUMNS",
     "EXTENSIONS",
     "MOUNT_COLUMNS",
     "PROVENANCE_COLUMNS",
     "WINDOW_COLUMNS",
     "RANK_INTERVAL_COLUMNS",
-    "comment_line",
     "criteria_rows",
     "finite",
     "formula_safe",
@@ -129,6 +132,7 @@ __all__ = [
     "interval_columns",
     "interval_heading",
     "intervals_note",
+    "provenance_line",
     "provenance_rows",
     "shortlist_csv",
     "shortlist_header",

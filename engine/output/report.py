@@ -1,8 +1,12 @@
 """The shortlist as one self-contained HTML report, with its charts.
 
-The map is :func:`engine.output.mapfigure.map_figure`, the figure the dashboard's map
-page draws too; the charts take their colours and template from
-:mod:`engine.output.palette`, so a grade has the same colour here as in the dashboard.
+The charts are static SVG drawn by :mod:`engine.output.svgchart` (the page holds no
+script at all, prints as it shows and opens offline): the map draws what
+:func:`engine.output.mapfigure.map_figure` draws on the dashboard's map page, from the
+same rows (:func:`~engine.output.mapfigure.path_arrays`,
+:func:`~engine.output.mapfigure.shown_rows`) with the same colours
+(:func:`~engine.output.mapfigure.ranking_colours`, :mod:`engine.output.palette`), so a
+grade has the same colour here as in the dashboard.
 Built on the rows of :mod:`engine.output.rows` (see :mod:`engine.output.export` for the layers);
 :func:`engine.output.export.write_shortlist` calls :func:`report_html` for ``.html`` files.
 The page writes temperatures as °C throughout, setting names included (the files write
@@ -11,23 +15,24 @@ those with the import format's unit name ``[degC]``).
 
 from __future__ import annotations
 
-import base64
-import functools
-import gzip
 import html
+from collections.abc import Mapping
 
 import numpy as np
-import plotly.graph_objects as go
-import plotly.io as pio
-from plotly.offline import get_plotlyjs
-from plotly.offline import get_plotlyjs_version as plotly_js_version
-from plotly.subplots import make_subplots
 
 from engine.base.caution import CAUTION
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
-from engine.output.mapfigure import READING, map_figure, plot_text, ranking_colours
-from engine.output.palette import TEMPLATE_NAME, tidy_log_axes
+from engine.output.mapfigure import (
+    AXIS_PAD,
+    LABEL_DECADES,
+    MARK_EVERY_K,
+    READING,
+    path_arrays,
+    ranking_colours,
+    shown_rows,
+)
+from engine.output.palette import ACCENT, FEASIBLE, GUIDE, GUIDE_TEXT, INK, log_span
 from engine.output.rows import (
     RANK_INTERVAL_COLUMNS,
     criteria_rows,
@@ -39,6 +44,7 @@ from engine.output.rows import (
     provenance_rows,
     shortlist_rows,
 )
+from engine.output.svgchart import Axis, Chart, LegendEntry
 from engine.selection.ranking import RankResult
 
 FONT_STACK = '"Source Sans 3", "Noto Sans", "DejaVu Sans", "Segoe UI", Arial, sans-serif'
@@ -53,6 +59,7 @@ main { max-width: 1180px; margin: 0 auto; padding: 24px 28px 48px; }
 h1 { font-size: 26px; margin: 0 0 4px; font-weight: 600; letter-spacing: 0.01em; }
 h2 { font-size: 19px; margin: 34px 0 10px; font-weight: 600;
      border-bottom: 2px solid var(--rule); padding-bottom: 4px; }
+h3 { font-size: 16px; margin: 22px 0 6px; font-weight: 600; }
 p.meta, p.hint { color: var(--muted); margin: 4px 0 10px; }
 .caution { border-left: 6px solid var(--warn); background: var(--warn-bg);
            padding: 12px 16px; margin: 18px 0; border-radius: 3px; }
@@ -64,10 +71,12 @@ th, td { border-bottom: 1px solid var(--rule); padding: 5px 9px; text-align: lef
 th { background: var(--head); font-weight: 600; white-space: nowrap; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 td.reason { min-width: 220px; max-width: 340px; font-size: 12.5px; }
+table.key { max-width: 980px; }  /* the key figures on a laptop screen and an A4 page */
 td.grade { min-width: 130px; }
 td.notes { font-size: 12.5px; color: var(--muted); }
 td.notes details { max-width: 320px; }
 td.notes summary { cursor: pointer; }
+td.notes div.printed { display: none; }  /* the notes unfolded, on paper only */
 th { white-space: normal; min-width: 60px; max-width: 150px; }
 td small, li small { color: var(--muted); }
 tr.excluded td { color: var(--muted); }
@@ -75,26 +84,33 @@ ul.fails { margin: 0; padding-left: 18px; }
 .swatch { display: inline-block; width: 10px; height: 10px; border-radius: 2px;
           margin-right: 6px; vertical-align: baseline; }
 .figure { border: 1px solid var(--rule); border-radius: 4px; padding: 6px; margin: 8px 0; }
+.figure svg { display: block; width: 100%; max-width: 1100px; height: auto; }
 code { font-size: 12.5px; }
 @media print {
   @page { size: A4 landscape; margin: 12mm; }
   body { font-size: 10.5px; }
   main { max-width: none; padding: 0; }
   h2 { margin: 16px 0 6px; break-after: avoid; }
+  h3 { margin: 12px 0 4px; break-after: avoid; }
   table { font-size: 9.5px; }
   th, td { padding: 2px 5px; }
+  th { min-width: 0; }
+  td.reason, td.notes, td small { font-size: 8.5px; }
+  td.reason { min-width: 160px; }
+  table.further { width: 100%; }
+  table.further td.num { white-space: normal; }
   thead { display: table-header-group; }
   tr { break-inside: avoid; }
   .scroll { overflow: visible; }
   .figure { break-inside: avoid; border: none; }
-  td.notes details > *, td.notes details { display: block; }
-  .modebar { display: none !important; }
+  td.notes details { display: none; }
+  td.notes div.printed { display: block; }
 }
 """.replace("$font", FONT_STACK)
 
 
 def _e(value) -> str:
-    """Text from data, escaped for HTML (and for Plotly's HTML-like labels)."""
+    """Text from data, escaped for HTML."""
     return html.escape("" if value is None else str(value), quote=True)
 
 
@@ -138,17 +154,124 @@ def _split(y: np.ndarray, flag: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.where(flag, np.nan, y), np.where(near, y, np.nan)
 
 
-def _label(g) -> str:
-    """Escaped "name (id)" of a grade, safe inside a Plotly hover template too."""
-    return f"{plot_text(g.name)} ({plot_text(g.id)})"
+MAP_PLOT_HEIGHT = 520.0  # the map's plot area [px]; the drawing is 1100 px wide
+CURVES_HEIGHTS = (300.0, 210.0)  # E' above, loss factor below [px]
 
 
-def _flags(extrap: np.ndarray) -> list[str]:
-    return ["<br>extrapolated" if x else "" for x in extrap]
+def _drawing_order(result: RankResult, rows: list[int]) -> list[int]:
+    """Excluded grades first (under the others), then the passing ones in rank order."""
+    grades = {g.id: g for g in result.grades}
+    ids = result.window_props.ids
+    return sorted(rows, key=lambda k: (grades[ids[k]].passed, grades[ids[k]].rank or 0, k))
 
 
-def curves_figure(result: RankResult) -> go.Figure:
-    """E' and loss factor against temperature at the design frequency, shortlist only."""
+def _status(g) -> str:
+    """A grade's standing, for its tooltip: rank and score, or why it is excluded."""
+    if g.passed:
+        return f"rank {g.rank}, score {g.score:.0f}"
+    return "excluded: " + "; ".join(f.text() for f in g.failures)
+
+
+def map_svg(result: RankResult) -> str:
+    """The map as static SVG: E' against loss factor (log-log), each grade a path.
+
+    What :func:`engine.output.mapfigure.map_figure` draws: each grade's path through the
+    window's temperatures at the design frequency, marks every :data:`MARK_EVERY_K` K,
+    open marks where extrapolated, the ends labelled; excluded grades dotted and faded
+    under the others; lines of constant loss modulus E'' = eta E' with their values; the
+    region that meets a lowest loss factor. The legend lists the passing grades in rank
+    order, then the excluded ones; each grade's tooltip gives its name and standing.
+    """
+    props = result.window_props
+    if props.path_extrapolated is None:
+        raise ValueError("the map needs the ranking's temperature path; it has none")
+    colours = ranking_colours(result)
+    grades = {g.id: g for g in result.grades}
+    temps, storage, eta = path_arrays(result)
+    shown = shown_rows(result)
+    limit = result.criteria.constraints.min_loss_factor
+    xs = log_span(np.concatenate([eta[shown].ravel(), [limit] if limit else []]), AXIS_PAD)
+    ys = log_span(storage[shown], AXIS_PAD)
+    (xa, xb), (ya, yb) = xs, ys
+    title = (
+        f"Paths through the window at {result.criteria.window.design_frequency:.3g} Hz, "
+        f"{temps[0]:g} to {temps[-1]:g} °C"
+    )
+    chart = Chart(title=title, legend_title="grade", id_prefix="map", ink=INK)
+    panel = chart.panel(
+        Axis("loss factor η = tan δ [-]", 10**xa, 10**xb, log=True),
+        Axis("storage modulus E' [MPa] (tensile equivalent)", 10**ya, 10**yb, log=True),
+        MAP_PLOT_HEIGHT,
+    )
+    if limit:
+        x0 = max(limit, 10**xa)
+        panel.draw(
+            panel.region([x0, 10**xb, 10**xb, x0], [10**ya, 10**ya, 10**yb, 10**yb], FEASIBLE),
+            # at the foot of the region, clear of the guides' labels along the top
+            panel.text(x0, 10**ya, f"η ≥ {limit:g} (limit met)", ACCENT, 11, dx=4, dy=-7),
+            title="where the worst-case loss factor meets its limit",
+        )
+    for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
+        v = 10.0**d
+        guide = panel.line([10**xa, 10**xb], [v / 10**xa, v / 10**xb], GUIDE, 0.8, "dot")
+        x_top = d - yb  # where the guide enters from the top, else from the left
+        if xa <= x_top <= xb - LABEL_DECADES:
+            at = (x_top, yb)
+        elif ya <= d - xa <= yb:
+            at = (xa, d - xa)
+        else:
+            panel.draw(guide)
+            continue
+        label = panel.text(
+            10 ** (at[0] + 0.02), 10 ** (at[1] - 0.04), f"E'' = {v:g} MPa", GUIDE_TEXT, 10, dy=8
+        )
+        panel.draw(guide, label, title=f"constant loss modulus E'' = {v:g} MPa")
+
+    step = np.mod(temps, MARK_EVERY_K)
+    on_mark = np.isclose(step, 0.0) | np.isclose(step, MARK_EVERY_K)
+    sizes = np.where(on_mark, 7.0, 0.0)
+    sizes[0] = sizes[-1] = 9.0
+    for k in _drawing_order(result, shown):
+        gid = props.ids[k]
+        g = grades[gid]
+        colour = colours.get(gid, INK)
+        alpha, width, dash = (1.0, 2.0, "solid") if g.passed else (0.38, 1.3, "dot")
+        extrap = np.asarray(props.path_extrapolated[k], dtype=np.bool_)
+        marks = sizes if g.passed else np.where(sizes > 0, 4.0, 0.0)
+        ends = []
+        if g.passed:
+            for i in (0, -1):
+                ends.append(
+                    panel.text(
+                        eta[k, i], storage[k, i], f"{temps[i]:g} °C", colour, 10, dx=5, dy=-5
+                    )
+                )
+        panel.draw(
+            panel.line(eta[k], storage[k], colour, width, dash, alpha),
+            panel.markers(eta[k], storage[k], marks, colour, alpha, hollow=extrap),
+            *ends,
+            title=f"{gid} {g.name}: {_status(g)}",
+        )
+    for g in result.shortlist + result.excluded:
+        if g.id not in props.ids:
+            continue
+        chart.add_legend(
+            LegendEntry(
+                g.id,
+                colours.get(g.id, INK),
+                "solid" if g.passed else "dot",
+                1.0 if g.passed else 0.85,  # a legend sample stays legible
+                2.0 if g.passed else 1.8,
+                marker=g.passed,
+                title=f"{g.name}: {_status(g)}",
+            )
+        )
+    return chart.svg()
+
+
+def curves_svg(result: RankResult) -> str:
+    """E' (log) and loss factor (linear) against temperature at the design frequency,
+    shortlist only, as static SVG; dotted where the master curve is extrapolated."""
     props = result.window_props
     path_storage, path_loss = props.path_storage, props.path_loss
     path_extrapolated = props.path_extrapolated
@@ -157,91 +280,54 @@ def curves_figure(result: RankResult) -> go.Figure:
     colours = ranking_colours(result)
     where = {gid: k for k, gid in enumerate(props.ids)}
     temps = np.asarray(props.path_temperatures, dtype=float)
-    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.07)
-    for g in result.shortlist:
-        k = where[g.id]
-        storage = path_storage[k] / 1e6
-        eta = path_loss[k] / path_storage[k]
-        extrap = path_extrapolated[k]
-        name = f"{g.rank}. {_label(g)}"
-        for row, values, shown in (
-            (1, storage, "E' %{y:.4~g} MPa"),
-            (2, eta, "loss factor %{y:.3~g}"),
-        ):
+    rows = [where[g.id] for g in result.shortlist]
+    storage = path_storage[rows] / 1e6
+    eta = path_loss[rows] / path_storage[rows]
+    lo, hi = log_span(storage, 0.12)
+    top = float(np.nanmax(eta)) if np.isfinite(eta).any() else 0.0
+    top = 1.1 * top if top > 0 else 1.0  # room above the highest loss factor
+    t_lo, t_hi = float(temps.min()), float(temps.max())
+    if t_hi <= t_lo:  # a window of one temperature: a kelvin either side
+        t_lo, t_hi = t_lo - 1.0, t_hi + 1.0
+    t_axis = ("temperature [°C]", t_lo, t_hi)
+    chart = Chart(
+        legend_title="grade",
+        id_prefix="curves",
+        label=f"Storage modulus and loss factor against temperature at "
+        f"{result.criteria.window.design_frequency:.4g} Hz",
+        ink=INK,
+    )
+    upper = chart.panel(
+        Axis(*t_axis),
+        Axis("storage modulus E' [MPa]", 10**lo, 10**hi, log=True),
+        CURVES_HEIGHTS[0],
+        x_labels=False,
+    )
+    lower = chart.panel(Axis(*t_axis), Axis("loss factor tan δ [-]", 0.0, top), CURVES_HEIGHTS[1])
+    for n, g in enumerate(result.shortlist):
+        extrap = np.asarray(path_extrapolated[where[g.id]], dtype=bool)
+        name = f"{g.rank}. {g.name} ({g.id})"
+        for panel, values in ((upper, storage[n]), (lower, eta[n])):
             solid, dotted = _split(values, extrap)
-            hover = f"{_label(g)}<br>%{{x:.4~g}} °C: {shown}%{{text}}<extra></extra>"
-            for y, dash, legend in ((solid, "solid", row == 1), (dotted, "dot", False)):
-                fig.add_trace(
-                    go.Scatter(
-                        x=temps,
-                        y=y,
-                        mode="lines",
-                        line={"color": colours[g.id], "width": 2.2, "dash": dash},
-                        name=name,
-                        legendgroup=g.id,
-                        showlegend=legend,
-                        text=_flags(extrap),
-                        hovertemplate=hover,
-                    ),
-                    row=row,
-                    col=1,
-                )
-    fig.update_layout(template=TEMPLATE_NAME, height=640, hovermode="closest")
-    fig.update_yaxes(type="log", title_text="storage modulus E' [MPa]", row=1, col=1)
-    fig.update_yaxes(title_text="loss factor tan δ [-]", row=2, col=1)
-    fig.update_xaxes(title_text="temperature [°C]", row=2, col=1)
-    return tidy_log_axes(fig)
+            panel.draw(
+                panel.line(temps, solid, colours[g.id], 2.2, "solid"),
+                panel.line(temps, dotted, colours[g.id], 2.2, "dot"),
+                title=name,
+            )
+        chart.add_legend(LegendEntry(name, colours[g.id], width=2.2))
+    chart.add_legend(LegendEntry("extrapolated (dotted)", GUIDE_TEXT, "dot", width=2.2))
+    return chart.svg()
 
 
-# A figure's drawing script waits for the chart library: its type is this, and the
-# loader (_plotly_loader) runs it once Plotly is unpacked.
-FIGURE_SCRIPT = "text/x-quietgrade-figure"
-
-
-@functools.lru_cache(maxsize=1)
-def _plotly_loader() -> str:
-    """Plotly's script once in the page, gzip-compressed and base64-encoded (about 1.9 MB
-    instead of 4.8 MB), unpacked by the browser's own DecompressionStream (every current
-    browser) and then run, followed by each figure's drawing script. Still one file
-    that opens offline."""
-    packed = base64.b64encode(gzip.compress(get_plotlyjs().encode("utf-8"), 9, mtime=0))
-    return (
-        # Plotly's own set-up line, as it writes it before its library.
-        "<script>window.PlotlyConfig = {MathJaxConfig: 'local'};</script>\n"
-        f"<script>/* plotly.js v{plotly_js_version()} (MIT licence), gzip + base64; "
-        "unpacked below */\n"
-        f'window.quietgradePlotly = (async () => {{ const packed = "{packed.decode()}";\n'
-        "const bytes = Uint8Array.from(atob(packed), (c) => c.charCodeAt(0));\n"
-        "const stream = new Blob([bytes]).stream()"
-        '.pipeThrough(new DecompressionStream("gzip"));\n'
-        "const code = await new Response(stream).text();\n"
-        "const lib = document.createElement('script'); lib.text = code;\n"
-        "document.head.appendChild(lib);\n"
-        f"document.querySelectorAll('script[type=\"{FIGURE_SCRIPT}\"]')"
-        ".forEach((s) => (0, eval)(s.text)); })();</script>"
-    )
-
-
-def _figure_html(fig, first: bool = False) -> str:
-    """A figure's div and its drawing script, run by the loader once Plotly is there."""
-    out = pio.to_html(
-        fig,
-        include_plotlyjs=False,
-        full_html=False,
-        default_height=f"{fig.layout.height}px",
-        config={"displaylogo": False, "responsive": True},
-    )
-    # Plotly writes each figure's drawing script as a bare "<script>" (and so does no
-    # text from data: it is escaped).
-    return out.replace("<script>", f'<script type="{FIGURE_SCRIPT}">')
-
-
-def _table(header: list[str], rows: list[list[str]], row_class: str = "") -> str:
+def _table(
+    header: list[str], rows: list[list[str]], row_class: str = "", table_class: str = ""
+) -> str:
     head = "".join(f"<th>{_e(h)}</th>" for h in header)
     cls = f' class="{row_class}"' if row_class else ""
+    table = f'<table class="{table_class}">' if table_class else "<table>"
     body = "".join(f"<tr{cls}>" + "".join(r) + "</tr>" for r in rows)
     return (
-        f'<div class="scroll"><table><thead><tr>{head}</tr></thead>'
+        f'<div class="scroll">{table}<thead><tr>{head}</tr></thead>'
         f"<tbody>{body}</tbody></table></div>"
     )
 
@@ -297,8 +383,8 @@ def _ranked_html(result: RankResult) -> str:
     headings = {h: h for h in passing[0]} | dict(KEY_COLUMNS) | index_headings(result)
     key = [h for h, _ in KEY_COLUMNS if h in passing[0] and h not in skip]
     middle = [h for h in passing[0] if h not in skip and h not in key]
-    header = ["rank", "grade", *(headings[h] for h in key), "reason"]
-    header += [headings[h] for h in middle] + ["notes"]
+    header = ["rank", "grade", *(headings[h] for h in key), "reason", "notes"]
+    further = ["rank", "grade", *(headings[h] for h in middle)]
     best, worst = RANK_INTERVAL_COLUMNS
 
     def cells(r: dict, names: list[str]) -> list[str]:
@@ -307,26 +393,40 @@ def _ranked_html(result: RankResult) -> str:
             for h in names
         ]
 
-    body = []
+    body, more = [], []
     for r in passing:
         swatch = f'<span class="swatch" style="background:{colours[r["id"]]}"></span>'
         notes = r["notes"] or ""
-        folded = f"<details><summary>notes</summary>{_e(notes)}</details>" if notes else ""
+        folded = (
+            f'<details><summary>notes</summary>{_e(notes)}</details><div class="printed">'
+            f"{_e(notes)}</div>"
+            if notes
+            else ""
+        )
+        rank = _cell_interval(r["rank"], r[best], r[worst])
+        grade = f'<td class="grade">{swatch}{_e(r["name"])}<br><small>{_e(r["id"])}</small></td>'
         body.append(
             [
-                _cell_interval(r["rank"], r[best], r[worst]),
-                f'<td class="grade">{swatch}{_e(r["name"])}<br><small>{_e(r["id"])}</small></td>',
+                rank,
+                grade,
                 *cells(r, key),
                 f'<td class="reason">{_e(r["reason"])}</td>',
-                *cells(r, middle),
                 f'<td class="notes">{folded}</td>',
             ]
         )
+        more.append([rank, grade, *cells(r, middle)])
     hint = (
         '<p class="hint">Under a rank or a figure: its 95 % interval on the data. '
         f"{_e(intervals_note(result))}</p>"
     )
-    return hint + _table(header, body, row_class="ranked")
+    # The key figures in one table that fits a laptop screen and an A4 page; the other
+    # figures follow in a second one, so that neither has to be read sideways.
+    out = hint + _table(header, body, row_class="ranked", table_class="key")
+    if middle:
+        out += "<h3>Further figures of the ranked grades</h3>" + _table(
+            further, more, row_class="ranked", table_class="further"
+        )
+    return out
 
 
 def _excluded_html(result: RankResult) -> str:
@@ -335,7 +435,8 @@ def _excluded_html(result: RankResult) -> str:
     body = []
     for g in result.excluded:
         fails = "".join(
-            f"<li>{_e(f.constraint)}: {_e(f.value)} <small>(needs {_e(f.limit)})</small></li>"
+            f"<li>{_e(f.constraint)}{': ' + _e(f.value) if f.value != '' else ''}"
+            f"{f' <small>(needs {_e(f.limit)})</small>' if f.limit else ''}</li>"
             for f in g.failures
         )
         body.append(
@@ -352,7 +453,7 @@ def _excluded_html(result: RankResult) -> str:
     )
 
 
-def _curves_html(result: RankResult, curves: dict[str, MasterCurve]) -> str:
+def _curves_html(result: RankResult, curves: Mapping[str, MasterCurve]) -> str:
     body = []
     for g in result.grades:
         c = curves.get(g.id)
@@ -418,9 +519,9 @@ def _provenance_html(result: RankResult, library: Library | None) -> str:
 def report_html(
     result: RankResult,
     library: Library | None = None,
-    curves: dict[str, MasterCurve] | None = None,
+    curves: Mapping[str, MasterCurve] | None = None,
 ) -> str:
-    """A self-contained HTML report (Plotly's script inline, so it opens offline).
+    """A self-contained HTML report with no script: its charts are inline SVG.
 
     Sections: caution, criteria, ranked shortlist, excluded grades with reasons, the
     modulus-loss map, E' and loss factor against temperature for the shortlist, and,
@@ -439,9 +540,9 @@ def report_html(
             f"<li>{_e(gid)}: {_e(msg)}</li>" for gid, msg in sorted(result.fit_errors.items())
         )
         fit_errors = f"<h2>Not ranked</h2><p>No master curve could be built:</p><ul>{items}</ul>"
-    map_fig = _figure_html(map_figure(result), first=True)
+    map_fig = f'<figure class="figure">{map_svg(result)}</figure>'
     if result.shortlist:
-        curves_fig = f'<div class="figure">{_figure_html(curves_figure(result), first=False)}</div>'
+        curves_fig = f'<figure class="figure">{curves_svg(result)}</figure>'
     else:
         curves_fig = '<p class="hint">No grade meets every constraint.</p>'
     parts = [
@@ -450,7 +551,6 @@ def report_html(
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         "<title>quietgrade shortlist</title>",
         f"<style>{_CSS}</style></head><body><main>",
-        _plotly_loader(),
         "<h1>quietgrade shortlist</h1>",
         f'<p class="meta">{len(result.shortlist)} of {len(result.grades)} grade(s) meet every '
         f"constraint over {lo:g} to {hi:g} °C and {w.freq_range[0]:g} to "
@@ -466,7 +566,7 @@ def report_html(
         "<h2>Stiffness and damping across the window</h2>",
         f'<p class="hint">From {lo:g} to {hi:g} °C at the design frequency {f_design:.4g} '
         f"Hz. {_e(READING)}</p>",
-        f'<div class="figure">{map_fig}</div>',
+        map_fig,
         "<h2>Shortlisted grades against temperature</h2>",
         f'<p class="hint">Storage modulus and loss factor at {f_design:.4g} Hz; dotted where '
         "extrapolated.</p>",
@@ -481,4 +581,4 @@ def report_html(
     return "\n".join(p for p in parts if p)
 
 
-__all__ = ["curves_figure", "report_html"]
+__all__ = ["curves_svg", "map_svg", "report_html"]

@@ -16,19 +16,18 @@ names, as in the import format; °C in sentences), frequencies in Hz, pad area i
 in mm.
 
 CSV layout: UTF-8 with a byte-order mark (spreadsheets then read the text correctly), one
-header row, one row per grade (passing grades in rank order, then the excluded ones),
-text cells always quoted, and after the data a few lines that start with ``#``: the
-quietgrade version and date, how the intervals were made (or that they were not),
-grades that could not be ranked, and last the caution.
-``pandas.read_csv(path, comment="#")`` reads the file back to exactly the grade rows; a
-spreadsheet shows the ``#`` lines below the table. No text becomes a live formula in a
-spreadsheet (:func:`formula_safe`, :func:`comment_line`; common practice): a text cell
-that begins with ``=``, ``+``, ``-``, ``@``, a tab, a carriage return or a NUL, at once or
-after white space, gets a leading ``'``, and so does each part of it after a semicolon, a
-tab or a line break (where a spreadsheet that splits at semicolons or tabs starts a new
-cell); a plain number (``-20``, ``-1.5e-3``) is left as it is. A ``#`` line is one line,
-and each field a spreadsheet splits out of it at a comma or a semicolon is defused the
-same way.
+header row, then one row per grade (passing grades in rank order, then the excluded ones)
+and nothing else, so that a plain ``pandas.read_csv(path)`` reads exactly the grade rows;
+text cells are always quoted. The last two columns carry the file's own notes in every
+row: ``caution`` (:data:`engine.base.caution.CAUTION_LINE` and the full caution, on one
+line) and ``provenance`` (one line: quietgrade version, the library's location, when the
+file was written and when ranked, the window, how the intervals were made, grades that
+could not be ranked; :func:`provenance_line`). No text becomes a live formula in a
+spreadsheet (:func:`formula_safe`; common practice): a text cell that begins with ``=``,
+``+``, ``-``, ``@``, a tab, a carriage return or a NUL, at once or after white space,
+gets a leading ``'``, and so does each part of it after a semicolon, a tab or a line
+break (where a spreadsheet that splits at semicolons or tabs starts a new cell); a plain
+number (``-20``, ``-1.5e-3``) is left as it is.
 """
 
 from __future__ import annotations
@@ -41,7 +40,7 @@ from datetime import UTC, datetime
 import numpy as np
 from scipy.interpolate import make_interp_spline
 
-from engine.base.caution import CAUTION
+from engine.base.caution import CAUTION, CAUTION_LINE
 from engine.library.store import Library
 from engine.selection.criteria import SCREENING_NOTE
 from engine.selection.ranking import RankResult
@@ -49,9 +48,8 @@ from engine.selection.ranking import RankResult
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\0")
 _PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*")
 # Where a spreadsheet may start a new cell inside a quoted text cell (one that splits at
-# semicolons or tabs reads the quotes as text), and inside an unquoted "#" line.
+# semicolons or tabs reads the quotes as text).
 _CELL_BREAK = re.compile(r"([;\t\r\n]+)")
-_FIELD_BREAK = re.compile(r"([,;])")
 
 
 # -- rows --------------------------------------------------------------------------------
@@ -245,20 +243,32 @@ def exported_at() -> str:
     return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%S")
 
 
-def _trailer_lines(result: RankResult) -> list[str]:
-    """Lines after the table: version and dates, the intervals, grades not ranked, the
-    caution last."""
-    lines = [
-        f"quietgrade {result.engine_version}, written {exported_at()} (UTC), "
-        f"ranked {result.created_at} (UTC)"
+# The file's own notes, the last two columns of every CSV row.
+CSV_NOTE_COLUMNS = ("caution", "provenance")
+CSV_CAUTION = f"{CAUTION_LINE}. {CAUTION}"
+
+
+def provenance_line(result: RankResult, library: Library | None = None) -> str:
+    """Where a shortlist file comes from, on one line: quietgrade version, the library
+    (its display location, or "not given"), when the file was written (now,
+    :func:`exported_at`) and when ranked [UTC], the window, how the intervals were made,
+    the screening note and the grades that could not be ranked."""
+    w = result.criteria.window
+    where = "not given" if library is None else library.display_location
+    parts = [
+        f"quietgrade {result.engine_version}",
+        f"library {where}",
+        f"written {exported_at()} (UTC)",
+        f"ranked {result.created_at} (UTC)",
+        f"window {w.temp_range[0]:g} to {w.temp_range[1]:g} °C, {w.freq_range[0]:g} to "
+        f"{w.freq_range[1]:g} Hz, design frequency {w.design_frequency:.4g} Hz",
+        intervals_note(result),
     ]
-    lines.append(intervals_note(result))
     if result.criteria.screening_only:
-        lines.append(SCREENING_NOTE)
+        parts.append(SCREENING_NOTE)
     for gid, msg in sorted(result.fit_errors.items()):
-        lines.append(f"not ranked, master curve failed: {_one_line(gid)}: {_one_line(msg)}")
-    lines.append(f"caution: {CAUTION}")
-    return lines
+        parts.append(f"not ranked, master curve failed: {gid}: {msg}")
+    return " | ".join(_one_line(p) for p in parts)
 
 
 # -- criteria, window properties, provenance ---------------------------------------------------
@@ -301,6 +311,8 @@ def _setting(value):
     if isinstance(value, int | float):
         return value
     if isinstance(value, list | tuple):
+        if len(value) == 1 and isinstance(value[0], int | float) and not isinstance(value[0], bool):
+            return value[0]  # a list of one number is that number
         if len(value) == 2 and all(isinstance(v, int | float) for v in value):
             return f"{value[0]:g} to {value[1]:g}"
         return ", ".join(f"{v:g}" if isinstance(v, int | float) else str(v) for v in value)
@@ -576,11 +588,11 @@ def _starts_formula(text: str) -> bool:
     return opens and not _PLAIN_NUMBER.fullmatch(text)
 
 
-def _defused(field: str, quote: bool = False) -> str:
+def _defused(field: str) -> str:
     """A field a spreadsheet splits out, with a ``'`` after its leading white space where
-    it would begin a formula (or, with ``quote``, a quoted field)."""
+    it would begin a formula."""
     body = field.lstrip()
-    if _starts_formula(body) or (quote and body.startswith('"')):
+    if _starts_formula(body):
         return field[: len(field) - len(body)] + "'" + body
     return field
 
@@ -601,28 +613,15 @@ def formula_safe(text: str) -> str:
     return "".join(pieces)
 
 
-def comment_line(text: str) -> str:
-    """``text`` as one ``# ...`` line after the CSV table, safe in a spreadsheet.
+def shortlist_csv(result: RankResult, library: Library | None = None) -> bytes:
+    """The shortlist as CSV bytes (UTF-8 with BOM); see the module notes for the layout.
 
-    The line is one line (runs of white space, line breaks included, become one space),
-    and each field a spreadsheet splits out of it at a comma or a semicolon gets a ``'``
-    after its leading spaces where it would begin a formula (as in :func:`formula_safe`)
-    or a quoted field (a ``"``, which could swallow the lines after it).
-    """
-    pieces = _FIELD_BREAK.split(_one_line(text))
-    for k in range(2, len(pieces), 2):  # the fields after the first, which starts "#"
-        pieces[k] = _defused(pieces[k], quote=True)
-    return "# " + "".join(pieces)
-
-
-def shortlist_csv(result: RankResult) -> bytes:
-    """The shortlist as CSV bytes (UTF-8 with BOM); see the module notes for the layout."""
+    ``library`` names the library in the provenance column (its display location)."""
     rows = shortlist_rows(result)
-    header = shortlist_header(result)
+    header = [*shortlist_header(result), *CSV_NOTE_COLUMNS]
+    notes = [csv_cell(CSV_CAUTION), csv_cell(provenance_line(result, library))]
     out = io.StringIO()
     out.write(",".join(csv_cell(h) for h in header) + "\r\n")
     for row in rows:
-        out.write(",".join(csv_cell(row[h]) for h in header) + "\r\n")
-    for line in _trailer_lines(result):
-        out.write(comment_line(line) + "\r\n")
+        out.write(",".join([*(csv_cell(row[h]) for h in header[:-2]), *notes]) + "\r\n")
     return ("\ufeff" + out.getvalue()).encode("utf-8")

@@ -5,7 +5,9 @@ Built on the rows of :mod:`engine.output.export` (see its notes for the layers o
 
 Layout: on every sheet row 1 holds the sheet note and the caution, row 2 the bold frozen
 headers and the data start in row 3 (``pandas.read_excel(path, sheet, header=1)``).
-Numbers stay numbers, shown to about three significant figures; text is always stored
+Numbers stay numbers on every sheet (stored as numbers, ``Excluded`` values and the
+criteria included; a missing or non-finite one leaves its cell empty), shown to about
+three significant figures; text is always stored
 as text, never as a formula, on every sheet: a text that a spreadsheet would read as a
 formula (:func:`engine.output.rows.formula_safe`) is also marked with the cell style's
 quote prefix, so that editing the cell keeps it text.
@@ -16,6 +18,7 @@ from __future__ import annotations
 import io
 import math
 
+import numpy as np
 from openpyxl import Workbook
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 from openpyxl.styles import Alignment, Font, PatternFill
@@ -97,11 +100,14 @@ def _put(ws, row: int, col: int, value, wrap: bool = False):
     never as a formula. Returns the cell, or None."""
     if value is None:
         return None
-    if isinstance(value, bool):
-        value = yes_no(value)
-    if isinstance(value, int | float):
+    if isinstance(value, bool | np.bool_):
+        value = yes_no(bool(value))
+    if isinstance(value, int | float | np.integer | np.floating):
+        value = value.item() if isinstance(value, np.generic) else value
+        if isinstance(value, float) and not math.isfinite(value):
+            return None  # no number to store (a workbook holds no NaN or infinity)
         cell = ws.cell(row=row, column=col, value=value)
-        if isinstance(value, float) and math.isfinite(value):
+        if isinstance(value, float):
             cell.number_format = _number_format(value)
     else:
         text = _text(value)
