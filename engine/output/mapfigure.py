@@ -40,12 +40,15 @@ MARK_EVERY_K = 10.0  # a small mark on every path at each multiple of this tempe
 PATH_MODE = "lines+markers+text"  # the mode of a grade's own path trace
 
 # How to read the map, for the text beside it (the report's hint, the dashboard's caption).
+GUIDE_READING = (
+    "Loss modulus E'' = η E' is constant along diagonals: its decades are marked on the "
+    "top and right edges of the frame. "
+)
 READING = (
     "Each line is a grade's path through the window's temperatures at the design "
     f"frequency, its ends labelled; small marks every {MARK_EVERY_K:g} K, open marks where "
     "the master curve is extrapolated. Dotted, faded lines are excluded grades (hover for "
-    "the reasons). Grey dotted diagonals are lines of constant loss modulus E'' = η E'. "
-    "Moduli are tensile-equivalent."
+    f"the reasons). {GUIDE_READING}Moduli are tensile-equivalent."
 )
 
 

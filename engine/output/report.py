@@ -25,14 +25,13 @@ from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
 from engine.output.mapfigure import (
     AXIS_PAD,
-    LABEL_DECADES,
     MARK_EVERY_K,
     READING,
     path_arrays,
     ranking_colours,
     shown_rows,
 )
-from engine.output.palette import ACCENT, FEASIBLE, GUIDE, GUIDE_TEXT, INK, log_span
+from engine.output.palette import ACCENT, FEASIBLE, GUIDE_TEXT, INK, log_span
 from engine.output.rows import (
     RANK_INTERVAL_COLUMNS,
     criteria_rows,
@@ -178,8 +177,9 @@ def map_svg(result: RankResult) -> str:
     What :func:`engine.output.mapfigure.map_figure` draws: each grade's path through the
     window's temperatures at the design frequency, marks every :data:`MARK_EVERY_K` K,
     open marks where extrapolated, the ends labelled; excluded grades dotted and faded
-    under the others; lines of constant loss modulus E'' = eta E' with their values; the
-    region that meets a lowest loss factor. The legend lists the passing grades in rank
+    under the others; the decades of constant loss modulus E'' = eta E' as marks along the
+    top and right edges of the frame (as the dashboard draws them by default); the region
+    that meets a lowest loss factor. The legend lists the passing grades in rank
     order, then the excluded ones; each grade's tooltip gives its name and standing.
     """
     props = result.window_props
@@ -197,7 +197,14 @@ def map_svg(result: RankResult) -> str:
         f"Paths through the window at {result.criteria.window.design_frequency:.3g} Hz, "
         f"{temps[0]:g} to {temps[-1]:g} °C"
     )
-    chart = Chart(title=title, legend_title="grade", id_prefix="map", ink=INK)
+    chart = Chart(
+        title=title,
+        legend_title="grade",
+        id_prefix="map",
+        ink=INK,
+        margin_top=16.0,  # the E'' marks along the top edge
+        margin_right=40.0,  # ... and along the right edge
+    )
     panel = chart.panel(
         Axis("loss factor η = tan δ [-]", 10**xa, 10**xb, log=True),
         Axis("storage modulus E' [MPa] (tensile equivalent)", 10**ya, 10**yb, log=True),
@@ -211,21 +218,23 @@ def map_svg(result: RankResult) -> str:
             panel.text(x0, 10**ya, f"η ≥ {limit:g} (limit met)", ACCENT, 11, dx=4, dy=-7),
             title="where the worst-case loss factor meets its limit",
         )
+    # Lines of constant loss modulus E'' = eta E' as marks along the top and right edges
+    # of the frame, where each decade of E'' meets them: the paths stand alone inside.
     for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
-        v = 10.0**d
-        guide = panel.line([10**xa, 10**xb], [v / 10**xa, v / 10**xb], GUIDE, 0.8, "dot")
-        x_top = d - yb  # where the guide enters from the top, else from the left
-        if xa <= x_top <= xb - LABEL_DECADES:
-            at = (x_top, yb)
-        elif ya <= d - xa <= yb:
-            at = (xa, d - xa)
-        else:
-            panel.draw(guide)
-            continue
-        label = panel.text(
-            10 ** (at[0] + 0.02), 10 ** (at[1] - 0.04), f"E'' = {v:g} MPa", GUIDE_TEXT, 10, dy=8
-        )
-        panel.draw(guide, label, title=f"constant loss modulus E'' = {v:g} MPa")
+        label = f"{10.0**d:g}"
+        tip = f"constant loss modulus E'' = {10.0**d:g} MPa"
+        if xa < d - yb < xb:
+            panel.draw_outside(
+                panel.frame_tick("top", 10 ** (d - yb), label, GUIDE_TEXT), title=tip
+            )
+        if ya < d - xb < yb:
+            panel.draw_outside(
+                panel.frame_tick("right", 10 ** (d - xb), label, GUIDE_TEXT), title=tip
+            )
+    panel.draw_outside(
+        f'<text x="{panel.left + panel.width + 9:.1f}" y="{panel.top - 9:.1f}" font-size="10" '
+        f"fill=\"{GUIDE_TEXT}\">E'' [MPa]</text>"
+    )
 
     step = np.mod(temps, MARK_EVERY_K)
     on_mark = np.isclose(step, 0.0) | np.isclose(step, MARK_EVERY_K)

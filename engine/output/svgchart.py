@@ -253,6 +253,7 @@ class Panel:
         self.x_labels = x_labels
         self.frame, self.grid, self.ink = frame, grid, ink
         self.parts: list[str] = []  # drawn in order, clipped to the plot area
+        self.outside: list[str] = []  # drawn over the frame, not clipped (frame marks)
 
     # mapping -------------------------------------------------------------------------------
     def px(self, values) -> np.ndarray:
@@ -354,6 +355,33 @@ class Panel:
         tip = f"<title>{escape(title)}</title>" if title else ""
         self.parts.append(f"<g>{tip}{body}</g>")
 
+    def draw_outside(self, *parts: str, title: str | None = None) -> None:
+        """As :meth:`draw`, over the frame and not clipped: marks along its edges."""
+        body = "".join(p for p in parts if p)
+        if body:
+            tip = f"<title>{escape(title)}</title>" if title else ""
+            self.outside.append(f"<g>{tip}{body}</g>")
+
+    def frame_tick(self, edge: str, value: float, label: str, colour: str) -> str:
+        """A short mark out of the ``edge`` ("top" or "right") of the frame at the data
+        ``value`` of that edge's axis, with ``label`` beyond it."""
+        if edge == "top":
+            x = float(self.px(value))
+            return (
+                f'<path d="M{_f(x)} {_f(self.top)}v-6" stroke="{colour}" stroke-width="1"/>'
+                f'<text x="{_f(x)}" y="{_f(self.top - 9)}" font-size="10" fill="{colour}" '
+                f'text-anchor="middle">{escape(label)}</text>'
+            )
+        if edge == "right":
+            right = self.left + self.width
+            y = float(self.py(value))
+            return (
+                f'<path d="M{_f(right)} {_f(y)}h6" stroke="{colour}" stroke-width="1"/>'
+                f'<text x="{_f(right + 9)}" y="{_f(y + 3.5)}" font-size="10" fill="{colour}" '
+                f'text-anchor="start">{escape(label)}</text>'
+            )
+        raise ValueError(f"edge {edge!r}: use 'top' or 'right'")
+
     # axes --------------------------------------------------------------------------------
     def _x_px(self, v: float) -> float:
         return float(self.px(v))
@@ -400,6 +428,7 @@ class Panel:
             f'fill="none" stroke="{self.frame}" stroke-width="1"/>'
         )
         out.append(f'<path d="{"".join(ticks)}" stroke="{self.frame}" stroke-width="1"/>')
+        out.extend(self.outside)
         out.append(f'<g font-size="{TICK_SIZE:g}" fill="{self.ink}">{"".join(labels)}</g>')
         if x_title:
             out.append(
@@ -442,8 +471,11 @@ class Chart:
         label: str = "",
         ink: str = "#23292E",
         legend: bool = True,
+        margin_top: float = 0.0,
+        margin_right: float = 0.0,
     ):
         self.width = width
+        self.margin_right = margin_right  # extra room right of the plot (frame marks)
         self.title = title
         self.legend_title = legend_title
         self.id_prefix = re.sub(r"[^A-Za-z0-9_-]", "-", id_prefix) or "chart"
@@ -452,12 +484,12 @@ class Chart:
         self.has_legend = legend
         self.panels: list[Panel] = []
         self.entries: list[LegendEntry] = []
-        self._next_top = TOP if title else 16.0
+        self._next_top = (TOP if title else 16.0) + margin_top
 
     @property
     def plot_width(self) -> float:
         room = LEGEND_GAP + LEGEND_WIDTH if self.has_legend else 24.0
-        return self.width - LEFT - room
+        return self.width - LEFT - room - self.margin_right
 
     def panel(self, x: Axis, y: Axis, height: float, x_labels: bool = True, **colours) -> Panel:
         """A new panel under the last one, ``height`` pixels tall."""
@@ -476,7 +508,7 @@ class Chart:
         """The legend's SVG and its bottom edge [px]."""
         if not (self.has_legend and self.entries):
             return "", 0.0
-        x0 = LEFT + self.plot_width + LEGEND_GAP
+        x0 = LEFT + self.plot_width + self.margin_right + LEGEND_GAP
         text_x = x0 + LEGEND_SWATCH + 6
         room = self.width - text_x - 4
         step = FONT_SIZE * LINE_HEIGHT
