@@ -600,20 +600,36 @@ def _rank_json(result, criteria, errors: dict, out) -> dict:
     return data
 
 
+# What `rank` imports beside the library read, which waits on the database and leaves
+# the interpreter lock free: the ranking, and the mount check's root finder in
+# scipy.optimize (~0.3 s to import). The modules import one another in one order (the
+# layers), so two threads importing at once cannot wait on each other.
+_RANK_MODULES = ("engine.selection.ranking", "engine.selection.spread", "scipy.optimize")
+
+
+def _import_all(names: tuple[str, ...]) -> None:
+    """Import ``names`` ahead of use; a failure is left for the import where they are used
+    (which reports it as every failure is), never printed from this thread."""
+    for name in names:
+        try:
+            importlib.import_module(name)
+        except Exception:  # noqa: BLE001 - raised again, and reported, where it is used
+            return
+
+
 def cmd_rank(args) -> int:
     from engine.library.fits import fitted_library
     from engine.selection.criteria import SCREENING_NOTE
-    from engine.selection.ranking import rank, working_sweeps
-    from engine.selection.spread import rank_spread
 
     lib = _library(args)
     criteria = _criteria_from_args(args)
-    # The mount check's root finder lives in scipy.optimize (~0.3 s to import): imported
-    # beside the library read, which waits on the database and leaves the GIL free.
-    warm = threading.Thread(target=importlib.import_module, args=("scipy.optimize",))
+    warm = threading.Thread(target=_import_all, args=(_RANK_MODULES,), daemon=True)
     warm.start()
     fitted = fitted_library(lib)
     warm.join()
+    from engine.selection.ranking import rank, working_sweeps
+    from engine.selection.spread import rank_spread
+
     curves, errors = fitted.curves, fitted.errors
     if not curves:
         failed = "; ".join(f"{gid}: {why}" for gid, why in sorted(errors.items())[:3])
