@@ -22,11 +22,38 @@ from engine.output.palette import grade_colours, with_set_colours
 
 # The caution's one line, above every page; the expander under it holds the whole text.
 
-# Less empty space above the page's first line, so its chart starts higher.
+# Less empty space above the page's first line, so its chart starts higher. Below
+# SIDEBAR_OVERLAY_PX the sidebar floats over the page instead of narrowing it (Streamlit
+# folds it away on its own only below its smaller breakpoint): the page keeps the
+# window's whole width and the sidebar's own button folds it.
+SIDEBAR_OVERLAY_PX = 1000
 COMPACT_STYLE = """<style>
 [data-testid="stMainBlockContainer"] { padding-top: 3.6rem; padding-bottom: 2rem; }
 [data-testid="stMainBlockContainer"] h2 { padding-top: 0.2rem; padding-bottom: 0.3rem; }
-</style>"""
+[data-testid="stElementContainer"]:has(script[data-fold]) { display: none; }
+@media (max-width: OVERLAY_PXpx) {
+  section[data-testid="stSidebar"] {
+    position: fixed !important; top: 0; left: 0; height: 100vh; z-index: 999990;
+    box-shadow: 0 0 18px rgba(35, 41, 46, 0.25);
+  }
+  [data-testid="stMainBlockContainer"] { padding-left: 1.5rem; padding-right: 1.5rem; }
+}
+</style>""".replace("OVERLAY_PX", str(SIDEBAR_OVERLAY_PX))
+# On a window that narrow the sidebar starts folded, once per browser tab (its own button
+# opens it again, and then it stays open).
+FOLD_NARROW = """<script data-fold="narrow">
+(function () {
+  if (window.innerWidth > OVERLAY_PX || sessionStorage.getItem("quietgrade-folded")) return;
+  sessionStorage.setItem("quietgrade-folded", "1");
+  function fold(tries) {
+    const side = document.querySelector('section[data-testid="stSidebar"]');
+    const button = document.querySelector('[data-testid="stSidebarCollapseButton"] button');
+    if (side && button && side.dataset.collapsed === "false") button.click();
+    else if (tries > 0) setTimeout(function () { fold(tries - 1); }, 100);
+  }
+  fold(100);
+})();
+</script>""".replace("OVERLAY_PX", str(SIDEBAR_OVERLAY_PX))
 VIEWS = Path(__file__).resolve().parent / "views"
 PAGES = (
     ("map.py", "Map", "grades-map"),  # served at / (and /map, below)
@@ -83,6 +110,7 @@ def main() -> None:
     # "auto": open on a wide window, folded away on a narrow one (a phone, half a screen).
     st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state="auto")
     st.html(COMPACT_STYLE)
+    st.html(FOLD_NARROW, unsafe_allow_javascript=True)
     location = default_location()
     try:
         library = data.library_at(location)

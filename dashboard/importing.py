@@ -15,7 +15,7 @@ from typing import ParamSpec, TypeVar
 import numpy as np
 import pandas as pd
 
-from engine.base.errors import InputError
+from engine.base.errors import InputError, QuietgradeError
 from engine.base.units import (
     FREQUENCY_UNITS,
     MODULUS_UNITS,
@@ -23,6 +23,7 @@ from engine.base.units import (
     canonical_unit,
     split_header,
 )
+from engine.library.fits import master_curve
 from engine.library.importer import (
     ImportPlan,
     RawTable,
@@ -68,6 +69,34 @@ class Preview:
         return not (self.plan.materials or self.plan.datasets)
 
 
+# The files an upload slot takes (the slots accept any file so that a refused one gets a
+# reason in words, not only a mark).
+ACCEPTED_SUFFIXES = (".csv", ".xlsx", ".txt")
+ACCEPTED_TEXT = "CSV, XLSX or TXT"
+# A column of any of these makes an uploaded table a sweep; a table with none of them is
+# read as a catalog, and its own missing columns are then reported as a catalog's.
+SWEEP_COLUMNS = frozenset(
+    {"material", "temperature", "frequency", "storage_modulus", "loss_factor", "loss_modulus"}
+)
+
+
+def check_type(name: str, slot: str) -> None:
+    """Refuse a file the upload slot ``slot`` does not take, with a one-line reason."""
+    suffix = "." + name.rsplit(".", 1)[-1].lower() if "." in name else ""
+    if suffix not in ACCEPTED_SUFFIXES:
+        what = f"a {suffix} file" if suffix else "a file without an extension"
+        raise InputError(f"{what} is not accepted as {slot}: give {ACCEPTED_TEXT}", file=name)
+
+
+def table_kind(table: RawTable) -> str:
+    """``"catalog"`` or ``"sweep"``: what an uploaded table was meant to be, from its
+    columns (a sweep column makes it a sweep, even with a catalog's columns missing)."""
+    if looks_like_catalog(table):
+        return "catalog"
+    names = {split_header(h)[0].strip().lower().replace(" ", "_") for h in table.headers}
+    return "sweep" if names & SWEEP_COLUMNS else "catalog"
+
+
 def read_uploads(files: list[tuple[str, bytes]]) -> tuple[list[RawTable], list[RawTable]]:
     """Read uploaded (name, bytes) pairs and sort them into catalogs and sweeps."""
     if not files:
@@ -75,8 +104,9 @@ def read_uploads(files: list[tuple[str, bytes]]) -> tuple[list[RawTable], list[R
     catalogs: list[RawTable] = []
     sweeps: list[RawTable] = []
     for name, data in files:
+        check_type(name, "a catalog or sweep file")
         table = read_table(bytes(data), name)
-        (catalogs if looks_like_catalog(table) else sweeps).append(table)
+        (catalogs if table_kind(table) == "catalog" else sweeps).append(table)
     return catalogs, sweeps
 
 
@@ -139,6 +169,7 @@ def plan_uploads(library: Library, files: list[tuple[str, bytes]]) -> Preview:
 
 def read_export(name: str, data: bytes) -> RawTable:
     """Read one instrument export (any columns) for the mapping step."""
+    check_type(name, "an instrument export")
     return read_table(bytes(data), name)
 
 
@@ -195,10 +226,22 @@ def plan_mapped(
     """
     table = read_export(*export)
     mapped = map_columns(table, mapping, units, material_id)
+    for name, _ in catalogs:
+        check_type(name, "a catalog")
     cats = [read_table(bytes(data), name) for name, data in catalogs]
     for c in cats:
         if not looks_like_catalog(c):
-            raise InputError("this is not a catalog (it needs id, name and mode)", file=c.file)
+            missing = [
+                col
+                for col in ("id", "name", "mode")
+                if col not in {split_header(h)[0].strip().lower() for h in c.headers}
+            ]
+            raise InputError(
+                "this is not a catalog: it lacks the column(s) "
+                + ", ".join(repr(m) for m in missing or ["id", "name", "mode"])
+                + " (a catalog needs id, name and mode)",
+                file=c.file,
+            )
     return _preview(library, plan_import(library, cats, [mapped]))
 
 
@@ -208,6 +251,18 @@ def write(library: Library, preview: Preview) -> ImportSummary:
     summary = library.write_import(plan.files, plan.materials, plan.datasets)
     summary.files_skipped.extend(plan.skipped)
     return summary
+
+
+def fit_notes(library: Library, ids: Sequence[str]) -> dict[str, list[str]]:
+    """The fit's warnings and notes of each grade in ``ids`` (its master curve's notes,
+    or the one-line reason its fit failed), for the page to show after a write."""
+    out: dict[str, list[str]] = {}
+    for gid in dict.fromkeys(ids):
+        try:
+            out[gid] = list(master_curve(library, gid).notes)
+        except QuietgradeError as exc:
+            out[gid] = [f"no master curve: {exc}"]
+    return out
 
 
 def try_plan(fn: Callable[P, T], *args: P.args, **kwargs: P.kwargs) -> tuple[T | None, str | None]:

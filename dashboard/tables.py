@@ -23,12 +23,27 @@ def _status(g: GradeResult, n_pass: int) -> str:
 
 
 def index_columns(result: RankResult) -> dict[str, str]:
-    """Index name -> column title with its unit."""
+    """Index name -> column title in words with its unit, e.g. ``"loss factor, worst in
+    the window [-]"`` (a point index says how it is taken over the window)."""
+    how = {c.name: c.aggregate for c in result.criteria.indices}
     out = {}
     for name, spec in result.specs.items():
-        unit = "" if spec.unit in ("", "-") else f" [{spec.unit}]"
-        out[name] = f"{spec.label}{unit}"
+        unit = f" [{spec.unit or '-'}]"
+        taken = f", {how[name]} in the window" if spec.kind == "point" and name in how else ""
+        out[name] = f"{spec.label}{taken}{unit}"
     return out
+
+
+# The key figures of the shortlist table, first so that they are on screen at once.
+SHORTLIST_KEY = (
+    "rank",
+    "grade",
+    "score",
+    "fn [Hz]",
+    "worst transmissibility",
+    "long-term sag [mm]",
+    "reason",
+)
 
 
 def comparison_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:
@@ -74,23 +89,34 @@ def shortlist_frame(result: RankResult) -> pd.DataFrame:
     rows = []
     for g in result.shortlist:
         interval = g.rank_interval
+        m = g.mount
         row = {
             "rank": g.rank,
             "grade": g.id,
+            "score": g.score,
+            "fn [Hz]": None if m is None else _span(m["natural_frequency_Hz"]),
+            "worst transmissibility": (
+                None if m is None else float(np.nanmax(m["transmissibility"]))
+            ),
+            "long-term sag [mm]": None if m is None else m["sag_mm"],
+            "reason": g.reason,
             "rank interval": None if interval is None else "{}–{}".format(*interval),
             "name": g.name,
             "supplier": g.supplier,
             "family": g.family,
             "price [per kg]": g.price,
-            "score": g.score,
         }
         for name, title in titles.items():
+            if name == "worst_transmissibility" and m is not None:
+                continue  # a key figure already
             row[title] = g.indices.get(name)
-        row["Pareto"] = g.pareto
+        row["on the Pareto front"] = g.pareto
         row["extrapolated"] = g.extrapolated
-        row["reason"] = g.reason
         rows.append(row)
-    return pd.DataFrame(rows)
+    frame = pd.DataFrame(rows)
+    if not frame.empty and frame["fn [Hz]"].isna().all():  # no mount checked
+        frame = frame.drop(columns=["fn [Hz]", "worst transmissibility", "long-term sag [mm]"])
+    return frame
 
 
 def mount_frame(result: RankResult, ids: list[str]) -> pd.DataFrame:

@@ -1219,3 +1219,110 @@ def test_bad_disturbance_link_codes_are_reported_and_ignored():
     assert any("give at least one disturbance" in n for n in notes)
     assert state["c_dist"] == defaults["c_dist"]
     assert case.criteria_from_state(state).mount.frequencies == default_mount().frequencies
+
+
+# -- screens read at a glance ------------------------------------------------------------
+@pytest.fixture(scope="module")
+def glance(tmp_path_factory):
+    """The demo library ranked with the default mount, and its master curves."""
+    from engine.library.demo import DEMO_DIR
+    from engine.selection.ranking import Criteria, rank
+
+    lib = Library(str(tmp_path_factory.mktemp("glance") / "demo.db"))
+    import_files(lib, [DEMO_DIR / "catalog.csv"], [DEMO_DIR / "sweeps.csv"])
+    curves, errors = fit_library(lib, processes=1)
+    materials = {m.id: m for m in lib.materials()}
+    return lib, curves, rank(curves, materials, Criteria(mount=default_mount()), errors)
+
+
+def test_a_catalog_without_mode_is_reported_as_a_catalog(glance):
+    lib = glance[0]
+    version = lib.version()
+    catalog = b"id,name,supplier\nNEW-1,Grade one,Somebody\n"
+    with pytest.raises(InputError, match=r"cat\.csv: missing required column 'mode'"):
+        importing.plan_uploads(lib, [("cat.csv", catalog)])
+    _, reason = importing.try_plan(importing.plan_uploads, lib, [("cat.csv", catalog)])
+    assert "material" not in reason  # not read as a sweep
+    assert lib.version() == version
+
+
+def test_a_refused_file_type_names_the_file_and_the_accepted_types(monkeypatch, demo_db):
+    lib = Library(str(demo_db))
+    with pytest.raises(InputError, match=r"case\.json: a \.json file is not accepted.*CSV, XLSX"):
+        importing.plan_uploads(lib, [("case.json", b"{}")])
+    with pytest.raises(InputError, match=r"run\.dat: a \.dat file is not accepted as an instr"):
+        importing.read_export("run.dat", b"a,b\n1,2\n")
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/library.py").run()
+    at.file_uploader(key="upload_format_0").set_value(
+        ("case.json", b"{}", "application/json")
+    ).run()
+    assert not at.exception
+    assert any("case.json" in e.value and "CSV, XLSX or TXT" in e.value for e in at.error)
+
+
+def test_fit_notes_of_written_grades_are_the_curves_own(glance):
+    lib, curves, _ = glance
+    notes = importing.fit_notes(lib, ["BW-NR40", "BW-NR40", "NOPE"])
+    assert list(notes) == ["BW-NR40", "NOPE"]  # each grade once
+    assert notes["BW-NR40"] == list(curves["BW-NR40"].notes)
+    assert notes["NOPE"][0].startswith("no master curve")
+
+
+def test_static_strain_axis_is_not_set_by_one_far_grade(glance):
+    from dashboard.charts.mount import STRAIN_AXIS_TOP, mount_figures, strain_axis_top
+
+    _, curves, result = glance
+    mres = result.mount
+    ids = list(mres.ids)
+    rows = list(range(len(ids)))
+    limit = mres.strain_limit
+    top = strain_axis_top(result, rows, limit)
+    peaks = {ids[k]: float(np.nanmax(mres.static_strain[k])) for k in rows}
+    # Twice the limit and every passing grade are inside; the axis never grows past
+    # STRAIN_AXIS_TOP; a grade far above the others is cut, not followed.
+    assert 2.0 * limit <= top <= STRAIN_AXIS_TOP
+    assert all(peaks[g.id] <= top for g in result.shortlist)
+    far = [gid for gid, peak in peaks.items() if peak > top]
+    assert far, "the demo holds a grade far above the others (its check needs one)"
+    assert top < 0.5 * max(peaks.values())
+    fig = mount_figures(result, ids, grade_colours(curves))[3]
+    assert fig.layout.yaxis.range[1] == pytest.approx(top)
+    cut = [t for t in fig.data if t.name and t.name.endswith("above the axis")]
+    assert {t.name.split(" above")[0] for t in cut} == set(far)
+    assert all("cut off" in t.text[0] for t in cut)
+
+
+def test_shortlist_table_leads_with_the_key_figures_in_words(glance):
+    from dashboard import tables
+
+    frame = tables.shortlist_frame(glance[2])
+    assert list(frame.columns[: len(tables.SHORTLIST_KEY)]) == list(tables.SHORTLIST_KEY)
+    assert not [c for c in frame.columns if "_" in c]  # no raw identifiers
+    assert all(re.search(r"\[[^\]]+\]$", c) for c in tables.index_columns(glance[2]).values())
+
+
+def test_curves_charts_read_at_a_glance(glance):
+    from dashboard.charts.curves import (
+        REGION_SHADES,
+        nomogram_figure,
+        relaxation_figure,
+        transitions_figure,
+    )
+    from engine.output.palette import GRADE_COLOURS, WINDOW_BAND
+
+    _, curves, _ = glance
+    curve = curves["BW-NR40"]
+    nomo = nomogram_figure("BW-NR40", curve, (-20.0, 60.0), (5.0, 200.0))
+    e = np.asarray(nomo.data[0].y, dtype=float)
+    lo, hi = nomo.layout.yaxis.range
+    assert lo <= np.floor(np.log10(e.min())) and hi >= np.log10(e.max())
+    tg = transitions_figure("BW-NR40", curve, None)
+    fills = [s.fillcolor for s in tg.layout.shapes if s.type == "rect"]
+    assert fills and WINDOW_BAND not in fills and len(set(fills)) == len(fills)
+    assert set(fills) <= set(REGION_SHADES)
+    assert tg.layout.yaxis2.title.standoff > 0
+    relax = relaxation_figure("BW-NR40", curve, [-20.0, 60.0], list(GRADE_COLOURS))
+    assert not [t for t in relax.data if t.text]  # no values beside the marks
+    named = [t.name for t in relax.data if t.showlegend is not False]
+    assert all("at 1 h" in n and "at 1000 h" in n for n in named)

@@ -26,6 +26,7 @@ from engine.output.palette import (
     ACCENT,
     FREQUENCY_DASHES,
     FREQUENCY_SYMBOLS,
+    GRADE_COLOURS,
     GUIDE,
     INK,
     INTERVAL_WASH,
@@ -38,6 +39,22 @@ from engine.output.palette import (
 )
 
 HOUR_S = 3600.0
+# The shades of the regions on the glass-transition chart, in the engine's order
+# (transition, rubbery plateau, flow): washes of the palette's ink blue, moss and slate,
+# none the ochre of the operating window.
+REGION_SHADES = tuple(faded(GRADE_COLOURS[k], 0.10) for k in (5, 2, 9))
+
+
+def decade_span(values, pad: float = 0.1) -> tuple[float, float]:
+    """log10 axis range covering every finite positive value, its ends on whole decades
+    or beyond the padded extremes, so that the smallest and largest values drawn sit
+    inside the axis with a labelled decade at or past each [decades]."""
+    lo, hi = log_span(values, pad)
+    v = np.asarray(values, dtype=float).ravel()
+    v = v[np.isfinite(v) & (v > 0)]
+    if v.size == 0:
+        return lo, hi
+    return float(min(lo, np.floor(np.log10(v.min())))), float(max(hi, np.ceil(np.log10(v.max()))))
 
 
 def _nearest_measured(points: np.ndarray, frequency: float) -> tuple[float, np.ndarray]:
@@ -571,8 +588,15 @@ def nomogram_figure(
             yref="paper",
             line={"color": ACCENT, "dash": "dot", "width": 1.5},
         )
-    ea, eb = log_span(p.storage_modulus / 1e6, 0.1)
-    na, nb = log_span(p.loss_factor, 0.1)
+    # The axes cover the whole curve and its 95 % interval, down to a labelled decade
+    # below its softest value.
+    spread = curve.interval(curve.reference_C, fr)
+    ea, eb = decade_span(
+        np.concatenate([p.storage_modulus, spread.storage_low, spread.storage_high]) / 1e6
+    )
+    na, nb = decade_span(
+        np.concatenate([p.loss_factor, spread.loss_factor_low, spread.loss_factor_high])
+    )
     fig.update_layout(
         template=TEMPLATE,
         height=620,
@@ -622,12 +646,11 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray | None) 
     p = curve.evaluate(grid, f_tg)
     band = curve.interval(grid, f_tg)
     fig = go.Figure()
-    shades = ("rgba(53, 89, 143, 0.07)", "rgba(196, 154, 42, 0.09)", "rgba(91, 127, 46, 0.08)")
     for k, region in enumerate(curve.regions):
         fig.add_vrect(
             x0=region["low_C"],
             x1=region["high_C"],
-            fillcolor=shades[k % len(shades)],
+            fillcolor=REGION_SHADES[k % len(REGION_SHADES)],
             line_width=0,
             annotation_text=region["name"],
             annotation_position="bottom left",
@@ -744,10 +767,11 @@ def transitions_figure(gid: str, curve: MasterCurve, points: np.ndarray | None) 
             "overlaying": "y",
             "side": "right",
             "showgrid": False,
-            "title": {"text": "loss factor tan δ [-]"},
+            "title": {"text": "loss factor tan δ [-]", "standoff": 14},
+            "automargin": True,
         },
         legend={"orientation": "h", "y": -0.2, "font": {"size": 10}},
-        margin={"r": 80},
+        margin={"r": 100},
     )
     if strip:
         fig.update_layout(
@@ -779,27 +803,28 @@ def relaxation_figure(
         colour = colours[k % len(colours)]
         hover = f"{temp:g} °C<br>t = %{{x:.3g}} s<br>{m}(t) = %{{y:.3g}} MPa<extra></extra>"
         e = np.asarray(curve.relaxation_modulus(t, temp), dtype=float) / 1e6
+        v = np.asarray(curve.relaxation_modulus(marks, temp), dtype=float) / 1e6
+        # The values at 1 h and 1000 h go in the legend: beside the marks they would sit
+        # on one another where the curves of two temperatures meet.
         fig.add_trace(
             go.Scatter(
                 x=t,
                 y=e,
                 mode="lines",
-                name=f"{temp:g} °C",
+                name=f"{temp:g} °C: {v[0]:.3g} MPa at 1 h, {v[1]:.3g} MPa at 1000 h",
+                legendgroup=f"{temp:g}",
                 line={"color": colour, "width": 2},
                 hovertemplate=hover,
             )
         )
-        v = np.asarray(curve.relaxation_modulus(marks, temp), dtype=float) / 1e6
         fig.add_trace(
             go.Scatter(
                 x=marks,
                 y=v,
-                mode="markers+text",
+                mode="markers",
                 showlegend=False,
+                legendgroup=f"{temp:g}",
                 marker={"color": colour, "size": 9, "symbol": "square"},
-                text=[f"{x:.3g} MPa" for x in v],
-                textposition="middle right",
-                textfont={"size": 10, "color": colour},
                 hovertemplate=hover,
             )
         )
@@ -826,10 +851,12 @@ def relaxation_figure(
         )
     fig.update_layout(
         template=TEMPLATE,
-        height=440,
+        height=520,
         title=f"Relaxation modulus of {plot_text(gid)}",
         xaxis={"type": "log", "range": [-3, 9], "title": {"text": "time t [s]"}},
         yaxis={"type": "log", "title": {"text": f"relaxation modulus {m}(t) [MPa]"}},
+        legend={"orientation": "v", "x": 0.0, "y": -0.2, "yanchor": "top", "font": {"size": 11}},
+        margin={"b": 120},
     )
     return tidy_log_axes(fig)
 

@@ -16,10 +16,11 @@ from engine.selection.ranking import RankResult
 # Up to this many disturbance frequencies the transmissibility chart draws one line per
 # frequency and grade (a dash per frequency); beyond, one line per grade: the worst.
 LINES_PER_DISTURBANCE = 3
-# The static-strain axis ends a little above the strain at which a pad cannot carry its
-# load at all: a sag of 40 would flatten every other line. Beyond it a sag is drawn at the
-# top with its value.
+# The static-strain axis ends at most a little above the strain at which a pad cannot
+# carry its load at all (strain_axis_top): a sag of 40 would flatten every other line.
+# Beyond the axis a line or a sag is marked at the top with its value.
 STRAIN_AXIS_TOP = 1.2 * MAX_STATIC_STRAIN
+FAR_OFF = 4.0  # a grade whose peak strain is this many times the middle grade's is far off
 
 
 def _grade_line(temps, y, gid: str, colour: str, hover: str, dash: str, **extra) -> go.Scatter:
@@ -34,6 +35,34 @@ def _grade_line(temps, y, gid: str, colour: str, hover: str, dash: str, **extra)
         hovertemplate=f"{plot_text(gid)}{hover}<extra></extra>",
         **extra,
     )
+
+
+def strain_axis_top(result: RankResult, rows: list[int], limit: float) -> float:
+    """Top of the static-strain axis for the grades of ``rows``: what the passing grades,
+    the strain limit and most of the drawn values need, not the one grade far off.
+
+    The larger of twice the limit, the passing grades' largest strain (with sag) and the
+    95th percentile of the strains of the other drawn grades, a tenth above; never above
+    :data:`STRAIN_AXIS_TOP`. A grade far off (its peak more than FAR_OFF times the middle
+    grade's) does not set the axis. Lines above it are cut and marked at the top.
+    """
+    mres = result.mount
+    assert mres is not None
+    passed = {g.id for g in result.shortlist}
+    drawn, needed = [], [2.0 * limit]
+    for k in rows:
+        values = np.append(np.asarray(mres.static_strain[k], dtype=float), mres.sag_strain[k])
+        values = values[np.isfinite(values)]
+        if values.size:
+            drawn.append(values)
+            if mres.ids[k] in passed:
+                needed.append(float(values.max()))
+    if drawn:
+        middle = float(np.median([v.max() for v in drawn]))
+        near = [v for v in drawn if v.max() <= FAR_OFF * max(middle, limit)]
+        if near:
+            needed.append(float(np.percentile(np.concatenate(near), 95)))
+    return float(min(1.1 * max(needed), STRAIN_AXIS_TOP))
 
 
 def mount_figures(
@@ -114,9 +143,7 @@ def mount_figures(
         )
     limit = mres.strain_limit if con.max_static_strain is None else con.max_static_strain
     shown = [rows[g] for g in ids if g in rows]
-    peaks = [np.nanmax(mres.static_strain[k], initial=0.0) for k in shown]
-    peaks += [mres.sag_strain[k] for k in shown if np.isfinite(mres.sag_strain[k])]
-    strain_top = min(max([1.5 * limit, *(1.1 * v for v in peaks)]), STRAIN_AXIS_TOP)
+    strain_top = strain_axis_top(result, shown, limit)
     single = mres.disturbance.size == 1
     each = mres.disturbance.size <= LINES_PER_DISTURBANCE
     if each and not single:
@@ -201,6 +228,37 @@ def mount_figures(
                 customdata=mres.static_deflection[k] * 1e3,
             )
         )
+        strain = np.asarray(mres.static_strain[k], dtype=float)
+        over = np.isfinite(strain) & (strain > strain_top)
+        if over.any():
+            # The line leaves the axis: a mark at the top where it does, with its largest.
+            first = int(np.argmax(over))
+            sd_fig.add_trace(
+                go.Scatter(
+                    x=[temps[first]],
+                    y=[strain_top],
+                    mode="markers+text",
+                    text=[
+                        f"{plot_text(gid)}: up to {np.nanmax(strain):.3g}"
+                        + (
+                            f" ({mres.sag_strain[k]:.3g} with sag)"
+                            if np.isfinite(mres.sag_strain[k])
+                            else ""
+                        )
+                        + ", cut off"
+                    ],
+                    textposition="bottom right" if first < temps.size / 4 else "bottom left",
+                    textfont={"size": 10, "color": colour},
+                    legendgroup=gid,
+                    showlegend=False,
+                    name=f"{plot_text(gid)} above the axis",
+                    marker={"color": colour, "size": 10, "symbol": "arrow-bar-up"},
+                    hovertemplate=(
+                        f"{plot_text(gid)}: static strain above {strain_top:.3g} from "
+                        f"{temps[first]:g} °C, up to {np.nanmax(strain):.3g}<extra></extra>"
+                    ),
+                )
+            )
         sag = float(mres.sag_strain[k])
         off_scale = sag > strain_top
         sd_fig.add_trace(
@@ -208,7 +266,11 @@ def mount_figures(
                 x=[temps.max()],
                 y=[strain_top if off_scale else sag],
                 mode="markers+text" if off_scale else "markers",
-                text=[f"{plot_text(gid)}: {sag:.3g}, off the scale"] if off_scale else None,
+                text=(
+                    [f"{plot_text(gid)}: {sag:.3g}, off the scale"]
+                    if off_scale and not over.any()
+                    else None
+                ),
                 textposition="bottom left",
                 textfont={"size": 10, "color": colour},
                 legendgroup=gid,

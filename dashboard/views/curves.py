@@ -411,7 +411,14 @@ TABS = {
     "Relaxation": _relaxation_tab,
     "Data quality": _quality_tab,
 }
+# The open tab outlives a visit to another page: Streamlit forgets a widget's value in a
+# run that does not draw it, so it is kept under a key of its own too.
+if st.session_state.get("curves_tab") not in TABS:
+    kept_tab = st.session_state.get("_curves_tab")
+    if kept_tab in TABS:
+        st.session_state["curves_tab"] = kept_tab
 tabs = st.tabs(list(TABS), key="curves_tab", on_change="rerun")
+st.session_state["_curves_tab"] = st.session_state.get("curves_tab")
 for tab, draw in zip(tabs, TABS.values(), strict=True):
     if tab.open:
         with tab:

@@ -22,6 +22,17 @@ st.caption(
 message = st.session_state.pop("_library_msg", None)
 if message:
     st.success(plain(message))  # names grades and files
+fit_notes = st.session_state.pop("_library_fit_notes", None)
+if fit_notes:
+    count = sum(len(v) for v in fit_notes.values())
+    with st.expander(
+        f"Fit notes of the grades just written ({count} for {len(fit_notes)} grade(s))",
+        expanded=count > 0,
+    ):
+        for gid, notes in fit_notes.items():
+            st.markdown(
+                f"**{plain(gid)}**: " + ("; ".join(plain(n) for n in notes) or "no warning")
+            )
 
 
 def _rev(name: str) -> int:
@@ -49,6 +60,12 @@ def _show_preview(preview: importing.Preview, where: str) -> None:
     if st.button("Write to library", type="primary", key=f"write_{where}"):
         summary = importing.write(lib, preview)
         data.fits(lib)  # refit now, with a progress bar
+        written = [
+            *summary.materials_added,
+            *summary.materials_updated,
+            *(gid for gid, _ in summary.datasets_added),
+        ]
+        st.session_state["_library_fit_notes"] = importing.fit_notes(lib, written)
         _bump(where)
         st.session_state["_library_msg"] = (
             f"Written: {len(summary.materials_added)} grade(s) added, "
@@ -62,7 +79,7 @@ def _show_preview(preview: importing.Preview, where: str) -> None:
 def _import_format() -> None:
     files = st.file_uploader(
         "Catalog and sweep files (CSV or XLSX, the import format)",
-        type=["csv", "xlsx", "txt"],
+        type=None,  # any file: importing.check_type gives a refused one its reason
         accept_multiple_files=True,
         key=f"upload_format_{_rev('format')}",
     )
@@ -88,12 +105,12 @@ def _import_mapped() -> None:
     rev = _rev("mapped")
     upload = st.file_uploader(
         "Instrument export (CSV or XLSX, any column names)",
-        type=["csv", "xlsx", "txt"],
+        type=None,  # any file: importing.check_type gives a refused one its reason
         key=f"upload_export_{rev}",
     )
     cat = st.file_uploader(
         "Catalog for grades not yet in the library (optional)",
-        type=["csv", "xlsx", "txt"],
+        type=None,  # any file: importing.check_type gives a refused one its reason
         key=f"upload_export_catalog_{rev}",
     )
     if upload is None:

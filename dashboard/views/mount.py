@@ -210,6 +210,7 @@ if result is not None:
             width="stretch",
             key="mount_table",
             column_config={
+                "grade": st.column_config.TextColumn(width=110, pinned=True),
                 "pad area [mm²]": st.column_config.NumberColumn(format="%.0f"),
                 "shape factor": st.column_config.NumberColumn(format="%.2f"),
                 "k factor": st.column_config.NumberColumn(format="%.2f"),

@@ -35,7 +35,7 @@ def _exports(result, library, curves):
     c1, c2, c3, _ = st.columns([1, 1, 1, 2])
     c1.download_button(
         "Shortlist CSV",
-        data=lambda: export.shortlist_csv(result),
+        data=lambda: export.shortlist_csv(result, library),
         file_name="quietgrade-shortlist.csv",
         mime="text/csv",
         key="dl_csv",
@@ -54,6 +54,43 @@ def _exports(result, library, curves):
         mime="text/html",
         key="dl_html",
     )
+
+
+def _columns(frame):
+    """How each column of the shortlist table reads: the key figures first and narrow
+    (rank and grade pinned), figures to three significant figures."""
+    config = {
+        name: st.column_config.NumberColumn(format="%.3g")
+        for name in frame.columns
+        if frame[name].dtype.kind == "f"
+    }
+    config.update(
+        {
+            "rank": st.column_config.NumberColumn(width=45, pinned=True),
+            "grade": st.column_config.TextColumn(width=95, pinned=True),
+            "score": st.column_config.ProgressColumn(
+                "score", min_value=0.0, max_value=100.0, format="%.0f", width=90
+            ),
+            "fn [Hz]": st.column_config.TextColumn(width=95),
+            "worst transmissibility": st.column_config.NumberColumn(
+                "worst T [-]",
+                format="%.3g",
+                width=80,
+                help="worst force transmissibility over the window and the disturbances",
+            ),
+            "long-term sag [mm]": st.column_config.NumberColumn(
+                "sag [mm]",
+                format="%.3g",
+                width=75,
+                help="long-term sag of the pad at the end of its service life",
+            ),
+            "reason": st.column_config.TextColumn(width="large"),
+            "rank interval": st.column_config.TextColumn(
+                help="best–worst rank over the draws of the master-curve fits"
+            ),
+        }
+    )
+    return config
 
 
 if result is not None:
@@ -80,15 +117,7 @@ if result is not None:
             placeholder=MISSING,
             width="stretch",
             key="shortlist_table",
-            column_config={
-                "score": st.column_config.ProgressColumn(
-                    "score", min_value=0.0, max_value=100.0, format="%.0f"
-                ),
-                "rank interval": st.column_config.TextColumn(
-                    help="best–worst rank over the draws of the master-curve fits"
-                ),
-                "reason": st.column_config.TextColumn(width="large"),
-            },
+            column_config=_columns(frame),
         )
         with st.expander("Reasons, in full", expanded=True):
             st.markdown(

@@ -154,3 +154,42 @@ def test_curves_chart_converts_shear_grades_like_the_map(demo_ranked):
     np.testing.assert_allclose(y_ten[ok], factor * y_own[ok], rtol=1e-12)
     assert "tensile equivalent" in tensile.layout.yaxis.title.text
     assert "own mode" in own.layout.yaxis.title.text
+
+
+# -- a narrow window ---------------------------------------------------------------------
+PLOT = '[data-testid="stMain"] [data-testid="stPlotlyChart"]'
+
+
+def _plot_width(page) -> float:
+    return page.evaluate(f"() => document.querySelector('{PLOT}').getBoundingClientRect().width")
+
+
+def test_the_sidebar_does_not_squeeze_the_map_in_a_narrow_window(browser, url):
+    """At 800 x 900 the Map's plot keeps at least 600 px: the sidebar starts folded and,
+    opened, floats over the page instead of narrowing it (the 600 px: common practice for
+    a chart read at a glance on a half-screen window)."""
+    page = browser.new_page(viewport={"width": 800, "height": 900})
+    try:
+        page.goto(url, timeout=120_000)
+        page.wait_for_selector(PLOT, timeout=120_000)
+        page.wait_for_function(
+            "() => document.querySelector('section[data-testid=\"stSidebar\"]')"
+            "?.dataset.collapsed === 'true'",
+            timeout=30_000,
+        )
+        time.sleep(1.0)
+        folded = _plot_width(page)
+        assert folded >= 600, f"the plot is {folded:.0f} px wide with the sidebar folded"
+        page.locator('[data-testid="stExpandSidebarButton"]').click()
+        page.wait_for_function(
+            "() => document.querySelector('section[data-testid=\"stSidebar\"]')"
+            "?.dataset.collapsed === 'false'",
+            timeout=30_000,
+        )
+        time.sleep(1.0)
+        opened = _plot_width(page)
+        assert opened >= 600, f"the plot is {opened:.0f} px wide with the sidebar open"
+        side = page.locator('section[data-testid="stSidebar"]').bounding_box()
+        assert side is not None and side["width"] > 200  # open, over the page
+    finally:
+        page.close()
