@@ -164,6 +164,18 @@ def _plot_width(page) -> float:
     return page.evaluate(f"() => document.querySelector('{PLOT}').getBoundingClientRect().width")
 
 
+def _width_once_sidebar(page, collapsed: str) -> float:
+    """The plot's width once the sidebar's ``data-collapsed`` reads ``collapsed``."""
+    page.wait_for_function(
+        "(want) => document.querySelector('section[data-testid=\"stSidebar\"]')"
+        "?.dataset.collapsed === want",
+        arg=collapsed,
+        timeout=30_000,
+    )
+    time.sleep(1.0)
+    return _plot_width(page)
+
+
 def test_the_sidebar_does_not_squeeze_the_map_in_a_narrow_window(browser, url):
     """At 800 x 900 the Map's plot keeps at least 600 px: the sidebar starts folded and,
     opened, floats over the page instead of narrowing it (the 600 px: common practice for
@@ -172,22 +184,10 @@ def test_the_sidebar_does_not_squeeze_the_map_in_a_narrow_window(browser, url):
     try:
         page.goto(url, timeout=120_000)
         page.wait_for_selector(PLOT, timeout=120_000)
-        page.wait_for_function(
-            "() => document.querySelector('section[data-testid=\"stSidebar\"]')"
-            "?.dataset.collapsed === 'true'",
-            timeout=30_000,
-        )
-        time.sleep(1.0)
-        folded = _plot_width(page)
+        folded = _width_once_sidebar(page, "true")
         assert folded >= 600, f"the plot is {folded:.0f} px wide with the sidebar folded"
         page.locator('[data-testid="stExpandSidebarButton"]').click()
-        page.wait_for_function(
-            "() => document.querySelector('section[data-testid=\"stSidebar\"]')"
-            "?.dataset.collapsed === 'false'",
-            timeout=30_000,
-        )
-        time.sleep(1.0)
-        opened = _plot_width(page)
+        opened = _width_once_sidebar(page, "false")
         assert opened >= 600, f"the plot is {opened:.0f} px wide with the sidebar open"
         side = page.locator('section[data-testid="stSidebar"]').bounding_box()
         assert side is not None and side["width"] > 200  # open, over the page
