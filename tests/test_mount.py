@@ -757,3 +757,79 @@ def test_hardness_from_youngs_modulus_inverts_the_indentation_relation():
     assert float(mount.hardness_from_youngs_modulus(2.46e6)) == pytest.approx(50.0, abs=0.05)
     with pytest.raises(ValueError, match="positive"):
         mount.hardness_from_youngs_modulus(0.0)
+
+
+# -- natural_frequency_tabulated: the exact root on tables ------------------------------
+
+
+def _tables(seed: int, grades: int = 6):
+    """Tables of log10 E' with transitions of random height, place and slope (each
+    segment's log slope below 2, as any passive solid's), of different lengths."""
+    rng = np.random.default_rng(seed)
+    step = 0.05
+    count = rng.integers(40, 400, grades)
+    width = int(count.max())
+    start = rng.uniform(-12.0, -2.0, grades)
+    table = np.empty((grades, width))
+    for g in range(grades):
+        x = start[g] + step * np.arange(width)
+        r = (10.0 ** (x - rng.uniform(-4.0, 6.0))) ** rng.uniform(0.2, 0.9)
+        table[g] = np.log10(
+            10.0 ** rng.uniform(5.5, 7.0) * (1.0 + 10.0 ** rng.uniform(0.5, 3) * r / (1.0 + r))
+        )
+        table[g, count[g] :] = table[g, count[g] - 1]
+    return start, step, table, count
+
+
+def _table_reader(start, step, table, count, rows):
+    """log10 E' read off the tables as CurveBank.log_storage_at reads them."""
+    flat_rows = rows.ravel()
+
+    def read(x, index):
+        g = flat_rows[index]
+        pos = (x - start[g]) / step
+        i0 = np.clip(np.floor(pos), 0, count[g] - 2).astype(int)
+        w = pos - i0
+        y0, y1 = table[g, i0], table[g, i0 + 1]
+        return y0 + w * (y1 - y0)
+
+    return read
+
+
+@pytest.mark.parametrize("seed", range(4))
+@pytest.mark.parametrize("softened", [False, True])
+def test_tabulated_root_equals_the_general_solver_on_the_same_tables(seed, softened):
+    # Reference: natural_frequency_reduced (scipy's elementwise.find_root, Chandrupatla)
+    # reading the same tables; they must agree to its tolerance, roots missing included.
+    start, step, table, count = _tables(seed)
+    rng = np.random.default_rng(100 + seed)
+    rows = np.repeat(np.arange(len(count)), 15).reshape(len(count), 15)
+    shift = rng.uniform(-8.0, 6.0, rows.shape)
+    log_k = rng.uniform(-3.5, -0.5, rows.shape)
+    shift[0, 0] = np.nan  # no finite shift: no root
+    soft = rng.uniform(0.0, 5e-9, rows.shape) if softened else None
+    if softened:
+        soft[1, :3] = 0.0  # stiffness proportional to the modulus on some entries
+    general = mount.natural_frequency_reduced(
+        _table_reader(start, step, table, count, rows), shift, log_k, 40.0, bulk_softening=soft
+    )
+    exact = mount.natural_frequency_tabulated(
+        start, step, table, count, rows, shift, log_k, 40.0, bulk_softening=soft
+    )
+    assert np.array_equal(exact.converged, general.converged)
+    assert 20 < exact.converged.sum() < exact.converged.size  # roots found and missing
+    np.testing.assert_allclose(
+        exact.frequency[exact.converged], general.frequency[general.converged], rtol=1e-10
+    )
+    assert np.isnan(exact.frequency[~exact.converged]).all()
+
+
+def test_tabulated_root_of_a_flat_table_is_the_closed_form():
+    # E' constant: fn = sqrt(K E' / m) / (2 pi) (Snowdon 1968), on the table and beyond
+    # its ends.
+    table = np.full((1, 10), 6.5)
+    rows = np.zeros(5, dtype=int)
+    shift = np.array([-30.0, -3.0, 0.0, 4.0, 30.0])  # roots far outside the table too
+    got = mount.natural_frequency_tabulated([0.0], 0.05, table, [10], rows, shift, -2.0, 3.0)
+    expected = np.sqrt(10.0**-2.0 * 10.0**6.5 / 3.0) / (2.0 * np.pi)
+    np.testing.assert_allclose(got.frequency, expected, rtol=1e-13)

@@ -619,7 +619,8 @@ def check_mounts(
     E / (3 (1 - 2 nu)) from a catalog nu < 0.5, else 2000 MPa (common practice), each
     with a note; shape factors above 10 carry a note, the stiffness then leaning on K.
     Natural frequency: the root of fn = (1/2 pi) sqrt(k'(fn)/m), solved in reduced
-    frequency (:func:`engine.physics.mount.natural_frequency_reduced`).
+    frequency on each grade's table (:func:`engine.physics.mount.natural_frequency_tabulated`,
+    the exact root of :func:`engine.physics.mount.natural_frequency_reduced`'s equation).
     Transmissibility: T = |k*| / |k* - m (2 pi f)^2|, k* = k'(f)(1 + i eta(f)).
     Static deflection: delta = m g / k_s with k_s the pad stiffness at the static
     modulus 1 / J(t), J the creep compliance of the grade's relaxation spectrum (exact
@@ -742,25 +743,24 @@ def check_mounts(
     softening = beta[:, None] * vertical * amp_storage[:, None]
     fn = np.empty((n, t.size))
     ok = np.empty((n, t.size), dtype=bool)
-    # Grades whose stiffness is proportional to the modulus (beta = 0) are solved apart
-    # from the bulk-softened ones, so that only the latter pay for the series spring.
-    for rows in (np.flatnonzero(beta == 0.0), np.flatnonzero(beta != 0.0)):
 
-        def solve(a: int, b: int, rows=rows) -> None:
-            # One solver call per block; entry (k, j) belongs to grade rows[a + k].
-            block = rows[a:b]
-            grade_of = np.repeat(block, t.size)
-            nat = mount.natural_frequency_reduced(
-                lambda x, idx: bank.log_storage_at(grade_of[idx], x),
-                shift_rows[block],
-                log_k[block],
-                m,
-                bulk_softening=softening[block] if beta[block[0]] != 0.0 else None,
-            )
-            fn[block], ok[block] = nat
+    def solve(a: int, b: int) -> None:
+        # Each grade's own table, read as CurveBank.log_storage_at reads it.
+        nat = mount.natural_frequency_tabulated(
+            bank.start,
+            bank.step,
+            bank.log_storage,
+            bank.n_nodes,
+            np.arange(a, b)[:, None],
+            shift_rows[a:b],
+            log_k[a:b],
+            m,
+            bulk_softening=softening[a:b],
+        )
+        fn[a:b], ok[a:b] = nat
 
-        if rows.size:
-            in_blocks(rows.size, solve, per_worker(rows.size))
+    if n:
+        in_blocks(n, solve, per_worker(n))
     fn_safe = np.where(ok, fn, 1.0)
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
     eta_fn = np.where(ok, ls_fn / st_fn, np.nan) * amp_loss[:, None]
