@@ -601,9 +601,10 @@ def _rank_json(result, criteria, errors: dict, out) -> dict:
 
 
 # What `rank` imports beside the library read, which waits on the database and leaves
-# the interpreter lock free: the ranking, and the mount check's root finder in
-# scipy.optimize (~0.3 s to import). The modules import one another in one order (the
-# layers), so two threads importing at once cannot wait on each other.
+# the interpreter lock free: the ranking, and scipy.optimize (~0.3 s to import), whose
+# root finder gives the creep spectra of the draws the rank intervals stack. The
+# modules import one another in one order (the layers), so two threads importing at
+# once cannot wait on each other.
 _RANK_MODULES = ("engine.selection.ranking", "engine.selection.spread", "scipy.optimize")
 
 
