@@ -38,6 +38,7 @@ import time
 from pathlib import Path
 
 from bench import Figure, bench_rank
+from bench.bench_library import bench_file
 from bench.big_library import write_library
 from engine.library.fits import fitted_library
 from engine.library.store import Library
@@ -88,16 +89,7 @@ def in_process(library: Library, crit) -> list[Figure]:
     changed = points.copy()
     changed[:, 2] *= 1.1
     library.write_import(
-        [
-            {
-                "key": "f",
-                "file_name": "rerun.csv",
-                "sha256": "1" * 64,
-                "size_bytes": 0,
-                "rows": len(changed),
-                "kind": "sweep",
-            }
-        ],
+        bench_file(len(changed), "rerun.csv", "1" * 64),
         [],
         [{"material_id": gid, "file_key": "f", "data_hash": "x" * 64, "points": changed}],
     )

@@ -31,13 +31,13 @@ def synthetic_grade(k: int) -> np.ndarray:
     return synthetic.sweep(noise=0.01, seed=k, law=law)
 
 
-def bench_file(rows: int) -> list[dict]:
+def bench_file(rows: int, name: str = "bench.csv", sha256: str = "0" * 64) -> list[dict]:
     """The one import-file record that written bench grades point to (key ``"f"``)."""
     return [
         {
             "key": "f",
-            "file_name": "bench.csv",
-            "sha256": "0" * 64,
+            "file_name": name,
+            "sha256": sha256,
             "size_bytes": 0,
             "rows": rows,
             "kind": "sweep",

@@ -249,3 +249,22 @@ def add_grades(lib: Library, grades: dict[str, np.ndarray]) -> Library:
     ]
     lib.write_import(files, [material(gid) for gid in grades], datasets)
     return lib
+
+
+# The elements the report's SVG charts are drawn with: none links, loads or runs anything.
+SVG_ELEMENTS = frozenset(
+    {
+        "svg",
+        "g",
+        "rect",
+        "clipPath",
+        "path",
+        "polyline",
+        "polygon",
+        "circle",
+        "line",
+        "text",
+        "tspan",
+        "title",
+    }
+)

@@ -40,7 +40,7 @@ from engine.output.report import curves_svg, map_svg, report_html
 from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
-from tests.helpers import DEMO
+from tests.helpers import DEMO, SVG_ELEMENTS
 from tests.offloop import off_the_event_loop
 
 # Demo grade -> (hostile id, hostile name). The first three pass the criteria below,
@@ -67,21 +67,6 @@ LIVE = ("=", "+", "-", "@", "\t", "\r", "\0")
 # The placeholders the map figure's own hover templates use; no other may appear.
 OWN_PLACEHOLDERS = {"%{customdata[1]:.0f}", "%{customdata[2]}", "%{x:.3g}", "%{y:.3g}"}
 SVG = "{http://www.w3.org/2000/svg}"
-# The elements the report's charts are drawn with: none links, loads or runs anything.
-SVG_ELEMENTS = {
-    "svg",
-    "g",
-    "rect",
-    "clipPath",
-    "path",
-    "polyline",
-    "polygon",
-    "circle",
-    "line",
-    "text",
-    "tspan",
-    "title",
-}
 CHROMIUM = "/usr/bin/chromium"
 
 

@@ -27,6 +27,7 @@ from engine.output.svgchart import (
     text_width,
     wrap_text,
 )
+from tests.helpers import SVG_ELEMENTS
 
 NS = {"svg": "http://www.w3.org/2000/svg"}
 HOSTILE = (
@@ -142,20 +143,7 @@ def test_labels_from_data_are_escaped_and_read_back_as_written():
         assert raw not in svg
     root = ET.fromstring(svg)
     tags = {e.tag.split("}")[1] for e in root.iter()}
-    assert tags <= {
-        "svg",
-        "g",
-        "rect",
-        "clipPath",
-        "path",
-        "polyline",
-        "polygon",
-        "circle",
-        "line",
-        "text",
-        "tspan",
-        "title",
-    }
+    assert tags <= SVG_ELEMENTS
     assert not [k for e in root.iter() for k in e.attrib if k.lower().startswith("on")]
     texts = " ".join("".join(t.itertext()) for t in root.iter())
     for label in HOSTILE:

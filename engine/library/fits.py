@@ -520,8 +520,7 @@ def _stored_bank(library: Library, key: str) -> tuple[CurveBank | None, dict]:
         blob = library.cached_bank(key)
         if blob is None:
             return None, {}
-        bank, extra = read_bank(blob)
-        del blob
+        bank, extra = read_bank(blob)  # views of blob's bytes
         hashes = extra.get("hashes")
         if not isinstance(hashes, list) or len(hashes) != len(bank):
             raise BankFileError("the stored curve bank has no data hash for every row")

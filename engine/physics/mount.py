@@ -938,6 +938,15 @@ def natural_frequency(
     return NaturalFrequency(frequency=frequency, converged=converged)
 
 
+def _reduced_target(shift, log_k, log_m):
+    """(log10 aT, right side r, finite) of ``x - log10 E'(10**x) / 2 = r`` per entry, with
+    ``r = log10 aT + log10(K / m) / 2 - log10(2 pi)``. An entry without a finite shift or
+    stiffness has no root: it gets placeholders (0) and is reported as not converged."""
+    rhs = shift + 0.5 * (log_k - log_m) - np.log10(_TWO_PI)
+    ok = np.isfinite(rhs)
+    return np.where(ok, shift, 0.0), np.where(ok, rhs, 0.0), ok
+
+
 def natural_frequency_reduced(
     log_storage_fn: Callable[[NDArray[np.float64], NDArray[np.intp]], ArrayLike],
     log_shift: ArrayLike,
@@ -1016,12 +1025,7 @@ def natural_frequency_reduced(
     shape = np.broadcast_shapes(*shapes)
     shift = np.broadcast_to(shift, shape).ravel()
     log_m = np.broadcast_to(np.log10(m), shape).ravel()
-    rhs = shift + 0.5 * (np.broadcast_to(log_k, shape).ravel() - log_m) - np.log10(_TWO_PI)
-    # An entry without a finite shift or stiffness has no root; it is solved as a
-    # placeholder and reported as not converged.
-    ok = np.isfinite(rhs)
-    shift = np.where(ok, shift, 0.0)
-    rhs = np.where(ok, rhs, 0.0)
+    shift, rhs, ok = _reduced_target(shift, np.broadcast_to(log_k, shape).ravel(), log_m)
     index = np.arange(shift.size)
 
     if soft is None or not soft.any():
@@ -1119,10 +1123,7 @@ def natural_frequency_tabulated(
     soft = flat[4] if len(flat) > 4 else None
     if soft is not None and not soft.any():
         soft = None
-    rhs = shift + 0.5 * (log_k - log_m) - np.log10(_TWO_PI)
-    ok = np.isfinite(rhs)
-    shift = np.where(ok, shift, 0.0)
-    rhs = np.where(ok, rhs, 0.0)
+    shift, rhs, ok = _reduced_target(shift, log_k, log_m)
     width = table.shape[1]
     values = table.ravel()
     first = start[row]
