@@ -21,6 +21,21 @@ the map for it (the figure's title names the range). Medians and maxima are repo
 For reference, the engine-only part, :func:`engine.selection.ranking.rank` on the same curves
 with the same new windows, is timed too: the rest of a rerun is the dashboard.
 
+(c) 10,000 grades (2,000 in quick mode, which reports its figures and extrapolates
+    nothing from them) written with their fits by :func:`bench.big_library.write_library`,
+    served by a real dashboard server and timed in headless chromium (Playwright), where
+    the map is drawn by the browser itself:
+
+    - first map: a new page load on a warm server (one page load has already read the
+      fits and ranked the default window), from ``page.goto`` until the map's plot
+      holds its traces under the default window's title; target 5 s;
+    - window change: an end of the temperature range moved by one degree with the
+      keyboard (a range not seen before, so the library is ranked again), until the
+      plot shows the new window's title; target 1.5 s.
+
+    The AppTest rerun figures of (b) are given for this library too. Without chromium
+    or Playwright the browser figures are left out, with a note.
+
 Run: ``python -m bench.bench_dashboard [--full]`` or through ``python -m bench.run_all``.
 """
 
@@ -31,22 +46,27 @@ import csv
 import io
 import json
 import os
+import socket
 import statistics
+import subprocess
 import sys
 import tempfile
 import time
+import urllib.request
 from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
 
 from bench import Figure, progress_line
+from bench.big_library import write_library
 from dashboard import case
 from engine import cli
 from engine.library.fits import fit_library
 from engine.library.importer import import_files
 from engine.library.store import Library
 from engine.selection.ranking import rank
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, stop_server
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
@@ -56,6 +76,27 @@ QUICK_GRADES = 200
 DEMO_TARGET_S = 0.3
 LARGE_TARGET_S = 1.0
 REPEATS = 5
+HUGE_FULL = 10_000
+HUGE_QUICK = 2_000
+FIRST_MAP_TARGET_S = 5.0
+WINDOW_CHANGE_TARGET_S = 1.5
+BROWSER_REPEATS = 3  # at most len(MOVES)
+# True once the map's plot holds traces and its title names the window given.
+MAP_DRAWN_JS = """(window) => {
+  const gd = document.querySelector('[data-testid="stPlotlyChart"] .js-plotly-plot');
+  if (!gd || !gd.layout || !gd.layout.title || !gd.querySelector('.scatterlayer .trace'))
+    return false;
+  return (gd.layout.title.text || '').includes(window);
+}"""
+THUMBS = ".st-key-c_temp input[type=range]"  # the range's lower end, then its upper end
+_LO, _HI = case.DEFAULTS["c_temp"]
+# Window changes of the browser figure, one per timed page: (thumb, key, the new range);
+# each range differs from the default and from the others, so none is a cache hit.
+MOVES = (
+    (0, "ArrowRight", (_LO + 1.0, _HI)),
+    (1, "ArrowLeft", (_LO, _HI - 1.0)),
+    (0, "ArrowLeft", (_LO - 1.0, _HI)),
+)
 ALTERNATING = ((0.0, 40.0), (-20.0, 45.0))  # the second is the dashboard's default
 # New ranges, one per timed rerun: none repeats, so no ranking is a cache hit.
 FRESH = tuple((-20.0 + k, 45.0 - k) for k in range(1, REPEATS + 1))
@@ -240,6 +281,130 @@ def figures_for(label: str, db: Path, target: float) -> list[Figure]:
     ]
 
 
+# ------------------------------------------------------------------ real browser
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@contextlib.contextmanager
+def served(db: Path) -> Iterator[str]:
+    """A dashboard server on 127.0.0.1 serving the library ``db``; its URL."""
+    port = _free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "streamlit", "run", APP, "--server.address", "127.0.0.1"]
+        + ["--server.port", str(port), "--server.headless", "true"]
+        + ["--browser.gatherUsageStats", "false"],
+        cwd=ROOT,
+        env={**os.environ, "QUIETGRADE_DB": str(db)},
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    url = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + 60.0
+        while True:
+            try:
+                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2):
+                    break
+            except OSError:
+                if time.monotonic() > deadline or proc.poll() is not None:
+                    raise RuntimeError("the dashboard server did not start") from None
+                time.sleep(0.3)
+        yield url
+    finally:
+        stop_server(proc, timeout=15)
+
+
+def _window_text(temp_range: tuple[float, float]) -> str:
+    lo, hi = temp_range
+    return f"{lo:g} to {hi:g} °C"
+
+
+def time_browser(db: Path) -> dict[str, list[float]] | str:
+    """First-map and window-change times [s] in headless chromium, or why there are none."""
+    if not Path(CHROMIUM).exists():
+        return f"no chromium at {CHROMIUM}"
+    try:
+        from playwright.sync_api import sync_playwright
+    except ImportError:
+        return "Playwright is not installed"
+    default = tuple(case.DEFAULTS["c_temp"])
+    first, change = [], []
+    with served(db) as url, sync_playwright() as pw:
+        browser = pw.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        context = browser.new_context(viewport={"width": 1280, "height": 900})
+        try:
+            for k in range(BROWSER_REPEATS + 1):  # the first load warms the server
+                page = context.new_page()
+                page.set_default_timeout(600_000)
+                start = time.perf_counter()
+                page.goto(url)
+                page.wait_for_function(MAP_DRAWN_JS, arg=_window_text(default), polling=50)
+                if k:
+                    first.append(time.perf_counter() - start)
+                page.locator('[data-testid="stStatusWidget"]').wait_for(state="detached")
+                if k:
+                    end, key, moved = MOVES[(k - 1) % len(MOVES)]
+                    thumb = page.locator(THUMBS).nth(end)
+                    thumb.focus()
+                    start = time.perf_counter()
+                    thumb.press(key)  # a range no page has ranked yet
+                    page.wait_for_function(MAP_DRAWN_JS, arg=_window_text(moved), polling=50)
+                    change.append(time.perf_counter() - start)
+                    page.locator('[data-testid="stStatusWidget"]').wait_for(state="detached")
+                page.close()
+        finally:
+            browser.close()
+    return {"first": first, "change": change}
+
+
+def huge_figures(folder: Path, n: int, quick: bool) -> list[Figure]:
+    """Figures (c): the map of ``n`` grades in a real browser, and AppTest reruns."""
+    sys.stderr.write(f"  writing {n:,} fitted grades (bench.big_library)\n")
+    start = time.perf_counter()
+    db = folder / f"big{n}.sqlite"
+    write_library(str(db), n)
+    written = time.perf_counter() - start
+    label = f"{n:,} grades"
+    mode = f"; quick mode ({HUGE_FULL:,} full), nothing extrapolated" if quick else ""
+    sys.stderr.write(f"  real browser, {label}\n")
+    times = time_browser(db)
+    figures = []
+    if isinstance(times, str):
+        figures.append(Figure(f"map in a browser, {label}", float("nan"), "s", None, times))
+    else:
+        figures += [
+            Figure(
+                f"first map after page load, {label} (browser)",
+                statistics.median(times["first"]),
+                "s",
+                FIRST_MAP_TARGET_S,
+                f"median of {len(times['first'])} loads on a warm server (max "
+                f"{max(times['first']):.2f} s); headless chromium{mode}",
+            ),
+            Figure(
+                f"window change to new map, {label} (browser)",
+                statistics.median(times["change"]),
+                "s",
+                WINDOW_CHANGE_TARGET_S,
+                f"median of {len(times['change'])} (max {max(times['change']):.2f} s); "
+                f"library ranked again each time{mode}",
+            ),
+        ]
+    figures += [
+        Figure(f.name, f.value, f.unit, f.target, f.note + mode)
+        for f in figures_for(label, db, WINDOW_CHANGE_TARGET_S)
+    ]
+    figures.append(
+        Figure(f"  write_library, {label} (setup, not timed above)", written, "s", None, "")
+    )
+    return figures
+
+
 def main(quick: bool = True) -> list[Figure]:
     n = QUICK_GRADES if quick else FULL_GRADES
     with tempfile.TemporaryDirectory(prefix="quietgrade-bench-") as tmp:
@@ -260,6 +425,7 @@ def main(quick: bool = True) -> list[Figure]:
         figures.append(
             Figure(f"  fit_library, {label} (setup, not timed above)", fitted, "s", None, note)
         )
+        figures += huge_figures(folder, HUGE_QUICK if quick else HUGE_FULL, quick)
     return figures
 
 

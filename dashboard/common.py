@@ -107,26 +107,6 @@ class Context:
             return None
 
 
-def take_map_selection() -> None:
-    """Box or lasso selection on the map -> the comparison set."""
-    event = st.session_state.get("map_chart")
-    if not event:
-        return
-    picked: list[str] = []
-    for point in event.get("selection", {}).get("points", []):
-        custom = point.get("customdata")
-        gid = custom[0] if isinstance(custom, list | tuple) and custom else None
-        if gid and gid not in picked:
-            picked.append(gid)
-    if not picked:
-        return
-    if st.session_state.get("map_adds"):
-        picked = list(st.session_state.get("compare", [])) + [
-            g for g in picked if g not in st.session_state.get("compare", [])
-        ]
-    st.session_state["compare"] = picked
-
-
 def context() -> Context:
     return st.session_state[CONTEXT_KEY]
 

@@ -1,4 +1,4 @@
-"""A library too large for the map to draw grade by grade, built from the demo grades.
+"""Libraries too large for the map to draw grade by grade, built from the demo grades.
 
 The demo grades are copied under new ids, each copy's moduli scaled by its own factor so
 that no two paths coincide. The data are invented (input only, never a check value).
@@ -48,3 +48,15 @@ def write_crowd_library(db: Path) -> Path:
     import_files(lib, [folder / "catalog.csv"], [folder / "sweeps.csv"])
     fit_library(lib, processes=1)
     return db
+
+
+def large_ranking(n: int):
+    """The ranking, under the dashboard's default case, of ``n`` grades cloned in memory
+    from the demo grades (:func:`bench.bench_rank.library`: perturbed moduli,
+    temperature axes and catalog fields); input only, never a check value."""
+    from bench import bench_rank
+    from dashboard import case
+    from engine.selection.ranking import rank
+
+    curves, materials = bench_rank.library(n)
+    return rank(curves, materials, case.criteria_from_state(case.default_state()))

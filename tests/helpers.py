@@ -14,6 +14,8 @@ import contextlib
 import dataclasses
 import io
 import json
+import os
+import subprocess
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -29,6 +31,19 @@ from tests import synthetic
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_materials"
 SHOTS = ROOT / "screenshots"  # git-ignored
+
+# Debian's chromium, headless, for every browser check (QUIETGRADE_CHROMIUM names another).
+CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 
 
 # ------------------------------------------------------------------ the command line
@@ -51,6 +66,15 @@ class Run:
         lines = self.stderr.strip().splitlines()
         assert len(lines) == 1, self.stderr
         return lines[0]
+
+
+def stop_server(proc: subprocess.Popen, timeout: float = 15.0) -> None:
+    """Ends a dashboard server started for a check: asked first, killed if it lingers."""
+    proc.terminate()
+    try:
+        proc.wait(timeout=timeout)
+    except subprocess.TimeoutExpired:
+        proc.kill()
 
 
 def call_main(args) -> int:

@@ -391,7 +391,7 @@ def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db)
         x, y = _array(t["x"]), _array(t["y"])
         ids = [row[0] for row in t["customdata"]]
         shared += list(dict.fromkeys(ids))
-        for j, (gid, temp, state) in enumerate(t["customdata"]):
+        for j, ((gid, temp), state) in enumerate(zip(t["customdata"], t["hovertext"], strict=True)):
             g, k = grades[gid], row_of[gid]
             step = temps.index(temp)
             # each mark sits on its grade's path as the engine computed it...
@@ -399,9 +399,11 @@ def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db)
             assert y[j] == pytest.approx(props.path_storage[k][step] / 1e6, rel=1e-12)
             # ...and its hover names the grade's rank or every reason it is excluded
             if g.passed:
-                assert state == f"rank {g.rank}"
+                assert state == mapfigure.plot_text(f"rank {g.rank}")
             else:
-                assert state == "excluded: " + "; ".join(f.text() for f in g.failures)
+                assert state == mapfigure.plot_text(
+                    "excluded: " + "; ".join(f.text() for f in g.failures)
+                )
         lines = next(
             u
             for u in spec["data"]

@@ -42,13 +42,13 @@ from engine.library.fits import fit_library  # noqa: E402
 from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
 from engine.output.mapfigure import plot_text  # noqa: E402
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, stop_server  # noqa: E402
 from tests.offloop import off_the_event_loop  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
 DEMO = ROOT / "demo_materials"
 PAGES = ("views/map.py", "views/curves.py", "views/mount.py", "views/shortlist.py")
-CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
 
 IMAGE = "http://127.0.0.1:9/p.png"
 EVIL = "http://evil"
@@ -326,7 +326,7 @@ def test_a_fit_step_that_fails_leaves_the_library_page_working(monkeypatch, host
     def broken(*args, **kwargs):
         raise StopIteration
 
-    monkeypatch.setattr(data, "fit_library", broken)
+    monkeypatch.setattr(data, "fitted_library", broken)
     store = data._fit_store()
     kept = dict(store)
     store.clear()
@@ -380,9 +380,7 @@ def test_browser_dom_holds_no_image_or_link_from_the_data(tmp_path):
 
         def drive() -> None:
             with playwright.sync_playwright() as p:
-                browser = p.chromium.launch(
-                    executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
-                )
+                browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
                 page = browser.new_page(viewport={"width": 1280, "height": 900})
                 page.set_default_timeout(60_000)
                 page.on("request", lambda req: requested.append(req.url))
@@ -417,8 +415,4 @@ def test_browser_dom_holds_no_image_or_link_from_the_data(tmp_path):
         off_the_event_loop(drive)
         assert not [r for r in requested if r.startswith(("http://127.0.0.1:9", EVIL))]
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
+        stop_server(proc, timeout=10)

@@ -40,7 +40,7 @@ from engine.output.report import curves_svg, map_svg, report_html
 from engine.output.workbook import shortlist_xlsx
 from engine.selection.ranking import Constraints, Criteria, rank
 from engine.selection.spread import rank_spread
-from tests.helpers import DEMO, SVG_ELEMENTS
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, DEMO, SVG_ELEMENTS
 from tests.offloop import off_the_event_loop
 
 # Demo grade -> (hostile id, hostile name). The first three pass the criteria below,
@@ -67,7 +67,6 @@ LIVE = ("=", "+", "-", "@", "\t", "\r", "\0")
 # The placeholders the map figure's own hover templates use; no other may appear.
 OWN_PLACEHOLDERS = {"%{customdata[1]:.0f}", "%{customdata[2]}", "%{x:.3g}", "%{y:.3g}"}
 SVG = "{http://www.w3.org/2000/svg}"
-CHROMIUM = "/usr/bin/chromium"
 
 
 def _write_rows(path: Path, rows: list[dict]) -> None:
@@ -465,9 +464,7 @@ def test_report_charts_show_names_as_written_in_a_browser(dressed, hostile, tmp_
 
     def drive():
         with sync_api.sync_playwright() as p:
-            browser = p.chromium.launch(
-                executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
-            )
+            browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
             try:
                 page = browser.new_page()
                 page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))

@@ -24,9 +24,9 @@ from engine.output.mapfigure import ranking_colours
 from engine.output.report import report_html
 from engine.output.rows import criteria_rows
 from engine.selection.ranking import Criteria, rank
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS
 from tests.offloop import off_the_event_loop
 
-CHROMIUM = "/usr/bin/chromium"
 SVG = "{http://www.w3.org/2000/svg}"
 
 
@@ -151,9 +151,7 @@ def test_key_columns_fit_1000_px_and_no_chart_text_is_cut(ranked, tmp_path):
 
     def drive():
         with sync_api.sync_playwright() as p:
-            browser = p.chromium.launch(
-                executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu"]
-            )
+            browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
             try:
                 page = browser.new_page(viewport={"width": 1280, "height": 900})
                 page.goto(path.as_uri())

@@ -1,27 +1,64 @@
-"""Map page: every grade's path through the window on storage modulus against loss factor."""
+"""Map page: every grade's path through the window on storage modulus against loss factor.
+
+A box or lasso on the map picks every grade with a path point inside it, drawn or only
+counted in the shading of a very large library (the ranking's own values, not the points
+the browser drew); the search under the map finds grades by id or name among all.
+"""
 
 import streamlit as st
 
 from dashboard import data, tables
 from dashboard.charts.common import INTERVAL_NOTE
+from dashboard.charts.map import FIND_LIMIT, crowd_plan, find_grades, selected_grades
 from dashboard.common import (
     MISSING,
     SHOWN_LIMIT,
     context,
     need_result,
+    plain,
     screening_caption,
-    take_map_selection,
 )
-from engine.output.mapfigure import READING
+from engine.output.mapfigure import GUIDE_READING, READING, shown_rows
 from engine.output.palette import GUIDE_STYLES
 
 # The menu of how lines of constant E'' show, in the order of palette.GUIDE_STYLES.
 GUIDE_CHOICES = ("E'' ticks on the frame", "E'' as a colour field", "no E'' guides")
-GRID_SENTENCE = "Grey dotted diagonals are lines of constant loss modulus E'' = η E'. "
 GUIDE_SENTENCE = (
     "Loss modulus E'' = η E' is constant along diagonals: its decades are marked on the "
     "top and right edges, or shown as a faint field (the menu beside). "
 )
+
+
+def _into_set(picked: list[str]) -> None:
+    """``picked`` becomes the comparison set, or joins it when "Adds to set" is on."""
+    if not picked:
+        return
+    before = list(st.session_state.get("compare", []))
+    if st.session_state.get("map_adds"):
+        picked = before + [g for g in picked if g not in before]
+    st.session_state["compare"] = picked
+
+
+def _take_selection() -> None:
+    """A box or lasso on the map -> the comparison set (every grade shown with a path
+    point inside, drawn or not), read from the ranking the map was drawn from."""
+    event = st.session_state.get("map_chart")
+    result = context().result
+    if not event or result is None:
+        return
+    show_excluded = bool(st.session_state.get("map_show_excluded", True))
+    _into_set(selected_grades(result, event.get("selection") or {}, show_excluded))
+
+
+def _take_found() -> None:
+    """The grades the search finds join the comparison set."""
+    result = context().result
+    if result is None:
+        return
+    found, _ = find_grades(result, st.session_state.get("map_find", ""))
+    before = list(st.session_state.get("compare", []))
+    st.session_state["compare"] = before + [g for g in found if g not in before]
+
 
 ctx = context()
 st.header("Map")
@@ -62,19 +99,48 @@ if result is not None:
     st.plotly_chart(
         fig,
         key="map_chart",
-        on_select=take_map_selection,
+        on_select=_take_selection,
         selection_mode=("box", "lasso"),
         theme=None,
         config={"displaylogo": False},
     )
+    plan = crowd_plan(result, shown_rows(result, show_excluded), ctx.compare)
+    if plan.thinned:
+        st.caption(plan.note())
     # How to read it, folded under the chart: the chart comes first.
     with st.expander("How to read the map"):
         st.caption(
-            READING.replace(GRID_SENTENCE, GUIDE_SENTENCE)
+            READING.replace(GUIDE_READING, GUIDE_SENTENCE)
             + " Draw a box or a lasso to put grades in the comparison set. Shaded tubes "
             "around the grades of the comparison set"
             + (f" (the first {SHOWN_LIMIT})" if len(ctx.compare) > SHOWN_LIMIT else "")
             + f": at each temperature of the path, E' and η within their {INTERVAL_NOTE}."
+        )
+    f1, f2 = st.columns([3, 1], vertical_alignment="bottom")
+    text = f1.text_input(
+        "Find grades by id or name",
+        key="map_find",
+        placeholder="part of an id or a name, e.g. a family or a supplier's word",
+        help="Searches every grade of the ranking, drawn on the map or not.",
+    )
+    found, total = find_grades(result, text)
+    f2.button(
+        f"Add {len(found)} to the set" if found else "Add to the set",
+        key="map_find_add",
+        on_click=_take_found,
+        disabled=not found,
+        width="stretch",
+    )
+    if text.strip():
+        shown = ", ".join(found[:12]) + (" …" if len(found) > 12 else "")
+        st.caption(
+            f"{total:,} grades match"
+            + (
+                f" (the first {FIND_LIMIT} in ranking order join the set)"
+                if total > FIND_LIMIT
+                else ""
+            )
+            + (f": {plain(shown)}" if found else ".")
         )
     st.subheader("Comparison set")
     frame = tables.comparison_frame(result, ctx.compare)

@@ -23,8 +23,6 @@ from plotly.basedatatypes import BaseTraceType
 from engine.output.palette import (
     ACCENT,
     FEASIBLE,
-    GUIDE,
-    GUIDE_TEXT,
     INK,
     TEMPLATE_NAME,
     faded,
@@ -35,7 +33,6 @@ from engine.output.palette import (
 from engine.selection.ranking import RankResult
 
 AXIS_PAD = 0.15  # room around the paths [decades]
-LABEL_DECADES = 0.9  # width of a guide label on the loss-factor axis [decades]
 MARK_EVERY_K = 10.0  # a small mark on every path at each multiple of this temperature
 PATH_MODE = "lines+markers+text"  # the mode of a grade's own path trace
 
@@ -121,40 +118,6 @@ def _add_feasible(fig: go.Figure, limit: float, xs: tuple, ys: tuple) -> None:
     )
 
 
-def _add_guides(fig: go.Figure, xs: tuple, ys: tuple) -> None:
-    """Lines of constant loss modulus E'' = eta E' (slope -1 here), one per decade."""
-    (xa, xb), (ya, yb) = xs, ys
-    for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
-        v = 10.0**d
-        fig.add_trace(
-            go.Scatter(
-                x=[10**xa, 10**xb],
-                y=[v / 10**xa, v / 10**xb],
-                mode="lines",
-                line={"color": GUIDE, "width": 0.8, "dash": "dot"},
-                hoverinfo="skip",
-                showlegend=False,
-            )
-        )
-        # Label where the guide enters the plot from the top or the left.
-        x_top = d - yb
-        if xa <= x_top <= xb - LABEL_DECADES:  # room for the text inside the plot
-            x_lab, y_lab = x_top, yb
-        elif ya <= d - xa <= yb:
-            x_lab, y_lab = xa, d - xa
-        else:
-            continue
-        fig.add_annotation(
-            x=x_lab + 0.02,
-            y=y_lab - 0.04,
-            text=f"E'' = {v:g} MPa",
-            showarrow=False,
-            xanchor="left",
-            yanchor="top",
-            font={"size": 10, "color": GUIDE_TEXT},
-        )
-
-
 def _drawing_order(result: RankResult, rows: list[int]) -> list[int]:
     """Excluded grades first (under the others), then the passing ones in rank order."""
     grades = {g.id: g for g in result.grades}
@@ -183,7 +146,7 @@ def map_figure(
         hover text).
     own : the grades drawn with a trace of their own (default: every grade shown); the
         caller draws the others, e.g. in ``shared``.
-    shared : traces drawn over the guides and under the grades' own paths.
+    shared : traces drawn under the grades' own paths (over the feasible band).
     beneath : grade id -> traces drawn just under that grade's path.
 
     Each grade's own path is one trace of mode :data:`PATH_MODE` whose ``legendgroup`` is
@@ -207,7 +170,6 @@ def map_figure(
     fig = go.Figure()
     if limit:
         _add_feasible(fig, limit, xs, ys)
-    _add_guides(fig, xs, ys)
     for trace in shared:
         fig.add_trace(trace)
 

@@ -209,33 +209,16 @@ def tidy_log_axes(fig: go.Figure) -> go.Figure:
 GUIDE_STYLES = ("ticks", "field", "none")  # how the map shows constant E'' = eta E'
 
 
-def _is_guide(trace) -> bool:
-    """A dotted grey diagonal of constant E'' as the map figure draws it."""
-    line = getattr(trace, "line", None)
-    return (
-        getattr(trace, "type", None) == "scatter"
-        and getattr(trace, "mode", None) == "lines"
-        and line is not None
-        and line.color == GUIDE
-        and line.dash == "dot"
-    )
-
-
 def loss_modulus_guides(fig: go.Figure, style: str = "ticks") -> go.Figure:
     """The map's lines of constant loss modulus E'' = eta E' [MPa] drawn as ``style``.
 
     ``"ticks"``: a short mark with the value where each decade of E'' meets the top and the
     right edge of the frame; ``"field"``: a faint colour field of log10 E'' behind the
-    paths (its scale beside the plot); ``"none"``: not drawn. The plot's diagonals and
-    their labels in the plot are taken away in every style, so the paths stand alone.
+    paths (its scale beside the plot); ``"none"``: not drawn.
     The axes must be log axes with their ranges set (as the map sets them).
     """
     if style not in GUIDE_STYLES:
         raise ValueError(f"guide style {style!r}: use one of {', '.join(GUIDE_STYLES)}")
-    fig.data = tuple(t for t in fig.data if not _is_guide(t))
-    fig.layout.annotations = tuple(
-        a for a in fig.layout.annotations if not str(a.text or "").startswith("E'' =")
-    )
     xa, xb = fig.layout.xaxis.range
     ya, yb = fig.layout.yaxis.range
     if style == "ticks":

@@ -21,19 +21,7 @@ from pathlib import Path
 import pytest
 
 from tests.crowd import write_crowd_library
-from tests.helpers import ROOT, SHOTS
-
-CHROMIUM = os.environ.get("QUIETGRADE_CHROMIUM", "/usr/bin/chromium")
-CHROMIUM_ARGS = [
-    "--headless",
-    "--no-sandbox",
-    "--disable-gpu",
-    "--disable-quic",
-    "--no-first-run",
-    "--disable-background-networking",
-    "--disable-component-update",
-    "--disable-sync",
-]
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, ROOT, SHOTS, stop_server
 
 
 def _free_port() -> int:
@@ -97,11 +85,7 @@ def dashboard(db: Path, prepare: Callable[[dict], None]) -> Iterator[str]:
             raise RuntimeError("the dashboard did not start within 60 s")
         yield url
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
+        stop_server(proc, timeout=10)
 
 
 def _load_demo(env: dict) -> None:
