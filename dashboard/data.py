@@ -21,7 +21,7 @@ from engine.curves.mastercurve import MasterCurve
 from engine.library.demo import DEMO_DIR
 from engine.library.fits import FittedLibrary, fitted_library, master_curve
 from engine.library.importer import import_files
-from engine.library.store import Library
+from engine.library.store import Library, Material
 from engine.selection.ranking import Criteria, RankResult, rank, working_sweeps
 
 
@@ -33,7 +33,7 @@ def library_at(location: str) -> Library:
 
 def load_demo_if_empty(library: Library) -> bool:
     """Import the invented demo grades into a library that has never held anything."""
-    if library.materials(include_deleted=True) or library.imports():
+    if not library.never_used():
         return False
     import_files(
         library,
@@ -80,12 +80,19 @@ def fitted(library: Library) -> FittedLibrary:
     return result
 
 
+@st.cache_resource(max_entries=4, show_spinner=False)
+def catalog(location: str, version: int) -> dict[str, Material]:
+    """The catalog rows of the library's grades by id, read once per library version
+    (a new window reranks without reading them again)."""
+    return {m.id: m for m in library_at(location).materials()}
+
+
 @st.cache_resource(max_entries=32, show_spinner=False)
 def _ranked(location: str, version: int, criteria_key: str, _criteria: Criteria) -> RankResult:
     """The ranking under ``_criteria``, kept per ``criteria_key`` (their file form)."""
     library = library_at(location)
     found = _fit_store().get((location, version)) or fitted_library(library)
-    materials = {m.id: m for m in library.materials()}
+    materials = catalog(location, version)
     sweeps = working_sweeps(library, _criteria)
     return rank(
         found.curves,

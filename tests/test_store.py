@@ -464,3 +464,13 @@ def test_fits_print_nothing(tmp_path, any_library, capsys):
     fit_library(any_library, processes=1)
     master_curve(any_library, "G1", reference_C=0.0)
     assert capsys.readouterr() == ("", "")
+
+
+def test_a_library_is_never_used_until_it_holds_a_grade_and_stays_used(tmp_path, any_library):
+    # What the dashboard reads before loading the demo grades into a new library
+    # (common practice: never load demo data over a user's own, even deleted, grades).
+    assert any_library.never_used()
+    load_grades(any_library, tmp_path, ("G1",))
+    assert not any_library.never_used()
+    any_library.delete_material("G1")
+    assert not any_library.never_used()

@@ -136,7 +136,8 @@ basis = c5.selectbox(
 own_mode = basis == BASES[1]
 tensile = None
 if not own_mode:
-    poisson = {m.id: m.poisson_ratio for m in ctx.library.materials()}
+    catalog = data.catalog(ctx.library.location, ctx.library.version())
+    poisson = {gid: m.poisson_ratio for gid, m in catalog.items()}
     tensile = {
         gid: float(tensile_factor([curves[gid].mode], [poisson.get(gid) or np.nan])[0])
         for gid in shown

@@ -7,7 +7,7 @@ downloads all show them.
 
 import streamlit as st
 
-from dashboard import tables
+from dashboard import data, tables
 from dashboard.common import MISSING, context, need_result, plain, screening_caption
 from engine.base.errors import QuietgradeError
 from engine.output.export import intervals_note
@@ -21,8 +21,7 @@ result = need_result(ctx)
 @st.cache_resource(max_entries=16, show_spinner=False)
 def _with_intervals(result_key: str, _result, _curves, _library):
     """The ranking with the intervals of engine.selection.spread, kept per ranking (read-only)."""
-    materials = {m.id: m for m in _library.materials()}
-    return rank_spread(_result, _curves, materials)
+    return rank_spread(_result, _curves, data.catalog(_library.location, _library.version()))
 
 
 def _exports(result, library, curves):

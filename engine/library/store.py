@@ -801,6 +801,15 @@ class Library:
                 out.append(Material(**data, extra=extra))
         return out
 
+    def never_used(self) -> bool:
+        """True while the library has held no grade (deleted ones count) and no import;
+        two one-row queries, whatever the library's size."""
+        with self.engine.connect() as conn:
+            for table in (materials_table, imports_table):
+                if conn.execute(sa.select(sa.literal(1)).select_from(table).limit(1)).first():
+                    return False
+        return True
+
     def material(self, material_id: str) -> Material:
         checked_text(material_id, "grade id", ID_MAX_CHARS)
         with self.engine.connect() as conn:

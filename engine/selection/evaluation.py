@@ -3,6 +3,7 @@ properties, merit-index values and the mount check, all grades at once."""
 
 from __future__ import annotations
 
+import operator
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -107,7 +108,7 @@ def _point_indices(
 
 def _catalog_columns(materials: list[Material]) -> dict[str, np.ndarray]:
     """The numeric catalog fields of ``materials`` as arrays (NaN where unknown)."""
-    rows = [tuple(getattr(m, name) for name in CATALOG_NUMBERS) for m in materials]
+    rows = list(map(operator.attrgetter(*CATALOG_NUMBERS), materials))  # None -> NaN below
     table = np.array(rows, dtype=float).reshape(len(materials), len(CATALOG_NUMBERS))
     return dict(zip(CATALOG_NUMBERS, table.T, strict=True))
 

@@ -12,24 +12,30 @@ UNCERTAIN = "within the data's uncertainty"  # of neighbours the draws cannot or
 
 
 def write_reasons(result: RankResult, only: set[str] | None = None) -> None:
-    """Set the one-line reason of every grade of ``result`` (passing ones in rank order),
-    or of the grades whose ids are in ``only``."""
+    """Give every grade of ``result`` (or the grades whose ids are in ``only``) its
+    one-line reason: written when first read (``GradeResult.reason``), from the ranking
+    as it stands now, so a grade never shown costs nothing."""
     passing = result.shortlist
     weights = {c.name: c.weight for c in result.criteria.indices}
-    reasons = _Reasons(passing, result.specs, weights)
-    for r in passing:
+    reasons = _Reasons(passing, result.specs, weights, result.criteria.screening_only)
+    for r in result.grades:
         if only is None or r.id in only:
-            r.reason = reasons.line(r, result.criteria.screening_only)
-    for r in result.excluded:
-        if only is None or r.id in only:
-            r.reason = "excluded: " + "; ".join(f.text() for f in r.failures)
+            r.written_reason = None
+            r.reason_writer = reasons.of
 
 
 class _Reasons:
     """One line per passing grade: where it stands and which index carried it."""
 
-    def __init__(self, passing: list[GradeResult], specs: dict[str, IndexSpec], weights: dict):
+    def __init__(
+        self,
+        passing: list[GradeResult],
+        specs: dict[str, IndexSpec],
+        weights: dict,
+        screening: bool = False,
+    ):
         self.n = len(passing)
+        self.screening = screening
         self.specs = specs
         self.best = {}
         for name, spec in specs.items():
@@ -40,6 +46,12 @@ class _Reasons:
         self.units = {
             n: "" if spec.unit in ("-", "") else " " + spec.unit for n, spec in specs.items()
         }
+
+    def of(self, r: GradeResult) -> str:
+        """The reason of ``r``: its place and what carried it, or why it is excluded."""
+        if r.passed:
+            return self.line(r, self.screening)
+        return "excluded: " + "; ".join(f.text() for f in r.failures)
 
     def line(self, r: GradeResult, screening: bool = False) -> str:
         parts = []

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
@@ -54,11 +55,29 @@ class GradeResult:
     pareto: bool = False
     extrapolated: bool = False
     worst_loss_factor: float | None = None  # over the window grid
-    reason: str = ""
+    # The one-line reason, written on first read by ``reason_writer`` (see
+    # engine.selection.reasons): most grades of a large ranking are never shown.
+    written_reason: str | None = field(default=None, repr=False)
+    reason_writer: Callable[[GradeResult], str] | None = field(
+        default=None, repr=False, compare=False
+    )
     mount_result: MountResult | None = field(default=None, repr=False)
     mount_index: int | None = None
     notes: list[str] = field(default_factory=list)
     spread: GradeSpread | None = field(default=None, repr=False)  # see engine.selection.spread
+
+    @property
+    def reason(self) -> str:
+        """Where the grade stands and why, in one line (written when first read)."""
+        if self.written_reason is None:
+            if self.reason_writer is None:
+                return ""
+            self.written_reason = self.reason_writer(self)
+        return self.written_reason
+
+    @reason.setter
+    def reason(self, text: str) -> None:
+        self.written_reason = text
 
     @property
     def mount(self) -> dict | None:
