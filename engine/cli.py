@@ -15,9 +15,9 @@ import logging
 import math
 import re
 import sys
-import threading
 import traceback
 import warnings
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -600,11 +600,11 @@ def _rank_json(result, criteria, errors: dict, out) -> dict:
     return data
 
 
-# What `rank` imports beside the library read, which waits on the database and leaves
-# the interpreter lock free: the ranking, and scipy.optimize (~0.3 s to import), whose
-# root finder gives the creep spectra of the draws the rank intervals stack. The
-# modules import one another in one order (the layers), so two threads importing at
-# once cannot wait on each other.
+# What `rank` imports while another thread reads the library (reading the stored curve
+# bank, ~160 MB for 10,000 grades, waits on the file and leaves the interpreter lock
+# free): the ranking, and scipy.optimize (~0.3 s to import), whose root finder gives the
+# creep spectra of the draws the rank intervals stack. The modules import one another in
+# one order (the layers), so two threads importing at once cannot wait on each other.
 _RANK_MODULES = ("engine.selection.ranking", "engine.selection.spread", "scipy.optimize")
 
 
@@ -624,10 +624,10 @@ def cmd_rank(args) -> int:
 
     lib = _library(args)
     criteria = _criteria_from_args(args)
-    warm = threading.Thread(target=_import_all, args=(_RANK_MODULES,), daemon=True)
-    warm.start()
-    fitted = fitted_library(lib)
-    warm.join()
+    with ThreadPoolExecutor(max_workers=1) as reader:
+        reading = reader.submit(fitted_library, lib)
+        _import_all(_RANK_MODULES)
+        fitted = reading.result()
     from engine.selection.ranking import rank, working_sweeps
     from engine.selection.spread import rank_spread
 

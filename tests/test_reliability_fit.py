@@ -465,3 +465,22 @@ def test_query_values_within_the_limits_pass_as_arrays():
     np.testing.assert_array_equal(check_temperatures(23.0), [23.0])
     np.testing.assert_array_equal(check_temperatures([-150.0, 400.0]), [-150.0, 400.0])
     np.testing.assert_array_equal(check_frequencies([1e-6, 1e9]), [1e-6, 1e9])
+
+
+def _blas_threads() -> list[int]:
+    from threadpoolctl import threadpool_info
+
+    return [i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"]
+
+
+def test_fit_workers_run_blas_on_one_thread_and_leave_the_caller_as_it_was():
+    # Several BLAS threads per worker process on a machine with as many cores as workers
+    # made fitting four times slower (common practice: one BLAS thread per process).
+    pytest.importorskip("threadpoolctl")
+    from concurrent.futures import ProcessPoolExecutor
+
+    before = _blas_threads()
+    with ProcessPoolExecutor(max_workers=1, initializer=fits._one_blas_thread) as pool:
+        in_worker = pool.submit(_blas_threads).result()
+    assert in_worker and set(in_worker) == {1}
+    assert _blas_threads() == before

@@ -179,6 +179,21 @@ def _store(library: Library, results: dict[str, dict], key: str) -> None:
         log.info("fit cache not written (%s)", one_line(str(exc)))
 
 
+# Fit workers run numpy's linear algebra on one thread each. Each process otherwise
+# brings a BLAS thread pool the size of the machine, the threads outnumber the cores and
+# spin against each other: 200 grades on 2 cores took 50 s with 2 workers and 22 s with
+# one, against 13 s with one BLAS thread per worker (measured on bench.bench_dashboard's
+# clones). The limit is set in each worker as it starts; the calling process keeps its
+# own setting.
+def _one_blas_thread() -> None:
+    """Initializer of a fit worker: numpy's BLAS on one thread in this process."""
+    try:
+        from threadpoolctl import threadpool_limits  # type: ignore[import-untyped]
+    except ImportError:  # an installation without it fits as before, only slower
+        return
+    threadpool_limits(limits=1, user_api="blas")
+
+
 def fit_library(
     library: Library,
     reference_C: float | None = None,
@@ -310,7 +325,7 @@ def _fit_grades(
     serial = workers <= 1 or len(todo) < 8
     if not serial:
         try:
-            with ProcessPoolExecutor(max_workers=workers) as pool:
+            with ProcessPoolExecutor(max_workers=workers, initializer=_one_blas_thread) as pool:
                 for outcome in pool.map(
                     _timed_fit,
                     todo,
@@ -455,10 +470,13 @@ def fitted_library(
     >>> again.restacked, again.curves.decoded_count(), again.bank.ids == list(again.curves)
     (0, 0, True)
     """
-    live = library.existing_ids()
-    hashes = {mid: h for mid, h in library.latest_hashes().items() if mid in live}
+    # The record first: reading it waits on the file, which another thread can use (the
+    # command line imports the ranking meanwhile). Its rows are checked against the data
+    # hashes read after it, so a grade changed in between is fitted again.
     key = bank_key(reference_C, vertical_shift)
     stored, extra = _stored_bank(library, key)
+    live = library.existing_ids()
+    hashes = {mid: h for mid, h in library.latest_hashes().items() if mid in live}
     kept_rows: list[int] = []
     errors: dict[str, str] = {}
     if stored is not None:
