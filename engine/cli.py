@@ -67,20 +67,21 @@ _PLAIN_NUMBERS = frozenset({float, int})  # bool is left to the element-wise pat
 
 
 def _write_json(value, out) -> None:
-    """``value`` as one line of JSON on ``out``, written a top-level entry (and a list's
-    item) at a time by the json module's C encoder: an indented dump of a 10,000-grade
+    """``value`` as one line of JSON on ``out``, spaced as ``json.dumps`` spaces it,
+    written a top-level entry (and a list's item) at a time by the json module's C
+    encoder: an indented dump of a 10,000-grade
     ranking took 12 s in its pure-Python encoder, one string of it 90 MB more memory.
     Pipe it to a formatter to read it."""
     if isinstance(value, dict):
         out.write("{")
         for k, (key, item) in enumerate(value.items()):
-            out.write(("," if k else "") + json.dumps(str(key)) + ":")
+            out.write((", " if k else "") + json.dumps(str(key)) + ": ")
             _write_json(item, out)
         out.write("}")
     elif isinstance(value, list):
         out.write("[")
         for k, item in enumerate(value):
-            out.write(("," if k else "") + json.dumps(item))
+            out.write((", " if k else "") + json.dumps(item))
         out.write("]")
     else:
         out.write(json.dumps(value))

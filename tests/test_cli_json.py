@@ -61,6 +61,7 @@ def test_written_json_parses_to_the_plainly_cleaned_value(value):
     text = written(value)
     assert json.loads(text, parse_constant=refuse) == json.loads(json.dumps(reference_clean(value)))
     assert "\n" not in text
+    assert text == json.dumps(json.loads(text))  # spaced as json.dumps spaces it
 
 
 def test_numpy_values_become_plain_numbers():
