@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from engine.base.caution import CAUTION
+from tests.browser.driving import STATUS, steady
 
 ANSWER = (
     '[data-testid="stMain"] [data-testid="stPlotlyChart"], '
@@ -32,11 +33,14 @@ def test_the_answer_starts_on_the_first_screen(browser, url, path):
     try:
         page.goto(f"{url}/{path}", timeout=120_000)
         page.wait_for_selector(ANSWER, timeout=120_000)
-        time.sleep(1.0)
-        top = page.evaluate(
+        # The page as it stands once its run is over and its layout has stopped moving
+        # (on a first visit the page above the chart is still being laid out).
+        page.locator(STATUS).wait_for(state="detached", timeout=120_000)
+        top = steady(
+            page,
             f"() => document.querySelector('{ANSWER.split(', ')[0]}')"
             f" ?.getBoundingClientRect().top ?? document.querySelector("
-            f"'{ANSWER.split(', ')[1]}').getBoundingClientRect().top"
+            f"'{ANSWER.split(', ')[1]}').getBoundingClientRect().top",
         )
         assert 0 < top < 900 - 150, f"/{path}: the answer starts at y = {top:.0f} px"
         assert not page.query_selector('[data-testid="stException"]')
