@@ -647,6 +647,38 @@ def _import_all(names: tuple[str, ...]) -> None:
             return
 
 
+# Excluded grades listed one by one in the text of `rank` up to this many; above it, a
+# count per first failed limit (a 10,000-grade library excludes thousands).
+EXCLUDED_LISTED = 40
+
+
+def _limit_name(failure) -> str:
+    """What a failure is about, without its figures: the constraint, or for a mount
+    check (whose text carries the grade's figures) the words before them."""
+    if failure.topic != "mount":
+        return failure.constraint
+    head = re.split(r"[:(]|\d", failure.constraint, maxsplit=1)[0]
+    head = re.sub(r"(\s+(at|between|T\s*=|=|-))+\s*$", "", head.strip(" -="))
+    return head.strip() or failure.constraint
+
+
+def _excluded_lines(excluded: list, every: bool) -> list[str]:
+    """The text lines of the excluded grades: each with its reasons, or a summary."""
+    if every or len(excluded) <= EXCLUDED_LISTED:
+        return [f"    - {g.id:<14} {g.reason}" for g in excluded]
+    first: dict[str, int] = {}
+    for g in excluded:
+        what = _limit_name(g.failures[0]) if g.failures else "excluded"
+        first[what] = first.get(what, 0) + 1
+    lines = [
+        f"  {len(excluded):,} grade(s) excluded, by the first limit each fails "
+        "(--all-excluded lists each with every reason):"
+    ]
+    for what, count in sorted(first.items(), key=lambda item: (-item[1], item[0])):
+        lines.append(f"    - {count:>7,}  {what}")
+    return lines
+
+
 def cmd_rank(args) -> int:
     from engine.library.fits import fitted_library
     from engine.selection.criteria import SCREENING_NOTE
@@ -700,8 +732,7 @@ def cmd_rank(args) -> int:
     for g in result.shortlist:
         span = "" if g.rank_interval is None else "ranks {}-{}".format(*g.rank_interval)
         lines.append(f"  {g.rank:>3}. {g.id:<14} score {g.score:5.1f} {span:>10}  {g.reason}")
-    for g in result.excluded:
-        lines.append(f"    - {g.id:<14} {g.reason}")
+    lines += _excluded_lines(result.excluded, args.all_excluded)
     for gid, why in sorted(errors.items()):
         lines.append(f"    - {_one_line(gid):<14} not ranked: master curve failed: {why}")
     if args.out:
@@ -938,6 +969,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="flag the grades no other beats on both indices",
     )
     p.add_argument("--out", help="write the shortlist: shortlist.csv, .xlsx or .html")
+    p.add_argument(
+        "--all-excluded",
+        action="store_true",
+        help=f"list every excluded grade with its reasons (default: each one up to "
+        f"{EXCLUDED_LISTED}, above that a count per first failed limit; --json lists all)",
+    )
     p.set_defaults(func=cmd_rank)
 
     return parser

@@ -398,3 +398,30 @@ def test_rank_mount_file_with_a_text_disturbance_exits_2(cli, tmp_path, capsys):
 def test_rank_zero_step_is_refused(cli, option, message, capsys):
     assert main(["rank", "--db", str(cli["db"]), *WINDOW, *option, "--json"]) == 2
     assert message in capsys.readouterr().err
+
+
+def test_a_long_excluded_list_is_counted_by_limit_and_listed_on_request(cli, monkeypatch):
+    # Common practice for a listing of thousands: a count per cause, the whole list on
+    # request. Here the limit is lowered so the demo library's exclusions exceed it.
+    from engine import cli as cli_module
+
+    args = ["rank", *WINDOW, "--mount", str(Path(cli["db"]).parent / "mount.json")]
+    listed = invoke([*args, "--db", cli["db"], "--all-excluded"])
+    assert listed.returncode == 0, listed.stderr
+    each = [x for x in listed.stdout.splitlines() if x.startswith("    - ")]
+    ids = [x.split()[1] for x in each]
+    data = invoke([*args, "--db", cli["db"], "--json"]).json()
+    assert ids == [r["id"] for r in data["excluded"]] and len(ids) > 2
+    monkeypatch.setattr(cli_module, "EXCLUDED_LISTED", 2)
+    counted = invoke([*args, "--db", cli["db"]])
+    lines = counted.stdout.splitlines()
+    head = next(k for k, x in enumerate(lines) if "grade(s) excluded" in x)
+    assert lines[head].strip().startswith(f"{len(ids):,} grade(s) excluded")
+    counts = [
+        int(x.split()[1].replace(",", "")) for x in lines[head + 1 :] if x.startswith("    - ")
+    ]
+    assert sum(counts) == len(ids)  # each excluded grade counted once, under its first limit
+    # A mount reason's figures are left out of its name: no digit in a count's label.
+    assert not any(
+        re.search(r"\d", x.split(None, 2)[2]) for x in lines[head + 1 :] if x.startswith("    - ")
+    )
