@@ -16,12 +16,14 @@ import numpy as np
 import plotly.graph_objects as go
 import streamlit as st
 
+from dashboard.charts.map import CrowdPlan, crowd_plan
 from dashboard.charts.map import map_figure as draw_map
 from engine.curves.mastercurve import MasterCurve
 from engine.library.demo import DEMO_DIR
 from engine.library.fits import FittedLibrary, fitted_library, master_curve
 from engine.library.importer import import_files
 from engine.library.store import Library, Material
+from engine.output.mapfigure import shown_rows
 from engine.selection.ranking import Criteria, RankResult, rank, working_sweeps
 
 
@@ -126,8 +128,9 @@ def map_figure(
     banded: tuple[str, ...] = (),
     _curves: Mapping[str, MasterCurve] | None = None,
     guides: str = "ticks",
-) -> go.Figure:
-    """The map of a ranking (:func:`dashboard.charts.map.map_figure`), kept per view.
+) -> tuple[go.Figure, CrowdPlan]:
+    """The map of a ranking (:func:`dashboard.charts.map.map_figure`) and the plan of
+    which grades it draws (:func:`dashboard.charts.map.crowd_plan`), kept per view.
 
     ``result_key`` (from :func:`ranking_key`) stands for the ranking and for the grade
     colours, which follow from the same library version; both are passed unhashed, and
@@ -135,14 +138,17 @@ def map_figure(
     the grades ``banded``. Going back to a window seen before then redraws nothing.
     """
     curves = _curves or {}
-    return draw_map(
+    plan = crowd_plan(_result, shown_rows(_result, show_excluded), chosen)
+    figure = draw_map(
         _result,
         _colours,
         list(chosen),
         show_excluded=show_excluded,
         bands={g: curves[g] for g in banded if g in curves},
         guides=guides,
+        plan=plan,
     )
+    return figure, plan
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)

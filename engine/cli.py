@@ -639,7 +639,7 @@ _RANK_MODULES = ("engine.selection.ranking", "engine.selection.spread", "scipy.o
 
 def _import_all(names: tuple[str, ...]) -> None:
     """Import ``names`` ahead of use; a failure is left for the import where they are used
-    (which reports it as every failure is), never printed from this thread."""
+    (which reports it as every failure is), never printed here."""
     for name in names:
         try:
             importlib.import_module(name)
@@ -652,23 +652,13 @@ def _import_all(names: tuple[str, ...]) -> None:
 EXCLUDED_LISTED = 40
 
 
-def _limit_name(failure) -> str:
-    """What a failure is about, without its figures: the constraint, or for a mount
-    check (whose text carries the grade's figures) the words before them."""
-    if failure.topic != "mount":
-        return failure.constraint
-    head = re.split(r"[:(]|\d", failure.constraint, maxsplit=1)[0]
-    head = re.sub(r"(\s+(at|between|T\s*=|=|-))+\s*$", "", head.strip(" -="))
-    return head.strip() or failure.constraint
-
-
 def _excluded_lines(excluded: list, every: bool) -> list[str]:
     """The text lines of the excluded grades: each with its reasons, or a summary."""
     if every or len(excluded) <= EXCLUDED_LISTED:
         return [f"    - {g.id:<14} {g.reason}" for g in excluded]
     first: dict[str, int] = {}
     for g in excluded:
-        what = _limit_name(g.failures[0]) if g.failures else "excluded"
+        what = g.failures[0].about if g.failures else "excluded"
         first[what] = first.get(what, 0) + 1
     lines = [
         f"  {len(excluded):,} grade(s) excluded, by the first limit each fails "

@@ -281,11 +281,7 @@ def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = 
         states = []
         for k in ks:
             g = grades[props.ids[k]]
-            states.append(
-                f"rank {g.rank}"
-                if passed
-                else "excluded: " + "; ".join(f.text() for f in g.failures)
-            )
+            states.append(f"rank {g.rank}" if passed else g.reason)
         custom = np.empty((ks.size, n_t, 2), dtype=object)
         custom[:, :, 0] = np.array([props.ids[k] for k in ks], dtype=object)[:, None]
         custom[:, :, 1] = np.array(temps[at].tolist(), dtype=object)[None, :]
@@ -349,6 +345,7 @@ def map_figure(
     show_excluded: bool = True,
     bands: dict[str, MasterCurve] | None = None,
     guides: str = "ticks",
+    plan: CrowdPlan | None = None,
 ) -> go.Figure:
     """The engine's map of ``result`` (:func:`engine.output.mapfigure.map_figure`) for the
     Map page: box and lasso select grades, and the grades of ``bands`` (id -> the master
@@ -360,6 +357,7 @@ def map_figure(
     not), which keeps a rerun quick; a very large one draws only some of the others, with
     marks every ``MARK_EVERY_K`` only, shades the cells the rest pass through
     (:func:`density_trace`); :meth:`CrowdPlan.note` says so in a line for the page.
+    ``plan`` is that plan when the caller has made it already.
 
     The page's own look: lines of constant E'' as ``guides``
     (:func:`engine.output.palette.loss_modulus_guides`), the end temperatures labelled on
@@ -368,7 +366,8 @@ def map_figure(
     the legend in rows under the plot, where no id is cut.
     """
     props = result.window_props
-    plan = crowd_plan(result, mapfigure.shown_rows(result, show_excluded), chosen)
+    if plan is None:
+        plan = crowd_plan(result, mapfigure.shown_rows(result, show_excluded), chosen)
     own, shared = plan.own, []
     marks = None
     if plan.thinned:

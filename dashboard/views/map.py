@@ -9,7 +9,7 @@ import streamlit as st
 
 from dashboard import data, tables
 from dashboard.charts.common import INTERVAL_NOTE
-from dashboard.charts.map import FIND_LIMIT, crowd_plan, find_grades, selected_grades
+from dashboard.charts.map import FIND_LIMIT, find_grades, selected_grades
 from dashboard.common import (
     MISSING,
     SHOWN_LIMIT,
@@ -18,7 +18,7 @@ from dashboard.common import (
     plain,
     screening_caption,
 )
-from engine.output.mapfigure import GUIDE_READING, READING, shown_rows
+from engine.output.mapfigure import GUIDE_READING, READING
 from engine.output.palette import GUIDE_STYLES
 
 # The menu of how lines of constant E'' show, in the order of palette.GUIDE_STYLES.
@@ -86,7 +86,7 @@ if result is not None:
         help="Lines of constant loss modulus E'' = η E': not drawn, as ticks along the "
         "frame, or as a faint colour field behind the paths.",
     )
-    fig = data.map_figure(
+    fig, plan = data.map_figure(
         ctx.ranking_name(),
         tuple(ctx.compare),
         show_excluded,
@@ -104,7 +104,6 @@ if result is not None:
         theme=None,
         config={"displaylogo": False},
     )
-    plan = crowd_plan(result, shown_rows(result, show_excluded), ctx.compare)
     if plan.thinned:
         st.caption(plan.note())
     # How to read it, folded under the chart: the chart comes first.

@@ -242,6 +242,20 @@ def default_mount() -> MountDesign:
     return MountDesign(thickness_mm=DEFAULT_THICKNESS_MM, target_fn_Hz=DEFAULT_TARGET_FN_HZ)
 
 
+# The words each check of the verdict (a key of MountResult.failing) names its failure
+# with, the same for every grade; its reason adds the grade's figures.
+CHECK_WORDS = {
+    "too_stiff": "too stiff for this load and size",
+    "cannot_carry": "cannot carry the load",
+    "no_fn": "no natural frequency",
+    "too_soft": "too soft for this load",
+    "strain": "static strain",
+    "stress": "compressive stress",
+    "buckling": "pad would buckle",
+    "isolation": "does not isolate",
+}
+
+
 @dataclass
 class MountResult:
     """Per grade (rows) and window temperature (columns) unless said otherwise. SI units.
@@ -371,37 +385,37 @@ class MountResult:
         )
 
     def reason(self, name: str, k: int) -> str:
-        """The plain reason of check ``name`` (a key of :attr:`failing`) for grade k."""
+        """The plain reason of check ``name`` (a key of :attr:`failing`) for grade k: its
+        words (:data:`CHECK_WORDS`), then grade k's figures."""
         temps = self.temperatures
         limit = self.strain_limit
+        words = CHECK_WORDS[name]
         if name == "too_stiff":
-            return (
-                f"too stiff for this load and size: the pad would be {self.area[k] * 1e6:.2g} mm2"
-            )
+            return f"{words}: the pad would be {self.area[k] * 1e6:.2g} mm2"
         if name == "cannot_carry":
-            return f"cannot carry the load: {self.strain_text(k, MAX_STATIC_STRAIN)}"
-        if name == "strain":
+            return f"{words}: {self.strain_text(k, MAX_STATIC_STRAIN)}"
+        if name == "strain":  # the strain's own words: static, shear or long-term sag
             return f"{self.strain_text(k)} above the {limit:g} limit"
         if name == "no_fn":
             missing = ", ".join(f"{t:g}" for t in temps[~self.converged[k]])
-            return f"no natural frequency between 1 mHz and 100 kHz at {missing} °C"
+            return f"{words} between 1 mHz and 100 kHz at {missing} °C"
         if name == "too_soft":
             i = int(np.nanargmin(self.natural_frequency[k]))
             return (
-                f"too soft for this load: fn {self.natural_frequency[k, i]:.2g} Hz at "
+                f"{words}: fn {self.natural_frequency[k, i]:.2g} Hz at "
                 f"{temps[i]:g} °C, below {MIN_FN_HZ:g} Hz"
             )
         if name == "stress":
             assert self.static_stress is not None and self.stress_limit is not None
             return (
-                f"compressive stress {self.static_stress[k] / 1e6:.2g} MPa above the "
+                f"{words} {self.static_stress[k] / 1e6:.2g} MPa above the "
                 f"{self.stress_limit / 1e6:g} MPa limit"
             )
         if name == "buckling":
             assert self.design is not None and self.critical_load is not None
             load = self.design.mass_per_pad * mount.STANDARD_GRAVITY
             return (
-                f"pad would buckle: {load:.3g} N on a pad that buckles at "
+                f"{words}: {load:.3g} N on a pad that buckles at "
                 f"{self.critical_load[k]:.3g} N (shape factor {self.shape_factor[k]:.2f}; "
                 f"needs a safety factor of {1.0 / mount.BUCKLING_LOAD_SHARE:g})"
             )
@@ -411,7 +425,7 @@ class MountResult:
             where = self.design.disturbance_labels()[at_f]
         else:
             where = f"{self.disturbance[at_f]:g} Hz"
-        return f"does not isolate: T = {trans[at_t, at_f]:.2f} at {where}, {temps[at_t]:g} °C"
+        return f"{words}: T = {trans[at_t, at_f]:.2f} at {where}, {temps[at_t]:g} °C"
 
     def grade(self, k: int) -> dict:
         """JSON-ready figures of grade k (mm, Hz, MPa)."""

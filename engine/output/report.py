@@ -168,7 +168,7 @@ def _status(g) -> str:
     """A grade's standing, for its tooltip: rank and score, or why it is excluded."""
     if g.passed:
         return f"rank {g.rank}, score {g.score:.0f}"
-    return "excluded: " + "; ".join(f.text() for f in g.failures)
+    return g.reason
 
 
 def map_svg(result: RankResult) -> str:

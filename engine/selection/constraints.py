@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.curves.mountcheck import MountResult
+from engine.curves.mountcheck import CHECK_WORDS, MountResult
 from engine.selection.criteria import Criteria
 from engine.selection.evaluation import Evaluation
 from engine.selection.results import Failure, short_number
@@ -176,7 +176,7 @@ def _pad(c: Checks) -> None:
     failing = mres.failing
 
     def plain(name: str) -> Callable[[int], Failure]:
-        return lambda k: Failure(mres.reason(name, k), "", "")
+        return lambda k: Failure(mres.reason(name, k), "", "", kind=CHECK_WORDS[name])
 
     for name in _PAD_CHECKS:
         c.fail(failing[name], plain(name), "mount")
@@ -306,7 +306,7 @@ def _static_strain(c: Checks) -> None:
     def strain_failure(k):
         if np.isnan(strain[k]):
             return Failure("static strain", "unknown", f"<= {limit:g}")
-        return Failure(mres.strain_text(k, limit), "", f"<= {limit:g}")
+        return Failure(mres.strain_text(k, limit), "", f"<= {limit:g}", kind="static strain")
 
     c.fail(strained, strain_failure, "mount")
 
@@ -343,7 +343,7 @@ def _mount_system(c: Checks) -> None:
         reasons.append(found)
 
     def plain(text: str) -> Callable[[int], Failure]:
-        return lambda k: Failure(text, "", "")
+        return lambda k: Failure(text, "", "", kind="mount system")
 
     for k, texts in enumerate(reasons):
         only = np.zeros(len(reasons), dtype=bool)

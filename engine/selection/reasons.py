@@ -50,10 +50,10 @@ class _Reasons:
     def of(self, r: GradeResult) -> str:
         """The reason of ``r``: its place and what carried it, or why it is excluded."""
         if r.passed:
-            return self.line(r, self.screening)
+            return self.line(r)
         return "excluded: " + "; ".join(f.text() for f in r.failures)
 
-    def line(self, r: GradeResult, screening: bool = False) -> str:
+    def line(self, r: GradeResult) -> str:
         parts = []
         best_on = [
             spec.label
@@ -82,6 +82,6 @@ class _Reasons:
             parts.append("Pareto-optimal")
         if r.extrapolated:
             parts.append("uses extrapolated data")
-        if screening:
+        if self.screening:
             parts.append(SCREENING_NOTE)
         return f"rank {r.rank} of {self.n}: " + "; ".join(parts) + "; meets every constraint"

@@ -21,12 +21,20 @@ if TYPE_CHECKING:  # engine.selection.spread builds on this module
 @dataclass
 class Failure:
     """A failed constraint: what, the value found, the limit; ``topic`` groups them
-    ("catalog", "window" or "mount")."""
+    ("catalog", "window" or "mount"). ``kind`` names what failed without the grade's
+    figures where ``constraint`` is a whole sentence that carries them (the mount
+    check's plain reasons); blank, the constraint names it."""
 
     constraint: str
     value: float | str
     limit: str
     topic: str = "window"
+    kind: str = ""
+
+    @property
+    def about(self) -> str:
+        """What failed, the same words for every grade that fails it (for counting)."""
+        return self.kind or self.constraint
 
     def text(self) -> str:
         """The failure as a reason reads: what, the value found, what was needed (a
@@ -74,10 +82,6 @@ class GradeResult:
                 return ""
             self.written_reason = self.reason_writer(self)
         return self.written_reason
-
-    @reason.setter
-    def reason(self, text: str) -> None:
-        self.written_reason = text
 
     @property
     def mount(self) -> dict | None:
