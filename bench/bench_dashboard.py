@@ -46,13 +46,10 @@ import csv
 import io
 import json
 import os
-import socket
 import statistics
-import subprocess
 import sys
 import tempfile
 import time
-import urllib.request
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -66,7 +63,7 @@ from engine.library.fits import fit_library
 from engine.library.importer import import_files
 from engine.library.store import Library
 from engine.selection.ranking import rank
-from tests.helpers import CHROMIUM, CHROMIUM_ARGS, stop_server
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, served_dashboard
 
 ROOT = Path(__file__).resolve().parent.parent
 APP = str(ROOT / "dashboard" / "app.py")
@@ -284,41 +281,6 @@ def figures_for(label: str, db: Path, target: float) -> list[Figure]:
 # ------------------------------------------------------------------ real browser
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-@contextlib.contextmanager
-def served(db: Path) -> Iterator[str]:
-    """A dashboard server on 127.0.0.1 serving the library ``db``; its URL."""
-    port = _free_port()
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "streamlit", "run", APP, "--server.address", "127.0.0.1"]
-        + ["--server.port", str(port), "--server.headless", "true"]
-        + ["--browser.gatherUsageStats", "false"],
-        cwd=ROOT,
-        env={**os.environ, "QUIETGRADE_DB": str(db)},
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.DEVNULL,
-    )
-    url = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 60.0
-        while True:
-            try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2):
-                    break
-            except OSError:
-                if time.monotonic() > deadline or proc.poll() is not None:
-                    raise RuntimeError("the dashboard server did not start") from None
-                time.sleep(0.3)
-        yield url
-    finally:
-        stop_server(proc, timeout=15)
-
-
 def _window_text(temp_range: tuple[float, float]) -> str:
     lo, hi = temp_range
     return f"{lo:g} to {hi:g} °C"
@@ -334,7 +296,7 @@ def time_browser(db: Path) -> dict[str, list[float]] | str:
         return "Playwright is not installed"
     default = tuple(case.DEFAULTS["c_temp"])
     first, change = [], []
-    with served(db) as url, sync_playwright() as pw:
+    with served_dashboard(db, stop_timeout=15) as url, sync_playwright() as pw:
         browser = pw.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
         context = browser.new_context(viewport={"width": 1280, "height": 900})
         try:

@@ -15,7 +15,12 @@ import dataclasses
 import io
 import json
 import os
+import socket
 import subprocess
+import sys
+import time
+import urllib.request
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -75,6 +80,53 @@ def stop_server(proc: subprocess.Popen, timeout: float = 15.0) -> None:
         proc.wait(timeout=timeout)
     except subprocess.TimeoutExpired:
         proc.kill()
+
+
+def free_port() -> int:
+    """A TCP port on 127.0.0.1 that nothing listens on now."""
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@contextlib.contextmanager
+def served_dashboard(
+    db: Path, prepare: Callable[[dict], None] | None = None, stop_timeout: float = 10.0
+) -> Iterator[str]:
+    """The dashboard on a free port of 127.0.0.1 serving the library ``db``; its URL,
+    once Streamlit's health check answers (an error after 60 s).
+
+    ``prepare(env)`` fills the library while the server boots (the dashboard opens the
+    library only when the first browser session runs the script); ``env`` is the
+    server's environment.
+    """
+    env = {**os.environ, "QUIETGRADE_DB": str(db)}
+    port = free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "streamlit", "run", "dashboard/app.py",
+         "--server.address", "127.0.0.1", "--server.port", str(port),
+         "--server.headless", "true", "--browser.gatherUsageStats", "false"],
+        cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+    )  # fmt: skip
+    try:
+        if prepare is not None:
+            prepare(env)
+        url = f"http://127.0.0.1:{port}"
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            try:
+                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                if proc.poll() is not None:
+                    raise RuntimeError("the dashboard server stopped as it started") from None
+                time.sleep(0.3)
+        else:
+            raise RuntimeError("the dashboard did not start within 60 s")
+        yield url
+    finally:
+        stop_server(proc, timeout=stop_timeout)
 
 
 def call_main(args) -> int:

@@ -19,12 +19,7 @@ from __future__ import annotations
 
 import csv
 import io
-import os
 import re
-import socket
-import subprocess
-import sys
-import time
 import urllib.parse
 import urllib.request
 from pathlib import Path
@@ -42,7 +37,7 @@ from engine.library.fits import fit_library  # noqa: E402
 from engine.library.importer import import_files  # noqa: E402
 from engine.library.store import Library  # noqa: E402
 from engine.output.mapfigure import plot_text  # noqa: E402
-from tests.helpers import CHROMIUM, CHROMIUM_ARGS, stop_server  # noqa: E402
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, served_dashboard  # noqa: E402
 from tests.offloop import off_the_event_loop  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -345,36 +340,13 @@ def test_a_fit_step_that_fails_leaves_the_library_page_working(monkeypatch, host
 # -- a real browser --------------------------------------------------------------------
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.mark.browser
 def test_browser_dom_holds_no_image_or_link_from_the_data(tmp_path):
     if not Path(CHROMIUM).exists():
         pytest.skip(f"chromium not found at {CHROMIUM}")
     playwright = pytest.importorskip("playwright.sync_api")
     db = write_hostile_library(tmp_path / "hostile.sqlite")
-    port = _free_port()
-    env = {**os.environ, "QUIETGRADE_DB": str(db)}
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "streamlit", "run", "dashboard/app.py",
-         "--server.address", "127.0.0.1", "--server.port", str(port),
-         "--server.headless", "true", "--browser.gatherUsageStats", "false"],
-        cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-    )  # fmt: skip
-    url = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 60
-        while time.monotonic() < deadline:
-            try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                time.sleep(0.3)
+    with served_dashboard(db) as url:
         requested: list[str] = []
         ids = ",".join((SAFE_ID, *HOSTILE_IDS))
 
@@ -414,5 +386,3 @@ def test_browser_dom_holds_no_image_or_link_from_the_data(tmp_path):
 
         off_the_event_loop(drive)
         assert not [r for r in requested if r.startswith(("http://127.0.0.1:9", EVIL))]
-    finally:
-        stop_server(proc, timeout=10)

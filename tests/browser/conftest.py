@@ -7,27 +7,15 @@ The tests are skipped, with the reason printed, only where chromium is absent.
 
 from __future__ import annotations
 
-import os
 import shutil
-import socket
 import subprocess
 import sys
-import time
-import urllib.request
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
 
 from tests.crowd import write_crowd_library
-from tests.helpers import CHROMIUM, CHROMIUM_ARGS, ROOT, SHOTS, stop_server
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
+from tests.helpers import CHROMIUM, CHROMIUM_ARGS, ROOT, SHOTS, served_dashboard
 
 
 def pytest_collection_modifyitems(config, items):
@@ -37,55 +25,6 @@ def pytest_collection_modifyitems(config, items):
     for item in items:
         if "browser" in item.keywords:
             item.add_marker(skip)
-
-
-@contextmanager
-def dashboard(db: Path, prepare: Callable[[dict], None]) -> Iterator[str]:
-    """Start the dashboard on a free port serving the library ``db``; yield its URL.
-
-    ``prepare(env)`` fills the library while the server boots (the dashboard opens the
-    library only when the first browser session runs the script); ``env`` is the
-    server's environment.
-    """
-    env = {**os.environ, "QUIETGRADE_DB": str(db)}
-    port = _free_port()
-    proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "streamlit",
-            "run",
-            "dashboard/app.py",
-            "--server.address",
-            "127.0.0.1",
-            "--server.port",
-            str(port),
-            "--server.headless",
-            "true",
-            "--browser.gatherUsageStats",
-            "false",
-        ],
-        cwd=ROOT,
-        env=env,
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.DEVNULL,
-    )
-    try:
-        prepare(env)
-        url = f"http://127.0.0.1:{port}"
-        deadline = time.monotonic() + 60
-        while time.monotonic() < deadline:
-            try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                time.sleep(0.3)
-        else:
-            raise RuntimeError("the dashboard did not start within 60 s")
-        yield url
-    finally:
-        stop_server(proc, timeout=10)
 
 
 def _load_demo(env: dict) -> None:
@@ -105,7 +44,7 @@ def _load_demo(env: dict) -> None:
 def app_url(tmp_path_factory):
     """The dashboard serving a fresh demo library: (URL, library)."""
     db = tmp_path_factory.mktemp("browser") / "library.sqlite"
-    with dashboard(db, _load_demo) as url:
+    with served_dashboard(db, _load_demo) as url:
         yield url, db
 
 
@@ -115,7 +54,7 @@ def own_app_url(app_url, tmp_path):
     to the library (the shared one stays as every other test expects it): (URL, library)."""
     _, shared = app_url
     db = tmp_path / "library.sqlite"
-    with dashboard(db, lambda env: shutil.copyfile(shared, db)) as url:
+    with served_dashboard(db, lambda env: shutil.copyfile(shared, db)) as url:
         yield url, db
 
 
@@ -124,7 +63,7 @@ def crowd_url(tmp_path_factory):
     """The dashboard serving a library of CROWD_GRADES grades (tests/crowd.py), more
     than the map draws one by one: (URL, library)."""
     db = tmp_path_factory.mktemp("browser-crowd") / "crowd.sqlite"
-    with dashboard(db, lambda env: write_crowd_library(db)) as url:
+    with served_dashboard(db, lambda env: write_crowd_library(db)) as url:
         yield url, db
 
 
