@@ -26,6 +26,7 @@ import numpy as np
 
 from engine.base.errors import LibraryError, QuietgradeError
 from engine.base.fields import CATALOG
+from engine.base.memory import keep_freed_memory
 from engine.base.version import __version__
 from engine.library.store import Library, default_location
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K
@@ -131,40 +132,47 @@ def cmd_list(args) -> int:
     sets: dict[str, list] = {}
     for ds in lib.datasets():
         sets.setdefault(ds.material_id, []).append(ds)
-    rows = []
-    for m in lib.materials():
-        entry: dict[str, Any] = {
-            "id": m.id,
-            **{f.json_name: getattr(m, f.name) for f in CATALOG},
-            "extra": m.extra,
-            "datasets": [
-                {
-                    "dataset_id": d.dataset_id,
-                    "points": d.n_points,
-                    "file": d.file_name,
-                    "sha256": d.sha256,
-                    "imported_at": d.imported_at,
-                    "in_use": i == len(sets.get(m.id, [])) - 1,
-                }
-                for i, d in enumerate(sets.get(m.id, []))
-            ],
-        }
-        rows.append(entry)
-    lines = [f"{len(rows)} grade(s) in {lib.display_location}"]
+    materials = lib.materials()
+
+    def rows() -> list[dict[str, Any]]:  # the JSON form, made only for --json
+        return [
+            {
+                "id": m.id,
+                **{f.json_name: getattr(m, f.name) for f in CATALOG},
+                "extra": m.extra,
+                "datasets": [
+                    {
+                        "dataset_id": d.dataset_id,
+                        "points": d.n_points,
+                        "file": d.file_name,
+                        "sha256": d.sha256,
+                        "imported_at": d.imported_at,
+                        "in_use": i == len(sets.get(m.id, [])) - 1,
+                    }
+                    for i, d in enumerate(sets.get(m.id, []))
+                ],
+            }
+            for m in materials
+        ]
+
+    if args.json:
+        _emit(args, rows, [])
+        return 0
+    lines = [f"{len(materials)} grade(s) in {lib.display_location}"]
     # Columns as wide as their longest entry: ids, names and suppliers are never cut.
-    shown = [{key: _one_line(r[key] or "-") for key in ("id", "name", "supplier")} for r in rows]
-    wide = {
-        key: max([len(cells[key]) for cells in shown] + [1]) for key in ("id", "name", "supplier")
-    }
-    for r, cells in zip(rows, shown, strict=True):
-        n = len(r["datasets"])
-        pts = r["datasets"][-1]["points"] if n else 0
+    shown = [
+        (_one_line(m.id or "-"), _one_line(m.name or "-"), _one_line(m.supplier or "-"))
+        for m in materials
+    ]
+    wide = [max([len(cells[k]) for cells in shown] + [1]) for k in range(3)]
+    for m, (gid, name, supplier) in zip(materials, shown, strict=True):
+        own = sets.get(m.id, [])
+        pts = own[-1].n_points if own else 0
         lines.append(
-            f"  {cells['id']:<{wide['id']}}  {cells['name']:<{wide['name']}}  "
-            f"{r['mode']:<8} {cells['supplier']:<{wide['supplier']}}  "
-            f"{n} data set(s), newest {pts} points"
+            f"  {gid:<{wide[0]}}  {name:<{wide[1]}}  {m.mode:<8} {supplier:<{wide[2]}}  "
+            f"{len(own)} data set(s), newest {pts} points"
         )
-    _emit(args, rows, lines)
+    sys.stdout.write("\n".join(lines) + "\n")
     return 0
 
 
@@ -172,7 +180,7 @@ def _grade_id(lib: Library, given: str) -> str:
     """The library's id for ``given``: as written, else the one id equal to it when case
     is ignored; else the library's own error (``Library.material``) with the nearest ids
     as a suggestion."""
-    ids = [m.id for m in lib.materials()]
+    ids = sorted(lib.existing_ids())  # one column, not the whole catalog
     if given in ids:
         return given
     same = [g for g in ids if g.casefold() == given.casefold()]
@@ -1028,6 +1036,7 @@ def _log_warning(message, category, filename, lineno, file=None, line=None) -> N
 
 
 def main(argv: list[str] | None = None) -> int:
+    keep_freed_memory()  # large rankings reuse their freed arrays (engine.base.memory)
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.verbose:

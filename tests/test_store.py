@@ -474,3 +474,10 @@ def test_a_library_is_never_used_until_it_holds_a_grade_and_stays_used(tmp_path,
     assert not any_library.never_used()
     any_library.delete_material("G1")
     assert not any_library.never_used()
+
+
+def test_data_set_rows_are_read_in_the_order_of_the_data_set_fields():
+    # Library.datasets builds each DataSet from a positional row: the query's columns
+    # must be the dataclass's fields in its order.
+    columns = [c.name for c in store._dataset_query().selected_columns]
+    assert columns == [f.name for f in dataclasses.fields(store.DataSet)]

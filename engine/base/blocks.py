@@ -11,14 +11,18 @@ import gc
 import os
 import threading
 from collections.abc import Callable, Iterator
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor
 from contextlib import contextmanager
+from typing import TypeVar
+
+T = TypeVar("T")
 
 BLOCK_POINTS = 1 << 17  # points per block of array work: a 1 MiB float64 temporary
 WORKERS = max(1, min(os.cpu_count() or 1, 4))
 
 _THREAD_PREFIX = "quietgrade-block"
 _pool: ThreadPoolExecutor | None = None
+_side_pool: ThreadPoolExecutor | None = None
 
 
 def _executor() -> ThreadPoolExecutor:
@@ -31,8 +35,8 @@ def _executor() -> ThreadPoolExecutor:
 def _forget_pool() -> None:
     # A forked child (engine.library.fits fits in worker processes) has none of the parent's
     # threads: it starts a pool of its own if it needs one.
-    global _pool
-    _pool = None
+    global _pool, _side_pool
+    _pool = _side_pool = None
 
 
 os.register_at_fork(after_in_child=_forget_pool)
@@ -53,6 +57,28 @@ def in_blocks(n: int, work: Callable[[int, int], None], grades_per_block: int) -
         return
     for future in [_executor().submit(work, a, b) for a, b in bounds]:
         future.result()
+
+
+def beside(work: Callable[[], T]) -> Future[T]:
+    """Start ``work()`` on a thread of its own and return its future.
+
+    For two independent parts of one computation: while the caller does one, the other
+    runs beside it, and the Python between their array passes overlaps the other's
+    array work. The thread is not a block thread, so the work may hand out blocks
+    (:func:`in_blocks`) to the shared workers itself. With one worker it runs at once,
+    in the caller's thread.
+    """
+    global _side_pool
+    if WORKERS == 1:
+        done: Future[T] = Future()
+        try:
+            done.set_result(work())
+        except BaseException as exc:  # noqa: BLE001 - raised again by result()
+            done.set_exception(exc)
+        return done
+    if _side_pool is None:
+        _side_pool = ThreadPoolExecutor(1, thread_name_prefix="quietgrade-beside")
+    return _side_pool.submit(work)
 
 
 def per_block(points_per_grade: int) -> int:

@@ -22,6 +22,7 @@ import threading
 import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass, fields, replace
+from functools import cached_property
 
 import numpy as np
 
@@ -445,13 +446,26 @@ class CurveBank:
 
     @staticmethod
     def _interpolate(table, flat, w, out=None):
-        """table[flat] + w (table[flat + 1] - table[flat]), into ``out``."""
-        low = np.take(table, flat, out=out)
-        high = np.take(table, flat + 1)
+        """table[flat] + w (table[flat + 1] - table[flat]), into ``out``.
+
+        ``flat`` holds valid indices, so the takes skip their bounds check
+        (``mode="clip"``: with ``out`` given, the checking mode also copies), and
+        ``table[1:]`` read at ``flat`` is ``table`` at ``flat + 1`` without the sum.
+        """
+        low = np.take(table, flat, out=out, mode="clip")
+        high = np.take(table[1:], flat, mode="clip")
         high -= low
         high *= w
         low += high
         return low
+
+    @cached_property
+    def inverse_storage(self) -> np.ndarray:
+        """``10**-log_storage`` [1/Pa]: the tables as the natural-frequency solver's
+        bisection reads them (:func:`engine.physics.mount.natural_frequency_tabulated`),
+        made on first use and kept with the bank."""
+        with np.errstate(over="ignore", invalid="ignore"):
+            return 10.0**-self.log_storage
 
     def log_storage_at(self, g, log_reduced_frequency) -> np.ndarray:
         """log10 of the reference-temperature storage modulus [Pa] of grades ``g`` at

@@ -25,6 +25,7 @@ import sqlite3
 from collections.abc import Callable, Iterable, Iterator
 from contextlib import closing, contextmanager
 from dataclasses import dataclass, field
+from dataclasses import fields as dataclass_fields
 from pathlib import Path
 
 import numpy as np
@@ -787,18 +788,16 @@ class Library:
         return Material(**data, extra=extra)
 
     def materials(self, include_deleted: bool = False) -> list[Material]:
-        columns = [c for c in materials_table.c if c.name not in ("deleted_at", "updated_at")]
+        # Material's fields in their order, ``extra`` last: each row is its arguments.
+        columns = [materials_table.c[f.name] for f in dataclass_fields(Material)]
         query = sa.select(*columns).order_by(materials_table.c.id)
         if not include_deleted:
             query = query.where(materials_table.c.deleted_at.is_(None))
-        names = [c.name for c in columns]
         out = []
         with self.engine.connect() as conn:
-            for row in conn.execute(query):  # as tuples: 10,000 rows in ~0.1 s
-                data = dict(zip(names, row, strict=True))
-                text = data.pop("extra")
+            for *row, text in conn.execute(query).fetchall():  # as tuples, in one fetch
                 extra = {} if not text or text == "{}" else json.loads(text)
-                out.append(Material(**data, extra=extra))
+                out.append(Material(*(*row, extra)))
         return out
 
     def never_used(self) -> bool:
@@ -837,7 +836,9 @@ class Library:
             checked_text(material_id, "grade id", ID_MAX_CHARS)
             query = query.where(d.c.material_id == material_id)
         with self.engine.connect() as conn:
-            return [DataSet(**dict(r._mapping)) for r in conn.execute(query)]
+            # The query's columns are DataSet's fields in their order (a test holds
+            # them together); positional rows from one fetch read 10,000 in half the time.
+            return [DataSet(*row) for row in conn.execute(query).fetchall()]
 
     def latest_points(self, material_id: str) -> tuple[DataSet, np.ndarray]:
         """The newest data set of a grade and its points (n x 4 array, see module doc)."""

@@ -657,8 +657,11 @@ class ComplianceTable:
         w = np.clip(pos - i0, 0.0, 1.0)
         width = self.log_compliance.shape[1]
         flat = g * width + i0
-        y0, y1 = np.take(self.log_compliance, flat), np.take(self.log_compliance, flat + 1)
-        m0, m1 = np.take(self.slope, flat) * step, np.take(self.slope, flat + 1) * step
+        # Valid indices: no bounds check; [1:] read at flat is the next node.
+        log_j, slope = self.log_compliance.ravel(), self.slope.ravel()
+        y0, y1 = np.take(log_j, flat, mode="clip"), np.take(log_j[1:], flat, mode="clip")
+        m0 = np.take(slope, flat, mode="clip") * step
+        m1 = np.take(slope[1:], flat, mode="clip") * step
         v = 1.0 - w
         out = np.asarray(
             (y0 * (1.0 + 2.0 * w) + m0 * w) * v * v + (y1 * (3.0 - 2.0 * w) - m1 * v) * w * w

@@ -82,6 +82,7 @@ _K_FACTOR_HARDNESS = np.array([30.0, 35.0, 40.0, 45.0, 50.0, 55.0, 60.0, 65.0, 7
 _K_FACTOR_VALUES = np.array([0.93, 0.89, 0.85, 0.80, 0.73, 0.64, 0.57, 0.54, 0.53, 0.52])
 
 _TWO_PI = 2.0 * np.pi
+NEWTON_SETTLED = 1e-13  # [decades] a Newton step this small has reached the root to rounding
 
 
 class NaturalFrequency(NamedTuple):
@@ -724,9 +725,11 @@ def transmissibility(
     k = _positive("storage_stiffness", storage_stiffness, "N/m")
     eta = _non_negative("loss_factor", loss_factor, "-")
     m = _positive("mass", mass, "kg")
-    k_complex = k * (1.0 + 1j * eta)
+    # |k*| and |k* - m w^2| from their real and imaginary parts (as numpy's abs of a
+    # complex number, without the complex arrays).
+    k_loss = k * eta
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.abs(k_complex) / np.abs(k_complex - m * (_TWO_PI * f) ** 2)
+        return np.hypot(k, k_loss) / np.hypot(k - m * (_TWO_PI * f) ** 2, k_loss)
 
 
 def hysteretic_transmissibility(
@@ -1066,6 +1069,7 @@ def natural_frequency_tabulated(
     f_low: float = 1e-3,
     f_high: float = 1e5,
     bulk_softening: ArrayLike | None = None,
+    inverse_storage_table: ArrayLike | None = None,
 ) -> NaturalFrequency:
     """:func:`natural_frequency_reduced` for master curves given as tables, solved exactly.
 
@@ -1083,6 +1087,9 @@ def natural_frequency_tabulated(
         The table of each entry (broadcast with the arguments after it).
     log_shift, log_stiffness_per_modulus, mass, f_low, f_high, bulk_softening
         As :func:`natural_frequency_reduced`.
+    inverse_storage_table : array [1/Pa], optional
+        ``10**-log_storage_table``, for a caller that solves on the same tables again
+        (:attr:`engine.curves.bank.CurveBank.inverse_storage`); made here if omitted.
 
     Returns
     -------
@@ -1156,18 +1163,28 @@ def natural_frequency_tabulated(
         g_hi = left_side(x_hi, segment_of(x_hi)) - rhs
         ok &= (g_lo <= 0.0) & (g_hi >= 0.0)
 
-    # The last node at or left of the root: bisection over node indices (-1: none).
-    below = np.full(row.shape, -1, dtype=np.intp)
-    above = last_node + 1
+    # The last node at or left of the root: bisection over node indices (-1: none),
+    # started from the nodes either side of the bracket (g rises, so the node at or
+    # below x_lo is left of the root and the node past x_hi right of it).
+    with np.errstate(invalid="ignore"):
+        below = np.where(
+            x_lo >= first,
+            np.clip(np.floor((x_lo - first) / table_step), -1, last_node),
+            -1,
+        ).astype(np.intp)
+        above = np.clip(np.floor((x_hi - first) / table_step) + 1, 0, last_node + 1)
+    above = np.maximum(np.nan_to_num(above, nan=0).astype(np.intp), below + 1)
+    above = np.minimum(above, last_node + 1)
+    right_of = _node_test(
+        table, inverse_storage_table, table_step, row, first, rhs, soft, left_side
+    )
     for _ in range(int(np.ceil(np.log2(width + 1))) + 1):
         open_ = above - below > 1
         if not open_.any():
             break
         mid = (below + above) // 2
         node = np.clip(mid, 0, last_node)
-        x_mid = first + node * table_step
-        with np.errstate(invalid="ignore"):
-            right_of_root = left_side(x_mid, node, at_node=True) - rhs > 0.0
+        right_of_root = right_of(node)
         below = np.where(open_ & ~right_of_root, mid, below)
         above = np.where(open_ & right_of_root, mid, above)
     seg = np.clip(below, 0, last_node - 1)
@@ -1193,10 +1210,55 @@ def natural_frequency_tabulated(
                 step = g / (1.0 - 0.5 * slope / (1.0 + stiff))
                 newton = x - step
             inside = np.isfinite(newton) & (newton >= lo) & (newton <= hi)
-            x = np.where(inside, newton, 0.5 * (lo + hi))
+            moved = np.where(inside, newton, 0.5 * (lo + hi))
+            with np.errstate(invalid="ignore"):
+                done = not (np.abs(moved - x) > NEWTON_SETTLED).any()
+            x = moved
+            if done:  # quadratic on a convex segment: settled in three or four steps
+                break
     ok &= np.isfinite(x)
     frequency = np.where(ok, 10.0 ** (x - shift), np.nan)
     return NaturalFrequency(frequency=frequency.reshape(shape), converged=ok.reshape(shape))
+
+
+def _node_test(table, inverse, step, row, first, rhs, soft, left_side):
+    """The bisection's test of :func:`natural_frequency_tabulated`: a function of node
+    indices, true where ``g`` at the node is above zero (the node right of the root).
+
+    ``g(x_i) = x_i - h(L_i) / 2 - r`` with ``h(L) = L - log10(1 + s 10**L) =
+    -log10(10**-L + s)``, so ``g(x_i) > 0`` exactly when ``10**-L_i + s > 10**(2 (r -
+    x_i))``, and with ``x_i = first + i step`` the right side is ``10**(2 (r - first))``
+    times ``10**(-2 step i)``: two table reads and a product per step, no logarithm.
+    The exponent is held to +-300, which changes no outcome while the node factor
+    stays above 1e-280 and the modulus above 1e-20 Pa (every real one): tables
+    spanning more than 140 decades take the logarithmic test instead.
+    """
+    width = table.shape[1]
+    if 2.0 * step * (width - 1) > 280.0:
+
+        def by_logarithms(node):
+            with np.errstate(invalid="ignore"):
+                x = first + node * step
+                return left_side(x, node, at_node=True) - rhs > 0.0
+
+        return by_logarithms
+    if inverse is None:
+        with np.errstate(over="ignore", invalid="ignore"):
+            inverse = 10.0 ** -np.asarray(table, dtype=float)
+    inverse = np.asarray(inverse, dtype=float).ravel()
+    node_factor = 10.0 ** (-2.0 * step * np.arange(width))
+    with np.errstate(over="ignore", invalid="ignore"):
+        scale = 10.0 ** np.clip(2.0 * (rhs - first), -300.0, 300.0)
+    base = row * width
+
+    def by_products(node):
+        left = np.take(inverse, base + node, mode="clip")
+        if soft is not None:
+            left += soft
+        with np.errstate(invalid="ignore"):
+            return left > scale * np.take(node_factor, node, mode="clip")
+
+    return by_products
 
 
 def natural_frequency_scalar(

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.base.blocks import in_blocks, per_block
+from engine.base.blocks import beside, in_blocks, per_block
 from engine.base.errors import CriteriaError
 from engine.base.fields import number_fields
 from engine.curves.bank import CurveBank
@@ -153,21 +153,26 @@ def evaluate_grades(
     n = len(bank.ids)
     window = criteria.window
     catalog = _catalog_columns(materials)
+    design = criteria.mount
+    # The mount check does not read the window's properties: it runs beside them.
+    mount_check = None
+    if design is not None:
+        mount_check = beside(
+            lambda: check_mounts(
+                bank,
+                design,
+                window.temperatures,
+                catalog["poisson_ratio"],
+                catalog["hardness"],
+                bulk_modulus=catalog["bulk_modulus"],
+                amplitude_sweeps=amplitude_sweeps,
+            )
+        )
     props = evaluate_window(bank, window, catalog["poisson_ratio"])
     specs = {c.name: c.spec() for c in criteria.indices}
     point = [c for c in criteria.indices if specs[c.name].kind == "point"]
     values, eta_worst = _point_indices(props, catalog, point, specs)
-    mres = None
-    if criteria.mount is not None:
-        mres = check_mounts(
-            bank,
-            criteria.mount,
-            window.temperatures,
-            catalog["poisson_ratio"],
-            catalog["hardness"],
-            bulk_modulus=catalog["bulk_modulus"],
-            amplitude_sweeps=amplitude_sweeps,
-        )
+    mres = None if mount_check is None else mount_check.result()
     whole = {
         "storage_modulus": props.storage.reshape(n, -1),
         "path_temperatures": props.path_temperatures,

@@ -18,7 +18,7 @@ if TYPE_CHECKING:  # engine.selection.spread builds on this module
     from engine.selection.spread import GradeSpread, RankSpread
 
 
-@dataclass
+@dataclass(slots=True)
 class Failure:
     """A failed constraint: what, the value found, the limit; ``topic`` groups them
     ("catalog", "window" or "mount"). ``kind`` names what failed without the grade's
