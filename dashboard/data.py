@@ -9,7 +9,10 @@ here, which Streamlit only reads when it sends them.
 
 from __future__ import annotations
 
+import gc
 import json
+import threading
+from collections import OrderedDict
 from collections.abc import Callable, Mapping
 
 import numpy as np
@@ -89,21 +92,86 @@ def catalog(location: str, version: int) -> dict[str, Material]:
     return {m.id: m for m in library_at(location).materials()}
 
 
-@st.cache_resource(max_entries=32, show_spinner=False)
-def _ranked(location: str, version: int, criteria_key: str, _criteria: Criteria) -> RankResult:
-    """The ranking under ``_criteria``, kept per ``criteria_key`` (their file form)."""
+# Rankings kept for going back to a window seen before: as many as hold this many
+# grades in all (a ranking of 10,000 grades keeps about 300 MB of window arrays and
+# 77,000 objects), at most RANKINGS_KEPT of any size.
+RANKINGS_KEPT_GRADES = 40_000
+RANKINGS_KEPT = 32
+# A full garbage collection with a large library in memory takes 0.1-0.2 s; it is run
+# this long after the last ranking, when the page has been drawn, instead of at a
+# moment of the interpreter's choosing inside the next rerun.
+IDLE_COLLECT_S = 2.0
+
+
+class _Rankings:
+    """The kept rankings, newest last, within :data:`RANKINGS_KEPT_GRADES` grades."""
+
+    def __init__(self) -> None:
+        self.lock = threading.Lock()
+        self.kept: OrderedDict[tuple, RankResult] = OrderedDict()
+        self.collector: threading.Timer | None = None
+
+    def get(self, key: tuple) -> RankResult | None:
+        with self.lock:
+            found = self.kept.get(key)
+            if found is not None:
+                self.kept.move_to_end(key)
+            return found
+
+    def put(self, key: tuple, result: RankResult) -> None:
+        with self.lock:
+            for old in [k for k in self.kept if k[0] == key[0] and k[1] != key[1]]:
+                del self.kept[old]  # another version of the same library
+            self.kept[key] = result
+            self.kept.move_to_end(key)
+            while len(self.kept) > 1 and (
+                len(self.kept) > RANKINGS_KEPT
+                or sum(len(r.grades) for r in self.kept.values()) > RANKINGS_KEPT_GRADES
+            ):
+                self.kept.popitem(last=False)
+
+    def clear(self) -> None:
+        with self.lock:
+            self.kept.clear()
+
+    def collect_when_idle(self) -> None:
+        """A full collection :data:`IDLE_COLLECT_S` after the last call (a new call
+        puts it off again)."""
+        with self.lock:
+            if self.collector is not None:
+                self.collector.cancel()
+            self.collector = threading.Timer(IDLE_COLLECT_S, gc.collect)
+            self.collector.daemon = True
+            self.collector.start()
+
+
+@st.cache_resource(show_spinner=False)
+def _rankings() -> _Rankings:
+    return _Rankings()
+
+
+def _ranked(location: str, version: int, criteria_key: str, criteria: Criteria) -> RankResult:
+    """The ranking under ``criteria``, kept per ``criteria_key`` (their file form)."""
+    store = _rankings()
+    key = (location, version, criteria_key)
+    found = store.get(key)
+    if found is not None:
+        return found
     library = library_at(location)
-    found = _fit_store().get((location, version)) or fitted_library(library)
+    fitted_now = _fit_store().get((location, version)) or fitted_library(library)
     materials = catalog(location, version)
-    sweeps = working_sweeps(library, _criteria)
-    return rank(
-        found.curves,
+    sweeps = working_sweeps(library, criteria)
+    result = rank(
+        fitted_now.curves,
         materials,
-        _criteria,
-        found.errors,
-        bank=found.bank,
+        criteria,
+        fitted_now.errors,
+        bank=fitted_now.bank,
         amplitude_sweeps=sweeps,
     )
+    store.put(key, result)
+    store.collect_when_idle()
+    return result
 
 
 def ranking_key(library: Library, criteria: Criteria) -> str:

@@ -7,6 +7,7 @@ log-log, so agreement to 0.5 % is the interpolation error of that grid (common p
 
 from __future__ import annotations
 
+import sys
 import threading
 
 import numpy as np
@@ -182,6 +183,46 @@ def test_blocks_handed_out_inside_a_block_run_in_its_thread(monkeypatch):
     runner.join(timeout=20.0)
     assert not runner.is_alive(), "nested blocks waited on their own pool"
     assert len(done) == 24
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_work_beside_the_caller_returns_its_value_and_raises_its_error(monkeypatch, workers):
+    # engine.base.blocks.beside: the mount check runs beside the window's evaluation; a
+    # failure in it must reach the caller, and it may hand out blocks itself.
+    from engine.base import blocks
+
+    monkeypatch.setattr(blocks, "WORKERS", workers)
+    done = []
+
+    def inner(a, b):
+        done.append((a, b))
+
+    def with_blocks():
+        blocks.in_blocks(4, inner, 1)
+        return threading.current_thread().name
+
+    name = blocks.beside(with_blocks).result(timeout=20.0)
+    assert len(done) == 4
+    assert (name == threading.current_thread().name) == (workers == 1)
+
+    def failing():
+        raise ValueError("in the mount check")
+
+    with pytest.raises(ValueError, match="in the mount check"):
+        blocks.beside(failing).result(timeout=20.0)
+
+
+def test_freed_memory_is_kept_where_the_c_library_allows_it():
+    # engine.base.memory: on Linux with glibc the mallopt calls are taken (they return
+    # 1); elsewhere nothing is set. A second call gives the first call's answer.
+    import platform
+
+    from engine.base.memory import keep_freed_memory
+
+    taken = keep_freed_memory()
+    glibc = sys.platform.startswith("linux") and platform.libc_ver()[0] == "glibc"
+    assert taken == glibc
+    assert keep_freed_memory() == taken
 
 
 # ------------------------------------------------------------------ creep compliance

@@ -1328,3 +1328,33 @@ def test_curves_charts_read_at_a_glance(glance):
     assert not [t for t in relax.data if t.text]  # no values beside the marks
     named = [t.name for t in relax.data if t.showlegend is not False]
     assert all("at 1 h" in n and "at 1000 h" in n for n in named)
+
+
+def test_kept_rankings_stay_within_their_grade_budget(monkeypatch):
+    # dashboard.data._Rankings: rankings of a large library are kept a few at a time
+    # (each holds its window arrays), small ones up to RANKINGS_KEPT; the one asked for
+    # last is kept longest; another version of the library drops the old one's.
+    from types import SimpleNamespace
+
+    from dashboard import data
+
+    monkeypatch.setattr(data, "RANKINGS_KEPT_GRADES", 25_000)
+    store = data._Rankings()
+
+    def ranking(n):
+        return SimpleNamespace(grades=[None] * n)
+
+    for k in range(4):
+        store.put(("lib", 1, f"window {k}"), ranking(10_000))
+    assert [key[2] for key in store.kept] == ["window 2", "window 3"]
+    assert store.get(("lib", 1, "window 2")) is not None  # now the newest
+    store.put(("lib", 1, "window 4"), ranking(10_000))
+    assert [key[2] for key in store.kept] == ["window 2", "window 4"]
+    for k in range(40):
+        store.put(("small", 1, f"window {k}"), ranking(14))
+    assert len(store.kept) == data.RANKINGS_KEPT
+    store.put(("small", 2, "window 0"), ranking(14))
+    assert [key for key in store.kept if key[0] == "small"] == [("small", 2, "window 0")]
+    one_large = data._Rankings()
+    one_large.put(("huge", 1, "w"), ranking(100_000))  # over the budget alone: still kept
+    assert one_large.get(("huge", 1, "w")) is not None

@@ -305,7 +305,7 @@ def test_a_ranking_that_fails_leaves_the_other_pages_working(monkeypatch, hostil
         raise ValueError("relaxation times tau must be finite and positive")
 
     monkeypatch.setattr(data, "rank", broken)
-    data._ranked.clear()
+    data._rankings().clear()
     at = app(monkeypatch, hostile_db, le="0.0123")  # a case no earlier test ranked
     assert not at.exception
     assert any("no ranking: an unexpected ValueError" in e.value for e in at.error)

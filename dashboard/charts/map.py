@@ -143,7 +143,7 @@ def density_counts(
     return counts, passing
 
 
-def density_trace(result: RankResult, rows: Sequence[int], xs: tuple, ys: tuple) -> go.Heatmap:
+def density_trace(result: RankResult, rows: Sequence[int], xs: tuple, ys: tuple) -> dict:
     """The grades ``rows`` as a shaded count behind the paths: cells of
     ``DENSITY_BINS`` x ``DENSITY_BINS`` over the axis spans ``xs``, ``ys`` [log10], each
     as dark as the square root of the number of grades passing through it (the hover
@@ -156,7 +156,8 @@ def density_trace(result: RankResult, rows: Sequence[int], xs: tuple, ys: tuple)
     passed = np.array([status[gid] for gid in props.ids], dtype=bool)
     counts, passing = density_counts(eta, storage, rows, x_edges, y_edges, passed)
     shade = np.where(counts > 0, np.sqrt(counts), np.nan)
-    return go.Heatmap(
+    return dict(
+        type="heatmap",
         x=10.0**x_edges,
         y=10.0**y_edges,
         z=shade,
@@ -251,7 +252,7 @@ def find_grades(result: RankResult, text: str, limit: int = FIND_LIMIT) -> tuple
     return found[:limit], len(found)
 
 
-def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = None) -> list:
+def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = None) -> list[dict]:
     """Many grades (rows of the ranking's window props) as two traces per state: their
     paths, and their marks.
 
@@ -264,13 +265,16 @@ def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = 
     few hundred grades cost more than the rest of a rerun. ``marks`` (booleans, one per
     path temperature) keeps the marks at some temperatures only (default: all), as one
     SVG trace: a few thousand marks draw quicker so than through a WebGL context.
+    The traces are plain dicts, as are those of :func:`density_trace` and
+    :func:`path_band_trace`: a figure checks a dict once as it adds it, a graph object
+    when it is made and again when it is added.
     """
     props = result.window_props
     grades = {g.id: g for g in result.grades}
     temps, storage, eta = mapfigure.path_arrays(result)
     at = np.ones(temps.size, dtype=bool) if marks is None else np.asarray(marks, dtype=bool)
     n_t = int(at.sum())
-    traces = []
+    traces: list[dict] = []
     for passed in (True, False):
         ks = np.array([k for k in rows if grades[props.ids[k]].passed == passed], dtype=int)
         if not ks.size:
@@ -305,7 +309,8 @@ def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = 
         colour = faded(INK, alpha)
         group = f"{'set' if chosen else 'others'}, {state}"
         traces.append(
-            go.Scatter(
+            dict(
+                type="scatter",
                 x=xs,
                 y=ys,
                 mode="lines",
@@ -315,9 +320,9 @@ def crowd_traces(result, rows, chosen: bool = False, marks: np.ndarray | None = 
                 hoverinfo="skip",
             )
         )
-        marks_trace = go.Scatter if marks is not None else go.Scattergl
         traces.append(
-            marks_trace(
+            dict(
+                type="scatter" if marks is not None else "scattergl",
                 x=eta[ks][:, at].ravel(),
                 y=storage[ks][:, at].ravel(),
                 mode="markers",
@@ -354,8 +359,9 @@ def map_figure(
 
     A large library (:func:`crowd_plan`): apart from the top ranks and the first grades
     of the comparison set, grades share a few traces (passing or excluded, in the set or
-    not), which keeps a rerun quick; a very large one draws only some of the others, with
-    marks every ``MARK_EVERY_K`` only, shades the cells the rest pass through
+    not), which keeps a rerun quick; a very large one draws only some of the others
+    (marked at their ends, the set's grades every ``MARK_EVERY_K``), shades the cells
+    the rest pass through
     (:func:`density_trace`); :meth:`CrowdPlan.note` says so in a line for the page.
     ``plan`` is that plan when the caller has made it already.
 
@@ -369,19 +375,23 @@ def map_figure(
     if plan is None:
         plan = crowd_plan(result, mapfigure.shown_rows(result, show_excluded), chosen)
     own, shared = plan.own, []
-    marks = None
+    marks = ends = None
     if plan.thinned:
         temps = np.asarray(props.path_temperatures, dtype=float)
         step = np.mod(temps, mapfigure.MARK_EVERY_K)
         marks = np.isclose(step, 0.0) | np.isclose(step, mapfigure.MARK_EVERY_K)
         marks[0] = marks[-1] = True
+        # The others drawn from the crowd: a mark at each end (where the hover names
+        # them); marks every few kelvin on 200 grey paths cost the browser 0.1 s a draw.
+        ends = np.zeros(temps.size, dtype=bool)
+        ends[0] = ends[-1] = True
         _, storage, eta = mapfigure.path_arrays(result)
         rows = list(plan.aggregated)
         shared.append(
             density_trace(result, rows, log_span(eta[rows], 0.01), log_span(storage[rows], 0.01))
         )
     if own is not None:
-        shared += crowd_traces(result, plan.drawn, marks=marks)
+        shared += crowd_traces(result, plan.drawn, marks=ends)
         shared += crowd_traces(result, plan.picked, chosen=True, marks=marks)
     beneath = {}
     if bands:
@@ -443,7 +453,7 @@ def path_band_trace(
     frequency: float,
     tensile: float,
     colour: str,
-) -> go.Scatter:
+) -> dict:
     """The 95 % intervals of a grade's map path as one shaded tube.
 
     At every temperature of the path the interval of E' (times ``tensile``, which makes
@@ -464,7 +474,8 @@ def path_band_trace(
     xs = np.column_stack([n_lo, n_hi, n_hi, n_lo, n_lo, gap]).ravel()
     ys = np.column_stack([e_lo, e_lo, e_hi, e_hi, e_lo, gap]).ravel()
     fill, edge = band_colours(colour)
-    return go.Scatter(
+    return dict(
+        type="scatter",
         x=xs,
         y=ys,
         mode="lines",

@@ -22,7 +22,6 @@ import threading
 import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass, fields, replace
-from functools import cached_property
 
 import numpy as np
 
@@ -458,14 +457,6 @@ class CurveBank:
         high *= w
         low += high
         return low
-
-    @cached_property
-    def inverse_storage(self) -> np.ndarray:
-        """``10**-log_storage`` [1/Pa]: the tables as the natural-frequency solver's
-        bisection reads them (:func:`engine.physics.mount.natural_frequency_tabulated`),
-        made on first use and kept with the bank."""
-        with np.errstate(over="ignore", invalid="ignore"):
-            return 10.0**-self.log_storage
 
     def log_storage_at(self, g, log_reduced_frequency) -> np.ndarray:
         """log10 of the reference-temperature storage modulus [Pa] of grades ``g`` at

@@ -770,12 +770,10 @@ def check_mounts(
             log_k[a:b],
             m,
             bulk_softening=softening[a:b],
-            inverse_storage_table=bank.inverse_storage,
         )
         fn[a:b], ok[a:b] = nat
 
     if n:
-        bank.inverse_storage  # made once here, not in each block  # noqa: B018
         in_blocks(n, solve, per_worker(n))
     fn_safe = np.where(ok, fn, 1.0)
     st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)

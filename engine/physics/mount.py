@@ -82,6 +82,7 @@ _K_FACTOR_HARDNESS = np.array([30.0, 35.0, 40.0, 45.0, 50.0, 55.0, 60.0, 65.0, 7
 _K_FACTOR_VALUES = np.array([0.93, 0.89, 0.85, 0.80, 0.73, 0.64, 0.57, 0.54, 0.53, 0.52])
 
 _TWO_PI = 2.0 * np.pi
+LN10 = np.log(10.0)
 NEWTON_SETTLED = 1e-13  # [decades] a Newton step this small has reached the root to rounding
 
 
@@ -1069,7 +1070,6 @@ def natural_frequency_tabulated(
     f_low: float = 1e-3,
     f_high: float = 1e5,
     bulk_softening: ArrayLike | None = None,
-    inverse_storage_table: ArrayLike | None = None,
 ) -> NaturalFrequency:
     """:func:`natural_frequency_reduced` for master curves given as tables, solved exactly.
 
@@ -1087,9 +1087,6 @@ def natural_frequency_tabulated(
         The table of each entry (broadcast with the arguments after it).
     log_shift, log_stiffness_per_modulus, mass, f_low, f_high, bulk_softening
         As :func:`natural_frequency_reduced`.
-    inverse_storage_table : array [1/Pa], optional
-        ``10**-log_storage_table``, for a caller that solves on the same tables again
-        (:attr:`engine.curves.bank.CurveBank.inverse_storage`); made here if omitted.
 
     Returns
     -------
@@ -1175,9 +1172,7 @@ def natural_frequency_tabulated(
         above = np.clip(np.floor((x_hi - first) / table_step) + 1, 0, last_node + 1)
     above = np.maximum(np.nan_to_num(above, nan=0).astype(np.intp), below + 1)
     above = np.minimum(above, last_node + 1)
-    right_of = _node_test(
-        table, inverse_storage_table, table_step, row, first, rhs, soft, left_side
-    )
+    right_of = _node_test(values, width, table_step, row, first, rhs, soft, left_side)
     for _ in range(int(np.ceil(np.log2(width + 1))) + 1):
         open_ = above - below > 1
         if not open_.any():
@@ -1221,19 +1216,19 @@ def natural_frequency_tabulated(
     return NaturalFrequency(frequency=frequency.reshape(shape), converged=ok.reshape(shape))
 
 
-def _node_test(table, inverse, step, row, first, rhs, soft, left_side):
+def _node_test(values, width, step, row, first, rhs, soft, left_side):
     """The bisection's test of :func:`natural_frequency_tabulated`: a function of node
     indices, true where ``g`` at the node is above zero (the node right of the root).
 
     ``g(x_i) = x_i - h(L_i) / 2 - r`` with ``h(L) = L - log10(1 + s 10**L) =
     -log10(10**-L + s)``, so ``g(x_i) > 0`` exactly when ``10**-L_i + s > 10**(2 (r -
     x_i))``, and with ``x_i = first + i step`` the right side is ``10**(2 (r - first))``
-    times ``10**(-2 step i)``: two table reads and a product per step, no logarithm.
-    The exponent is held to +-300, which changes no outcome while the node factor
-    stays above 1e-280 and the modulus above 1e-20 Pa (every real one): tables
-    spanning more than 140 decades take the logarithmic test instead.
+    times ``10**(-2 step i)``: one exponential per entry and step, no logarithm (the
+    logarithmic form costs a power and a log1p). The exponent is held to +-300, which
+    changes no outcome while the node factor stays above 1e-280 and the modulus above
+    1e-20 Pa (every real one): tables spanning more than 140 decades take the
+    logarithmic test instead.
     """
-    width = table.shape[1]
     if 2.0 * step * (width - 1) > 280.0:
 
         def by_logarithms(node):
@@ -1242,17 +1237,15 @@ def _node_test(table, inverse, step, row, first, rhs, soft, left_side):
                 return left_side(x, node, at_node=True) - rhs > 0.0
 
         return by_logarithms
-    if inverse is None:
-        with np.errstate(over="ignore", invalid="ignore"):
-            inverse = 10.0 ** -np.asarray(table, dtype=float)
-    inverse = np.asarray(inverse, dtype=float).ravel()
-    node_factor = 10.0 ** (-2.0 * step * np.arange(width))
+    node_factor = np.exp(-2.0 * LN10 * step * np.arange(width))
     with np.errstate(over="ignore", invalid="ignore"):
-        scale = 10.0 ** np.clip(2.0 * (rhs - first), -300.0, 300.0)
+        scale = np.exp(LN10 * np.clip(2.0 * (rhs - first), -300.0, 300.0))
     base = row * width
 
     def by_products(node):
-        left = np.take(inverse, base + node, mode="clip")
+        left = np.take(values, base + node, mode="clip")
+        left *= -LN10
+        np.exp(left, out=left)  # 10**-L
         if soft is not None:
             left += soft
         with np.errstate(invalid="ignore"):
