@@ -40,6 +40,12 @@ def curves():
             sweep(temperatures=np.arange(-5.0, 86.0, 5.0), noise=0.01, seed=4), "tensile"
         ),
         "single": build_master_curve(sweep(temperatures=[20.0]), "tensile"),
+        # A 25 K gap above Tg: reduced frequencies without data, flagged extrapolated.
+        "gapped": build_master_curve(
+            sweep(temperatures=[-20.0, -15.0, -10.0, 15.0, 20.0, 25.0, 30.0, 35.0, 40.0]),
+            "tensile",
+            reference_C=20.0,
+        ),
     }
 
 
@@ -120,7 +126,7 @@ def test_evaluate_rows_broadcasts_one_frequency(bank):
 
 
 def test_evaluate_rows_needs_one_row_per_grade(bank):
-    with pytest.raises(ValueError, match=r"one row per grade \(5\)"):
+    with pytest.raises(ValueError, match=rf"one row per grade \({len(bank)}\)"):
         bank.evaluate_rows(np.zeros((len(bank) - 1, 3)), 1.0)
 
 
@@ -257,7 +263,7 @@ def test_compliance_rows_with_a_precomputed_shift(bank):
     shifted = bank.compliance_rows(temps, 10.0, shift=bank.shift_rows(temps))
     for got, want in zip(shifted, plain, strict=True):
         np.testing.assert_array_equal(got, want)
-    with pytest.raises(ValueError, match=r"one row per grade \(5\)"):
+    with pytest.raises(ValueError, match=rf"one row per grade \({len(bank)}\)"):
         bank.compliance_rows(np.zeros((2, 3)), 10.0)
 
 

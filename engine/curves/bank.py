@@ -506,8 +506,19 @@ class CurveBank:
         np.less(log_fr, self.fr_lo[g] - 1e-9, out=out)
         out |= log_fr > self.fr_hi[g] + 1e-9
         if self.gaps is not None:
+            gi = np.asarray(g)
+            # One grade a row (as evaluation in blocks has it): only the rows of grades
+            # with a gap are compared, most grades having none.
+            per_row = gi.ndim == out.ndim and gi.size == out.shape[0]
             for j in range(self.gaps.shape[1]):
                 g_lo, g_hi = self.gaps[g, j, 0], self.gaps[g, j, 1]
+                if per_row:
+                    rows = np.flatnonzero(~np.isnan(g_lo.ravel()))
+                    if rows.size < out.shape[0]:
+                        if rows.size:
+                            x = np.broadcast_to(log_fr, out.shape)[rows]
+                            out[rows] |= (x > g_lo[rows]) & (x < g_hi[rows])
+                        continue
                 if not np.isnan(g_lo).all():
                     out |= (log_fr > g_lo) & (log_fr < g_hi)  # NaN pads compare False
         out |= np.where(

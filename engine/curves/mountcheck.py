@@ -597,6 +597,7 @@ def check_mounts(
     hardness: np.ndarray,
     bulk_modulus: np.ndarray | None = None,
     amplitude_sweeps: Mapping[str, np.ndarray] | None = None,
+    shift: np.ndarray | None = None,
 ) -> MountResult:
     """Mount check of every grade in ``bank`` at ``temperatures`` [degC].
 
@@ -619,6 +620,9 @@ def check_mounts(
         factor to the working amplitude (fn, transmissibility, amplification and the
         sizing; the static figures stay on the creep compliance). A grade of
         `FILLED_HARDNESS` Shore A or more without a usable sweep gets a note.
+    shift : array, optional
+        ``bank.shift_rows`` at ``temperatures`` (grades x temperatures), when the caller
+        has it already (:func:`engine.selection.evaluation.evaluate_grades`).
 
     Returns
     -------
@@ -749,7 +753,8 @@ def check_mounts(
         return k
 
     t_rows = np.broadcast_to(t[None, :], (n, t.size))
-    shift_rows = bank.shift_rows(t_rows)  # log10 aT once, for every evaluation below
+    # log10 aT once, for every evaluation below
+    shift_rows = bank.shift_rows(t_rows) if shift is None else np.asarray(shift)
     extrap = np.zeros((n, t.size), dtype=bool)
     vertical = bank.vertical_factor(np.arange(n)[:, None], t_rows)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -797,11 +802,12 @@ def check_mounts(
     life_s = design.service_life_h * 3600.0
     j_l, x_l = bank.compliance_rows(np.full((n, 1), t_hot), life_s)
     sag = mount.static_deflection(m, pad_stiffness(1.0 / j_l))[:, 0]
-    for k in np.flatnonzero(x_l[:, 0]):
-        notes.setdefault(ids[k], []).append(
-            f"long-term sag after {design.service_life_h:g} h at {t_hot:g} °C extrapolates "
-            "the master curve"
-        )
+    sag_note = (
+        f"long-term sag after {design.service_life_h:g} h at {t_hot:g} °C extrapolates "
+        "the master curve"
+    )
+    for row in np.flatnonzero(x_l[:, 0]).tolist():
+        notes.setdefault(ids[row], []).append(sag_note)
     critical = None
     if compression:
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -818,9 +824,10 @@ def check_mounts(
             second_moment_ratio=second_moment,
             poisson_ratio=nu[usable],
         )
-        for k in np.flatnonzero(s_factor < SLENDER_SHAPE_FACTOR):
-            notes.setdefault(ids[k], []).append(
-                f"shape factor {s_factor[k]:.2f}: a tall, slender pad; check it against "
+        slender = np.flatnonzero(s_factor < SLENDER_SHAPE_FACTOR)
+        for row, value in zip(slender.tolist(), s_factor[slender].tolist(), strict=True):
+            notes.setdefault(ids[row], []).append(
+                f"shape factor {value:.2f}: a tall, slender pad; check it against "
                 "buckling or use a wider, thinner pad"
             )
         for k in np.flatnonzero(mount.is_high_shape_factor(s_factor)):

@@ -327,26 +327,48 @@ def tensile_factor(modes, poisson) -> np.ndarray:
     return np.where(np.asarray(modes) == "shear", 2.0 * (1.0 + nu), 1.0)
 
 
+def check_window_size(grades: int, window: OperatingWindow, path_step: float = 1.0) -> None:
+    """CriteriaError when :func:`evaluate_window` of ``grades`` grades over ``window``
+    would evaluate more than :data:`MAX_WINDOW_VALUES` values at once."""
+    t, f = window.temperatures, window.frequencies
+    lo, hi = window.temp_range
+    n_path = int((hi - lo) / path_step) + 2
+    values = grades * (t.size * f.size + len(window.duty_points) + n_path)
+    if values > MAX_WINDOW_VALUES:
+        raise CriteriaError(
+            f"the window of {t.size:,} temperatures x {f.size:,} frequencies over "
+            f"{grades:,} grades asks for {values:,} values, more than the "
+            f"{MAX_WINDOW_VALUES:,} evaluated at once; use a coarser temperature step or "
+            "fewer frequencies"
+        )
+
+
 def evaluate_window(
-    bank: CurveBank, window: OperatingWindow, poisson: np.ndarray, path_step: float = 1.0
+    bank: CurveBank,
+    window: OperatingWindow,
+    poisson: np.ndarray,
+    path_step: float = 1.0,
+    shift: np.ndarray | None = None,
 ) -> WindowProps:
     """Properties of all grades of ``bank`` over ``window`` in one pass.
 
     ``poisson`` holds each grade's Poisson ratio (NaN: 0.5) for the E <-> G conversion.
+    ``shift`` may hold ``bank.shift_rows`` at the window's temperatures (grades x
+    temperatures), made once for this and the mount check.
     """
     t = window.temperatures
     f = window.frequencies
     lo, hi = window.temp_range
-    n_path = int((hi - lo) / path_step) + 2
-    values = len(bank.ids) * (t.size * f.size + len(window.duty_points) + n_path)
-    if values > MAX_WINDOW_VALUES:
-        raise CriteriaError(
-            f"the window of {t.size:,} temperatures x {f.size:,} frequencies over "
-            f"{len(bank.ids):,} grades asks for {values:,} values, more than the "
-            f"{MAX_WINDOW_VALUES:,} evaluated at once; use a coarser temperature step or "
-            "fewer frequencies"
+    check_window_size(len(bank.ids), window, path_step)
+    if shift is None:
+        storage, loss, extrap = bank.evaluate(t[:, None], f[None, :])
+    else:
+        n = len(bank.ids)
+        storage, loss, extrap = bank.evaluate_rows(
+            np.broadcast_to(t[None, :, None], (n, t.size, 1)),
+            f[None, None, :],
+            shift=np.asarray(shift)[:, :, None],
         )
-    storage, loss, extrap = bank.evaluate(t[:, None], f[None, :])
     to_e = tensile_factor(bank.modes, poisson)
     if (to_e != 1.0).any():
         storage *= to_e[:, None, None]

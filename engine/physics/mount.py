@@ -1133,32 +1133,31 @@ def natural_frequency_tabulated(
     first = start[row]
     last_node = count[row] - 1
 
-    def left_side(x, node_low, at_node=None):
+    every = slice(None)
+
+    def left_side(x, node_low, at_node=None, idx=every):
         """g(x) + r on the segment starting at ``node_low`` (its linear extension beyond
-        the table's ends), or at the node itself with ``at_node``."""
-        base = row * width + node_low
+        the table's ends), or at the node itself with ``at_node``; of the entries
+        ``idx`` (default all)."""
+        base = row[idx] * width + node_low
         if at_node is not None:
             level = np.take(values, base)
         else:
             y0 = np.take(values, base)
             y1 = np.take(values, base + 1)
-            level = y0 + (x - (first + node_low * table_step)) / table_step * (y1 - y0)
+            level = y0 + (x - (first[idx] + node_low * table_step)) / table_step * (y1 - y0)
         if soft is None:
             return x - 0.5 * level
         with np.errstate(over="ignore"):
-            series = np.log1p(soft * 10.0**level) / np.log(10.0)
+            series = np.log1p(soft[idx] * np.exp(LN10 * level)) / LN10
         return x - 0.5 * (level - series)
 
-    def segment_of(x):
-        pos = np.floor((x - first) / table_step)
-        return np.clip(pos, 0, last_node - 1).astype(np.intp)
+    def segment_of(x, idx=every):
+        pos = np.floor((x - first[idx]) / table_step)
+        return np.clip(pos, 0, last_node[idx] - 1).astype(np.intp)
 
     x_lo = np.log10(low) + shift
     x_hi = np.log10(high) + shift
-    with np.errstate(invalid="ignore"):
-        g_lo = left_side(x_lo, segment_of(x_lo)) - rhs
-        g_hi = left_side(x_hi, segment_of(x_hi)) - rhs
-        ok &= (g_lo <= 0.0) & (g_hi >= 0.0)
 
     # The last node at or left of the root: bisection over node indices (-1: none),
     # started from the nodes either side of the bracket (g rises, so the node at or
@@ -1182,6 +1181,18 @@ def natural_frequency_tabulated(
         right_of_root = right_of(node)
         below = np.where(open_ & ~right_of_root, mid, below)
         above = np.where(open_ & right_of_root, mid, above)
+    # A root in the bracket: g(x_lo) <= 0 and g(x_hi) >= 0. Where the bisection moved off
+    # its first node below, that node has g <= 0 and lies right of x_lo, so g(x_lo) <= 0
+    # (g rises); where it found a node with g > 0 at or left of x_hi, g(x_hi) > 0. Only
+    # the other entries (a root near or beyond an end of the bracket) are evaluated there.
+    with np.errstate(invalid="ignore"):
+        at_lo = np.flatnonzero(ok & ((below < 0) | (first + below * table_step <= x_lo)))
+        at_hi = np.flatnonzero(ok & ((above > last_node) | (first + above * table_step > x_hi)))
+        for at, x_end, inside in ((at_lo, x_lo, np.less_equal), (at_hi, x_hi, np.greater_equal)):
+            if at.size:
+                x_at = x_end[at]
+                g_end = left_side(x_at, segment_of(x_at, at), idx=at) - rhs[at]
+                ok[at] &= inside(g_end, 0.0)
     seg = np.clip(below, 0, last_node - 1)
     x0 = first + seg * table_step
     base = row * width + seg
@@ -1197,8 +1208,8 @@ def natural_frequency_tabulated(
         for _ in range(8):  # Newton on the segment, kept inside [lo, hi] by bisection
             level = y0 + (x - x0) * slope
             with np.errstate(over="ignore"):
-                stiff = soft * 10.0**level
-            g = x - 0.5 * (level - np.log1p(stiff) / np.log(10.0)) - rhs
+                stiff = soft * np.exp(LN10 * level)
+            g = x - 0.5 * (level - np.log1p(stiff) / LN10) - rhs
             lo = np.where(g < 0.0, x, lo)
             hi = np.where(g > 0.0, x, hi)
             with np.errstate(divide="ignore", invalid="ignore"):
@@ -1212,7 +1223,7 @@ def natural_frequency_tabulated(
             if done:  # quadratic on a convex segment: settled in three or four steps
                 break
     ok &= np.isfinite(x)
-    frequency = np.where(ok, 10.0 ** (x - shift), np.nan)
+    frequency = np.where(ok, np.exp(LN10 * (x - shift)), np.nan)
     return NaturalFrequency(frequency=frequency.reshape(shape), converged=ok.reshape(shape))
 
 

@@ -15,7 +15,7 @@ from engine.base.fields import number_fields
 from engine.curves.bank import CurveBank
 from engine.curves.mountcheck import MountResult, check_mounts
 from engine.curves.system import solve_systems
-from engine.curves.window import WindowProps, evaluate_window
+from engine.curves.window import WindowProps, check_window_size, evaluate_window
 from engine.library.store import Material
 from engine.physics.indices import IndexSpec, aggregate
 from engine.selection.criteria import Criteria, IndexChoice
@@ -154,6 +154,10 @@ def evaluate_grades(
     window = criteria.window
     catalog = _catalog_columns(materials)
     design = criteria.mount
+    check_window_size(n, window)  # before the first array of the window is made
+    # log10 aT at the window's temperatures, once for the window and the mount check.
+    t = window.temperatures
+    shift = bank.shift_rows(np.broadcast_to(t[None, :], (n, t.size)))
     # The mount check does not read the window's properties: it runs beside them.
     mount_check = None
     if design is not None:
@@ -166,12 +170,18 @@ def evaluate_grades(
                 catalog["hardness"],
                 bulk_modulus=catalog["bulk_modulus"],
                 amplitude_sweeps=amplitude_sweeps,
+                shift=shift,
             )
         )
-    props = evaluate_window(bank, window, catalog["poisson_ratio"])
-    specs = {c.name: c.spec() for c in criteria.indices}
-    point = [c for c in criteria.indices if specs[c.name].kind == "point"]
-    values, eta_worst = _point_indices(props, catalog, point, specs)
+    try:
+        props = evaluate_window(bank, window, catalog["poisson_ratio"], shift=shift)
+        specs = {c.name: c.spec() for c in criteria.indices}
+        point = [c for c in criteria.indices if specs[c.name].kind == "point"]
+        values, eta_worst = _point_indices(props, catalog, point, specs)
+    except BaseException:
+        if mount_check is not None:
+            mount_check.exception()  # the mount check ends before the error goes on
+        raise
     mres = None if mount_check is None else mount_check.result()
     whole = {
         "storage_modulus": props.storage.reshape(n, -1),
