@@ -10,13 +10,15 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from engine.base.errors import CriteriaError, reject_unknown
 from engine.base.units import ABSOLUTE_ZERO_C
-from engine.curves.bank import CurveBank
+
+if TYPE_CHECKING:  # the window's defaults are read by the command line's parser alone
+    from engine.curves.bank import CurveBank
 
 DEFAULT_POISSON = 0.5  # rubber, unless the catalog says otherwise (Gent & Lindley 1959)
 
