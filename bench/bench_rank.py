@@ -16,8 +16,8 @@
     stiffness (Ec = E (1 + 2 k S^2) in series with the bulk modulus, k from the
     hardness, as the ranking has them); scalar transmissibility. The agreement figure
     compares the indices and fn (the loop's static strain reads 1 / E' at the load's
-    frequency instead of the creep compliance, and it takes one disturbance). Timed on 200 grades (50 in quick mode) and scaled linearly to the
-    full size.
+    frequency instead of the creep compliance, and it takes one disturbance). Timed on
+    200 grades (50 in quick mode) and scaled linearly to the full size.
 (c) The rank intervals (:func:`engine.selection.spread.rank_spread`: the whole chain rerun on the
     posterior draws of the fits of the leading grades) after the ranking, as their own
     figures: for the demo library and for 1,000 of the cloned grades, the first call in
