@@ -1358,3 +1358,28 @@ def test_kept_rankings_stay_within_their_grade_budget(monkeypatch):
     one_large = data._Rankings()
     one_large.put(("huge", 1, "w"), ranking(100_000))  # over the budget alone: still kept
     assert one_large.get(("huge", 1, "w")) is not None
+
+
+def test_fits_set_aside_from_collections_let_earlier_garbage_go():
+    # dashboard.data._set_aside_from_collections freezes what is alive (the fits of a
+    # large library stay out of every full collection) but first thaws and collects what
+    # an earlier call froze: a reference cycle that became garbage meanwhile is freed.
+    import gc
+    import weakref
+
+    from dashboard import data
+
+    class Node:
+        pass
+
+    node = Node()
+    node.me = node  # a cycle: only the collector frees it
+    gone = weakref.ref(node)
+    data._set_aside_from_collections()
+    assert gc.get_freeze_count() > 0
+    del node
+    gc.collect()
+    assert gone() is not None, "frozen: left alone by collections"
+    data._set_aside_from_collections()
+    assert gone() is None, "thawed and collected by the next call"
+    gc.unfreeze()

@@ -194,7 +194,9 @@ class CurveBank:
         columns = zip(*rows, strict=True) if rows else ([],) * 7
         scalars, ls, ll, modes, gaps, temps, measured = columns
         width = max((t.size for t in ls), default=2)
-        col = dict(enumerate(np.array(scalars, dtype=float).reshape(n, 14).T))  # None: NaN
+        # One contiguous array per quantity (None: NaN): a column view of the (n, 14)
+        # table is strided, and every block of a ranking gathers from these.
+        col = dict(enumerate(np.ascontiguousarray(np.array(scalars, dtype=float).reshape(n, 14).T)))
         bank = cls(
             ids=ids,
             modes=np.array(modes, dtype=str),
