@@ -1383,3 +1383,23 @@ def test_fits_set_aside_from_collections_let_earlier_garbage_go():
     data._set_aside_from_collections()
     assert gone() is None, "thawed and collected by the next call"
     gc.unfreeze()
+
+
+def test_loss_modulus_ticks_sit_where_each_decade_meets_the_frame():
+    # engine.output.palette.loss_modulus_guides("ticks"): log E'' = log eta + log E'
+    # (E'' = eta E', the definition of the loss factor), so the decade d meets the top
+    # edge log E' = yb at log eta = d - yb and the right edge log eta = xb at log E' =
+    # d - xb. Annotations already on the figure stay.
+    import plotly.graph_objects as go
+
+    from engine.output.palette import loss_modulus_guides
+
+    fig = go.Figure(layout={"xaxis": {"type": "log", "range": [-2, 0]}})
+    fig.update_layout(yaxis={"type": "log", "range": [0, 3]})
+    fig.add_annotation(text="kept", x=0, y=0)
+    loss_modulus_guides(fig, "ticks")
+    notes = [(a.text, a.x, a.y) for a in fig.layout.annotations]
+    assert notes[0] == ("kept", 0, 0)
+    marks = sorted(n for n in notes[1:] if n[0] != "E'' [MPa]")
+    assert marks == [("10", 0, 1), ("100", -1, 3), ("100", 0, 2)]
+    assert any(n[0] == "E'' [MPa]" for n in notes)

@@ -414,12 +414,17 @@ def map_figure(
                 )
             ]
     fig = mapfigure.map_figure(
-        result, colours, chosen, show_excluded, own=own, shared=shared, beneath=beneath
-    )
-    fig.update_traces(
-        selected={"marker": {"opacity": 1.0}},
-        unselected={"marker": {"opacity": 1.0}},
-        selector={"type": "scatter", "mode": mapfigure.PATH_MODE},
+        result,
+        colours,
+        chosen,
+        show_excluded,
+        own=own,
+        shared=shared,
+        beneath=beneath,
+        path_style={  # a box or lasso leaves every path as it is drawn
+            "selected": {"marker": {"opacity": 1.0}},
+            "unselected": {"marker": {"opacity": 1.0}},
+        },
     )
     labelled = [g for g in chosen if g in props.ids] or [g.id for g in result.shortlist[:1]]
     for trace in fig.data:

@@ -131,8 +131,9 @@ def map_figure(
     chosen: Sequence[str] = (),
     show_excluded: bool = True,
     own: Collection[str] | None = None,
-    shared: Sequence[BaseTraceType] = (),
-    beneath: Mapping[str, Sequence[BaseTraceType]] | None = None,
+    shared: Sequence[BaseTraceType | dict] = (),
+    beneath: Mapping[str, Sequence[BaseTraceType | dict]] | None = None,
+    path_style: Mapping[str, object] | None = None,
 ) -> go.Figure:
     """E' against loss factor, each grade a path through the window's temperatures.
 
@@ -148,6 +149,8 @@ def map_figure(
         caller draws the others, e.g. in ``shared``.
     shared : traces drawn under the grades' own paths (over the feasible band).
     beneath : grade id -> traces drawn just under that grade's path.
+    path_style : further properties of every grade's own path trace (the dashboard's
+        look of selected points).
 
     Each grade's own path is one trace of mode :data:`PATH_MODE` whose ``legendgroup`` is
     the grade id, as is its name, and whose ``customdata`` rows are (grade id, temperature
@@ -220,7 +223,9 @@ def map_figure(
                 marker={
                     "size": marks,
                     "color": faded(colour, alpha),
-                    "symbol": np.where(extrap, "circle-open", "circle").tolist(),
+                    # Plotly's numbers for "circle-open" (100) and "circle" (0): an
+                    # array of numbers is checked at once, names one by one.
+                    "symbol": np.where(extrap, 100, 0).astype(np.int16),
                     "line": {"width": 1.2, "color": faded(colour, alpha)},
                 },
                 text=labels if labelled else None,
@@ -233,6 +238,7 @@ def map_figure(
                     "E' = %{y:.3g} MPa<br>η = %{x:.3g}<br>"
                     f"{status}<extra></extra>"
                 ),
+                **(path_style or {}),
             )
         )
     fig.update_layout(

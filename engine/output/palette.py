@@ -222,47 +222,55 @@ def loss_modulus_guides(fig: go.Figure, style: str = "ticks") -> go.Figure:
     xa, xb = fig.layout.xaxis.range
     ya, yb = fig.layout.yaxis.range
     if style == "ticks":
+        marks = []  # added at once: the figure checks each annotation it adds alone
         for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
             label = f"{10.0**d:g}"
             if xa < d - yb < xb:  # where log E'' = d meets the top edge
-                fig.add_annotation(
-                    x=d - yb,
-                    y=yb,
-                    text=f"{label}",
-                    showarrow=True,
-                    arrowhead=0,
-                    arrowcolor=GUIDE_TEXT,
-                    ax=0,
-                    ay=-9,
-                    yanchor="bottom",
-                    font={"size": 10, "color": GUIDE_TEXT},
+                marks.append(
+                    dict(
+                        x=d - yb,
+                        y=yb,
+                        text=f"{label}",
+                        showarrow=True,
+                        arrowhead=0,
+                        arrowcolor=GUIDE_TEXT,
+                        ax=0,
+                        ay=-9,
+                        yanchor="bottom",
+                        font={"size": 10, "color": GUIDE_TEXT},
+                    )
                 )
             if ya < d - xb < yb:  # ... and the right edge
-                fig.add_annotation(
-                    x=xb,
-                    y=d - xb,
-                    text=f"{label}",
-                    showarrow=True,
-                    arrowhead=0,
-                    arrowcolor=GUIDE_TEXT,
-                    ax=9,
-                    ay=0,
-                    xanchor="left",
-                    font={"size": 10, "color": GUIDE_TEXT},
+                marks.append(
+                    dict(
+                        x=xb,
+                        y=d - xb,
+                        text=f"{label}",
+                        showarrow=True,
+                        arrowhead=0,
+                        arrowcolor=GUIDE_TEXT,
+                        ax=9,
+                        ay=0,
+                        xanchor="left",
+                        font={"size": 10, "color": GUIDE_TEXT},
+                    )
                 )
-        fig.add_annotation(
-            x=1.0,
-            y=1.0,
-            xref="paper",
-            yref="paper",
-            xanchor="left",
-            yanchor="bottom",
-            text="E'' [MPa]",
-            showarrow=False,
-            xshift=4,
-            yshift=4,
-            font={"size": 10, "color": GUIDE_TEXT},
+        marks.append(
+            dict(
+                x=1.0,
+                y=1.0,
+                xref="paper",
+                yref="paper",
+                xanchor="left",
+                yanchor="bottom",
+                text="E'' [MPa]",
+                showarrow=False,
+                xshift=4,
+                yshift=4,
+                font={"size": 10, "color": GUIDE_TEXT},
+            )
         )
+        fig.update_layout(annotations=[*fig.layout.annotations, *marks])
         fig.update_layout(margin={"r": 60})
     elif style == "field":
         gx = np.linspace(xa, xb, 60)
