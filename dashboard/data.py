@@ -109,7 +109,7 @@ def catalog(location: str, version: int) -> dict[str, Material]:
 
 
 # Rankings kept for going back to a window seen before: as many as hold this many
-# grades in all (a ranking of 10,000 grades keeps about 300 MB of window arrays and
+# grades in all (a ranking of 10,000 grades keeps about 260 MB of window arrays and
 # 77,000 objects), at most RANKINGS_KEPT of any size.
 RANKINGS_KEPT_GRADES = 40_000
 RANKINGS_KEPT = 32

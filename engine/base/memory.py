@@ -17,30 +17,26 @@ Elsewhere than on Linux with the GNU C library it does nothing.
 from __future__ import annotations
 
 import ctypes
+import functools
 import sys
 
 KEPT_BYTES = 1 << 30  # blocks below this come from the heap; freed ones stay there
 _M_TRIM_THRESHOLD = -1  # mallopt parameters of glibc's <malloc.h>
 _M_MMAP_THRESHOLD = -3
-_done: list[bool] = []
 
 
+@functools.cache  # set once per process; later calls give the first call's answer
 def keep_freed_memory() -> bool:
     """Keep freed blocks below :data:`KEPT_BYTES` in the process (glibc's ``mallopt``);
-    True when the allocator took the setting. Safe to call more than once."""
-    if _done:
-        return _done[0]
-    taken = False
-    if sys.platform.startswith("linux"):
-        try:
-            mallopt = ctypes.CDLL(None).mallopt
-        except (OSError, AttributeError):  # another C library: nothing to set
-            mallopt = None
-        if mallopt is not None:
-            mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
-            mallopt.restype = ctypes.c_int
-            taken = bool(mallopt(_M_MMAP_THRESHOLD, KEPT_BYTES)) and bool(
-                mallopt(_M_TRIM_THRESHOLD, KEPT_BYTES)
-            )
-    _done.append(taken)
-    return taken
+    True when the allocator took the setting."""
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        mallopt = ctypes.CDLL(None).mallopt
+    except (OSError, AttributeError):  # another C library: nothing to set
+        return False
+    mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
+    mallopt.restype = ctypes.c_int
+    return bool(mallopt(_M_MMAP_THRESHOLD, KEPT_BYTES)) and bool(
+        mallopt(_M_TRIM_THRESHOLD, KEPT_BYTES)
+    )

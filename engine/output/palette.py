@@ -223,38 +223,23 @@ def loss_modulus_guides(fig: go.Figure, style: str = "ticks") -> go.Figure:
     ya, yb = fig.layout.yaxis.range
     if style == "ticks":
         marks = []  # added at once: the figure checks each annotation it adds alone
+
+        def tick(label: str, **where) -> dict:
+            return dict(
+                text=label,
+                showarrow=True,
+                arrowhead=0,
+                arrowcolor=GUIDE_TEXT,
+                font={"size": 10, "color": GUIDE_TEXT},
+                **where,
+            )
+
         for d in range(int(np.floor(xa + ya)), int(np.ceil(xb + yb)) + 1):
             label = f"{10.0**d:g}"
             if xa < d - yb < xb:  # where log E'' = d meets the top edge
-                marks.append(
-                    dict(
-                        x=d - yb,
-                        y=yb,
-                        text=f"{label}",
-                        showarrow=True,
-                        arrowhead=0,
-                        arrowcolor=GUIDE_TEXT,
-                        ax=0,
-                        ay=-9,
-                        yanchor="bottom",
-                        font={"size": 10, "color": GUIDE_TEXT},
-                    )
-                )
+                marks.append(tick(label, x=d - yb, y=yb, ax=0, ay=-9, yanchor="bottom"))
             if ya < d - xb < yb:  # ... and the right edge
-                marks.append(
-                    dict(
-                        x=xb,
-                        y=d - xb,
-                        text=f"{label}",
-                        showarrow=True,
-                        arrowhead=0,
-                        arrowcolor=GUIDE_TEXT,
-                        ax=9,
-                        ay=0,
-                        xanchor="left",
-                        font={"size": 10, "color": GUIDE_TEXT},
-                    )
-                )
+                marks.append(tick(label, x=xb, y=d - xb, ax=9, ay=0, xanchor="left"))
         marks.append(
             dict(
                 x=1.0,

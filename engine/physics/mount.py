@@ -21,6 +21,8 @@ from typing import NamedTuple
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from engine.physics.shift import LN10
+
 STANDARD_GRAVITY = 9.80665
 """Standard acceleration of gravity [m/s2] (CGPM 1901, exact by definition)."""
 
@@ -82,7 +84,6 @@ _K_FACTOR_HARDNESS = np.array([30.0, 35.0, 40.0, 45.0, 50.0, 55.0, 60.0, 65.0, 7
 _K_FACTOR_VALUES = np.array([0.93, 0.89, 0.85, 0.80, 0.73, 0.64, 0.57, 0.54, 0.53, 0.52])
 
 _TWO_PI = 2.0 * np.pi
-LN10 = np.log(10.0)
 NEWTON_SETTLED = 1e-13  # [decades] a Newton step this small has reached the root to rounding
 
 

@@ -165,7 +165,7 @@ def evaluate_grades(
             lambda: check_mounts(
                 bank,
                 design,
-                window.temperatures,
+                t,
                 catalog["poisson_ratio"],
                 catalog["hardness"],
                 bulk_modulus=catalog["bulk_modulus"],
