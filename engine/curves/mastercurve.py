@@ -19,7 +19,6 @@ from engine.physics.isotherms import DEFAULT_TOLERANCE_K, group_temperatures
 from engine.physics.jointfit import N_DRAWS, LawTemplate, fit_jointly, robust_variance
 from engine.physics.prony import PronySeries, fit_prony, tau_grid
 from engine.physics.shift import (
-    LN10,
     WLF_UNIVERSAL_C1,
     WLF_UNIVERSAL_C2,
     ShiftLaw,
@@ -29,6 +28,8 @@ from engine.physics.shift import (
     wlf_change_reference,
 )
 from engine.physics.transitions import TG_METHODS, glass_transition, regions, secondary_transition
+
+LN10 = np.log(10.0)
 
 # Candidate glass transitions dividing the WLF and Arrhenius regions; the one whose law
 # fits the pairwise shifts best is used (the storage onset lies nearest the calorimetric
