@@ -43,7 +43,7 @@ from pathlib import Path
 from bench import Figure, bench_rank
 from bench.bench_library import bench_file
 from bench.big_library import write_library
-from engine.base.memory import keep_freed_memory
+from engine.base.memory import arrange_memory
 from engine.library.fits import fitted_library
 from engine.library.store import Library
 from engine.selection.ranking import rank
@@ -68,14 +68,14 @@ def _timed(function) -> float:
 def in_process(library: Library, crit) -> list[Figure]:
     """Figures (b): bank from the record + rank, spread, an incremental restack.
 
-    The process keeps its freed memory as the command line and the dashboard do
-    (:func:`engine.base.memory.keep_freed_memory`). Steady state is a running process
+    The process arranges its memory as the command line and the dashboard do
+    (:func:`engine.base.memory.arrange_memory`). Steady state is a running process
     that holds the fitted library for the library's version, as the dashboard does
     (``dashboard.data.fitted``): each ranking asks the library for its version and
     ranks on the bank it holds. Reading the record again (what a new version or a new
     process pays) is a figure of its own.
     """
-    keep_freed_memory()
+    arrange_memory()
     materials = {m.id: m for m in library.materials()}
     start = time.perf_counter()
     fitted = fitted_library(library)

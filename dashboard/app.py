@@ -16,7 +16,7 @@ from dashboard import case, data, sidebar
 from dashboard.common import CONTEXT_KEY, Context, plain
 from engine.base.caution import CAUTION, CAUTION_LINE
 from engine.base.errors import LibraryError, QuietgradeError
-from engine.base.memory import keep_freed_memory
+from engine.base.memory import arrange_memory
 from engine.library.fits import one_line
 from engine.library.store import default_location
 from engine.output.palette import grade_colours, with_set_colours
@@ -108,7 +108,7 @@ def _failure(what: str, exc: Exception) -> str:
 
 
 def main() -> None:
-    keep_freed_memory()  # the server's rankings reuse their freed arrays (once per process)
+    arrange_memory()  # freed arrays reused, new ones on ordinary pages (once per process)
     # "auto": open on a wide window, folded away on a narrow one (a phone, half a screen).
     st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state="auto")
     st.html(COMPACT_STYLE)

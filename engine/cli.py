@@ -26,7 +26,7 @@ import numpy as np
 
 from engine.base.errors import LibraryError, QuietgradeError
 from engine.base.fields import CATALOG
-from engine.base.memory import keep_freed_memory
+from engine.base.memory import arrange_memory
 from engine.base.version import __version__
 from engine.library.store import Library, default_location
 from engine.physics.isotherms import DEFAULT_TOLERANCE_K
@@ -1036,7 +1036,7 @@ def _log_warning(message, category, filename, lineno, file=None, line=None) -> N
 
 
 def main(argv: list[str] | None = None) -> int:
-    keep_freed_memory()  # large rankings reuse their freed arrays (engine.base.memory)
+    arrange_memory()  # large rankings reuse their freed arrays (engine.base.memory)
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.verbose:

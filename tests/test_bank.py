@@ -231,6 +231,49 @@ def test_freed_memory_is_kept_where_the_c_library_allows_it():
     assert keep_freed_memory() == taken
 
 
+# numpy's switch of huge-page advice: numpy._core.multiarray._set_madvise_hugepage
+# returns the setting it replaces (numpy's global_state documentation). Each case runs
+# in a new interpreter, since the setting is per process and read once.
+_HUGE_PAGES_AFTER = """
+import sys
+from engine.base.memory import ordinary_pages_for_arrays
+{before}
+answer = ordinary_pages_for_arrays()
+from numpy._core import multiarray
+print(answer, multiarray._set_madvise_hugepage(True))
+"""
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="Linux's huge pages")
+@pytest.mark.parametrize(
+    ("before", "switch", "expected"),
+    [
+        ("import numpy", None, "True False"),  # the setter, numpy already imported
+        ("", None, "True False"),  # the environment, before numpy is imported
+        ("import numpy", "1", "False True"),  # the user's choice stands
+        ("", "0", "True False"),
+    ],
+)
+def test_numpy_arrays_get_ordinary_pages_unless_the_user_chose(before, switch, expected):
+    import os
+    import subprocess
+
+    from engine.base.memory import HUGE_PAGE_SWITCH
+
+    env = {k: v for k, v in os.environ.items() if k != HUGE_PAGE_SWITCH}
+    if switch is not None:
+        env[HUGE_PAGE_SWITCH] = switch
+    done = subprocess.run(
+        [sys.executable, "-c", _HUGE_PAGES_AFTER.format(before=before)],
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=60,
+        check=True,
+    )
+    assert done.stdout.split() == expected.split()
+
+
 # ------------------------------------------------------------------ creep compliance
 
 
