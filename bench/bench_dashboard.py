@@ -33,8 +33,12 @@ with the same new windows, is timed too: the rest of a rerun is the dashboard.
       keyboard (a range not seen before, so the library is ranked again), until the
       plot shows the new window's title; target 1.5 s.
 
-    The AppTest rerun figures of (b) are given for this library too. Without chromium
-    or Playwright the browser figures are left out, with a note.
+    Both are measured twice, each time on a new server: first on the library as
+    written (fits, no bank record), whose first page stacks the curve bank (the first
+    use after fitting, what ``bench.bench_cold`` times as a figure of its own) and
+    stores its record; then on the library as every later use finds it, the bank read
+    from its record. The AppTest rerun figures of (b) are given for this library too.
+    Without chromium or Playwright the browser figures are left out, with a note.
 
 Run: ``python -m bench.bench_dashboard [--full]`` or through ``python -m bench.run_all``.
 """
@@ -333,28 +337,35 @@ def huge_figures(folder: Path, n: int, quick: bool) -> list[Figure]:
     written = time.perf_counter() - start
     label = f"{n:,} grades"
     mode = f"; quick mode ({HUGE_FULL:,} full), nothing extrapolated" if quick else ""
-    sys.stderr.write(f"  real browser, {label}\n")
-    times = time_browser(db)
     figures = []
-    if isinstance(times, str):
-        figures.append(Figure(f"map in a browser, {label}", float("nan"), "s", None, times))
-    else:
+    # The library as written holds its fits but no bank record: the first server's first
+    # page stacks the bank (the first use after fitting) and stores the record; the
+    # second server reads it, as every later use of a library does.
+    for served, how in (
+        ("first use", "the server stacked the bank itself"),
+        ("record", "the bank read from its record"),
+    ):
+        sys.stderr.write(f"  real browser, {label}, {how}\n")
+        times = time_browser(db)
+        if isinstance(times, str):
+            figures.append(Figure(f"map in a browser, {label}", float("nan"), "s", None, times))
+            break
         figures += [
             Figure(
-                f"first map after page load, {label} (browser)",
+                f"first map after page load, {label}, {served} (browser)",
                 statistics.median(times["first"]),
                 "s",
                 FIRST_MAP_TARGET_S,
                 f"median of {len(times['first'])} loads on a warm server (max "
-                f"{max(times['first']):.2f} s); headless chromium{mode}",
+                f"{max(times['first']):.2f} s); {how}; headless chromium{mode}",
             ),
             Figure(
-                f"window change to new map, {label} (browser)",
+                f"window change to new map, {label}, {served} (browser)",
                 statistics.median(times["change"]),
                 "s",
                 WINDOW_CHANGE_TARGET_S,
                 f"median of {len(times['change'])} (max {max(times['change']):.2f} s); "
-                f"library ranked again each time{mode}",
+                f"library ranked again each time; {how}{mode}",
             ),
         ]
     figures += [

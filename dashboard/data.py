@@ -134,17 +134,34 @@ class _Rankings:
                 self.kept.move_to_end(key)
             return found
 
+    def make_room(self, key: tuple, grades: int) -> None:
+        """Let go of the oldest rankings (and those of another version of the same
+        library) that a new ranking of ``grades`` grades under ``key`` would push out,
+        before it is made: the memory they free is there for its arrays, instead of
+        pages the process has never touched (engine.base.memory)."""
+        with self.lock:
+            self._drop_other_versions(key)
+            self._keep_within(extra=1, extra_grades=grades)
+
     def put(self, key: tuple, result: RankResult) -> None:
         with self.lock:
-            for old in [k for k in self.kept if k[0] == key[0] and k[1] != key[1]]:
-                del self.kept[old]  # another version of the same library
+            self._drop_other_versions(key)
             self.kept[key] = result
             self.kept.move_to_end(key)
-            while len(self.kept) > 1 and (
-                len(self.kept) > RANKINGS_KEPT
-                or sum(len(r.grades) for r in self.kept.values()) > RANKINGS_KEPT_GRADES
-            ):
-                self.kept.popitem(last=False)
+            self._keep_within(extra=0, extra_grades=0)
+
+    def _drop_other_versions(self, key: tuple) -> None:
+        for old in [k for k in self.kept if k[0] == key[0] and k[1] != key[1]]:
+            del self.kept[old]
+
+    def _keep_within(self, extra: int, extra_grades: int) -> None:
+        """Drop the oldest until ``extra`` more rankings of ``extra_grades`` grades fit
+        the budgets; the newest kept one stays (a ranking over the budget alone too)."""
+        while len(self.kept) > 1 - extra and (
+            len(self.kept) + extra > RANKINGS_KEPT
+            or sum(len(r.grades) for r in self.kept.values()) + extra_grades > RANKINGS_KEPT_GRADES
+        ):
+            self.kept.popitem(last=False)
 
     def clear(self) -> None:
         with self.lock:
@@ -177,6 +194,7 @@ def _ranked(location: str, version: int, criteria_key: str, criteria: Criteria) 
     fitted_now = _fit_store().get((location, version)) or fitted_library(library)
     materials = catalog(location, version)
     sweeps = working_sweeps(library, criteria)
+    store.make_room(key, len(materials))  # a result per catalog grade
     result = rank(
         fitted_now.curves,
         materials,

@@ -1360,6 +1360,26 @@ def test_kept_rankings_stay_within_their_grade_budget(monkeypatch):
     assert one_large.get(("huge", 1, "w")) is not None
 
 
+def test_rankings_that_a_new_one_would_push_out_go_before_it_is_made(monkeypatch):
+    # dashboard.data._Rankings.make_room: the memory of the rankings that will be dropped
+    # is freed before the new ranking's arrays are made, so they can use it.
+    from types import SimpleNamespace
+
+    from dashboard import data
+
+    monkeypatch.setattr(data, "RANKINGS_KEPT_GRADES", 25_000)
+    store = data._Rankings()
+    for k in range(2):
+        store.put(("lib", 1, f"window {k}"), SimpleNamespace(grades=[None] * 10_000))
+    store.make_room(("lib", 1, "window 2"), 10_000)
+    assert [key[2] for key in store.kept] == ["window 1"]
+    store.make_room(("lib", 1, "window 2"), 30_000)  # over the budget alone: room for it
+    assert not store.kept
+    store.put(("lib", 1, "window 2"), SimpleNamespace(grades=[None] * 10_000))
+    store.make_room(("lib", 2, "window 0"), 10)  # a new version: the old one's go
+    assert not store.kept
+
+
 def test_fits_set_aside_from_collections_let_earlier_garbage_go():
     # dashboard.data._set_aside_from_collections freezes what is alive (the fits of a
     # large library stay out of every full collection) but first thaws and collects what

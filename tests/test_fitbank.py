@@ -206,6 +206,22 @@ def test_a_damaged_stored_bank_is_stacked_again(demo_copy, caplog):
     read_bank(demo_copy.cached_bank(key) or b"")  # a good record is back
 
 
+@pytest.mark.parametrize(("kept", "decoded"), [(14, 14), (13, 0)])
+def test_a_whole_library_stacked_anew_keeps_no_decoded_curve(demo_copy, monkeypatch, kept, decoded):
+    # engine.library.fits.DECODED_KEPT: a restack of more grades than this holds none of
+    # their decoded curves (the bank serves the ranking); a curve asked for afterwards is
+    # read from the fit cache and is the same curve.
+    from engine.library import fits
+
+    monkeypatch.setattr(fits, "DECODED_KEPT", kept)
+    assert demo_copy.store_bank(bank_key(), b"not a bank at all", 14)  # stacked anew
+    fitted = fitted_library(demo_copy)
+    assert fitted.restacked == 14
+    assert fitted.curves.decoded_count() == decoded
+    curves, _ = fit_library(demo_copy)
+    assert fitted.curves["BW-NR40"].to_dict() == curves["BW-NR40"].to_dict()
+
+
 def test_bank_records_on_each_database(any_library, tmp_path, monkeypatch):
     load_grades(any_library, tmp_path, ["G-1", "G-2"])
     first = fitted_library(any_library, processes=1)

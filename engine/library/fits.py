@@ -368,6 +368,13 @@ def bank_key(reference_C: float | None = None, vertical_shift: bool = False) -> 
     return f"{options_key(reference_C, vertical_shift)};bank={BANK_FINGERPRINT}"
 
 
+# A call that stacks more grades than this anew keeps none of their decoded curves:
+# the bank holds what ranking reads, and a curve shown is read again from the fit cache
+# (about 0.3 ms). 10,000 decoded curves hold about 400 MB; a server that kept them
+# would take every later ranking's arrays from pages it never touched before.
+DECODED_KEPT = 1_000
+
+
 class FittedCurves(Mapping[str, MasterCurve]):
     """The master curves of a library's fitted grades, by id, decoded on first use.
 
@@ -520,7 +527,7 @@ def fitted_library(
     curves = FittedCurves(
         library,
         {gid: hashes[gid] for gid in bank.ids},
-        new_curves,
+        new_curves if len(new_curves) <= DECODED_KEPT else {},
         reference_C,
         vertical_shift,
     )
