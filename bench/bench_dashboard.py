@@ -81,7 +81,7 @@ HUGE_FULL = 10_000
 HUGE_QUICK = 2_000
 FIRST_MAP_TARGET_S = 5.0
 WINDOW_CHANGE_TARGET_S = 1.5
-BROWSER_REPEATS = 3  # at most len(MOVES)
+BROWSER_REPEATS = 4  # at most len(MOVES)
 # True once the map's plot holds traces and its title names the window given.
 MAP_DRAWN_JS = """(window) => {
   const gd = document.querySelector('[data-testid="stPlotlyChart"] .js-plotly-plot');
@@ -97,6 +97,7 @@ MOVES = (
     (0, "ArrowRight", (_LO + 1.0, _HI)),
     (1, "ArrowLeft", (_LO, _HI - 1.0)),
     (0, "ArrowLeft", (_LO - 1.0, _HI)),
+    (1, "ArrowRight", (_LO, _HI + 1.0)),
 )
 ALTERNATING = ((0.0, 40.0), (-20.0, 45.0))  # the second is the dashboard's default
 # New ranges, one per timed rerun: none repeats, so no ranking is a cache hit.

@@ -762,6 +762,24 @@ def test_pareto_front_equals_its_definition(points):
     assert pareto_optimal(a, b).tolist() == brute_force_pareto(a.tolist(), b.tolist())
 
 
+def test_a_deferred_failure_writes_its_sentence_once_and_only_when_read():
+    # engine.selection.results.DeferredFailure: counted by its kind without its
+    # sentence being written; read, it is the sentence a plain Failure would carry.
+    from engine.selection.results import DeferredFailure
+
+    written = []
+
+    def sentence():
+        written.append(1)
+        return "pad too stiff: the pad would be 3.1 mm2"
+
+    failure = DeferredFailure(sentence, "", "", "pad too stiff")
+    failure.topic = "mount"
+    assert failure.about == "pad too stiff" and not written
+    assert failure.text() == failure.constraint == "pad too stiff: the pad would be 3.1 mm2"
+    assert written == [1]
+
+
 def test_isolation_limits_name_where_they_fail():
     # Pads sized for 10 Hz under 45 kg each; a disturbance at 24.7 Hz. Amplification at
     # resonance of a hysteretic isolator is sqrt(1 + eta^2) / eta (Snowdon 1968), and an

@@ -17,7 +17,7 @@ import numpy as np
 from engine.curves.mountcheck import CHECK_WORDS, MountResult
 from engine.selection.criteria import Criteria
 from engine.selection.evaluation import Evaluation
-from engine.selection.results import Failure, short_number
+from engine.selection.results import DeferredFailure, Failure, short_number
 
 MOUNT_EXTRAPOLATION = "the mount check leaves the measured data"
 STIFF_RATIO = 0.5  # f/fn below this: T is within a third of 1, no resonance (common practice)
@@ -176,7 +176,7 @@ def _pad(c: Checks) -> None:
     failing = mres.failing
 
     def plain(name: str) -> Callable[[int], Failure]:
-        return lambda k: Failure(mres.reason(name, k), "", "", kind=CHECK_WORDS[name])
+        return lambda k: DeferredFailure(lambda: mres.reason(name, k), "", "", CHECK_WORDS[name])
 
     for name in _PAD_CHECKS:
         c.fail(failing[name], plain(name), "mount")
@@ -306,7 +306,9 @@ def _static_strain(c: Checks) -> None:
     def strain_failure(k):
         if np.isnan(strain[k]):
             return Failure("static strain", "unknown", f"<= {limit:g}")
-        return Failure(mres.strain_text(k, limit), "", f"<= {limit:g}", kind="static strain")
+        return DeferredFailure(
+            lambda: mres.strain_text(k, limit), "", f"<= {limit:g}", "static strain"
+        )
 
     c.fail(strained, strain_failure, "mount")
 

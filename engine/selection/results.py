@@ -46,6 +46,31 @@ class Failure:
         return f"{self.constraint}{found}{needs}"
 
 
+class DeferredFailure(Failure):
+    """A failure whose sentence (its ``constraint``) is written when first read, by
+    ``write()``: a ranking of 10,000 grades fails thousands of the mount check's plain
+    limits, each sentence with the grade's figures, and a page shows a few of them."""
+
+    __slots__ = ("_write",)
+
+    def __init__(
+        self, write: Callable[[], str], value: float | str, limit: str, kind: str = ""
+    ) -> None:
+        self._write = write
+        self.value, self.limit, self.topic, self.kind = value, limit, "window", kind
+
+    @property  # the base's field, filled on first reading
+    def constraint(self) -> str:  # type: ignore[override]
+        try:
+            return _SENTENCE.__get__(self)
+        except AttributeError:
+            _SENTENCE.__set__(self, self._write())
+            return _SENTENCE.__get__(self)
+
+
+_SENTENCE = Failure.__dict__["constraint"]  # the slot behind Failure.constraint
+
+
 @dataclass
 class GradeResult:
     id: str
