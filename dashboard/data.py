@@ -109,8 +109,8 @@ def catalog(location: str, version: int) -> dict[str, Material]:
 
 
 # Rankings kept for going back to a window seen before: as many as hold this many
-# grades in all (a ranking of 10,000 grades keeps about 260 MB of window arrays and
-# 77,000 objects), at most RANKINGS_KEPT of any size.
+# grades in all (a ranking of 10,000 grades keeps about 120 MB at the default window,
+# 260 MB at 41 x 13), at most RANKINGS_KEPT of any size.
 RANKINGS_KEPT_GRADES = 40_000
 RANKINGS_KEPT = 32
 # A full garbage collection with a large library in memory takes 0.1-0.2 s; it is run

@@ -1036,7 +1036,7 @@ def _log_warning(message, category, filename, lineno, file=None, line=None) -> N
 
 
 def main(argv: list[str] | None = None) -> int:
-    arrange_memory()  # large rankings reuse their freed arrays (engine.base.memory)
+    arrange_memory()  # freed arrays reused, new ones on ordinary pages (engine.base.memory)
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.verbose:
