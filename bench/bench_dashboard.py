@@ -34,9 +34,10 @@ with the same new windows, is timed too: the rest of a rerun is the dashboard.
       plot shows the new window's title; target 1.5 s.
 
     Both are measured twice, each time on a new server: first on the library as
-    written (fits, no bank record), whose first page stacks the curve bank (the first
-    use after fitting, what ``bench.bench_cold`` times as a figure of its own) and
-    stores its record; then on the library as every later use finds it, the bank read
+    written (fits, no bank record), whose first page has the curve bank stacked (the
+    first use after fitting, what ``bench.bench_cold`` times as a figure of its own; the
+    server has a child process stack it, :mod:`engine.library.childfit`) and its record
+    stored; then on the library as every later use finds it, the bank read
     from its record. The AppTest rerun figures of (b) are given for this library too.
     Without chromium or Playwright the browser figures are left out, with a note.
 
@@ -340,10 +341,10 @@ def huge_figures(folder: Path, n: int, quick: bool) -> list[Figure]:
     mode = f"; quick mode ({HUGE_FULL:,} full), nothing extrapolated" if quick else ""
     figures = []
     # The library as written holds its fits but no bank record: the first server's first
-    # page stacks the bank (the first use after fitting) and stores the record; the
+    # page has the bank stacked (the first use after fitting) and its record stored; the
     # second server reads it, as every later use of a library does.
     for served, how in (
-        ("first use", "the server stacked the bank itself"),
+        ("first use", "the bank stacked by the server's child process"),
         ("record", "the bank read from its record"),
     ):
         sys.stderr.write(f"  real browser, {label}, {how}\n")

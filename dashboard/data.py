@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import gc
 import json
+import logging
 import threading
 from collections import OrderedDict
 from collections.abc import Callable, Mapping
@@ -22,12 +23,15 @@ import streamlit as st
 from dashboard.charts.map import CrowdPlan, crowd_plan
 from dashboard.charts.map import map_figure as draw_map
 from engine.curves.mastercurve import MasterCurve
+from engine.library.childfit import CHILD_FROM_GRADES, fit_in_child
 from engine.library.demo import DEMO_DIR
-from engine.library.fits import FittedLibrary, fitted_library, master_curve
+from engine.library.fits import FittedLibrary, fitted_library, master_curve, plan_fits
 from engine.library.importer import import_files
 from engine.library.store import Library, Material
 from engine.output.mapfigure import shown_rows
 from engine.selection.ranking import Criteria, RankResult, rank, working_sweeps
+
+log = logging.getLogger(__name__)
 
 
 @st.cache_resource(show_spinner=False)
@@ -76,7 +80,16 @@ def fitted(library: Library) -> FittedLibrary:
         )
 
     try:
-        result = fitted_library(library, progress=progress)
+        plan = plan_fits(library)
+        if plan.to_stack > CHILD_FROM_GRADES:
+            # Thousands of grades to stack: in a child process, which stores the bank
+            # record (engine.library.childfit), so that this long-lived process reads
+            # the record and does not keep what stacking took.
+            why = fit_in_child(library, progress=progress)
+            if why is not None:
+                log.info("%s: stacking the curve bank here instead", why)
+            plan = plan_fits(library)  # the record as the child left it
+        result = fitted_library(library, progress=progress, plan=plan)
     finally:
         bar.empty()
     for old in [k for k in store if k[0] == library.location]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import shutil
 import struct
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -19,6 +20,7 @@ from engine.curves.bank import CurveBank
 from engine.curves.bankfile import MAGIC, BankFileError, read_bank, write_bank
 from engine.curves.mountcheck import MountDesign
 from engine.curves.window import OperatingWindow
+from engine.library.childfit import fit_in_child
 from engine.library.fits import bank_key, fit_library, fitted_library
 from engine.library.store import Library
 from engine.selection.ranking import Criteria, rank
@@ -237,3 +239,48 @@ def test_bank_records_on_each_database(any_library, tmp_path, monkeypatch):
     monkeypatch.setattr(Library, "can_write", property(lambda self: False))
     assert not any_library.store_bank("other", blob, 2)
     assert any_library.cached_bank("other") is None
+
+
+def test_a_child_process_stacks_the_bank_and_stores_its_record(any_library, tmp_path):
+    # engine.library.childfit: a server's stacking done in a child process. The record
+    # the child stores is read back whole, and evaluates as the bank stacked here from
+    # the same fits (on each database: the location goes to the child on its stdin).
+    load_grades(any_library, tmp_path, ["G-1", "G-2", "G-3"])
+    seen: list[tuple[int, int]] = []
+    assert (
+        fit_in_child(any_library, progress=lambda done, total: seen.append((done, total))) is None
+    )
+    assert seen and seen[-1] == (3, 3)
+    again = fitted_library(any_library, processes=1)
+    assert again.restacked == 0 and again.record_kept
+    curves, errors = fit_library(any_library, processes=1)
+    assert not errors
+    _same_evaluation(again.bank, CurveBank.from_curves({g: curves[g] for g in again.bank.ids}))
+
+
+def test_a_child_process_that_fails_gives_a_one_line_reason(tmp_path, demo_copy, monkeypatch):
+    notes = tmp_path / "notes.sqlite"
+    notes.write_text("not a database at all\n")
+    why = fit_in_child(SimpleNamespace(location=str(notes), can_write=True))
+    assert why is not None and why.startswith("the fitting process ended with code 1: ")
+    assert "notes.sqlite" in why and "\n" not in why
+    # A role that may only read could not keep the child's record: no child is started.
+    monkeypatch.setattr(Library, "can_write", property(lambda self: False))
+    assert fit_in_child(demo_copy) == "this role may not write the library's bank record"
+
+
+def test_the_dashboard_stacks_thousands_of_grades_in_a_child(demo_copy, monkeypatch):
+    # dashboard.data.fitted: more grades to stack than CHILD_FROM_GRADES go to a child
+    # process, and the server reads the record the child stored (nothing stacked here);
+    # a child that fails leaves the stacking to the server, as before.
+    from dashboard import data
+
+    monkeypatch.setattr(data, "CHILD_FROM_GRADES", 13)
+    assert demo_copy.store_bank(bank_key(), b"not a bank at all", 14)  # 14 to stack
+    found = data.fitted(demo_copy)
+    assert found.restacked == 0 and len(found.bank) == 14
+    data._fit_store().clear()
+    assert demo_copy.store_bank(bank_key(), b"not a bank at all", 14)
+    monkeypatch.setattr(data, "fit_in_child", lambda library, progress=None: "refused")
+    assert data.fitted(demo_copy).restacked == 14
+    data._fit_store().clear()

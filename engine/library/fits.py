@@ -443,40 +443,33 @@ class FittedLibrary:
     errors: dict[str, str]
     bank: CurveBank  # the grades of ``curves``, in that order
     restacked: int = 0  # grades stacked anew in this call (the rest came from the record)
+    record_kept: bool = True  # whether the library's bank record now holds this bank
 
 
-def fitted_library(
-    library: Library,
-    reference_C: float | None = None,
-    vertical_shift: bool = False,
-    processes: int | None = None,
-    progress: Progress | None = None,
-) -> FittedLibrary:
-    """The fits of every grade with data and their curve bank, from one stored record.
+@dataclass
+class FitPlan:
+    """What :func:`fitted_library` finds before it fits or stacks anything: the stored
+    bank record (if usable), the data hash of every live grade, the record's rows and
+    fit errors that still hold, and the grades left to fit or stack."""
 
-    The library keeps the bank of its fitted grades as one binary record
-    (:mod:`engine.curves.bankfile`) beside the JSON fits. A call reads the record,
-    keeps the rows whose grade still has the same data, fits (or reads from the fit
-    cache) only the grades that are new or changed, stacks them onto the kept rows and
-    writes the record back when anything changed (a role that may only read keeps
-    nothing and pays the stacking each time). A record that cannot be read is stacked
-    again from the fits. Results equal :func:`fit_library` followed by
-    ``CurveBank.from_curves``, up to the order of the grades.
+    key: str  # the bank record's key (:func:`bank_key`)
+    stored: CurveBank | None
+    extra: dict
+    hashes: dict[str, str]  # id -> data hash of its newest data set, live grades only
+    kept_rows: list[int]  # rows of ``stored`` whose grade has the same data
+    errors: dict[str, str]  # fit errors of the record that still hold
+    todo: dict[str, str]  # id -> data hash: to be fitted (or read from the fit cache)
 
-    Examples
-    --------
-    >>> import tempfile
-    >>> from pathlib import Path
-    >>> from engine.library.demo import load_demo
-    >>> lib = Library(str(Path(tempfile.mkdtemp()) / "demo.sqlite"))
-    >>> _ = load_demo(lib)
-    >>> first = fitted_library(lib)
-    >>> len(first.curves), first.restacked, first.errors
-    (14, 14, {})
-    >>> again = fitted_library(lib)
-    >>> again.restacked, again.curves.decoded_count(), again.bank.ids == list(again.curves)
-    (0, 0, True)
-    """
+    @property
+    def to_stack(self) -> int:
+        """How many grades a call would stack anew."""
+        return len(self.todo)
+
+
+def plan_fits(
+    library: Library, reference_C: float | None = None, vertical_shift: bool = False
+) -> FitPlan:
+    """What a :func:`fitted_library` call with these options would do (reads the record)."""
     # The record first: reading it waits on the file, which another thread can use (the
     # command line imports the ranking meanwhile). Its rows are checked against the data
     # hashes read after it, so a grade changed in between is fitted again.
@@ -496,6 +489,53 @@ def fitted_library(
         }
     kept_ids = {stored.ids[k] for k in kept_rows} if stored is not None else set()
     todo = {mid: h for mid, h in hashes.items() if mid not in kept_ids and mid not in errors}
+    return FitPlan(key, stored, extra, hashes, kept_rows, errors, todo)
+
+
+def fitted_library(
+    library: Library,
+    reference_C: float | None = None,
+    vertical_shift: bool = False,
+    processes: int | None = None,
+    progress: Progress | None = None,
+    plan: FitPlan | None = None,
+) -> FittedLibrary:
+    """The fits of every grade with data and their curve bank, from one stored record.
+
+    The library keeps the bank of its fitted grades as one binary record
+    (:mod:`engine.curves.bankfile`) beside the JSON fits. A call reads the record,
+    keeps the rows whose grade still has the same data, fits (or reads from the fit
+    cache) only the grades that are new or changed, stacks them onto the kept rows and
+    writes the record back when anything changed (a role that may only read keeps
+    nothing and pays the stacking each time). A record that cannot be read is stacked
+    again from the fits. Results equal :func:`fit_library` followed by
+    ``CurveBank.from_curves``, up to the order of the grades. ``plan`` is what
+    :func:`plan_fits` returned for the same library and options, if the caller has it.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from engine.library.demo import load_demo
+    >>> lib = Library(str(Path(tempfile.mkdtemp()) / "demo.sqlite"))
+    >>> _ = load_demo(lib)
+    >>> first = fitted_library(lib)
+    >>> len(first.curves), first.restacked, first.errors
+    (14, 14, {})
+    >>> again = fitted_library(lib)
+    >>> again.restacked, again.curves.decoded_count(), again.bank.ids == list(again.curves)
+    (0, 0, True)
+    """
+    if plan is None:
+        plan = plan_fits(library, reference_C, vertical_shift)
+    key, stored, hashes, kept_rows, todo = (
+        plan.key,
+        plan.stored,
+        plan.hashes,
+        plan.kept_rows,
+        plan.todo,
+    )
+    errors = dict(plan.errors)
     new_curves, new_errors = (
         _fit_grades(
             library,
@@ -523,7 +563,9 @@ def fitted_library(
             "hashes": [hashes[gid] for gid in bank.ids],
             "errors": {gid: [hashes[gid], why] for gid, why in errors.items()},
         }
-        _keep_bank(library, key, bank, record)
+        record_kept = _keep_bank(library, key, bank, record)
+    else:
+        record_kept = True
     curves = FittedCurves(
         library,
         {gid: hashes[gid] for gid in bank.ids},
@@ -536,7 +578,7 @@ def fitted_library(
         len(kept_rows),
         len(new_curves),
     )
-    return FittedLibrary(curves, errors, bank, restacked=len(new_curves))
+    return FittedLibrary(curves, errors, bank, restacked=len(new_curves), record_kept=record_kept)
 
 
 def _stored_bank(library: Library, key: str) -> tuple[CurveBank | None, dict]:
@@ -555,12 +597,14 @@ def _stored_bank(library: Library, key: str) -> tuple[CurveBank | None, dict]:
         return None, {}
 
 
-def _keep_bank(library: Library, key: str, bank: CurveBank, record: dict) -> None:
-    """Write the bank record; one that cannot be written costs a restack next time."""
+def _keep_bank(library: Library, key: str, bank: CurveBank, record: dict) -> bool:
+    """Write the bank record, and say whether it was kept; one that cannot be written
+    costs a restack next time."""
     try:
-        library.store_bank(key, write_bank(bank, record), len(bank))
+        return library.store_bank(key, write_bank(bank, record), len(bank))
     except Exception as exc:  # noqa: BLE001 - the record is an optimisation
         log.info("curve bank not written (%s)", one_line(str(exc)))
+        return False
 
 
 def _sig(value, digits: int = 4):
