@@ -211,10 +211,13 @@ def _fn_range(c: Checks) -> None:
     )
 
 
-def _worst_place(c: Checks, values: np.ndarray, largest: bool) -> tuple[np.ndarray, list]:
+def _worst_place(
+    c: Checks, values: np.ndarray, largest: bool
+) -> tuple[np.ndarray, Callable[[int], str]]:
     """Each grade's worst value over its temperatures (and disturbances, for values of
-    shape (grades, temperatures, disturbances)) and where it is, as "at <T> °C[, <f>
-    Hz]" texts; NaN entries are passed over."""
+    shape (grades, temperatures, disturbances)) and, for a grade k, where it is as an
+    "at <T> °C[, <f> Hz]" text (written for the failing grades only); NaN entries are
+    passed over."""
     n = values.shape[0]
     flat = values.reshape(n, -1)
     clean = np.where(np.isnan(flat), -np.inf if largest else np.inf, flat)
@@ -223,11 +226,10 @@ def _worst_place(c: Checks, values: np.ndarray, largest: bool) -> tuple[np.ndarr
     temps = c.mres.temperatures
     place = np.unravel_index(at, values.shape[1:])
     if values.ndim == 2:
-        return worst, [f"at {temps[a]:g} °C" for a in place[0]]
+        return worst, lambda k: f"at {temps[place[0][k]]:g} °C"
     assert c.criteria.mount is not None  # mount checks run only with a mount design
     labels = c.criteria.mount.disturbance_labels()
-    where = [f"at {temps[a]:g} °C, {labels[b]}" for a, b in zip(*place, strict=True)]
-    return worst, where
+    return worst, lambda k: f"at {temps[place[0][k]]:g} °C, {labels[place[1][k]]}"
 
 
 @constraint("frequency_ratio", needs_mount=True)
@@ -244,7 +246,7 @@ def _frequency_ratio(c: Checks) -> None:
         lambda k: Failure(
             # Well below resonance the pad is simply too stiff: it passes the force on.
             "near resonance" if worst[k] >= STIFF_RATIO else "too stiff to isolate",
-            f"{where[k]} (f/fn = {worst[k]:.2g})",
+            f"{where(k)} (f/fn = {worst[k]:.2g})",
             f"f/fn >= {least:.3g} at every temperature",
         ),
         "mount",
@@ -269,7 +271,7 @@ def _transmissibility(c: Checks) -> None:
         high & np.isfinite(worst),
         lambda k: Failure(
             "amplifies the disturbance" if worst[k] >= 1.0 else "transmissibility",
-            f"T = {short_number(worst[k])} {where[k]}",
+            f"T = {short_number(worst[k])} {where(k)}",
             needs,
         ),
         "mount",
@@ -286,7 +288,7 @@ def _amplification(c: Checks) -> None:
         np.isfinite(worst) & (worst > top),
         lambda k: Failure(
             "amplification passing through resonance",
-            f"{short_number(worst[k])} {where[k]}",
+            f"{short_number(worst[k])} {where(k)}",
             f"<= {top:g}",
         ),
         "mount",
