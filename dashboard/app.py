@@ -177,7 +177,7 @@ def main() -> None:
     if problem:
         st.error(plain(problem))
 
-    st.session_state[CONTEXT_KEY] = Context(
+    st.session_state[CONTEXT_KEY] = ctx = Context(
         library=library,
         curves=curves,
         fit_errors=fit_errors,
@@ -196,7 +196,10 @@ def main() -> None:
         query = None
     if query is not None and st.query_params.to_dict() != query:
         st.query_params.from_dict(query)
-    navigation.run()
+    try:
+        navigation.run()
+    finally:
+        ctx.let_go()
 
 
 main()

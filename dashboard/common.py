@@ -93,6 +93,21 @@ class Context:
     result_key: str | None = None  # names the ranking for the figure caches (data.py)
     notes: list[str] = field(default_factory=list)
 
+    def ranking(self) -> RankResult | None:
+        """The ranking this context was made with, for the callbacks of the next rerun:
+        after its run the context lets go of it (:meth:`let_go`), and it is fetched
+        again from the dashboard's kept rankings (ranked again if they let it go)."""
+        if self.result is None and self.result_key is not None and self.criteria is not None:
+            self.result = data.ranked(self.library, self.criteria)
+        return self.result
+
+    def let_go(self) -> None:
+        """Drop the ranking once the run is over. A session outlives its page (Streamlit
+        keeps a closed one for a while), and a ranking of 10,000 grades holds about
+        120 MB: the rankings in memory are then those the dashboard keeps within its
+        budget (:data:`dashboard.data.RANKINGS_KEPT_GRADES`), not one more per session."""
+        self.result = None
+
     def ranking_name(self) -> str:
         """``result_key``, set whenever ``result`` is (the entry script names each ranking)."""
         if self.result_key is None:

@@ -171,7 +171,7 @@ def test_a_link_reproduces_the_case(monkeypatch, demo_db):
     assert at.selectbox(key="c_design").value == "damping_layer"
     assert at.multiselect(key="c_indices").value == ["loss_modulus", "damping_span"]
     assert at.session_state["compare"] == ["FP-VL15"]
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     assert result.criteria.window.freq_range == (5.0, 50.0)
     assert result.criteria.constraints.min_loss_factor == 0.05
     assert result.criteria.mount is None  # no mount check by default for a damping layer
@@ -204,7 +204,7 @@ def test_invalid_case_shows_the_engine_reason(monkeypatch, demo_db):
         assert not at.exception, f"{page}: {at.exception}"
     at.text_input(key="c_cx_formula").set_value("loss_factor * sqrt(storage_modulus)").run()
     assert not at.exception and not at.error
-    assert "own_index" in at.session_state["_context"].result.specs
+    assert "own_index" in at.session_state["_context"].ranking().specs
 
 
 def test_bad_case_file_shows_the_reason(monkeypatch, demo_db):
@@ -420,7 +420,7 @@ def test_a_large_library_draws_every_grade_with_its_state(monkeypatch, crowd_db)
 
 def test_a_large_comparison_set_is_highlighted_and_bounded(monkeypatch, crowd_db):
     at = app(monkeypatch, crowd_db)
-    ids = sorted(at.session_state["_context"].result.window_props.ids)
+    ids = sorted(at.session_state["_context"].ranking().window_props.ids)
     chosen = ids[: charts.CROWD_CHOSEN + 10]
     at.multiselect(key="compare_pick").set_value(chosen).run()
     assert not at.exception
@@ -601,11 +601,11 @@ def test_curves_page_draws_the_fits_95_percent_intervals(monkeypatch, demo_db):
 def test_map_shades_the_intervals_of_the_comparison_set(monkeypatch, demo_db):
     at = app(monkeypatch, demo_db, **ISOLATING)  # the set is seeded from the shortlist
     ctx = at.session_state["_context"]
-    props = ctx.result.window_props
+    props = ctx.ranking().window_props
     spec = map_spec(at)
     tubes = {t["meta"]: t for t in spec["data"] if t.get("fill") and t.get("meta") in props.ids}
     assert set(tubes) == set(ctx.compare) and ctx.compare
-    design_f = ctx.result.criteria.window.design_frequency
+    design_f = ctx.ranking().criteria.window.design_frequency
     for gid in ctx.compare:
         k = props.ids.index(gid)
         curve = ctx.curves[gid]
@@ -683,12 +683,12 @@ def _rgb(colour: str) -> tuple[int, int, int]:
 def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_db):
     at = app(monkeypatch, demo_db, **ISOLATING)
     ctx = at.session_state["_context"]
-    assert ctx.result.shortlist  # the report's table has rows to check
+    assert ctx.ranking().shortlist  # the report's table has rows to check
     paths = [t for t in map_spec(at)["data"] if t.get("mode") == mapfigure.PATH_MODE]
     page = {t["legendgroup"]: t["line"]["color"] for t in paths}
     report_map = mapfigure.map_figure(ctx.result)  # the map of the HTML report
     report = {t.legendgroup: t.line.color for t in report_map.data if t.mode == mapfigure.PATH_MODE}
-    assert set(page) == set(report) == set(ctx.result.window_props.ids)
+    assert set(page) == set(report) == set(ctx.ranking().window_props.ids)
     # Outside the comparison set a grade has the report's colour; the set's grades take the
     # colour-blind-safe set colours (Okabe & Ito 2008), in the set's order.
     for gid in page:
@@ -698,7 +698,7 @@ def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_d
         else:
             assert _rgb(page[gid]) == _rgb(report[gid]), gid
     text = report_html(ctx.result, ctx.library, ctx.curves)
-    for g in ctx.result.shortlist:  # the swatch beside each grade of the report's table
+    for g in ctx.ranking().shortlist:  # the swatch beside each grade of the report's table
         swatch = (
             f'<span class="swatch" style="background:{grade_colours(ctx.curves)[g.id]}"></span>'
         )
@@ -911,7 +911,7 @@ def test_default_case_shortlists_no_grade_that_amplifies(monkeypatch, demo_db):
     at.switch_page("views/shortlist.py").run()
     assert not at.exception
     assert at.number_input(key="c_trans_max").value == Constraints().max_transmissibility
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     assert result.criteria.constraints.max_transmissibility == 1.0
     mount = result.mount
     worst = {gid: np.nanmax(mount.transmissibility[k]) for k, gid in enumerate(mount.ids)}
@@ -951,7 +951,7 @@ def test_the_mount_switch_off_shows_a_material_screening(monkeypatch, demo_db):
         assert not any(SCREENING_CAPTION in c.value for c in at.caption), page
     at.toggle(key="c_mount_on").set_value(False).run()
     assert not at.exception
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     assert result.criteria.screening_only and result.criteria.mount is None
     assert at.multiselect(key="c_indices").value == [n for n, _, _ in SCREENING_INDICES]
     assert at.query_params["m"] == "0"
@@ -964,7 +964,7 @@ def test_the_mount_switch_off_shows_a_material_screening(monkeypatch, demo_db):
     # On again: the mount of the sidebar, and the isolation indices back.
     at.toggle(key="c_mount_on").set_value(True).run()
     assert not at.exception
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     assert result.criteria == case.criteria_from_state(isolating_state())
     assert not any(SCREENING_CAPTION in c.value for c in at.caption)
 
@@ -977,7 +977,7 @@ def test_the_new_mount_limits_reach_the_ranking(monkeypatch, demo_db):
     at.number_input(key="c_ratio_min").set_value(2.2).run()
     at.number_input(key="c_amp_max").set_value(33.0).run()
     assert not at.exception
-    con = at.session_state["_context"].result.criteria.constraints
+    con = at.session_state["_context"].ranking().criteria.constraints
     assert (con.min_isolation_efficiency, con.min_frequency_ratio) == (0.72, 2.2)
     assert con.max_amplification == 33.0
     link = tuple(at.query_params[k] for k in ("ie", "rr", "ra"))
@@ -1057,7 +1057,7 @@ def test_speeds_and_harmonics_in_the_sidebar_reach_the_mount(monkeypatch, demo_d
     at.multiselect(key="c_harm").set_value([1, 2]).run()
     assert not at.exception
     assert not any("disturbance" in w.value for w in at.warning)
-    design = at.session_state["_context"].result.criteria.mount
+    design = at.session_state["_context"].ranking().criteria.mount
     assert (design.disturbance_Hz, design.disturbance_rpm, design.harmonics) == (
         (),
         (1480.0,),
@@ -1077,7 +1077,7 @@ def test_speeds_and_harmonics_in_the_sidebar_reach_the_mount(monkeypatch, demo_d
         for c in at.caption
     )
     # Two disturbance frequencies: one transmissibility line per grade and frequency.
-    mres = at.session_state["_context"].result.mount
+    mres = at.session_state["_context"].ranking().mount
     tr = DRAWN["mount_tr"]
     assert "a dash per disturbance" in tr.layout.yaxis.title.text
     drawn = [t for t in tr.data if t.legendgroup in mres.ids]
@@ -1094,7 +1094,7 @@ def test_many_disturbances_draw_the_worst_transmissibility(monkeypatch, demo_db)
     at = app(monkeypatch, demo_db, **ISOLATING, mo="1,2,3,4")
     at.switch_page("views/mount.py").run()
     assert not at.exception
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     mres = result.mount
     assert result.criteria.mount.harmonics == (1, 2, 3, 4) and mres.disturbance.size == 4
     tr = DRAWN["mount_tr"]
@@ -1108,7 +1108,7 @@ def test_many_disturbances_draw_the_worst_transmissibility(monkeypatch, demo_db)
 
 def test_mount_page_gives_each_grade_its_verdict_once(monkeypatch, demo_db):
     at = app(monkeypatch, demo_db, **ISOLATING)
-    mres = at.session_state["_context"].result.mount
+    mres = at.session_state["_context"].ranking().mount
     passing = [g for g, v in zip(mres.ids, mres.verdict, strict=True) if v == "passes"]
     failing = sorted(
         (g for g, v in zip(mres.ids, mres.verdict, strict=True) if v == "fails"),
@@ -1119,7 +1119,7 @@ def test_mount_page_gives_each_grade_its_verdict_once(monkeypatch, demo_db):
     at.multiselect(key="compare_pick").set_value(chosen).run()
     at.switch_page("views/mount.py").run()
     assert not at.exception
-    mres = at.session_state["_context"].result.mount
+    mres = at.session_state["_context"].ranking().mount
     texts = page_texts(at)
     for gid in chosen:
         k = mres.ids.index(gid)
@@ -1148,7 +1148,7 @@ def test_bad_disturbance_input_is_reported_and_undone(monkeypatch, demo_db):
     said = [w.value for w in at.warning if "rpm" in w.value]
     assert said == ["disturbance speeds [rpm]: 'fast' is not a list of numbers; kept 1480"]
     assert at.text_input(key="c_rpm").value == "1480"
-    design = at.session_state["_context"].result.criteria.mount
+    design = at.session_state["_context"].ranking().criteria.mount
     assert design.disturbance_rpm == (1480.0,) and design.disturbance_Hz == (24.7,)
     # No disturbance at all: the engine's reason, and the frequency kept.
     at.text_input(key="c_rpm").set_value("").run()
@@ -1159,7 +1159,7 @@ def test_bad_disturbance_input_is_reported_and_undone(monkeypatch, demo_db):
         for w in at.warning
     )
     assert at.text_input(key="c_dist").value == "24.7"
-    assert at.session_state["_context"].result is not None
+    assert at.session_state["_context"].ranking() is not None
     # No harmonic order: refused, the fundamental kept.
     at.multiselect(key="c_harm").set_value([]).run()
     assert not at.exception
@@ -1168,7 +1168,7 @@ def test_bad_disturbance_input_is_reported_and_undone(monkeypatch, demo_db):
     # A good entry clears the message.
     at.multiselect(key="c_harm").set_value([1, 3]).run()
     assert not any("kept" in w.value for w in at.warning)
-    assert at.session_state["_context"].result.criteria.mount.harmonics == (1, 3)
+    assert at.session_state["_context"].ranking().criteria.mount.harmonics == (1, 3)
 
 
 def test_disturbance_link_codes_round_trip():
@@ -1423,3 +1423,29 @@ def test_loss_modulus_ticks_sit_where_each_decade_meets_the_frame():
     marks = sorted(n for n in notes[1:] if n[0] != "E'' [MPa]")
     assert marks == [("10", 0, 1), ("100", -1, 3), ("100", 0, 2)]
     assert any(n[0] == "E'' [MPa]" for n in notes)
+
+
+def test_a_session_lets_go_of_its_ranking_when_its_run_ends(monkeypatch, demo_db):
+    # dashboard.common.Context.let_go: a closed page's session is kept by Streamlit for
+    # a while, so its context must not hold a ranking beyond those the dashboard keeps.
+    # The callbacks of the next rerun get it back from the kept rankings, or ranked
+    # again when those let it go; the search's button still fills the set.
+    from dashboard import data
+
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/map.py").run()
+    ctx = at.session_state["_context"]
+    assert ctx.result is None and ctx.result_key is not None
+    kept = ctx.ranking()
+    assert kept is data.ranked(ctx.library, ctx.criteria)
+    ctx.let_go()
+    data._rankings().clear()
+    again = ctx.ranking()
+    assert again is not kept
+    assert [g.id for g in again.grades] == [g.id for g in kept.grades]
+    at.session_state["compare"] = []
+    at.text_input(key="map_find").input("QC-").run()
+    at.button(key="map_find_add").click().run()
+    assert not at.exception
+    found = at.session_state["compare"]
+    assert found and all(g.startswith("QC-") for g in found)

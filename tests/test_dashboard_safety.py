@@ -232,7 +232,7 @@ def test_plain_escapes_markup_and_keeps_plain_text(text, escaped):
 def test_every_page_shows_hostile_text_escaped(monkeypatch, hostile_db):
     at = app(monkeypatch, hostile_db, g=",".join((SAFE_ID, *HOSTILE_IDS)))
     assert not at.exception
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     assert result is not None and set(HOSTILE_IDS) <= set(result.window_props.ids)
     assert set(at.session_state["compare"]) >= set(HOSTILE_IDS)
     seen_escaped = False

@@ -23,7 +23,7 @@ def test_machine_page_shows_the_modes_and_verdicts_of_the_comparison_set(monkeyp
     assert len(lines) == 2 and any("BW-CR60" in v and "fails" in v for v in lines)
     # The page's figures are the engine's: BW-NR40's modes at the first temperature.
     lib = Library(str(demo_db))
-    temps = at.session_state["_context"].result.criteria.window.temperatures
+    temps = at.session_state["_context"].ranking().criteria.window.temperatures
     m = lib.material("BW-NR40")
     row = {"poisson_ratio": m.poisson_ratio, "hardness": m.hardness, "bulk_modulus": m.bulk_modulus}
     res = solve_system(

@@ -7,9 +7,9 @@ the browser drew); the search under the map finds grades by id or name among all
 
 import streamlit as st
 
-from dashboard import data, tables
+from dashboard import data, picking, tables
 from dashboard.charts.common import INTERVAL_NOTE
-from dashboard.charts.map import FIND_LIMIT, find_grades, selected_grades
+from dashboard.charts.map import FIND_LIMIT, find_grades
 from dashboard.common import (
     MISSING,
     SHOWN_LIMIT,
@@ -27,37 +27,6 @@ GUIDE_SENTENCE = (
     "Loss modulus E'' = η E' is constant along diagonals: its decades are marked on the "
     "top and right edges, or shown as a faint field (the menu beside). "
 )
-
-
-def _into_set(picked: list[str]) -> None:
-    """``picked`` becomes the comparison set, or joins it when "Adds to set" is on."""
-    if not picked:
-        return
-    before = list(st.session_state.get("compare", []))
-    if st.session_state.get("map_adds"):
-        picked = before + [g for g in picked if g not in before]
-    st.session_state["compare"] = picked
-
-
-def _take_selection() -> None:
-    """A box or lasso on the map -> the comparison set (every grade shown with a path
-    point inside, drawn or not), read from the ranking the map was drawn from."""
-    event = st.session_state.get("map_chart")
-    result = context().result
-    if not event or result is None:
-        return
-    show_excluded = bool(st.session_state.get("map_show_excluded", True))
-    _into_set(selected_grades(result, event.get("selection") or {}, show_excluded))
-
-
-def _take_found() -> None:
-    """The grades the search finds join the comparison set."""
-    result = context().result
-    if result is None:
-        return
-    found, _ = find_grades(result, st.session_state.get("map_find", ""))
-    before = list(st.session_state.get("compare", []))
-    st.session_state["compare"] = before + [g for g in found if g not in before]
 
 
 ctx = context()
@@ -99,7 +68,7 @@ if result is not None:
     st.plotly_chart(
         fig,
         key="map_chart",
-        on_select=_take_selection,
+        on_select=picking.take_selection,
         selection_mode=("box", "lasso"),
         theme=None,
         config={"displaylogo": False},
@@ -126,7 +95,7 @@ if result is not None:
     f2.button(
         f"Add {len(found)} to the set" if found else "Add to the set",
         key="map_find_add",
-        on_click=_take_found,
+        on_click=picking.take_found,
         disabled=not found,
         width="stretch",
     )
