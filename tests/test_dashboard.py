@@ -1449,3 +1449,24 @@ def test_a_session_lets_go_of_its_ranking_when_its_run_ends(monkeypatch, demo_db
     assert not at.exception
     found = at.session_state["compare"]
     assert found and all(g.startswith("QC-") for g in found)
+
+
+def test_no_ranking_outlives_the_kept_ones(monkeypatch, demo_db):
+    # A ranking lives as long as the dashboard keeps it (dashboard.data._Rankings), not
+    # as long as a session: neither the session's context nor the Map page's widget
+    # callbacks (dashboard/picking.py) hold it once the run is over.
+    import gc
+    import weakref
+
+    from dashboard import data
+
+    at = app(monkeypatch, demo_db)
+    at.switch_page("views/map.py").run()
+    at.slider(key="c_temp").set_value((-10.0, 40.0)).run()
+    assert not at.exception
+    rankings = data._rankings()
+    alive = [weakref.ref(r) for r in rankings.kept.values()]
+    assert len(alive) >= 2
+    rankings.clear()
+    gc.collect()
+    assert [r for r in alive if r() is not None] == []
