@@ -196,7 +196,7 @@ def _check(at, temp_range: tuple[float, float]) -> None:
     """The run ranked ``temp_range`` and drew the map of that ranking."""
     if at.exception:
         raise RuntimeError(f"the dashboard raised: {at.exception[0].message}")
-    result = at.session_state["_context"].result
+    result = at.session_state["_context"].ranking()
     if result is None or tuple(result.criteria.window.temp_range) != temp_range:
         raise RuntimeError(f"the rerun did not rank the window {temp_range}")
     charts = at.get("plotly_chart")

@@ -686,7 +686,7 @@ def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_d
     assert ctx.ranking().shortlist  # the report's table has rows to check
     paths = [t for t in map_spec(at)["data"] if t.get("mode") == mapfigure.PATH_MODE]
     page = {t["legendgroup"]: t["line"]["color"] for t in paths}
-    report_map = mapfigure.map_figure(ctx.result)  # the map of the HTML report
+    report_map = mapfigure.map_figure(ctx.ranking())  # the map of the HTML report
     report = {t.legendgroup: t.line.color for t in report_map.data if t.mode == mapfigure.PATH_MODE}
     assert set(page) == set(report) == set(ctx.ranking().window_props.ids)
     # Outside the comparison set a grade has the report's colour; the set's grades take the
@@ -697,7 +697,7 @@ def test_the_report_and_the_map_page_give_a_grade_one_colour(monkeypatch, demo_d
             assert ctx.colours[gid] == SET_COLOURS[ctx.compare.index(gid)], gid
         else:
             assert _rgb(page[gid]) == _rgb(report[gid]), gid
-    text = report_html(ctx.result, ctx.library, ctx.curves)
+    text = report_html(ctx.ranking(), ctx.library, ctx.curves)
     for g in ctx.ranking().shortlist:  # the swatch beside each grade of the report's table
         swatch = (
             f'<span class="swatch" style="background:{grade_colours(ctx.curves)[g.id]}"></span>'
