@@ -10,7 +10,7 @@ import numpy as np
 import streamlit as st
 
 from dashboard import data
-from engine.base.errors import LibraryError
+from engine.base.errors import LibraryError, QuietgradeError
 from engine.curves.mastercurve import MasterCurve
 from engine.library.store import Library
 from engine.selection.ranking import Criteria, RankResult
@@ -98,7 +98,10 @@ class Context:
         after its run the context lets go of it (:meth:`let_go`), and it is fetched
         again from the dashboard's kept rankings (ranked again if they let it go)."""
         if self.result is None and self.result_key is not None and self.criteria is not None:
-            self.result = data.ranked(self.library, self.criteria)
+            try:
+                self.result = data.ranked(self.library, self.criteria)
+            except QuietgradeError:  # the rerun that follows says why on the page
+                return None
         return self.result
 
     def let_go(self) -> None:

@@ -1460,6 +1460,7 @@ def test_no_ranking_outlives_the_kept_ones(monkeypatch, demo_db):
 
     from dashboard import data
 
+    data._rankings().clear()  # rankings made by this test alone (a test before may hold its own)
     at = app(monkeypatch, demo_db)
     at.switch_page("views/map.py").run()
     at.slider(key="c_temp").set_value((-10.0, 40.0)).run()
@@ -1470,3 +1471,24 @@ def test_no_ranking_outlives_the_kept_ones(monkeypatch, demo_db):
     rankings.clear()
     gc.collect()
     assert [r for r in alive if r() is not None] == []
+
+
+def test_a_callback_without_its_ranking_does_nothing(monkeypatch, demo_db):
+    # Context.ranking(): a ranking that cannot be made again (say the library went
+    # since) gives None, and the callbacks leave the set as it is.
+    from dashboard import data, picking
+    from engine.base.errors import LibraryError
+
+    at = app(monkeypatch, demo_db)
+    ctx = at.session_state["_context"]
+
+    def gone(library, criteria):
+        raise LibraryError("the library is gone")
+
+    monkeypatch.setattr(data, "ranked", gone)
+    data._rankings().clear()
+    assert ctx.ranking() is None
+    monkeypatch.setattr(picking, "context", lambda: ctx)
+    monkeypatch.setattr(picking.st, "session_state", {"compare": ["BW-NR40"], "map_find": "QC"})
+    picking.take_found()
+    assert picking.st.session_state["compare"] == ["BW-NR40"]

@@ -454,7 +454,6 @@ class FitPlan:
 
     key: str  # the bank record's key (:func:`bank_key`)
     stored: CurveBank | None
-    extra: dict
     hashes: dict[str, str]  # id -> data hash of its newest data set, live grades only
     kept_rows: list[int]  # rows of ``stored`` whose grade has the same data
     errors: dict[str, str]  # fit errors of the record that still hold
@@ -489,7 +488,7 @@ def plan_fits(
         }
     kept_ids = {stored.ids[k] for k in kept_rows} if stored is not None else set()
     todo = {mid: h for mid, h in hashes.items() if mid not in kept_ids and mid not in errors}
-    return FitPlan(key, stored, extra, hashes, kept_rows, errors, todo)
+    return FitPlan(key, stored, hashes, kept_rows, errors, todo)
 
 
 def fitted_library(
@@ -528,13 +527,7 @@ def fitted_library(
     """
     if plan is None:
         plan = plan_fits(library, reference_C, vertical_shift)
-    key, stored, hashes, kept_rows, todo = (
-        plan.key,
-        plan.stored,
-        plan.hashes,
-        plan.kept_rows,
-        plan.todo,
-    )
+    stored, hashes, kept_rows, todo = plan.stored, plan.hashes, plan.kept_rows, plan.todo
     errors = dict(plan.errors)
     new_curves, new_errors = (
         _fit_grades(
@@ -563,7 +556,7 @@ def fitted_library(
             "hashes": [hashes[gid] for gid in bank.ids],
             "errors": {gid: [hashes[gid], why] for gid, why in errors.items()},
         }
-        record_kept = _keep_bank(library, key, bank, record)
+        record_kept = _keep_bank(library, plan.key, bank, record)
     else:
         record_kept = True
     curves = FittedCurves(
