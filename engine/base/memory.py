@@ -1,10 +1,10 @@
 """Memory arranged for large arrays: freed blocks kept, fresh pages the ordinary size.
 
 A ranking of 10,000 grades makes and frees arrays of tens of megabytes, and the
-dashboard keeps the rankings of recent windows (about 140 MB each), so every new
-window also needs memory the process has never touched. Two settings of the platform
-decide what that costs; :func:`arrange_memory`, called once by the command line and
-the dashboard when they start, makes both:
+dashboard keeps the rankings of recent windows (about 120 MB each at its default
+window), so every new window also needs memory the process has never touched. Two
+settings of the platform decide what that costs; :func:`arrange_memory`, called once
+by the command line and the dashboard when they start, makes both:
 
 - :func:`keep_freed_memory`. The GNU C library's allocator gives each block above its
   mapping threshold (which it raises by itself, but to 32 MiB at most) back to the

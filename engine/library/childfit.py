@@ -32,8 +32,10 @@ from engine.library.fits import Progress, fitted_library, one_line
 from engine.library.store import Library
 
 # Stacking more grades than this anew is done in a child process. Starting one costs
-# about 0.5 s of imports; below this count stacking in place is cheaper (1,000 grades
-# from the fit cache take about 0.3 s) and leaves little behind.
+# its imports, about what a command does beyond the interpreter's start (0.4 s in
+# bench.bench_cold); 1,000 grades decode from the fit cache in about 0.5 s (4.7 s for
+# 10,000, same bench), so below this count stacking in place costs about as much and
+# leaves little behind.
 CHILD_FROM_GRADES = 1_000
 _PROJECT_ROOT = Path(__file__).resolve().parents[2]
 
