@@ -13,12 +13,13 @@ $(STAMP): requirements.txt requirements-dev.txt pyproject.toml setup.py
 	$(BIN)/pip install -q --disable-pip-version-check --no-deps -e .
 	touch $(STAMP)
 
-# `make run PORT=8600` serves the dashboard on another port.
+# `make run PORT=8600` serves the dashboard on another port. One allocator arena for the
+# server (engine.base.memory: a large library reranks faster and keeps less memory).
 PORT ?= 8501
 
 run: $(STAMP)
 	$(BIN)/quietgrade demo
-	$(BIN)/streamlit run dashboard/app.py --server.address 127.0.0.1 --server.port $(PORT) \
+	MALLOC_ARENA_MAX=$${MALLOC_ARENA_MAX:-1} $(BIN)/streamlit run dashboard/app.py --server.address 127.0.0.1 --server.port $(PORT) \
 		--server.headless true --browser.gatherUsageStats false
 
 test: $(STAMP)

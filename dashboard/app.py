@@ -109,6 +109,7 @@ def _failure(what: str, exc: Exception) -> str:
 
 def main() -> None:
     arrange_memory()  # freed arrays reused, new ones on ordinary pages (once per process)
+    data.note_server_memory()  # a log line if the server has more than one arena
     # "auto": open on a wide window, folded away on a narrow one (a phone, half a screen).
     st.set_page_config(page_title="quietgrade", layout="wide", initial_sidebar_state="auto")
     st.html(COMPACT_STYLE)

@@ -22,6 +22,7 @@ import streamlit as st
 
 from dashboard.charts.map import CrowdPlan, crowd_plan
 from dashboard.charts.map import map_figure as draw_map
+from engine.base.memory import ARENA_SWITCH, SERVER_ARENAS, one_arena
 from engine.curves.mastercurve import MasterCurve
 from engine.library.childfit import CHILD_FROM_GRADES, fit_in_child
 from engine.library.demo import DEMO_DIR
@@ -32,6 +33,21 @@ from engine.output.mapfigure import shown_rows
 from engine.selection.ranking import Criteria, RankResult, rank, working_sweeps
 
 log = logging.getLogger(__name__)
+
+
+@st.cache_resource(show_spinner=False)
+def note_server_memory() -> bool:
+    """Say once in the server's log when it was started without one allocator arena
+    (``make run`` starts it with one: engine.base.memory.server_environment); True
+    when it has one."""
+    if one_arena():
+        return True
+    log.warning(
+        "started without %s=%s: a server with a large library reranks slower and keeps "
+        "more memory (start it with `make run`, or set %s=%s before `streamlit run`)",
+        ARENA_SWITCH, SERVER_ARENAS, ARENA_SWITCH, SERVER_ARENAS,
+    )  # fmt: skip
+    return False
 
 
 @st.cache_resource(show_spinner=False)

@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 from scipy import integrate
 
+from engine.base.memory import server_environment
 from engine.cli import main
 from engine.curves.bank import CurveBank
 from engine.library.importer import data_hash
@@ -100,7 +101,7 @@ def served_dashboard(
     library only when the first browser session runs the script); ``env`` is the
     server's environment.
     """
-    env = {**os.environ, "QUIETGRADE_DB": str(db)}
+    env = server_environment({**os.environ, "QUIETGRADE_DB": str(db)})  # as `make run`
     port = free_port()
     proc = subprocess.Popen(
         [sys.executable, "-m", "streamlit", "run", "dashboard/app.py",

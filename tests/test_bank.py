@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sys
 import threading
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -272,6 +273,82 @@ def test_numpy_arrays_get_ordinary_pages_unless_the_user_chose(before, switch, e
         check=True,
     )
     assert done.stdout.split() == expected.split()
+
+
+# How many arenas glibc's allocator uses: malloc_info(3) writes one <heap nr="..."> element
+# per arena; MALLOC_ARENA_MAX caps their number (mallopt(3), M_ARENA_MAX). Threads that
+# allocate at once each take an arena of their own unless capped.
+_ARENAS_OF_THREADS = """
+import ctypes, threading
+libc = ctypes.CDLL(None)
+libc.fdopen.restype = ctypes.c_void_p
+libc.malloc_info.argtypes = [ctypes.c_int, ctypes.c_void_p]
+held, allocated, done = [], threading.Barrier(4), threading.Event()
+def work():
+    held.append([bytearray(100_000) for _ in range(20)])  # from this thread's arena
+    allocated.wait()
+    done.wait()
+threads = [threading.Thread(target=work) for _ in range(3)]
+for t in threads:
+    t.start()
+allocated.wait()  # every thread holds its blocks
+out = libc.fdopen(1, b"w")
+libc.malloc_info(0, out)
+libc.fflush(ctypes.c_void_p(out))
+done.set()
+for t in threads:
+    t.join()
+"""
+
+
+@pytest.mark.skipif(
+    not sys.platform.startswith("linux") or __import__("platform").libc_ver()[0] != "glibc",
+    reason="glibc's allocator arenas",
+)
+def test_a_dashboard_server_starts_with_one_allocator_arena():
+    import os
+    import subprocess
+
+    from engine.base.memory import ARENA_SWITCH, server_environment
+
+    base = {k: v for k, v in os.environ.items() if k != ARENA_SWITCH}
+
+    def arenas(env) -> int:
+        done = subprocess.run(
+            [sys.executable, "-c", _ARENAS_OF_THREADS],
+            env=env, capture_output=True, text=True, timeout=60, check=True,
+        )  # fmt: skip
+        return done.stdout.count("<heap nr=")
+
+    assert arenas(base) > 1  # each allocating thread took an arena of its own
+    assert arenas(server_environment(base)) == 1
+    # a user's own choice stands; a blank one is filled
+    assert server_environment({ARENA_SWITCH: "4"})[ARENA_SWITCH] == "4"
+    assert server_environment({ARENA_SWITCH: " "})[ARENA_SWITCH] == "1"
+    # `make run` starts the server with it (a user's own value stands there too)
+    shown = subprocess.run(
+        ["make", "-n", "run"], cwd=Path(__file__).resolve().parents[1],
+        capture_output=True, text=True, timeout=60, check=True,
+    ).stdout  # fmt: skip
+    line = next(row for row in shown.splitlines() if "streamlit run dashboard/app.py" in row)
+    assert line.lstrip().startswith(f"{ARENA_SWITCH}=${{{ARENA_SWITCH}:-1}} ")
+
+
+def test_a_server_without_one_arena_says_so_in_its_log(monkeypatch, caplog):
+    from dashboard import data
+    from engine.base.memory import ARENA_SWITCH
+
+    for value, expected in (("2", False), ("1", True)):
+        monkeypatch.setenv(ARENA_SWITCH, value)
+        data.note_server_memory.clear()
+        caplog.clear()
+        with caplog.at_level("WARNING", logger=data.log.name):
+            assert data.note_server_memory() is expected
+        said = [r.getMessage() for r in caplog.records if r.name == data.log.name]
+        assert bool(said) is not expected
+        if said:
+            assert f"{ARENA_SWITCH}=1" in said[0] and "make run" in said[0]
+    data.note_server_memory.clear()
 
 
 # ------------------------------------------------------------------ creep compliance
