@@ -760,39 +760,9 @@ def check_mounts(
     with np.errstate(divide="ignore", invalid="ignore"):
         log_k = np.log10(per_modulus[:, None] * vertical * amp_storage[:, None])
     softening = beta[:, None] * vertical * amp_storage[:, None]
-    fn = np.empty((n, t.size))
-    ok = np.empty((n, t.size), dtype=bool)
-
-    def solve(a: int, b: int) -> None:
-        # Each grade's own table, read as CurveBank.log_storage_at reads it.
-        nat = mount.natural_frequency_tabulated(
-            bank.start,
-            bank.step,
-            bank.log_storage,
-            bank.n_nodes,
-            np.arange(a, b)[:, None],
-            shift_rows[a:b],
-            log_k[a:b],
-            m,
-            bulk_softening=softening[a:b],
-        )
-        fn[a:b], ok[a:b] = nat
-
-    if n:
-        in_blocks(n, solve, per_worker(n))
-    fn_safe = np.where(ok, fn, 1.0)
-    st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
-    eta_fn = np.where(ok, ls_fn / st_fn, np.nan) * amp_loss[:, None]
-    extrap |= x_fn
-    k_fn = pad_stiffness(st_fn * amp_storage[:, None])
-    amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
-    dist = np.asarray(design.frequencies, dtype=float)
-    f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
-    st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
-    extrap |= x_d.any(axis=2)
-    k_d = pad_stiffness(st_d * amp_storage[:, None, None])
-    trans = mount.transmissibility(f3, k_d, ls_d / st_d * amp_loss[:, None, None], m)
-
+    # The static figures need no natural frequency: they come first, so that their
+    # Python runs while the window's evaluation (beside, in the ranking) keeps the
+    # workers busy, and the work after the solve is array work in blocks.
     # Static and long-term stiffness from the creep compliance J(t / aT).
     j_s, x_s = bank.compliance_rows(t_rows, STATIC_LOAD_TIME_S, shift=shift_rows)
     extrap |= x_s
@@ -844,6 +814,39 @@ def check_mounts(
                 f"width ({width[k] * 1e3:.0f} mm): bending adds to the shear deflection, so "
                 "k' = G'A/h overstates the stiffness"
             )
+    fn = np.empty((n, t.size))
+    ok = np.empty((n, t.size), dtype=bool)
+
+    def solve(a: int, b: int) -> None:
+        # Each grade's own table, read as CurveBank.log_storage_at reads it.
+        nat = mount.natural_frequency_tabulated(
+            bank.start,
+            bank.step,
+            bank.log_storage,
+            bank.n_nodes,
+            np.arange(a, b)[:, None],
+            shift_rows[a:b],
+            log_k[a:b],
+            m,
+            bulk_softening=softening[a:b],
+        )
+        fn[a:b], ok[a:b] = nat
+
+    if n:
+        in_blocks(n, solve, per_worker(n))
+    fn_safe = np.where(ok, fn, 1.0)
+    st_fn, ls_fn, x_fn = bank.evaluate_rows(t_rows, fn_safe, shift=shift_rows)
+    eta_fn = np.where(ok, ls_fn / st_fn, np.nan) * amp_loss[:, None]
+    extrap |= x_fn
+    k_fn = pad_stiffness(st_fn * amp_storage[:, None])
+    amplification = np.where(ok, mount.transmissibility(fn_safe, k_fn, eta_fn, m), np.nan)
+    dist = np.asarray(design.frequencies, dtype=float)
+    f3 = np.broadcast_to(dist[None, None, :], (n, t.size, dist.size))
+    st_d, ls_d, x_d = bank.evaluate_rows(t[None, :, None], f3, shift=shift_rows[:, :, None])
+    extrap |= x_d.any(axis=2)
+    k_d = pad_stiffness(st_d * amp_storage[:, None, None])
+    trans = mount.transmissibility(f3, k_d, ls_d / st_d * amp_loss[:, None, None], m)
+
     for k in np.flatnonzero(~ok.all(axis=1)):
         notes.setdefault(ids[k], []).append("natural frequency not found at some temperatures")
     limit = (

@@ -178,18 +178,27 @@ def evaluate_grades(
         specs = {c.name: c.spec() for c in criteria.indices}
         point = [c for c in criteria.indices if specs[c.name].kind == "point"]
         values, eta_worst = _point_indices(props, catalog, point, specs)
+        whole = {
+            "storage_modulus": props.storage.reshape(n, -1),
+            "path_temperatures": props.path_temperatures,
+            "path_storage": props.path_storage,
+            "path_loss_factor": props.path_loss_factor,
+            "eta_threshold": criteria.eta_threshold,
+        }
+        # The window indices that read the window alone, while the mount check ends.
+        alone = [
+            c
+            for c in criteria.indices
+            if specs[c.name].kind == "window"
+            and not specs[c.name].needs_mount
+            and not specs[c.name].needs_system
+        ]
+        _window_indices(alone, specs, whole, values)
     except BaseException:
         if mount_check is not None:
             mount_check.exception()  # the mount check ends before the error goes on
         raise
     mres = None if mount_check is None else mount_check.result()
-    whole = {
-        "storage_modulus": props.storage.reshape(n, -1),
-        "path_temperatures": props.path_temperatures,
-        "path_storage": props.path_storage,
-        "path_loss_factor": props.path_loss_factor,
-        "eta_threshold": criteria.eta_threshold,
-    }
     if mres is not None:
         whole["natural_frequency"] = mres.natural_frequency
         whole["transmissibility"] = mres.transmissibility
@@ -206,21 +215,31 @@ def evaluate_grades(
         whole["system_mode_drift"] = figure(lambda s: float(np.nanmax(s.mode_drift())))
     for c in criteria.indices:
         spec = specs[c.name]
-        if spec.kind == "window":
-            if spec.window is None:
-                raise CriteriaError(f"window index '{c.name}' has no evaluation")
-            if spec.needs_mount and mres is None:
-                raise CriteriaError(f"index '{c.name}' needs a mount design")
-            if spec.needs_system and systems is None:
-                raise CriteriaError(f"index '{c.name}' needs a mount system")
-            with np.errstate(invalid="ignore", divide="ignore"):
-                values[c.name] = np.asarray(spec.window(whole), dtype=float)
+        if spec.kind != "window":
+            continue
+        if spec.needs_mount and mres is None:
+            raise CriteriaError(f"index '{c.name}' needs a mount design")
+        if spec.needs_system and systems is None:
+            raise CriteriaError(f"index '{c.name}' needs a mount system")
+    rest = [c for c in criteria.indices if specs[c.name].kind == "window" and c not in alone]
+    _window_indices(rest, specs, whole, values)
     extrap_any = np.asarray(props.extrapolated.reshape(n, -1).any(axis=1))
     if props.duty_extrapolated is not None:
         extrap_any |= props.duty_extrapolated.any(axis=1)
     return Evaluation(
         list(bank.ids), catalog, props, specs, values, eta_worst, extrap_any, mres, systems
     )
+
+
+def _window_indices(chosen, specs, whole, values) -> None:
+    """Values of the window indices ``chosen`` from the figures in ``whole``, into
+    ``values``."""
+    for c in chosen:
+        spec = specs[c.name]
+        if spec.window is None:
+            raise CriteriaError(f"window index '{c.name}' has no evaluation")
+        with np.errstate(invalid="ignore", divide="ignore"):
+            values[c.name] = np.asarray(spec.window(whole), dtype=float)
 
 
 def raw_scores(values: dict[str, np.ndarray], criteria: Criteria) -> np.ndarray:
