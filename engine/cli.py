@@ -41,30 +41,37 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(2)
 
 
-def _clean(value):
-    """JSON-safe copy: NaN and infinities become null, numpy scalars plain numbers."""
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        try:  # a list of plain, finite numbers (most of a ranking's figures) as it is
-            if set(map(type, value)) <= _PLAIN_NUMBERS and math.isfinite(math.fsum(value)):
-                return list(value)
-        except OverflowError:  # finite, but their sum is not: checked one by one
-            pass
-        return [_clean(v) for v in value]
+# NaN and the infinities as the json module writes them, found outside strings (a string
+# token is matched whole first, so its text is never read as a number).
+_NON_FINITE = re.compile(r'"(?:[^"\\]|\\.)*"|(NaN|-?Infinity)')
+
+
+def _json_default(value):
+    """numpy's values as plain ones for the json module (called for the types it lacks)."""
     if isinstance(value, np.ndarray):
-        return _clean(value.tolist())
+        return value.tolist()
     if isinstance(value, np.bool_):
         return bool(value)
     if isinstance(value, np.integer):
         return int(value)
-    if isinstance(value, float | np.floating):
-        v = float(value)
-        return v if math.isfinite(v) else None
-    return value
+    if isinstance(value, np.floating):
+        return float(value)
+    raise TypeError(f"{type(value).__name__} is not JSON")
 
 
-_PLAIN_NUMBERS = frozenset({float, int})  # bool is left to the element-wise path
+def _null_if_non_finite(match: re.Match) -> str:
+    return "null" if match.group(1) else match.group(0)
+
+
+def _dumps(value) -> str:
+    """``json.dumps(value)`` with numpy's values plain and NaN and the infinities null
+    (RFC 8259 has neither). The C encoder writes the text, and the non-finite numbers
+    are replaced in it after: walking a 10,000-grade ranking in Python to clean it first
+    took 2 s of the 4.2 s `rank --json` took."""
+    text = json.dumps(value, default=_json_default)
+    if "NaN" in text or "Infinity" in text:
+        text = _NON_FINITE.sub(_null_if_non_finite, text)
+    return text
 
 
 def _write_json(value, out) -> None:
@@ -82,16 +89,16 @@ def _write_json(value, out) -> None:
     elif isinstance(value, list):
         out.write("[")
         for k, item in enumerate(value):
-            out.write((", " if k else "") + json.dumps(item))
+            out.write((", " if k else "") + _dumps(item))
         out.write("]")
     else:
-        out.write(json.dumps(value))
+        out.write(_dumps(value))
 
 
 def _emit(args, data, text_lines):
     """Print ``data`` as JSON (``--json``; a callable is called for it) or the lines."""
     if args.json:
-        _write_json(_clean(data() if callable(data) else data), sys.stdout)
+        _write_json(data() if callable(data) else data, sys.stdout)
         sys.stdout.write("\n")
     else:
         for line in text_lines:

@@ -1,9 +1,9 @@
 """The command line's JSON writer against the standard library's encoder.
 
-The writer cleans values (NaN and infinities to null, numpy scalars to plain numbers)
-with a fast path for lists of plain finite numbers, and writes the result an entry at a
-time; the text must parse to what ``json.dumps`` of a plainly cleaned copy gives
-(reference: Python's json module, RFC 8259, which has no NaN)."""
+The writer has the json module's C encoder write each entry, numpy's values made plain
+for it, and replaces the NaN and infinities it writes with null, outside strings; the
+text must parse to what ``json.dumps`` of a plainly cleaned copy gives (reference:
+Python's json module, RFC 8259, which has no NaN)."""
 
 import io
 import json
@@ -13,7 +13,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine.cli import _clean, _write_json
+from engine.cli import _write_json
 
 
 def reference_clean(value):
@@ -34,12 +34,13 @@ leaves = st.one_of(
     st.booleans(),
     st.none(),
     st.text(max_size=8),
+    st.sampled_from(["NaN", "-Infinity", 'x"NaN', "\\", '\\"', "Infinity\\"]),
 )
 values = st.recursive(
     leaves,
     lambda inner: st.one_of(
         st.lists(inner, max_size=6),
-        st.dictionaries(st.text(max_size=5), inner, max_size=4),
+        st.dictionaries(st.one_of(st.text(max_size=5), st.just("NaN")), inner, max_size=4),
     ),
     max_leaves=30,
 )
@@ -51,7 +52,7 @@ def refuse(token: str):
 
 def written(value) -> str:
     out = io.StringIO()
-    _write_json(_clean(value), out)
+    _write_json(value, out)
     return out.getvalue()
 
 
@@ -75,3 +76,18 @@ def test_numpy_values_become_plain_numbers():
 
 def test_a_list_of_huge_finite_numbers_keeps_them():
     assert json.loads(written([1.7e308, 1.7e308, -1.0])) == [1.7e308, 1.7e308, -1.0]
+
+
+def test_text_that_reads_like_a_non_finite_number_stays_text():
+    value = {"NaN": ["NaN", float("nan"), '"-Infinity"', "a\\", -math.inf], "b": 'x\\"NaN'}
+    assert json.loads(written(value)) == {
+        "NaN": ["NaN", None, '"-Infinity"', "a\\", None],
+        "b": 'x\\"NaN',
+    }
+
+
+def test_what_json_cannot_hold_is_refused_as_before():
+    import pytest
+
+    with pytest.raises(TypeError):
+        written({"a": object()})
